@@ -1,0 +1,296 @@
+// Measurement profile maths for a logger's shunt-based power-monitor chip and its temperature probe.
+// Pure: no I/O and no server-only imports, because the enrollment form runs the same function in the
+// browser to show the computed values and the headroom while the integrator types.
+import type { MeasurementProfile, TempResolutionBits } from '../../schemas/loggers';
+
+/** The power-monitor chip's fixed scaling constant of the calibration equation. */
+export const CALIBRATION_CONSTANT = 0.00512;
+/** The current register is 16-bit two's complement: 2^15 steps cover the positive range. */
+export const CURRENT_STEPS = 2 ** 15;
+/** The calibration register's top bit is unused, so the value must fit 15 bits. */
+export const CALIBRATION_MIN = 1;
+export const CALIBRATION_MAX = 32767;
+/** Power LSB is a fixed multiple of the current LSB. */
+export const POWER_LSB_PER_CURRENT_LSB = 25;
+
+/** Maximum temperature conversion time of the probe at each resolution, in ms (the full time halves per bit dropped). */
+export const probeConversionMs: Record<TempResolutionBits, number> = { 9: 93.75, 10: 187.5, 11: 375, 12: 750 };
+
+/** What the calibration needs from the install details (a subset of `InstallDetails`). */
+export type InstallForProfile = {
+  shuntOhm: number;
+  maxCurrentA: number;
+  panelVocV: number;
+  tempResolutionBits: number;
+};
+
+/** The limits of a model's measurement hardware. */
+export type ModelLimits = {
+  /** Highest voltage the chip's bus input may see, V. */
+  busVMax: number;
+  /** Shunt voltage at the chip's full scale, V (0.08192 for the usual chip). */
+  shuntFullScaleV: number;
+  /** Probe resolutions this model's firmware allows, in bits. */
+  tempResolutions: readonly number[];
+};
+
+/** The profile as computed; the service adds the version when it stores it. */
+export type ComputedProfile = Omit<MeasurementProfile, 'version'>;
+
+export type HeadroomItem = { used: number; limit: number; text: string };
+export type Headroom = { shuntFullScaleV: HeadroomItem; busV: HeadroomItem; text: string };
+
+export type ProfileError = { path: keyof InstallForProfile; message: string };
+
+export type ProfileResult =
+  | { ok: true; profile: ComputedProfile; headroom: Headroom }
+  // headroom is present whenever the numbers allow it, so the form can still show "100 mV of 81.92 mV".
+  | { ok: false; errors: ProfileError[]; headroom?: Headroom };
+
+// ─── Number helpers ─────────────────────────────────────────────────────────
+
+/**
+ * A number as the decimal it prints as (0.002 → 2 × 10^-3), for exact arithmetic on what the person typed.
+ * Binary floating point cannot hold 0.002 or 0.04096 exactly, so a quotient that is mathematically whole can
+ * land a hair below it: 0.00512 / (0.000005 × 0.04096) is exactly 25000 but computes as 24999.999999999996,
+ * and trunc would lose a whole count. A fixed epsilon would not do either: a genuine quotient such as
+ * 0.00512 / (0.000001 × 0.162092) = 31586.99997… sits within 1e-9 of the next integer and must stay 31586.
+ */
+type Decimal = { digits: bigint; exponent: number };
+function decimalOf(x: number): Decimal {
+  const match = /^(\d+)(?:\.(\d+))?(?:e([+-]?\d+))?$/.exec(String(x));
+  if (!match) throw new RangeError(`not a finite non-negative number: ${x}`);
+  const fraction = match[2] ?? '';
+  return { digits: BigInt(match[1] + fraction), exponent: Number(match[3] ?? 0) - fraction.length };
+}
+const pow10 = (n: number) => 10n ** BigInt(n);
+
+/** trunc(a / (b × c)) computed exactly on the decimals a, b, c (all positive). */
+function truncQuotient(a: number, b: number, c: number): number {
+  const [da, db, dc] = [decimalOf(a), decimalOf(b), decimalOf(c)];
+  const shift = da.exponent - db.exponent - dc.exponent;
+  const numerator = da.digits * (shift > 0 ? pow10(shift) : 1n);
+  const denominator = db.digits * dc.digits * (shift < 0 ? pow10(-shift) : 1n);
+  return Number(numerator / denominator);
+}
+
+/** Sign of (a × b − limit), exactly on the decimals. */
+function compareProduct(a: number, b: number, limit: number): -1 | 0 | 1 {
+  const [da, db, dl] = [decimalOf(a), decimalOf(b), decimalOf(limit)];
+  const productExponent = da.exponent + db.exponent;
+  const low = Math.min(productExponent, dl.exponent);
+  const product = da.digits * db.digits * pow10(productExponent - low);
+  const bound = dl.digits * pow10(dl.exponent - low);
+  return product === bound ? 0 : product > bound ? 1 : -1;
+}
+
+/** Removes binary noise from a product of decimal values (25 × 0.0005 → 0.0125 exactly as written). */
+function tidy(x: number): number {
+  return Number(x.toPrecision(12));
+}
+
+/** "62.5 mV", "81.92 mV", "36 V": at most 4 significant digits, no trailing zeros. */
+export function formatVolts(v: number): string {
+  if (Math.abs(v) < 1) return `${Number((v * 1000).toPrecision(4))} mV`;
+  return `${Number(v.toPrecision(4))} V`;
+}
+
+function formatAmps(a: number): string {
+  if (Math.abs(a) < 1) return `${Number((a * 1000).toPrecision(4))} mA`;
+  return `${Number(a.toPrecision(4))} A`;
+}
+
+const isPositive = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x) && x > 0;
+
+// ─── The equations ──────────────────────────────────────────────────────────
+
+/** Smallest current LSB that still covers the maximum expected current: max / 2^15. */
+export function minimumCurrentLsb(maxCurrentA: number): number {
+  return maxCurrentA / CURRENT_STEPS;
+}
+
+/**
+ * The current LSB we program: the minimum rounded UP to the next value of the 1-2-5 series
+ * (…, 100 µA, 200 µA, 500 µA, 1 mA, 2 mA, …). Round steps keep readings and the profile easy to
+ * check by hand (the chip maker's own worked example uses 1 mA); the cost is at most 2.5× coarser
+ * steps than the minimum, which still leaves 13 000 or more steps over the expected range.
+ * Never below max / 2^15, or the top of the range would overflow the current register.
+ */
+export function convenientCurrentLsb(maxCurrentA: number): number {
+  const minimum = minimumCurrentLsb(maxCurrentA);
+  if (!isPositive(minimum)) throw new RangeError('maximum current must be a positive number');
+  const decade = Math.floor(Math.log10(minimum));
+  // Start one decade low: log10 of an exact power of ten may land a hair either side.
+  for (let exponent = decade - 1; exponent <= decade + 1; exponent++) {
+    for (const mantissa of [1, 2, 5]) {
+      const candidate = Number(`${mantissa}e${exponent}`);
+      if (candidate >= minimum) return candidate;
+    }
+  }
+  return Number(`1e${decade + 2}`);
+}
+
+/**
+ * Calibration register value: trunc(0.00512 / (current LSB × shunt)), computed exactly on the decimals
+ * (see decimalOf). May fall outside 1…32767; callers check.
+ */
+export function calibrationFor(currentLsbA: number, shuntOhm: number): number {
+  if (!isPositive(currentLsbA) || !isPositive(shuntOhm)) throw new RangeError('current LSB and shunt must be positive numbers');
+  return truncQuotient(CALIBRATION_CONSTANT, currentLsbA, shuntOhm);
+}
+
+export function powerLsbFor(currentLsbA: number): number {
+  return tidy(POWER_LSB_PER_CURRENT_LSB * currentLsbA);
+}
+
+/**
+ * Sample interval: whole seconds, at least 1 s, and at least 4× the probe's conversion time, so the
+ * probe converts at most a quarter of the time (its active current warms it and loads the logger's supply).
+ * 9 and 10 bits → 1 s, 11 bits → 2 s, 12 bits → 3 s.
+ */
+export function sampleIntervalFor(tempResolutionBits: number): number {
+  const conversionMs = probeConversionMs[tempResolutionBits as TempResolutionBits];
+  if (conversionMs === undefined) throw new RangeError(`no probe conversion time for ${tempResolutionBits} bits`);
+  return Math.max(1, Math.ceil((4 * conversionMs) / 1000));
+}
+
+function headroomFor(install: InstallForProfile, limits: ModelLimits): Headroom | undefined {
+  if (!isPositive(install.shuntOhm) || !isPositive(install.maxCurrentA)) return undefined;
+  if (!isPositive(limits.shuntFullScaleV) || !isPositive(limits.busVMax)) return undefined;
+  const shuntUsed = tidy(install.maxCurrentA * install.shuntOhm);
+  const shunt: HeadroomItem = {
+    used: shuntUsed,
+    limit: limits.shuntFullScaleV,
+    text: `full scale ${formatVolts(shuntUsed)} of ${formatVolts(limits.shuntFullScaleV)}`,
+  };
+  const vocKnown = isPositive(install.panelVocV);
+  const bus: HeadroomItem = {
+    used: vocKnown ? install.panelVocV : 0,
+    limit: limits.busVMax,
+    text: vocKnown
+      ? `panel ${formatVolts(install.panelVocV)} of ${formatVolts(limits.busVMax)} bus limit`
+      : `bus limit ${formatVolts(limits.busVMax)}`,
+  };
+  return { shuntFullScaleV: shunt, busV: bus, text: `${shunt.text}; ${bus.text}` };
+}
+
+/**
+ * The measurement profile for an install, or every reason it cannot work, each naming the limit.
+ * All checks run, so the integrator sees every problem at once.
+ */
+export function measurementProfile(install: InstallForProfile, modelLimits: ModelLimits): ProfileResult {
+  if (!isPositive(modelLimits.shuntFullScaleV) || !isPositive(modelLimits.busVMax)) {
+    throw new RangeError('the model\'s measurement limits must be positive numbers');
+  }
+  const errors: ProfileError[] = [];
+  const { shuntOhm, maxCurrentA, panelVocV, tempResolutionBits } = install;
+
+  if (!isPositive(shuntOhm)) errors.push({ path: 'shuntOhm', message: 'shunt resistance must be a number above 0 Ω' });
+  if (!isPositive(maxCurrentA)) errors.push({ path: 'maxCurrentA', message: 'maximum expected current must be a number above 0 A' });
+  if (!isPositive(panelVocV)) errors.push({ path: 'panelVocV', message: 'panel open-circuit voltage must be a number above 0 V' });
+
+  let currentLsbA: number | undefined;
+  let calibration: number | undefined;
+  if (isPositive(shuntOhm) && isPositive(maxCurrentA)) {
+    const fullScaleV = tidy(maxCurrentA * shuntOhm);
+    if (compareProduct(maxCurrentA, shuntOhm, modelLimits.shuntFullScaleV) > 0) {
+      errors.push({
+        path: 'shuntOhm',
+        message:
+          `shunt voltage at ${formatAmps(maxCurrentA)} would be ${formatVolts(fullScaleV)}; the power-monitor chip measures ` +
+          `at most ${formatVolts(modelLimits.shuntFullScaleV)} — use a smaller shunt or a lower maximum current`,
+      });
+    }
+    currentLsbA = convenientCurrentLsb(maxCurrentA);
+    calibration = calibrationFor(currentLsbA, shuntOhm);
+    if (calibration > CALIBRATION_MAX) {
+      errors.push({
+        path: 'maxCurrentA',
+        message:
+          `calibration would be ${calibration}; the power-monitor chip's calibration register holds ` +
+          `${CALIBRATION_MIN} to ${CALIBRATION_MAX} — the shunt voltage at full scale (${formatVolts(fullScaleV)}) is too small: ` +
+          'use a larger shunt or a higher maximum current',
+      });
+    } else if (calibration < CALIBRATION_MIN) {
+      errors.push({
+        path: 'maxCurrentA',
+        message:
+          `calibration would be ${calibration}; the power-monitor chip's calibration register holds ` +
+          `${CALIBRATION_MIN} to ${CALIBRATION_MAX} — use a smaller shunt or a lower maximum current`,
+      });
+    }
+  }
+
+  if (isPositive(panelVocV) && panelVocV > modelLimits.busVMax) {
+    errors.push({
+      path: 'panelVocV',
+      message:
+        `panel open-circuit voltage ${formatVolts(panelVocV)} is above this model's bus limit of ` +
+        `${formatVolts(modelLimits.busVMax)}; the power-monitor chip must never see more — wire a panel or string with a lower open-circuit voltage`,
+    });
+  }
+
+  const allowed = modelLimits.tempResolutions;
+  if (!allowed.includes(tempResolutionBits) || probeConversionMs[tempResolutionBits as TempResolutionBits] === undefined) {
+    const choices = allowed.filter((bits) => probeConversionMs[bits as TempResolutionBits] !== undefined);
+    errors.push({
+      path: 'tempResolutionBits',
+      message: `probe resolution ${tempResolutionBits} bits is not available on this model; choose ${listChoices(choices)} bits`,
+    });
+  }
+
+  const headroom = headroomFor(install, modelLimits);
+  if (errors.length > 0 || currentLsbA === undefined || calibration === undefined || headroom === undefined) {
+    return headroom ? { ok: false, errors, headroom } : { ok: false, errors };
+  }
+  return {
+    ok: true,
+    profile: {
+      shuntOhm,
+      maxCurrentA,
+      currentLsbA,
+      calibration,
+      powerLsbW: powerLsbFor(currentLsbA),
+      busVMax: modelLimits.busVMax,
+      tempResolutionBits: tempResolutionBits as TempResolutionBits,
+      sampleIntervalS: sampleIntervalFor(tempResolutionBits),
+    },
+    headroom,
+  };
+}
+
+function listChoices(values: readonly number[]): string {
+  const sorted = [...values].sort((a, b) => a - b).map(String);
+  if (sorted.length === 0) return 'a resolution the model lists (it lists none; ask an admin to fix the model)';
+  if (sorted.length === 1) return sorted[0];
+  return `${sorted.slice(0, -1).join(', ')} or ${sorted[sorted.length - 1]}`;
+}
+
+// ─── Temperature probe readings ─────────────────────────────────────────────
+
+/** Temperature register (16-bit two's complement, 1/16 °C per count) to °C. */
+export function decodeProbeRaw(raw16: number): number {
+  if (!Number.isInteger(raw16) || raw16 < 0 || raw16 > 0xffff) {
+    throw new RangeError(`a probe register value is 0 to 0xFFFF, got ${raw16}`);
+  }
+  const signed = raw16 >= 0x8000 ? raw16 - 0x10000 : raw16;
+  return signed / 16;
+}
+
+export type ProbeFault = 'power_on_value' | 'out_of_range';
+
+export const PROBE_MIN_C = -55;
+export const PROBE_MAX_C = 125;
+/** The temperature register holds this value after power-on until the first conversion ends. */
+export const PROBE_POWER_ON_C = 85;
+
+/**
+ * Why a reading is not to be trusted, or null. Exactly 85.0 °C is the power-on value (a read before the
+ * conversion finished, or after a brown-out) — a real 85 °C is possible on a hot panel but rare enough
+ * that the fleet view flags it for a look.
+ */
+export function probeReadingFault(tempC: number): ProbeFault | null {
+  if (tempC === PROBE_POWER_ON_C) return 'power_on_value';
+  if (!Number.isFinite(tempC) || tempC < PROBE_MIN_C || tempC > PROBE_MAX_C) return 'out_of_range';
+  return null;
+}

@@ -1,0 +1,230 @@
+import fc from 'fast-check';
+import {
+  calibrationFor,
+  convenientCurrentLsb,
+  measurementProfile,
+  minimumCurrentLsb,
+  powerLsbFor,
+  sampleIntervalFor,
+  type InstallForProfile,
+  type ModelLimits,
+} from '../../server/loggers/calibration';
+import { measurementProfile as measurementProfileSchema } from '../../schemas/loggers';
+
+// Check values: TI INA226 data sheet SBOS547 (REFERENCE.md §8): shunt full scale 81.92 mV, bus range 0–36 V,
+// Eq. 1 CAL = 0.00512 / (Current_LSB × R_SHUNT), Eq. 2 Current_LSB = max / 2^15, Eq. 3 Current = Shunt × CAL / 2048,
+// Eq. 4 Power = Current × Bus / 20 000, Power_LSB = 25 × Current_LSB, Table 1 worked example,
+// calibration register top bit unused (1 ≤ CAL ≤ 32767).
+const chipLimits: ModelLimits = { busVMax: 36, shuntFullScaleV: 0.08192, tempResolutions: [9, 10, 11, 12] };
+
+const install = (over: Partial<InstallForProfile> = {}): InstallForProfile => ({
+  shuntOhm: 0.002,
+  maxCurrentA: 15,
+  panelVocV: 22.4,
+  tempResolutionBits: 12,
+  ...over,
+});
+
+function profileOf(over: Partial<InstallForProfile>, limits: ModelLimits = chipLimits) {
+  const result = measurementProfile(install(over), limits);
+  if (!result.ok) throw new Error(`expected a profile, got ${JSON.stringify(result.errors)}`);
+  return result;
+}
+
+function errorsOf(over: Partial<InstallForProfile>, limits: ModelLimits = chipLimits) {
+  const result = measurementProfile(install(over), limits);
+  if (result.ok) throw new Error(`expected errors, got ${JSON.stringify(result.profile)}`);
+  return result.errors;
+}
+
+describe('the datasheet worked example (TI INA226 data sheet SBOS547, Table 1)', () => {
+  test('when R_SHUNT is 2 mΩ and the current LSB 1 mA, then the calibration register is 2560 = A00h (Eq. 1)', () => {
+    const cal = calibrationFor(0.001, 0.002);
+    expect(cal).toBe(2560);
+    expect(cal).toBe(0xa00);
+  });
+
+  test('when the shunt register reads 1F40h (8000) with CAL = A00h, then the current register is 2710h (10000) = 10 A at 1 mA/bit (Eq. 3)', () => {
+    const cal = calibrationFor(0.001, 0.002);
+    const currentRegister = (0x1f40 * cal) / 2048;
+    expect(currentRegister).toBe(10000);
+    expect(currentRegister).toBe(0x2710);
+    expect(currentRegister * 0.001).toBeCloseTo(10, 9);
+    // Cross-check against the shunt itself: 8000 × 2.5 µV = 20 mV across 2 mΩ is 10 A (SBOS547 shunt LSB 2.5 µV).
+    expect((0x1f40 * 2.5e-6) / 0.002).toBeCloseTo(10, 9);
+  });
+
+  test('when the bus reads 2570h (9584) and the current 10000, then power is 12B8h (4792) = 119.8 W at 25 mW/bit (Eq. 4, Power_LSB = 25 × Current_LSB)', () => {
+    const powerLsb = powerLsbFor(0.001);
+    expect(powerLsb).toBe(0.025);
+    const powerRegister = (10000 * 0x2570) / 20000;
+    expect(powerRegister).toBe(4792);
+    expect(powerRegister).toBe(0x12b8);
+    expect(powerRegister * powerLsb).toBeCloseTo(119.8, 9);
+  });
+
+  test('when the maximum expected current is 15 A, then Eq. 2 gives a minimum current LSB of 457.7 µA', () => {
+    const minimum = minimumCurrentLsb(15) * 1e6;
+    // The data sheet prints 457.7 µA (15 / 32768 = 457.76… µA, shown truncated).
+    expect(minimum).toBeGreaterThanOrEqual(457.7);
+    expect(minimum).toBeLessThan(457.8);
+  });
+});
+
+describe('current LSB choice (Eq. 2 lower bound; the 1-2-5 rounding is our choice)', () => {
+  test('when the maximum current is 15 A, then the LSB is rounded up from 457.7 µA to 500 µA', () => {
+    expect(convenientCurrentLsb(15)).toBe(0.0005);
+  });
+
+  test('when max / 2^15 is itself a 1-2-5 value (32.768 A → 1 mA), then that value is kept, not the next one', () => {
+    expect(convenientCurrentLsb(32.768)).toBe(0.001);
+  });
+
+  test('when any current from 1 mA to 100 A is expected, then the LSB is never below max / 2^15, is a 1-2-5 value and at most 2.5× the minimum', () => {
+    fc.assert(
+      fc.property(fc.double({ min: 0.001, max: 100, noNaN: true }), (maxCurrentA) => {
+        const lsb = convenientCurrentLsb(maxCurrentA);
+        const minimum = maxCurrentA / 2 ** 15;
+        expect(lsb).toBeGreaterThanOrEqual(minimum);
+        expect(lsb).toBeLessThanOrEqual(2.5 * minimum * (1 + 1e-12));
+        expect(Number(lsb.toExponential(0))).toBe(lsb);
+        expect(['1', '2', '5']).toContain(lsb.toExponential(0)[0]);
+      }),
+    );
+  });
+
+  test('when a profile is accepted, then its LSB is never below max / 2^15 and CAL, power LSB follow Eq. 1 and 25 × LSB', () => {
+    fc.assert(
+      fc.property(
+        fc.double({ min: 0.0001, max: 1, noNaN: true }),
+        fc.double({ min: 0.01, max: 100, noNaN: true }),
+        (shuntOhm, maxCurrentA) => {
+          const result = measurementProfile(install({ shuntOhm, maxCurrentA }), chipLimits);
+          if (!result.ok) return;
+          const { profile } = result;
+          expect(profile.currentLsbA).toBeGreaterThanOrEqual(maxCurrentA / 2 ** 15);
+          expect(profile.calibration).toBeGreaterThanOrEqual(1);
+          expect(profile.calibration).toBeLessThanOrEqual(32767);
+          // Eq. 1 with floating point; the exact decimal result may differ by at most one count from binary rounding.
+          expect(Math.abs(profile.calibration - 0.00512 / (profile.currentLsbA * shuntOhm))).toBeLessThan(1 + 1e-6);
+          expect(profile.powerLsbW).toBeCloseTo(25 * profile.currentLsbA, 12);
+          expect(maxCurrentA * shuntOhm).toBeLessThanOrEqual(0.08192 * (1 + 1e-12));
+        },
+      ),
+    );
+  });
+});
+
+describe('measurement profile', () => {
+  test('when an FL-2 install has a 5 mΩ shunt and 12.5 A, then the profile and the headroom "full scale 62.5 mV of 81.92 mV" come back', () => {
+    const { profile, headroom } = profileOf({ shuntOhm: 0.005, maxCurrentA: 12.5, panelVocV: 22.4, tempResolutionBits: 12 });
+    // 12.5 / 2^15 = 381.5 µA → 500 µA; CAL = trunc(0.00512 / (0.0005 × 0.005)) = 2048 (Eq. 1).
+    expect(profile).toEqual({
+      shuntOhm: 0.005,
+      maxCurrentA: 12.5,
+      currentLsbA: 0.0005,
+      calibration: 2048,
+      powerLsbW: 0.0125,
+      busVMax: 36,
+      tempResolutionBits: 12,
+      sampleIntervalS: 3,
+    });
+    expect(headroom.shuntFullScaleV).toMatchObject({ used: 0.0625, limit: 0.08192 });
+    expect(headroom.shuntFullScaleV.text).toBe('full scale 62.5 mV of 81.92 mV');
+    expect(headroom.busV).toMatchObject({ used: 22.4, limit: 36 });
+    expect(headroom.text).toContain('full scale 62.5 mV of 81.92 mV');
+    // With a version added, the computed profile is what the shared schema accepts.
+    expect(measurementProfileSchema.safeParse({ version: 1, ...profile }).success).toBe(true);
+  });
+
+  test('when the decimals are not exact in binary (5 µA × 40.96 mΩ), then CAL is the exact 25000, not 24999', () => {
+    // 0.00512 / (0.000005 × 0.04096) is exactly 25000 (Eq. 1); IEEE 754 doubles give 24999.999999999996.
+    const { profile } = profileOf({ shuntOhm: 0.04096, maxCurrentA: 0.1 });
+    expect(profile.currentLsbA).toBe(0.000005);
+    expect(profile.calibration).toBe(25000);
+  });
+
+  test('when the shunt voltage at full scale is exactly 81.92 mV, then it is accepted, and just above it is refused naming the limit', () => {
+    // 40.96 A × 2 mΩ = 81.92 mV, the chip's shunt full scale (SBOS547).
+    expect(measurementProfile(install({ shuntOhm: 0.002, maxCurrentA: 40.96 }), chipLimits).ok).toBe(true);
+    const errors = errorsOf({ shuntOhm: 0.002, maxCurrentA: 40.961 });
+    expect(errors).toHaveLength(1);
+    expect(errors[0].path).toBe('shuntOhm');
+    expect(errors[0].message).toContain('81.92 mV');
+  });
+
+  test('when 20 A flows through 5 mΩ, then the message says 100 mV against 81.92 mV and what to change', () => {
+    const [error] = errorsOf({ shuntOhm: 0.005, maxCurrentA: 20 });
+    expect(error.message).toBe(
+      'shunt voltage at 20 A would be 100 mV; the power-monitor chip measures at most 81.92 mV — use a smaller shunt or a lower maximum current',
+    );
+  });
+
+  test('when CAL comes out at 32767, then it is accepted; at 32768 it is refused (the register top bit is unused)', () => {
+    // 0.3 A → 0.3 / 2^15 = 9.16 µA → LSB 10 µA; CAL = trunc(0.00512 / (10 µA × R)) = trunc(512 / R).
+    expect(profileOf({ shuntOhm: 0.0156254, maxCurrentA: 0.3 }).profile.calibration).toBe(32767);
+    const errors = errorsOf({ shuntOhm: 0.015625, maxCurrentA: 0.3 });
+    expect(errors).toEqual([{ path: 'maxCurrentA', message: expect.stringContaining('calibration would be 32768') }]);
+    expect(errors[0].message).toContain('1 to 32767');
+    expect(errors[0].message).toContain('larger shunt or a higher maximum current');
+  });
+
+  test('when CAL would be below 1, then it is refused', () => {
+    // 100 A → LSB 5 mA; 0.00512 / (0.005 × 2 Ω) = 0.512 → 0.
+    expect(calibrationFor(0.005, 2)).toBe(0);
+    const errors = errorsOf({ shuntOhm: 2, maxCurrentA: 100 }, { ...chipLimits, shuntFullScaleV: 1000 });
+    expect(errors).toEqual([{ path: 'maxCurrentA', message: expect.stringContaining('calibration would be 0') }]);
+  });
+
+  test('when the panel open-circuit voltage equals the 36 V bus limit, then it is accepted; above it is refused naming the limit', () => {
+    // SBOS547: bus range 0–36 V ("Do not apply more than 36V").
+    expect(measurementProfile(install({ panelVocV: 36 }), chipLimits).ok).toBe(true);
+    const errors = errorsOf({ panelVocV: 44.6 });
+    expect(errors).toHaveLength(1);
+    expect(errors[0].path).toBe('panelVocV');
+    expect(errors[0].message).toContain('44.6 V');
+    expect(errors[0].message).toContain('36 V');
+  });
+
+  test('when the probe resolution is not one the model allows, then it is refused listing the allowed ones', () => {
+    const limits = { ...chipLimits, tempResolutions: [11, 12] };
+    const errors = errorsOf({ tempResolutionBits: 9 }, limits);
+    expect(errors).toEqual([{ path: 'tempResolutionBits', message: expect.stringContaining('choose 11 or 12 bits') }]);
+    // A model listing a resolution the probe family does not have (Maxim DS18B20 data sheet: 9 to 12 bits) still refuses it.
+    expect(errorsOf({ tempResolutionBits: 13 }, { ...chipLimits, tempResolutions: [12, 13] })[0].path).toBe('tempResolutionBits');
+  });
+
+  test('when several limits are broken at once, then every one is reported, with the headroom still shown', () => {
+    const result = measurementProfile(
+      { shuntOhm: 0.005, maxCurrentA: 20, panelVocV: 48, tempResolutionBits: 10 },
+      { ...chipLimits, tempResolutions: [12] },
+    );
+    expect(result.ok).toBe(false);
+    if (result.ok) return;
+    expect(result.errors.map((e) => e.path).sort()).toEqual(['panelVocV', 'shuntOhm', 'tempResolutionBits']);
+    expect(result.headroom?.shuntFullScaleV.text).toBe('full scale 100 mV of 81.92 mV');
+  });
+
+  test('when a value is missing or not positive (the form is half typed), then that field is named and nothing throws', () => {
+    const result = measurementProfile({ shuntOhm: 0, maxCurrentA: Number.NaN, panelVocV: -1, tempResolutionBits: 12 }, chipLimits);
+    expect(result.ok).toBe(false);
+    if (result.ok) return;
+    expect(result.errors.map((e) => e.path).sort()).toEqual(['maxCurrentA', 'panelVocV', 'shuntOhm']);
+    expect(result.headroom).toBeUndefined();
+  });
+});
+
+describe('sample interval (from the probe conversion times, Maxim DS18B20 data sheet resolution table)', () => {
+  test('when the probe resolution is 9, 10, 11 or 12 bits, then the interval is whole seconds, at least 1 s and at least 4× the conversion time', () => {
+    // Max conversion time: 9-bit 93.75 ms, 10-bit 187.5 ms, 11-bit 375 ms, 12-bit 750 ms (REFERENCE.md §9).
+    const conversionMs: Record<number, number> = { 9: 93.75, 10: 187.5, 11: 375, 12: 750 };
+    for (const bits of [9, 10, 11, 12]) {
+      const seconds = sampleIntervalFor(bits);
+      expect(Number.isInteger(seconds)).toBe(true);
+      expect(seconds).toBeGreaterThanOrEqual(1);
+      expect(seconds * 1000).toBeGreaterThanOrEqual(4 * conversionMs[bits]);
+      // and no longer than needed: one second less would break one of the rules
+      expect(seconds === 1 || (seconds - 1) * 1000 < 4 * conversionMs[bits]).toBe(true);
+    }
+  });
+});
