@@ -1,0 +1,138 @@
+// The release lifecycle (issue 4 §5, "Lifecycle, the complete table"). Pure: no I/O.
+//
+//   draft     → pilot (start_pilot); or deleted (a DELETE, not a transition: see canDelete)
+//   pilot     → expanding (expand, share 1–99 %), complete, paused, halted, withdrawn
+//   expanding → expanding (expand to a larger share only), complete (= 100 %), paused, halted, withdrawn
+//   complete  → paused, halted, withdrawn
+//   paused    → resume (back to the state it was paused from), halted, withdrawn
+//   halted    → resume (back to the state before the halt; reason required), withdrawn
+//   withdrawn is final (loggers that installed it keep it)
+//
+// Share: pilot 0 (only pilot sites), expanding 1–99, complete 100; paused and halted keep the share
+// they had, so resuming restores the same cohort.
+
+export const RELEASE_STATES = ['draft', 'pilot', 'expanding', 'complete', 'paused', 'halted', 'withdrawn'] as const;
+export type ReleaseState = (typeof RELEASE_STATES)[number];
+
+/** States in which a release offers updates and serves its image. */
+export const LIVE_STATES = ['pilot', 'expanding', 'complete'] as const;
+export type LiveState = (typeof LIVE_STATES)[number];
+
+export const RELEASE_ACTIONS = ['start_pilot', 'expand', 'complete', 'pause', 'resume', 'halt', 'withdraw'] as const;
+export type ReleaseAction = (typeof RELEASE_ACTIONS)[number];
+
+/** The state a paused or halted release returns to on resume. A halt of a paused release returns to paused. */
+export type ResumeState = LiveState | 'paused';
+
+export type ReleaseLifecycle = {
+  state: ReleaseState;
+  /** Rollout share in percent (0–100). */
+  share: number;
+  /** Set while paused or halted: where resume leads. Null in every other state. */
+  resumeState: ResumeState | null;
+};
+
+export type TransitionOptions = { share?: number | null; reason?: string | null };
+
+export type TransitionRefusal =
+  /** The action is not legal in this state (answer 409, naming the allowed actions). */
+  | { ok: false; code: 'illegal'; detail: string; allowedActions: ReleaseAction[] }
+  /** Halt, withdraw and resume from halted need a reason (answer 400). */
+  | { ok: false; code: 'reason_required'; detail: string; allowedActions: ReleaseAction[] }
+  /** Expand needs a share of 1–99 %, larger than the current one when already expanding (answer 400). */
+  | { ok: false; code: 'invalid_share'; detail: string; allowedActions: ReleaseAction[] };
+
+export type TransitionResult = { ok: true; release: ReleaseLifecycle } | TransitionRefusal;
+
+const TABLE: Record<ReleaseState, readonly ReleaseAction[]> = {
+  draft: ['start_pilot'],
+  pilot: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
+  expanding: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
+  complete: ['pause', 'halt', 'withdraw'],
+  paused: ['resume', 'halt', 'withdraw'],
+  halted: ['resume', 'withdraw'],
+  withdrawn: [],
+};
+
+export const MIN_EXPAND_SHARE = 1;
+export const MAX_EXPAND_SHARE = 99;
+
+export function isLive(state: ReleaseState): state is LiveState {
+  return (LIVE_STATES as readonly string[]).includes(state);
+}
+
+export function allowedActions(state: ReleaseState): ReleaseAction[] {
+  return [...TABLE[state]];
+}
+
+/** Only a draft may be deleted (DELETE /api/releases/:id frees the version); every later state keeps its history. */
+export function canDelete(state: ReleaseState): boolean {
+  return state === 'draft';
+}
+
+/** Whether the action needs a reason when taken from this state. */
+export function reasonRequired(state: ReleaseState, action: ReleaseAction): boolean {
+  return action === 'halt' || action === 'withdraw' || (action === 'resume' && state === 'halted');
+}
+
+/** The live state a share stands for: 0 pilot, 100 complete, anything between expanding. */
+function liveStateForShare(share: number): LiveState {
+  if (share <= 0) return 'pilot';
+  if (share >= 100) return 'complete';
+  return 'expanding';
+}
+
+export function transition(release: ReleaseLifecycle, action: ReleaseAction, options: TransitionOptions = {}): TransitionResult {
+  const allowed = allowedActions(release.state);
+  if (!allowed.includes(action)) {
+    const detail =
+      allowed.length === 0
+        ? `A ${release.state} release is final: no action is possible.`
+        : `A ${release.state} release cannot ${action.replace('_', ' ')}; allowed: ${allowed.join(', ')}.`;
+    return { ok: false, code: 'illegal', detail, allowedActions: allowed };
+  }
+
+  const reason = options.reason?.trim() ?? '';
+  if (reasonRequired(release.state, action) && reason === '') {
+    const what = action === 'resume' ? 'Resuming a halted release' : action === 'halt' ? 'A halt' : 'A withdrawal';
+    return { ok: false, code: 'reason_required', detail: `${what} needs a reason.`, allowedActions: allowed };
+  }
+
+  switch (action) {
+    case 'start_pilot':
+      return ok({ state: 'pilot', share: 0, resumeState: null });
+    case 'expand': {
+      const share = options.share;
+      if (typeof share !== 'number' || !Number.isFinite(share) || share < MIN_EXPAND_SHARE || share > MAX_EXPAND_SHARE) {
+        return refuseShare(`Expand needs a share from ${MIN_EXPAND_SHARE} to ${MAX_EXPAND_SHARE} %; use complete for 100 %.`, allowed);
+      }
+      if (release.state === 'expanding' && share <= release.share) {
+        return refuseShare(`The share can only grow: it is ${release.share} % now, so expand needs more than that.`, allowed);
+      }
+      return ok({ state: 'expanding', share, resumeState: null });
+    }
+    case 'complete':
+      return ok({ state: 'complete', share: 100, resumeState: null });
+    case 'pause':
+      // Only live states may pause (the table), so the state paused from is a live state.
+      return ok({ state: 'paused', share: release.share, resumeState: release.state as LiveState });
+    case 'halt':
+      return ok({ state: 'halted', share: release.share, resumeState: release.state as LiveState | 'paused' });
+    case 'resume': {
+      // A halt of a paused release resumes to paused; that pause then resumes to the live state its share stands for.
+      const back: ResumeState = release.resumeState ?? liveStateForShare(release.share);
+      if (back === 'paused') return ok({ state: 'paused', share: release.share, resumeState: liveStateForShare(release.share) });
+      return ok({ state: back, share: release.share, resumeState: null });
+    }
+    case 'withdraw':
+      return ok({ state: 'withdrawn', share: release.share, resumeState: null });
+  }
+}
+
+function ok(release: ReleaseLifecycle): TransitionResult {
+  return { ok: true, release };
+}
+
+function refuseShare(detail: string, allowed: ReleaseAction[]): TransitionRefusal {
+  return { ok: false, code: 'invalid_share', detail, allowedActions: allowed };
+}
