@@ -1,0 +1,285 @@
+import { createHash, createPrivateKey, createPublicKey, generateKeyPairSync, sign as nodeSign, verify as nodeVerify } from 'node:crypto';
+import {
+  canonicalManifest,
+  decodeSignature,
+  keyIdOf,
+  ManifestError,
+  parsePublicKeyPem,
+  publicKeyOfPrivatePem,
+  signManifest,
+  verifyManifestSignature,
+} from '../../server/images/manifest';
+
+function refusal(run: () => unknown): ManifestError {
+  try {
+    run();
+  } catch (error) {
+    if (error instanceof ManifestError) return error;
+    throw error;
+  }
+  throw new Error('expected a ManifestError, but nothing was thrown');
+}
+
+const hex = (text: string) => Buffer.from(text, 'hex');
+const b64url = (bytes: Buffer) => bytes.toString('base64url');
+
+// Source: RFC 8032 §7.1 "Test Vectors for Ed25519", TEST 1–3 (REFERENCE.md §1, [V]).
+const rfc8032 = [
+  {
+    name: 'TEST 1',
+    secret: '9d61b19deffd5a60ba844af492ec2cc44449c5697b326919703bac031cae7f60',
+    publicKey: 'd75a980182b10ab7d54bfed3c964073a0ee172f3daa62325af021a68f707511a',
+    message: '',
+    signature:
+      'e5564300c360ac729086e2cc806e828a84877f1eb8e5d974d873e065224901555fb8821590a33bacc61e39701cf9b46bd25bf5f0595bbe24655141438e7a100b',
+  },
+  {
+    name: 'TEST 2',
+    secret: '4ccd089b28ff96da9db6c346ec114e0f5b8a319f35aba624da8cf6ed4fb8a6fb',
+    publicKey: '3d4017c3e843895a92b70aa74d1b7ebc9c982ccf2ec4968cc0cd55f12af4660c',
+    message: '72',
+    signature:
+      '92a009a9f0d4cab8720e820b5f642540a2b27b5416503f8fb3762223ebdb69da085ac1e43e15996e458f3613d0f11d8c387b2eaeb4302aeeb00d291612bb0c00',
+  },
+  {
+    name: 'TEST 3',
+    secret: 'c5aa8df43f9f837bedb7442f31dcb7b166d38535076f094b85ce3a2e0b4458f7',
+    publicKey: 'fc51cd8e6218a1a38da47ed00230f0580816ed13ba3303ac5deb911548908025',
+    message: 'af82',
+    signature:
+      '6291d657deec24024827e69c3abe01a30ce548a284743a445e3680d7db5ac3ac18ff9b538d16f290ae67f760984dc6594a7c15e9716ed28dc027beceea1ec40a',
+  },
+];
+
+/** SPKI DER of a raw Ed25519 public key (REFERENCE.md §1 [D]: the RFC 8410 prefix, as pyca writes it). */
+const ed25519Spki = (publicKey: string) => Buffer.concat([hex('302a300506032b6570032100'), hex(publicKey)]);
+const spkiPem = (der: Buffer) => String(createPublicKey({ key: der, format: 'der', type: 'spki' }).export({ type: 'spki', format: 'pem' }));
+
+describe('Ed25519 (RFC 8032)', () => {
+  test.each(rfc8032)('when the RFC 8032 §7.1 $name signature is checked, then it verifies over its message', (vector) => {
+    const der = ed25519Spki(vector.publicKey);
+    const key = parsePublicKeyPem(spkiPem(der));
+    expect(key.algorithm).toBe('ed25519');
+    expect(key.spkiDer.equals(der)).toBe(true);
+    expect(verifyManifestSignature(hex(vector.message), hex(vector.signature), key)).toBe(true);
+    expect(verifyManifestSignature(hex(vector.message), hex(vector.signature).toString('base64'), key.pem)).toBe(true);
+  });
+
+  test.each(rfc8032)('when the $name key id is computed, then it is the first 16 hex of SHA-256 over the SPKI DER (DEVICE_API.md)', (vector) => {
+    const der = ed25519Spki(vector.publicKey);
+    // Computed here with node:crypto directly, independent of the module.
+    const expected = createHash('sha256').update(der).digest('hex').slice(0, 16);
+    expect(parsePublicKeyPem(spkiPem(der)).keyId).toBe(expected);
+    expect(keyIdOf(der)).toBe(expected);
+    expect(keyIdOf(createPublicKey({ key: der, format: 'der', type: 'spki' }))).toBe(expected);
+  });
+
+  test.each(rfc8032)('when the $name secret key signs its message, then the RFC signature comes out (Ed25519 is deterministic)', (vector) => {
+    // RFC 8037 OKP JWK: d is the 32-byte seed, x the public key.
+    const privateKey = createPrivateKey({
+      key: { kty: 'OKP', crv: 'Ed25519', d: b64url(hex(vector.secret)), x: b64url(hex(vector.publicKey)) },
+      format: 'jwk',
+    });
+    const pem = String(privateKey.export({ type: 'pkcs8', format: 'pem' }));
+    expect(signManifest(hex(vector.message), pem)).toBe(hex(vector.signature).toString('base64'));
+    expect(publicKeyOfPrivatePem(pem).spkiDer.equals(ed25519Spki(vector.publicKey))).toBe(true);
+  });
+
+  test('when one byte of the TEST 3 message or signature changes, then verification fails', () => {
+    const { publicKey, message, signature } = rfc8032[2];
+    const key = parsePublicKeyPem(spkiPem(ed25519Spki(publicKey)));
+    const flippedMessage = hex(message);
+    flippedMessage[0] ^= 0x01;
+    const flippedSignature = hex(signature);
+    flippedSignature[10] ^= 0x01;
+    expect(verifyManifestSignature(flippedMessage, hex(signature), key)).toBe(false);
+    expect(verifyManifestSignature(hex(message), flippedSignature, key)).toBe(false);
+    // TEST 2's signature is valid, but not by TEST 3's key.
+    expect(verifyManifestSignature(hex(rfc8032[1].message), hex(rfc8032[1].signature), key)).toBe(false);
+  });
+});
+
+// Source: RFC 6979 Appendix A.2.5 "ECDSA, 256 Bits (Prime Field)", SHA-256, message "sample" (REFERENCE.md §2, [V]).
+const p256 = {
+  x: 'C9AFA9D845BA75166B5C215767B1D6934E50C3DB36E89B127B8A622B120F6721',
+  ux: '60FED4BA255A9D31C961EB74C6356D68C049B8923B61FA6CE669622E60F29FB6',
+  uy: '7903FE1008B8BC99A41AE9E95628BC64F2F1B20C2D7E9F5177A3C294D4462299',
+  r: 'EFD48B2AACB6A8FD1140DD9CD45E81D69D2C877B56AAF991C34D0EA84EAF3716',
+  s: 'F7CB1C942D657C41D436C7A1B6E29F65F3E900DBB9AFF4064DC4AB2F843ACDA8',
+};
+const p256PublicPem = String(
+  createPublicKey({ key: { kty: 'EC', crv: 'P-256', x: b64url(hex(p256.ux)), y: b64url(hex(p256.uy)) }, format: 'jwk' }).export({
+    type: 'spki',
+    format: 'pem',
+  }),
+);
+const p256PrivatePem = String(
+  createPrivateKey({
+    key: { kty: 'EC', crv: 'P-256', x: b64url(hex(p256.ux)), y: b64url(hex(p256.uy)), d: b64url(hex(p256.x)) },
+    format: 'jwk',
+  }).export({ type: 'pkcs8', format: 'pem' }),
+);
+const sample = Buffer.from('sample', 'utf8');
+const rs = Buffer.concat([hex(p256.r), hex(p256.s)]);
+
+describe('ECDSA P-256 with SHA-256 (RFC 6979)', () => {
+  test('when the RFC 6979 A.2.5 signature over "sample" is checked as raw r‖s, then it verifies', () => {
+    const key = parsePublicKeyPem(p256PublicPem);
+    expect(key.algorithm).toBe('ecdsa-p256-sha256');
+    expect(key.keyId).toBe(createHash('sha256').update(key.spkiDer).digest('hex').slice(0, 16));
+    expect(verifyManifestSignature(sample, rs, key)).toBe(true);
+    expect(verifyManifestSignature(sample, rs.toString('base64'), p256PublicPem)).toBe(true);
+  });
+
+  test('when one byte of r, s or the message changes, then verification fails', () => {
+    const key = parsePublicKeyPem(p256PublicPem);
+    for (const at of [0, 31, 32, 63]) {
+      const flipped = Buffer.from(rs);
+      flipped[at] ^= 0x01;
+      expect(verifyManifestSignature(sample, flipped, key)).toBe(false);
+    }
+    expect(verifyManifestSignature(Buffer.from('samplf'), rs, key)).toBe(false);
+  });
+
+  test('when the A.2.5 signature arrives DER-encoded (72 bytes), then it is refused as the wrong length', () => {
+    // REFERENCE.md §2 [D]: r and s each get a 00 prefix, so the DER form is 30 46 02 21 00‖r 02 21 00‖s.
+    const der = Buffer.concat([hex('3046022100'), hex(p256.r), hex('022100'), hex(p256.s)]);
+    expect(der).toHaveLength(72);
+    const error = refusal(() => decodeSignature(der.toString('base64'), 'ecdsa-p256-sha256'));
+    expect(error.field).toBe('signature');
+    expect(error.code).toBe('signature_length');
+    expect(error.message).toMatch(/64 bytes \(raw r‖s\), got 72 bytes.*DER/);
+    expect(refusal(() => verifyManifestSignature(sample, der, parsePublicKeyPem(p256PublicPem))).code).toBe('signature_length');
+  });
+
+  test('when node:crypto signs with its default DER encoding (70–72 bytes), then that signature is refused too', () => {
+    const der = nodeSign('sha256', sample, createPrivateKey(p256PrivatePem));
+    expect(der.length).toBeGreaterThanOrEqual(70);
+    expect(der.length).toBeLessThanOrEqual(72);
+    expect(refusal(() => decodeSignature(der.toString('base64'), 'ecdsa-p256-sha256')).code).toBe('signature_length');
+  });
+});
+
+describe('signing and verifying manifests', () => {
+  const manifest = Buffer.from(
+    canonicalManifest({
+      board_revisions: ['B', 'C'],
+      format: 1,
+      image_sha256: 'ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad',
+      image_size: 123456,
+      issued_at: '2026-11-30T10:00:00Z',
+      model: '6f1c2a3e-9b4d-4c1e-8a7f-2d3b4c5d6e7f',
+      security_counter: 5,
+      version: '2.4.0',
+    }),
+  );
+
+  test.each([
+    ['Ed25519', () => generateKeyPairSync('ed25519')],
+    ['ECDSA P-256', () => generateKeyPairSync('ec', { namedCurve: 'prime256v1' })],
+  ])('when a new %s key signs a manifest, then the signature is 64 bytes and verifies only over those exact bytes', (_name, generate) => {
+    const { privateKey, publicKey } = generate();
+    const privatePem = String(privateKey.export({ type: 'pkcs8', format: 'pem' }));
+    const key = parsePublicKeyPem(String(publicKey.export({ type: 'spki', format: 'pem' })));
+    const signature = signManifest(manifest, privatePem);
+    expect(decodeSignature(`${signature}\n`, key.algorithm)).toHaveLength(64);
+    expect(verifyManifestSignature(manifest, signature, key)).toBe(true);
+    const tampered = Buffer.from(manifest.toString('utf8').replace('"security_counter":5', '"security_counter":4'));
+    expect(verifyManifestSignature(tampered, signature, key)).toBe(false);
+    // node:crypto's own verifier agrees (reference; for ECDSA with the IEEE P1363 raw r‖s encoding, REFERENCE.md §2).
+    const raw = Buffer.from(signature, 'base64');
+    const nodeSays =
+      key.algorithm === 'ed25519'
+        ? nodeVerify(null, manifest, publicKey, raw)
+        : nodeVerify('sha256', manifest, { key: publicKey, dsaEncoding: 'ieee-p1363' }, raw);
+    expect(nodeSays).toBe(true);
+    expect(publicKeyOfPrivatePem(privatePem).keyId).toBe(key.keyId);
+  });
+
+  test('when the key is EC P-256 but the signature was made by another key, then verification fails', () => {
+    const other = generateKeyPairSync('ec', { namedCurve: 'prime256v1' });
+    const signature = signManifest(manifest, p256PrivatePem);
+    const otherKey = parsePublicKeyPem(String(other.publicKey.export({ type: 'spki', format: 'pem' })));
+    expect(verifyManifestSignature(manifest, signature, otherKey)).toBe(false);
+    expect(verifyManifestSignature(manifest, signature, p256PublicPem)).toBe(true);
+  });
+
+  const badEncodings: [string, string, RegExp][] = [
+    ['empty', '   \n', /empty/],
+    ['base64url', b64url(rs).replace(/=+$/, ''), /not standard base64/],
+    ['unpadded', rs.toString('base64').replace(/=+$/, ''), /not standard base64/],
+    ['hex', rs.toString('hex'), /64 bytes|not standard base64/],
+    ['inner spaces', rs.toString('base64').replace(/(.{8})/, '$1 '), /not standard base64/],
+    ['63 bytes', rs.subarray(1).toString('base64'), /64 bytes.*got 63 bytes/],
+    ['65 bytes', Buffer.concat([rs, hex('00')]).toString('base64'), /64 bytes.*got 65 bytes/],
+  ];
+  test.each(badEncodings)('when the signature is %s, then it is refused with the reason', (_what, text, message) => {
+    const error = refusal(() => decodeSignature(text, 'ed25519'));
+    expect(error.field).toBe('signature');
+    expect(error.message).toMatch(message);
+  });
+
+  test('when the signature has surrounding whitespace or a final newline, then it is read', () => {
+    expect(decodeSignature(`  ${rs.toString('base64')}\r\n`, 'ecdsa-p256-sha256').equals(rs)).toBe(true);
+    expect(decodeSignature(Buffer.from(`${rs.toString('base64')}\n`), 'ecdsa-p256-sha256').equals(rs)).toBe(true);
+  });
+});
+
+describe('registering public keys', () => {
+  const pemOf = (key: { export: (o: { type: 'spki'; format: 'pem' }) => string | Buffer }) => String(key.export({ type: 'spki', format: 'pem' }));
+
+  test('when an RSA public key is given, then it is refused naming the accepted algorithms', () => {
+    const { publicKey } = generateKeyPairSync('rsa', { modulusLength: 2048 });
+    const error = refusal(() => parsePublicKeyPem(pemOf(publicKey)));
+    expect(error.field).toBe('publicKeyPem');
+    expect(error.code).toBe('unsupported_key');
+    expect(error.message).toMatch(/RSA key: use Ed25519 or ECDSA P-256/);
+  });
+
+  test('when a P-384 public key is given, then it is refused naming the curve', () => {
+    const { publicKey } = generateKeyPairSync('ec', { namedCurve: 'secp384r1' });
+    const error = refusal(() => parsePublicKeyPem(pemOf(publicKey)));
+    expect(error.code).toBe('unsupported_key');
+    expect(error.message).toMatch(/curve secp384r1: only P-256 \(prime256v1\)/);
+  });
+
+  test('when a private key is pasted (PKCS#8 or SEC1), then it is refused and not parsed as a public key', () => {
+    const { privateKey } = generateKeyPairSync('ed25519');
+    const pkcs8 = String(privateKey.export({ type: 'pkcs8', format: 'pem' }));
+    const sec1 = String(generateKeyPairSync('ec', { namedCurve: 'prime256v1' }).privateKey.export({ type: 'sec1', format: 'pem' }));
+    for (const pem of [pkcs8, sec1]) {
+      const error = refusal(() => parsePublicKeyPem(pem));
+      expect(error.code).toBe('private_key_given');
+      expect(error.message).toMatch(/private key/);
+    }
+  });
+
+  test('when the text is not a PEM public key, then the refusal says what was expected', () => {
+    const valid = pemOf(generateKeyPairSync('ed25519').publicKey);
+    const damaged = valid.replace(/\n[A-Za-z0-9+/]{8}/, '\n!!!!!!!!');
+    const cases: [string, RegExp][] = [
+      ['', /paste the public key/],
+      ['ssh-ed25519 AAAAC3NzaC1lZDI1NTE5AAAA', /expected -----BEGIN PUBLIC KEY-----/],
+      [damaged, /cannot be read/],
+      ['-----BEGIN CERTIFICATE-----\nMIIB\n-----END CERTIFICATE-----\n', /got -----BEGIN CERTIFICATE-----/],
+      [valid + valid, /found 2 PEM blocks/],
+    ];
+    for (const [text, message] of cases) {
+      const error = refusal(() => parsePublicKeyPem(text));
+      expect(error.field).toBe('publicKeyPem');
+      expect(error.message).toMatch(message);
+    }
+  });
+
+  test('when a key is registered with extra whitespace around it, then the stored PEM is normalized', () => {
+    const pem = pemOf(generateKeyPairSync('ed25519').publicKey);
+    const parsed = parsePublicKeyPem(`\n\n  ${pem.replace(/\n/g, '\r\n')}  \n`);
+    expect(parsed.pem).toBe(pem);
+  });
+
+  test('when the signing side is given a public key or an RSA private key, then it refuses', () => {
+    expect(refusal(() => signManifest('x', p256PublicPem)).field).toBe('privateKeyPem');
+    const rsa = String(generateKeyPairSync('rsa', { modulusLength: 2048 }).privateKey.export({ type: 'pkcs8', format: 'pem' }));
+    expect(refusal(() => signManifest('x', rsa)).message).toMatch(/RSA key/);
+  });
+});
