@@ -25,7 +25,11 @@ export function bucketOf(loggerId: string, releaseId: string): number {
  * point (0.1 × 100 = 10.000000000000002) cannot let in one bucket too many.
  */
 export function inShare(bucket: number, sharePercent: number): boolean {
-  if (!Number.isFinite(sharePercent)) return false;
-  const threshold = Math.round(sharePercent * 100 * 1e6) / 1e6;
-  return bucket < threshold;
+  return bucket < shareThreshold(sharePercent);
+}
+
+/** share × 100, the first bucket outside the share (0 for a share that is not a number). */
+export function shareThreshold(sharePercent: number): number {
+  if (!Number.isFinite(sharePercent)) return 0;
+  return Math.round(sharePercent * 100 * 1e6) / 1e6;
 }

@@ -1,0 +1,338 @@
+// The offer decision (DEVICE_API.md "Who gets an offer", rules 1–6 in that order). Pure: no I/O, the
+// clock comes in as `now`.
+//
+// It answers two questions at once: which release, if any, a logger is offered at this check-in, and
+// for every release of its model, why it was or was not offered — the console's "Why no update?" and
+// the lagging-sites screen read the second answer.
+//
+// Choices where the contract is silent (also stated in the device API's OpenAPI document):
+// - Supply guard with no supply known at all (supply_v never reported): the guard does not block. The
+//   contract blocks when the supply "is below" the minimum, and an unknown supply is not below it; a
+//   firmware that does not report supply_v would otherwise never be updated.
+// - A `failed` report without a reason counts as `other` (permanent until an operator retries): a
+//   failure nobody can explain is not one to repeat on its own on a logger in the field.
+// - An operator's retry clears the failure: the service passes only reports made since the latest
+//   retry of that release for that logger (or none).
+// - A last report of `installed`: when the logger already runs that version or newer, the release is
+//   not newer and so not a candidate (reason not_newer). When it still runs an older version, the
+//   offer stands: either the report came just before the reboot into the new image (the firmware
+//   holds the image already), or the bootloader rolled back, which the service records as failed
+//   (other) before deciding — and then the release is excluded like any other failure.
+// - Downloading, downloaded and installing: the offer stands, so the logger can resume its download.
+// - Guards apply to the release chosen by rules 2–4: when the supply guard or that release's daylight
+//   window blocks, nothing is offered at this check-in (we do not fall back to an older release, which
+//   would cost the logger a second install later).
+// - A daylight window asked for by a release whose site has no coordinates is not applied.
+// - `considered` lists every release of the model, newest first by semantic-version precedence.
+import semver from 'semver';
+import { isLive, type ReleaseState } from '../releases/lifecycle';
+import { bucketOf, inShare, shareThreshold } from './cohort';
+import { daylightWindowAt } from './daylight';
+
+export type Track = 'stable' | 'early';
+export type LoggerStatus = 'registered' | 'enrolled' | 'retired';
+export type InstallState = 'downloading' | 'downloaded' | 'installing' | 'installed' | 'failed';
+export type InstallFailureReason = 'integrity' | 'signature' | 'storage' | 'connection' | 'unsupported' | 'low_supply' | 'other';
+
+/** Failure reasons that do not exclude a release: the same image may well install next time. */
+export const TRANSIENT_FAILURE_REASONS: readonly InstallFailureReason[] = ['connection', 'low_supply'];
+
+export type SiteCoordinates = { latitude: number; longitude: number };
+
+/** The logger as seen at this check-in, with what its model and site contribute to the decision. */
+export type LoggerAtCheckIn = {
+  id: string;
+  status: LoggerStatus;
+  siteId: string | null;
+  /** Board revision label, e.g. "B". */
+  board: string;
+  track: Track;
+  /** Version now running (this check-in's `firmware`); null when it has never checked in (console view). */
+  firmware: string | null;
+  /** Highest manifest security counter the logger has accepted, as sent in this check-in. */
+  securityCounter: number;
+  /** This check-in's supply_v, else the most recent one reported, else null (never reported). */
+  supplyV: number | null;
+  /** The model's minimum supply voltage for an update (supply guard). */
+  minUpdateSupplyV: number;
+  /** The site's coordinates, or null when the site has none. */
+  siteCoordinates: SiteCoordinates | null;
+};
+
+/** A release of the logger's model with its targeting. The service may pass a richer object; the offer returns it as given. */
+export type ReleaseTargeting = {
+  id: string;
+  version: string;
+  track: Track;
+  state: ReleaseState;
+  /** Rollout share in percent, 0–100; used in the expanding state. */
+  share: number;
+  /** Board revisions the release is for. */
+  boards: readonly string[];
+  /** Upgrade-from range in the semver package's syntax (evaluated with pre-releases included), or null for any. */
+  upgradeFrom: string | null;
+  securityCounter: number;
+  pilotSiteIds: readonly string[];
+  /** Offer only between sunrise + 1 h and sunset − 1 h at the site. */
+  daylightWindow: boolean;
+};
+
+export type LastInstallReport = { state: InstallState; reason?: InstallFailureReason | null };
+
+export type OfferInput<R extends ReleaseTargeting = ReleaseTargeting> = {
+  logger: LoggerAtCheckIn;
+  /** Every release of the logger's model, in any state and on any track. */
+  releases: readonly R[];
+  /** The logger's last install report per release id (only reports since an operator's latest retry). */
+  lastReports: Readonly<Record<string, LastInstallReport | undefined>>;
+  now: Date;
+};
+
+export const REASON_CODES = [
+  'offered',
+  'stepping_stone',
+  'retired',
+  'not_enrolled',
+  'firmware_unknown',
+  'wrong_track',
+  'not_live',
+  'board_not_supported',
+  'not_newer',
+  'security_counter_too_low',
+  'failed_awaiting_retry',
+  'not_pilot_site',
+  'outside_share',
+  'needs_stepping_stone',
+  'superseded',
+  'low_supply',
+  'outside_daylight_window',
+] as const;
+export type ReasonCode = (typeof REASON_CODES)[number];
+
+/** Short labels for the console ("Why no update?", lagging sites). */
+export const REASON_LABELS: Record<ReasonCode, string> = {
+  offered: 'Offered',
+  stepping_stone: 'Offered as a stepping stone',
+  retired: 'Logger retired',
+  not_enrolled: 'Not enrolled at a site',
+  firmware_unknown: 'Running version unknown',
+  wrong_track: 'Other track',
+  not_live: 'Release not live',
+  board_not_supported: 'Board revision not supported',
+  not_newer: 'Not newer than the running version',
+  security_counter_too_low: 'Security counter below the logger’s',
+  failed_awaiting_retry: 'Install failed, awaiting retry',
+  not_pilot_site: 'Not a pilot site',
+  outside_share: 'Not yet in the rollout share',
+  needs_stepping_stone: 'Needs a stepping-stone release first',
+  superseded: 'A newer release comes first',
+  low_supply: 'Supply below the update minimum',
+  outside_daylight_window: 'Outside the daylight window',
+};
+
+export function reasonLabel(code: ReasonCode): string {
+  return REASON_LABELS[code];
+}
+
+export type ReleaseVerdict = {
+  releaseId: string;
+  version: string;
+  outcome: 'offered' | 'not_offered';
+  reason: ReasonCode;
+  /** One sentence with the figures behind the reason, for support. */
+  detail: string;
+};
+
+export type OfferDecision<R extends ReleaseTargeting = ReleaseTargeting> = {
+  offer: R | null;
+  considered: ReleaseVerdict[];
+};
+
+const STATE_PHRASE: Record<ReleaseState, string> = {
+  draft: 'is still a draft',
+  pilot: 'is in pilot',
+  expanding: 'is expanding',
+  complete: 'is complete',
+  paused: 'is paused',
+  halted: 'is halted',
+  withdrawn: 'was withdrawn',
+};
+
+/** Newest first by semantic-version precedence; versions that do not parse go last; ties by id. */
+function newestFirst(a: ReleaseTargeting, b: ReleaseTargeting): number {
+  const va = semver.valid(a.version);
+  const vb = semver.valid(b.version);
+  if (va && vb) {
+    const c = semver.rcompare(va, vb);
+    if (c !== 0) return c;
+  } else if (va || vb) {
+    return va ? -1 : 1;
+  }
+  return a.id < b.id ? -1 : a.id > b.id ? 1 : 0;
+}
+
+type RangeCheck = { admits: true } | { admits: false; why: string };
+
+/** Rule 4: does the release's upgrade-from range admit the running version (pre-releases included)? */
+function upgradeFromAdmits(release: ReleaseTargeting, running: string): RangeCheck {
+  const range = release.upgradeFrom?.trim() ?? '';
+  if (range === '') return { admits: true };
+  if (semver.validRange(range, { includePrerelease: true }) === null) {
+    return { admits: false, why: `its upgrade-from range "${range}" does not parse` };
+  }
+  return semver.satisfies(running, range, { includePrerelease: true })
+    ? { admits: true }
+    : { admits: false, why: `${running} is outside its upgrade-from range ${range}` };
+}
+
+function failedAwaitingRetry(report: LastInstallReport | undefined): InstallFailureReason | null {
+  if (!report || report.state !== 'failed') return null;
+  const reason = report.reason ?? 'other';
+  return TRANSIENT_FAILURE_REASONS.includes(reason) ? null : reason;
+}
+
+function formatVolts(v: number): string {
+  return `${Number(v.toFixed(3))} V`;
+}
+
+function utcClock(d: Date): string {
+  return `${d.toISOString().slice(11, 16)} UTC`;
+}
+
+export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): OfferDecision<R> {
+  const { logger, lastReports, now } = input;
+  const releases = [...input.releases].sort(newestFirst);
+  const verdicts = new Map<string, Omit<ReleaseVerdict, 'releaseId' | 'version'>>();
+  const refuse = (r: R, reason: ReasonCode, detail: string) => verdicts.set(r.id, { outcome: 'not_offered', reason, detail });
+  const finish = (offer: R | null): OfferDecision<R> => ({
+    offer,
+    considered: releases.map((r) => ({ releaseId: r.id, version: r.version, ...verdicts.get(r.id)! })),
+  });
+  const refuseAll = (reason: ReasonCode, detail: string) => {
+    for (const r of releases) refuse(r, reason, detail);
+    return finish(null);
+  };
+
+  // Rule 1: enrolled at a site and not retired.
+  if (logger.status === 'retired') return refuseAll('retired', 'The logger is retired; it is offered nothing.');
+  if (logger.status !== 'enrolled' || !logger.siteId) return refuseAll('not_enrolled', 'The logger is not enrolled at a site yet.');
+  const running = logger.firmware === null ? null : semver.valid(logger.firmware);
+  if (running === null) {
+    return refuseAll(
+      'firmware_unknown',
+      logger.firmware === null ? 'The logger has not reported its running version yet.' : `The running version "${logger.firmware}" is not a semantic version.`,
+    );
+  }
+
+  // Rule 2 (with rule 6): candidates by track, live state, board, version, security counter, and no
+  // unresolved failure.
+  const candidates: R[] = [];
+  for (const r of releases) {
+    const version = semver.valid(r.version);
+    const failure = failedAwaitingRetry(lastReports[r.id]);
+    if (r.track !== logger.track) {
+      refuse(r, 'wrong_track', `The release is on the ${r.track} track; the logger follows ${logger.track}.`);
+    } else if (!isLive(r.state)) {
+      refuse(r, 'not_live', `The release ${STATE_PHRASE[r.state]}.`);
+    } else if (!r.boards.includes(logger.board)) {
+      refuse(r, 'board_not_supported', `Board ${logger.board} is not among the release's boards (${r.boards.join(', ') || 'none'}).`);
+    } else if (version === null || !semver.gt(version, running)) {
+      refuse(r, 'not_newer', version === null ? `The release version "${r.version}" is not a semantic version.` : `${r.version} is not newer than the running ${running}.`);
+    } else if (r.securityCounter < logger.securityCounter) {
+      refuse(r, 'security_counter_too_low', `Its security counter ${r.securityCounter} is below the logger's ${logger.securityCounter}; the logger would refuse it.`);
+    } else if (failure) {
+      refuse(r, 'failed_awaiting_retry', `The last install failed (${failure}); it is not offered again until an operator retries it.`);
+    } else {
+      candidates.push(r);
+    }
+  }
+
+  // Rule 3: pilot sites, rollout share, complete. Pilot sites stay eligible in every later live state.
+  const eligible: R[] = [];
+  const basis = new Map<string, string>();
+  for (const r of candidates) {
+    const pilotSite = r.pilotSiteIds.includes(logger.siteId);
+    if (r.state === 'pilot') {
+      if (pilotSite) {
+        eligible.push(r);
+        basis.set(r.id, 'the site is a pilot site');
+      } else {
+        refuse(r, 'not_pilot_site', r.pilotSiteIds.length === 0 ? 'The release is in pilot and has no pilot sites yet.' : 'The release is in pilot and the logger’s site is not one of its pilot sites.');
+      }
+    } else if (r.state === 'expanding') {
+      const bucket = bucketOf(logger.id, r.id);
+      if (pilotSite) {
+        eligible.push(r);
+        basis.set(r.id, 'the site is a pilot site');
+      } else if (inShare(bucket, r.share)) {
+        eligible.push(r);
+        basis.set(r.id, `bucket ${bucket} is below ${r.share} % × 100`);
+      } else {
+        refuse(r, 'outside_share', `Bucket ${bucket} is not below ${r.share} % × 100 = ${shareThreshold(r.share)}; a wider share may include it.`);
+      }
+    } else {
+      eligible.push(r);
+      basis.set(r.id, 'the release is complete (offered to all)');
+    }
+  }
+  if (eligible.length === 0) return finish(null);
+
+  // Rule 4: the newest eligible release, or the highest one whose upgrade-from range admits the
+  // running version (a stepping stone); one hop per check-in.
+  const newest = eligible[0];
+  const newestCheck = upgradeFromAdmits(newest, running);
+  const pick = newestCheck.admits ? newest : (eligible.find((r) => upgradeFromAdmits(r, running).admits) ?? null);
+  for (const r of eligible) {
+    if (r === pick) continue;
+    const check = upgradeFromAdmits(r, running);
+    if (!check.admits) {
+      const next = pick ? `${pick.version} goes first as a stepping stone` : 'no release on the track admits it yet';
+      refuse(r, 'needs_stepping_stone', `It cannot be installed directly: ${check.why}; ${next}.`);
+    } else {
+      refuse(r, 'superseded', `${pick!.version} comes first; ${r.version} is not needed on the way.`);
+    }
+  }
+  if (!pick) return finish(null);
+
+  // Rule 5: supply guard, then the chosen release's daylight window.
+  const notes: string[] = [];
+  const supply = logger.supplyV;
+  if (supply !== null && Number.isFinite(supply)) {
+    if (supply < logger.minUpdateSupplyV) {
+      refuse(pick, 'low_supply', `Supply ${formatVolts(supply)} is below the model's minimum of ${formatVolts(logger.minUpdateSupplyV)} for an update.`);
+      return finish(null);
+    }
+  } else {
+    notes.push('no supply voltage reported, supply guard not applied');
+  }
+  if (pick.daylightWindow) {
+    const site = logger.siteCoordinates;
+    if (!site) {
+      notes.push('the site has no coordinates, daylight window not applied');
+    } else {
+      const window = daylightWindowAt(now, site.latitude, site.longitude);
+      const t = now.getTime();
+      if (window.kind === 'polar_night') {
+        refuse(pick, 'outside_daylight_window', 'The release waits for daylight, and the Sun does not rise at the site today.');
+        return finish(null);
+      }
+      if (window.kind === 'window' && (t < window.opens.getTime() || t > window.closes.getTime())) {
+        refuse(pick, 'outside_daylight_window', `The release waits for the daylight window, ${utcClock(window.opens)} to ${utcClock(window.closes)} at the site today.`);
+        return finish(null);
+      }
+    }
+  }
+
+  const why = [basis.get(pick.id)!, ...notes].join('; ');
+  if (pick === newest) {
+    verdicts.set(pick.id, { outcome: 'offered', reason: 'offered', detail: `Offered ${pick.version}: ${why}.` });
+  } else {
+    const blocked = newestCheck.admits ? '' : newestCheck.why;
+    verdicts.set(pick.id, {
+      outcome: 'offered',
+      reason: 'stepping_stone',
+      detail: `Offered ${pick.version} as a stepping stone towards ${newest.version} (${blocked}): ${why}.`,
+    });
+  }
+  return finish(pick);
+}
