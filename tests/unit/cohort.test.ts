@@ -1,6 +1,6 @@
 import { createHash } from 'node:crypto';
 import fc from 'fast-check';
-import { BUCKETS, bucketOf, inShare } from '../../server/device-api/cohort';
+import { BUCKETS, bucketOf, inShare, shareThreshold } from '../../server/device-api/cohort';
 
 // Bucket formula: DEVICE_API.md "Who gets an offer", rule 3 — first 4 bytes of
 // SHA-256(`<logger id>:<release id>`) as an unsigned big-endian integer, mod 10 000.
@@ -95,5 +95,16 @@ describe('rollout share buckets', () => {
 
   test('when the share is not a number, then nobody is inside', () => {
     expect(inShare(0, Number.NaN)).toBe(false);
+    expect(shareThreshold(Number.NaN)).toBe(0);
+  });
+
+  test.each([
+    { share: 0.1, threshold: 10 },
+    { share: 0.29, threshold: 29 },
+    { share: 2.5, threshold: 250 },
+    { share: 5, threshold: 500 },
+    { share: 100, threshold: 10000 },
+  ])('when the share is $share %, then the first bucket outside it is $threshold (share × 100 in decimal)', ({ share, threshold }) => {
+    expect(shareThreshold(share)).toBe(threshold);
   });
 });
