@@ -1,0 +1,57 @@
+// The session gate and the shell around every signed-in screen.
+import React from 'react';
+import { Redirect, Slot, usePathname, useRouter } from 'expo-router';
+import { View } from 'react-native';
+import { Shell } from '../../components/shell';
+import { destinationsFor } from '../../components/navigation';
+import { useBreakpoints } from '../../components/breakpoints';
+import { Notice, Skeleton } from '../../components/ui';
+import { colors, space } from '../../components/theme';
+import { useMe, useSignOut } from '../../hooks/session';
+
+export default function ConsoleLayout() {
+  const me = useMe();
+  const pathname = usePathname();
+  const router = useRouter();
+  const signOut = useSignOut();
+  const { wide } = useBreakpoints();
+  const redirectFrom = React.useRef<string | null>(null);
+
+  if (me.isPending) {
+    // The navigator stays mounted (hidden) so a deep link keeps its route while the session loads.
+    return (
+      <View style={{ flex: 1, backgroundColor: colors.paper, padding: space.xl }}>
+        <Skeleton rows={4} />
+        <View style={{ display: 'none' }}>
+          <Slot />
+        </View>
+      </View>
+    );
+  }
+  if (me.isError) {
+    return (
+      <View style={{ flex: 1, backgroundColor: colors.paper, padding: space.xl }}>
+        <Notice title="The console cannot reach the server" detail={me.error.message} />
+      </View>
+    );
+  }
+  if (!me.data) {
+    // The pathname changes while the redirect runs; remember the page that was asked for.
+    redirectFrom.current ??= pathname;
+    const from = redirectFrom.current;
+    const next = from && from !== '/' ? `?next=${encodeURIComponent(from)}` : '';
+    return <Redirect href={`/sign-in${next}` as never} />;
+  }
+  redirectFrom.current = null;
+  return (
+    <Shell
+      me={me.data}
+      wide={wide}
+      pathname={pathname}
+      destinations={destinationsFor(me.data.role)}
+      onSignOut={() => signOut.mutate(undefined, { onSettled: () => router.replace('/sign-in') })}
+    >
+      <Slot />
+    </Shell>
+  );
+}

@@ -1,0 +1,64 @@
+// Providers only: fonts shipped with the app, TanStack Query, safe areas.
+import React from 'react';
+import { Slot } from 'expo-router';
+import { useFonts } from 'expo-font';
+import { QueryClient, QueryClientProvider, focusManager } from '@tanstack/react-query';
+import { SafeAreaProvider } from 'react-native-safe-area-context';
+import { Platform, Text, View } from 'react-native';
+import { IBMPlexSans_400Regular } from '@expo-google-fonts/ibm-plex-sans/400Regular';
+import { IBMPlexSans_500Medium } from '@expo-google-fonts/ibm-plex-sans/500Medium';
+import { IBMPlexSans_600SemiBold } from '@expo-google-fonts/ibm-plex-sans/600SemiBold';
+import { IBMPlexSans_700Bold } from '@expo-google-fonts/ibm-plex-sans/700Bold';
+import { IBMPlexMono_400Regular } from '@expo-google-fonts/ibm-plex-mono/400Regular';
+import { IBMPlexMono_500Medium } from '@expo-google-fonts/ibm-plex-mono/500Medium';
+import { colors, type } from '../components/theme';
+import { ApiError } from '../hooks/api';
+
+const queryClient = new QueryClient({
+  defaultOptions: {
+    queries: {
+      retry: (count, err) => !(err instanceof ApiError && err.status >= 400 && err.status < 500) && count < 2,
+      refetchOnWindowFocus: true,
+    },
+  },
+});
+
+// Pause polling while the browser tab is hidden.
+if (Platform.OS === 'web' && typeof document !== 'undefined') {
+  focusManager.setEventListener((handleFocus) => {
+    const onVisibility = () => handleFocus(document.visibilityState === 'visible');
+    document.addEventListener('visibilitychange', onVisibility);
+    return () => document.removeEventListener('visibilitychange', onVisibility);
+  });
+}
+
+export default function RootLayout() {
+  const [loaded, error] = useFonts({
+    IBMPlexSans_400Regular,
+    IBMPlexSans_500Medium,
+    IBMPlexSans_600SemiBold,
+    IBMPlexSans_700Bold,
+    IBMPlexMono_400Regular,
+    IBMPlexMono_500Medium,
+  });
+  if (!loaded && !error) return <View style={{ flex: 1, backgroundColor: colors.paper }} />;
+  return (
+    <SafeAreaProvider>
+      <QueryClientProvider client={queryClient}>
+        <Slot />
+      </QueryClientProvider>
+    </SafeAreaProvider>
+  );
+}
+
+export function ErrorBoundary({ error, retry }: { error: Error; retry: () => void }) {
+  return (
+    <View style={{ flex: 1, backgroundColor: colors.paper, padding: 24, gap: 12, justifyContent: 'center' }}>
+      <Text style={type.title}>Something went wrong on this screen</Text>
+      <Text style={type.body}>{error.message}</Text>
+      <Text onPress={retry} role="button" style={[type.body, { textDecorationLine: 'underline' }]}>
+        Try again
+      </Text>
+    </View>
+  );
+}

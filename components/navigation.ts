@@ -1,0 +1,31 @@
+// The console's destinations. Each issue adds its screens here; the shell shows what a role may open.
+import type { Role } from '../schemas/auth';
+import type { IconName } from './icons';
+
+export type Destination = {
+  href: string;
+  label: string;
+  icon: IconName;
+  roles: readonly Role[];
+  /** On phones, shown in the bottom tab bar (at most five); the rest live under More. */
+  tab?: boolean;
+  /** Only outside production (the dev mailbox). */
+  devOnly?: boolean;
+};
+
+const everyone: readonly Role[] = ['admin', 'release_engineer', 'integrator', 'support'];
+
+export const destinations: Destination[] = [
+  { href: '/', label: 'Overview', icon: 'overview', roles: everyone, tab: true },
+  { href: '/activity', label: 'Activity', icon: 'activity', roles: ['admin', 'release_engineer', 'support'] },
+  { href: '/mailbox', label: 'Mailbox', icon: 'mail', roles: ['admin'], devOnly: true },
+];
+
+export function destinationsFor(role: Role) {
+  return destinations.filter((d) => d.roles.includes(role));
+}
+
+/** Whether a destination is the current page (the overview only on an exact match). */
+export function isCurrent(href: string, pathname: string) {
+  return href === '/' ? pathname === '/' : pathname === href || pathname.startsWith(href + '/');
+}

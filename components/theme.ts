@@ -1,0 +1,57 @@
+import type { TextStyle } from 'react-native';
+
+// Heliodor's design tokens (DESIGN.md). Components take colours, spacing and type from here only.
+export const colors = {
+  ink: '#1E2A2F',
+  paper: '#F7F5EE',
+  surface: '#FFFFFF',
+  line: '#D9D4C7',
+  heliodor: '#C8A82C',
+  moss: '#2F7A55',
+  ember: '#B5542B',
+  amber: '#B98412',
+  slate: '#4F6D7A',
+  inkSoft: '#4A5A61',
+  inkFaint: '#6F7C80',
+  paperDeep: '#EFEBDF',
+  emberWash: '#F8E9E2',
+  amberWash: '#F7EFD9',
+  mossWash: '#E3F0E8',
+  slateWash: '#E4ECEF',
+  onInk: '#F7F5EE',
+} as const;
+
+export const space = { xs: 4, sm: 8, md: 12, lg: 16, xl: 24, xxl: 32 } as const;
+export const radii = { sm: 4, md: 8, lg: 12 } as const;
+
+export const fonts = {
+  regular: 'IBMPlexSans_400Regular',
+  medium: 'IBMPlexSans_500Medium',
+  semibold: 'IBMPlexSans_600SemiBold',
+  bold: 'IBMPlexSans_700Bold',
+  mono: 'IBMPlexMono_400Regular',
+  monoMedium: 'IBMPlexMono_500Medium',
+} as const;
+
+export const type = {
+  body: { fontFamily: fonts.regular, fontSize: 15, lineHeight: 22, color: colors.ink },
+  dense: { fontFamily: fonts.regular, fontSize: 14, lineHeight: 20, color: colors.ink },
+  small: { fontFamily: fonts.regular, fontSize: 13, lineHeight: 18, color: colors.inkSoft },
+  label: { fontFamily: fonts.medium, fontSize: 13, lineHeight: 18, color: colors.inkSoft, letterSpacing: 0.2 },
+  title: { fontFamily: fonts.semibold, fontSize: 22, lineHeight: 28, color: colors.ink },
+  heading: { fontFamily: fonts.semibold, fontSize: 17, lineHeight: 24, color: colors.ink },
+  figure: { fontFamily: fonts.semibold, fontSize: 28, lineHeight: 34, color: colors.ink, fontVariant: ['tabular-nums'] },
+  mono: { fontFamily: fonts.mono, fontSize: 14, lineHeight: 20, color: colors.ink },
+} satisfies Record<string, TextStyle>;
+
+/** Minimum touch target (DESIGN.md: 44 px; gloves on a roof). */
+export const touchTarget = 44;
+
+export type Tone = 'moss' | 'ember' | 'amber' | 'slate' | 'ink';
+export const toneColors: Record<Tone, { fg: string; bg: string }> = {
+  moss: { fg: colors.moss, bg: colors.mossWash },
+  ember: { fg: colors.ember, bg: colors.emberWash },
+  amber: { fg: colors.amber, bg: colors.amberWash },
+  slate: { fg: colors.slate, bg: colors.slateWash },
+  ink: { fg: colors.ink, bg: colors.paperDeep },
+};

@@ -1,0 +1,44 @@
+import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
+import { api, ApiError, STALE } from './api';
+import { meSchema, type Me, type SignInRequest } from '../schemas/auth';
+
+export const sessionKeys = { me: ['session', 'me'] as const };
+
+/** The signed-in person, or null when nobody is signed in. */
+export function useMe() {
+  return useQuery({
+    queryKey: sessionKeys.me,
+    staleTime: STALE.MINUTES.FIVE,
+    retry: (count, err) => !(err instanceof ApiError && err.status === 401) && count < 2,
+    queryFn: async (): Promise<Me | null> => {
+      try {
+        return await api('/api/auth/me', {}, meSchema);
+      } catch (err) {
+        if (err instanceof ApiError && err.status === 401) return null;
+        throw err;
+      }
+    },
+  });
+}
+
+export function useSignIn() {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: (body: SignInRequest) => api<{ user: Me }>('/api/auth/sign-in', { body }),
+    onSuccess: ({ user }) => {
+      qc.clear();
+      qc.setQueryData(sessionKeys.me, user);
+    },
+  });
+}
+
+export function useSignOut() {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: () => api('/api/auth/sign-out', { method: 'POST' }),
+    onSettled: () => {
+      qc.clear();
+      qc.setQueryData(sessionKeys.me, null);
+    },
+  });
+}

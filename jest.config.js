@@ -1,0 +1,52 @@
+// Four projects: unit (pure modules), api (supertest against the real PostgreSQL), client components (jest-expo web),
+// and browser tests (playwright-core driving Debian's Chromium against the exported app).
+const serverTransform = {
+  '^.+\\.[tj]sx?$': [
+    'babel-jest',
+    {
+      babelrc: false,
+      configFile: false,
+      presets: [['@babel/preset-typescript', { allowDeclareFields: true }]],
+      plugins: ['@babel/plugin-transform-modules-commonjs'],
+    },
+  ],
+};
+const esmPackages = ['@tanstack', 'react-native', '@react-native', 'expo', '@expo', 'expo-.*', '@expo-google-fonts', '@react-navigation', 'react-native-.*', 'canonicalize'];
+
+module.exports = {
+  // Browser tests take seconds per step; a global limit is the only one jest honours.
+  testTimeout: 120_000,
+  projects: [
+    {
+      // Pure modules: no database, no network. `npx jest --selectProjects unit` runs them alone.
+      displayName: 'unit',
+      testEnvironment: 'node',
+      roots: ['<rootDir>/tests/unit'],
+      transform: serverTransform,
+      transformIgnorePatterns: ['/node_modules/(?!(canonicalize)/)'],
+    },
+    {
+      displayName: 'api',
+      testEnvironment: 'node',
+      roots: ['<rootDir>/tests/api'],
+      transform: serverTransform,
+      transformIgnorePatterns: ['/node_modules/(?!(canonicalize)/)'],
+      globalSetup: '<rootDir>/tests/setup/global-setup.ts',
+      globalTeardown: '<rootDir>/tests/setup/global-teardown.ts',
+    },
+    {
+      displayName: 'client',
+      preset: 'jest-expo/web',
+      roots: ['<rootDir>/tests/components'],
+      transformIgnorePatterns: [`/node_modules/(?!(${esmPackages.join('|')})/)`],
+    },
+    {
+      displayName: 'browser',
+      testEnvironment: 'node',
+      roots: ['<rootDir>/tests/e2e'],
+      transform: serverTransform,
+      globalSetup: '<rootDir>/tests/setup/global-setup.ts',
+      globalTeardown: '<rootDir>/tests/setup/global-teardown.ts',
+    },
+  ],
+};

@@ -1,0 +1,35 @@
+#!/usr/bin/env node
+// `npm run dev`: PostgreSQL + the API with reload (tsx watch) on PORT (default 8080), and the Expo
+// dev server for the web app on 8081 with fast refresh. The Expo dev server proxies nothing, so
+// open the API's origin for cookies: the web app is built on demand there too.
+'use strict';
+const { spawn } = require('node:child_process');
+const path = require('node:path');
+const b = require('./lib/bootstrap');
+
+const dataDir = path.resolve(b.root, process.env.HELIODOR_DATA || '.data');
+const pgPort = Number(process.env.HELIODOR_PG_PORT || 54329);
+b.ensureNodeModules();
+const cluster = b.pgCluster(dataDir, pgPort);
+cluster.start();
+if (!cluster.databaseExists('heliodor')) cluster.psql('CREATE DATABASE heliodor');
+
+const env = { ...process.env, HELIODOR_DATA: dataDir, HELIODOR_PG_PORT: String(pgPort) };
+const bin = (name) => path.join(b.root, 'node_modules', '.bin', name);
+const children = [
+  spawn(bin('tsx'), ['watch', '--clear-screen=false', 'server/index.ts'], { cwd: b.root, env, stdio: 'inherit' }),
+  spawn(bin('expo'), ['start', '--web', '--port', '8081'], { cwd: b.root, env, stdio: 'inherit' }),
+];
+let stopping = false;
+const stop = () => {
+  if (stopping) return;
+  stopping = true;
+  children.forEach((c) => c.exitCode === null && c.kill('SIGINT'));
+  setTimeout(() => {
+    cluster.stop();
+    process.exit(0);
+  }, 1500);
+};
+process.on('SIGINT', stop);
+process.on('SIGTERM', stop);
+children.forEach((c) => c.on('exit', stop));

@@ -1,0 +1,33 @@
+import { z } from 'zod';
+import type { Sequelize } from 'sequelize';
+import { Op } from 'sequelize';
+import type { Api } from '../http/api';
+import { parse } from '../http/validate';
+import { Activity } from '../db/models';
+
+const activityQuery = z.object({
+  targetType: z.string().max(40).optional(),
+  targetId: z.string().max(80).optional(),
+  before: z.coerce.number().int().positive().optional(), // cursor: rows with a smaller id
+  pageSize: z.coerce.number().int().min(1).max(200).default(50),
+});
+
+export function registerActivityRoutes(api: Api, _deps: { sequelize: Sequelize }) {
+  api.get('/api/activity', async (req, res) => {
+    const q = parse(activityQuery, req.query, 'query');
+    const where = {
+      ...(q.targetType ? { targetType: q.targetType } : {}),
+      ...(q.targetId ? { targetId: q.targetId } : {}),
+    };
+    const [rows, total] = await Promise.all([
+      Activity.findAll({ where: { ...where, ...(q.before ? { id: { [Op.lt]: q.before } } : {}) }, order: [['id', 'DESC']], limit: q.pageSize }),
+      Activity.count({ where }),
+    ]);
+    const last = rows[rows.length - 1];
+    res.json({
+      rows: rows.map((r) => ({ ...r.toJSON(), at: r.at.toISOString() })),
+      total,
+      ...(rows.length === q.pageSize && last ? { nextCursor: String(last.id) } : {}),
+    });
+  });
+}

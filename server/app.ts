@@ -1,0 +1,108 @@
+// Builds the Express app (no listening here, so tests run it in-process with supertest).
+import fs from 'node:fs';
+import path from 'node:path';
+import crypto from 'node:crypto';
+import express, { type Request, type Response, type NextFunction } from 'express';
+import helmet from 'helmet';
+import cookieParser from 'cookie-parser';
+import pinoHttp from 'pino-http';
+import pino, { type Logger as Pino } from 'pino';
+import type { Sequelize } from 'sequelize';
+import type { Config } from './config';
+import type { Mailer } from './mail/mailer';
+import { authenticate } from './auth/middleware';
+import { createApi } from './http/api';
+import { errorHandler } from './http/errors';
+import { problems } from './http/problem';
+import { registerAuthRoutes } from './auth/routes';
+import { registerHealthRoutes, type Readiness } from './health/routes';
+import { registerMailRoutes } from './mail/routes';
+import { registerOverviewRoutes } from './overview/routes';
+import { registerActivityRoutes } from './activity/routes';
+import { registerTeamRoutes } from './team/routes';
+
+export type AppDeps = {
+  config: Pick<Config, 'jwtSecret' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
+  sequelize: Sequelize;
+  mailer: Mailer;
+  readiness: Readiness;
+  /** The clock; tests inject a fixed one. */
+  now?: () => Date;
+  logger?: Pino;
+};
+
+export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Readiness };
+
+export function createApp(deps: AppDeps) {
+  const services: AppServices = { ...deps, now: deps.now ?? (() => new Date()), logger: deps.logger ?? pino({ level: 'silent' }) };
+  const app = express();
+  app.disable('x-powered-by');
+  app.set('trust proxy', 'loopback');
+
+  app.use(
+    pinoHttp({
+      logger: services.logger,
+      genReqId: (req, res) => {
+        const id = crypto.randomUUID();
+        res.setHeader('X-Request-Id', id);
+        return id;
+      },
+      // Never log credentials: cookies, bearer tokens.
+      redact: ['req.headers.authorization', 'req.headers.cookie', 'res.headers["set-cookie"]'],
+      autoLogging: { ignore: (req) => req.url === '/api/health' },
+    }),
+  );
+  app.use(
+    helmet({
+      contentSecurityPolicy: {
+        directives: {
+          'default-src': ["'self'"],
+          'script-src': ["'self'", "'wasm-unsafe-eval'"],
+          'style-src': ["'self'", "'unsafe-inline'"],
+          'img-src': ["'self'", 'data:', 'blob:'],
+          'font-src': ["'self'", 'data:'],
+          'media-src': ["'self'", 'blob:', 'mediastream:'],
+          'connect-src': ["'self'"],
+          'worker-src': ["'self'", 'blob:'],
+          'upgrade-insecure-requests': null,
+        },
+      },
+      crossOriginEmbedderPolicy: false,
+      strictTransportSecurity: services.config.production,
+    }),
+  );
+  app.use(cookieParser());
+  // Device API bodies are limited to 16 KiB; the console API to 1 MiB (uploads use multipart).
+  app.use('/api/device', express.json({ limit: '16kb', type: ['application/json', 'application/*+json'] }));
+  app.use('/api', express.json({ limit: '1mb' }));
+  app.use('/api', authenticate(services.config.jwtSecret));
+
+  const router = express.Router();
+  const api = createApi(router);
+  registerHealthRoutes(api, services);
+  registerAuthRoutes(api, { sequelize: services.sequelize, jwtSecret: services.config.jwtSecret });
+  registerMailRoutes(api, services.config);
+  registerOverviewRoutes(api, services);
+  registerActivityRoutes(api, services);
+  registerTeamRoutes(api);
+  app.use(router);
+
+  app.use('/api', (req: Request, _res: Response, next: NextFunction) => next(problems.notFound('endpoint', `No endpoint ${req.method} ${req.path}.`)));
+
+  // The exported web app, with client-side routes falling back to index.html.
+  const webDir = services.config.webDir;
+  const indexHtml = path.join(webDir, 'index.html');
+  app.use(express.static(webDir, { index: false, maxAge: '1h', setHeaders: noCacheForHtml }));
+  app.get('/{*splat}', (_req, res, next) => {
+    if (!fs.existsSync(indexHtml)) return next(problems.notFound('page', 'The web app is not built yet: run npm start.'));
+    res.setHeader('Cache-Control', 'no-cache');
+    res.sendFile(indexHtml);
+  });
+
+  app.use(errorHandler);
+  return Object.assign(app, { apiRouter: router, services });
+}
+
+function noCacheForHtml(res: Response, file: string) {
+  if (file.endsWith('.html')) res.setHeader('Cache-Control', 'no-cache');
+}

@@ -1,0 +1,40 @@
+// Who may call what: one row per (method, route). The API refuses to register a route that has
+// no row here, and tests/api/access.test.ts walks the router to prove every route is covered.
+import type { Role } from '../../schemas/auth';
+import type { Scope } from './actor';
+
+export type Rule =
+  | { kind: 'public' }
+  | { kind: 'device' } // a logger's own bearer token; checked by the device API itself
+  | { kind: 'people'; roles: readonly Role[]; scopes?: readonly Scope[] };
+
+const everyone: readonly Role[] = ['admin', 'release_engineer', 'integrator', 'support'];
+const publicRule: Rule = { kind: 'public' };
+const device: Rule = { kind: 'device' };
+const people = (roles: readonly Role[], scopes?: readonly Scope[]): Rule => ({ kind: 'people', roles, scopes });
+
+export const access: Record<string, Rule> = {
+  // Foundation
+  'GET /api/health': publicRule,
+  'POST /api/auth/sign-in': publicRule,
+  'POST /api/auth/sign-out': publicRule,
+  'GET /api/auth/me': people(everyone),
+  'GET /api/overview': people(everyone),
+  'GET /api/activity': people(['admin', 'release_engineer', 'support']),
+  'GET /api/dev/outbox': people(['admin']),
+  'GET /api/users': people(['admin', 'release_engineer', 'support', 'integrator']),
+};
+
+/** Adds rows for a domain; throws on a duplicate so two domains cannot silently disagree. */
+export function declareAccess(rows: Record<string, Rule>) {
+  for (const [key, rule] of Object.entries(rows)) {
+    if (access[key]) throw new Error(`access rule declared twice: ${key}`);
+    access[key] = rule;
+  }
+}
+
+export const rules = { public: publicRule, device, people, everyone };
+
+export function ruleFor(method: string, path: string): Rule | undefined {
+  return access[`${method.toUpperCase()} ${path}`];
+}

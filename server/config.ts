@@ -1,0 +1,87 @@
+// All environment settings, validated once at boot (fail fast with a readable message).
+import fs from 'node:fs';
+import path from 'node:path';
+import crypto from 'node:crypto';
+import { z } from 'zod';
+
+const root = path.resolve(__dirname, '..');
+
+const envSchema = z.object({
+  PORT: z.coerce.number().int().min(0).max(65535).default(8080),
+  HELIODOR_ENV: z.enum(['demo', 'production', 'test']).default('demo'),
+  HELIODOR_DATA: z.string().default('.data'),
+  HELIODOR_STORE: z.string().default('firmware-store'),
+  HELIODOR_PG_PORT: z.coerce.number().int().min(1).max(65535).default(54329),
+  HELIODOR_DB_NAME: z.string().regex(/^[a-z_][a-z0-9_]*$/).default('heliodor'),
+  DATABASE_URL: z.string().optional(),
+  HELIODOR_SMTP_PORT: z.coerce.number().int().min(1).max(65535).default(2525),
+  HELIODOR_DEMO: z.enum(['0', '1']).default('1'),
+  HELIODOR_DEMO_PASSWORD: z.string().min(12).max(72).default('fernhollow-demo'),
+  HELIODOR_JWT_SECRET: z.string().min(32).optional(),
+  HELIODOR_PUBLIC_URL: z.string().url().optional(),
+  HELIODOR_IMAGE_LIMIT: z.coerce.number().int().min(1024).default(16 * 1024 * 1024),
+  HELIODOR_DEVICE_RATE: z.coerce.number().int().min(1).default(60),
+  HELIODOR_DB_POOL: z.coerce.number().int().min(1).max(200).default(20),
+  HELIODOR_LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info'),
+  SMTP_HOST: z.string().optional(),
+  SMTP_PORT: z.coerce.number().int().optional(),
+  SMTP_USER: z.string().optional(),
+  SMTP_PASSWORD: z.string().optional(),
+  SMTP_SECURE: z.enum(['0', '1']).default('0'),
+  MAIL_FROM: z.string().default('Heliodor <heliodor@localhost>'),
+});
+
+export type Config = ReturnType<typeof loadConfig>;
+
+function readSecret(dataDir: string, name: string): string {
+  const dir = path.join(dataDir, 'secrets');
+  fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
+  const file = path.join(dir, name);
+  if (!fs.existsSync(file)) {
+    fs.writeFileSync(file, crypto.randomBytes(32).toString('base64url'), { mode: 0o600 });
+  }
+  return fs.readFileSync(file, 'utf8').trim();
+}
+
+export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
+  const parsed = envSchema.safeParse(env);
+  if (!parsed.success) {
+    const lines = parsed.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
+    throw new Error(`Invalid Heliodor settings:\n${lines.join('\n')}`);
+  }
+  const e = parsed.data;
+  const production = e.HELIODOR_ENV === 'production';
+  const dataDir = path.resolve(root, e.HELIODOR_DATA);
+  const databaseUrl =
+    e.DATABASE_URL ??
+    `postgres://heliodor:${encodeURIComponent(readSecret(dataDir, 'pg-password'))}@127.0.0.1:${e.HELIODOR_PG_PORT}/${e.HELIODOR_DB_NAME}`;
+  return {
+    env: e.HELIODOR_ENV,
+    production,
+    /** Demo conveniences: seed, printed sign-ins, dev mailbox. Off in production. */
+    demo: !production && e.HELIODOR_DEMO === '1',
+    devMailbox: !production,
+    port: e.PORT,
+    dataDir,
+    storeDir: path.resolve(root, e.HELIODOR_STORE),
+    outboxDir: path.join(dataDir, 'outbox'),
+    databaseUrl,
+    dbPool: e.HELIODOR_DB_POOL,
+    jwtSecret: e.HELIODOR_JWT_SECRET ?? readSecret(dataDir, 'jwt-secret'),
+    publicUrl: e.HELIODOR_PUBLIC_URL,
+    demoPassword: e.HELIODOR_DEMO_PASSWORD,
+    imageLimitBytes: e.HELIODOR_IMAGE_LIMIT,
+    deviceRatePerMinute: e.HELIODOR_DEVICE_RATE,
+    logLevel: e.HELIODOR_LOG_LEVEL,
+    webDir: path.join(root, 'dist'),
+    smtp: production
+      ? {
+          host: e.SMTP_HOST ?? 'localhost',
+          port: e.SMTP_PORT ?? 587,
+          secure: e.SMTP_SECURE === '1',
+          auth: e.SMTP_USER ? { user: e.SMTP_USER, pass: e.SMTP_PASSWORD ?? '' } : undefined,
+        }
+      : { host: '127.0.0.1', port: e.HELIODOR_SMTP_PORT, secure: false, auth: undefined },
+    mailFrom: e.MAIL_FROM,
+  };
+}

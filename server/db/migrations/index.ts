@@ -1,0 +1,15 @@
+// Every migration in order. Add a file named NNNN_what.ts exporting up/down, then list it here.
+import type { Sequelize, Transaction } from 'sequelize';
+import * as m0001 from './0001_people_and_activity';
+import * as m0002 from './0002_registry';
+
+export type Migration = {
+  name: string;
+  up: (sequelize: Sequelize, transaction: Transaction) => Promise<void>;
+  down: (sequelize: Sequelize, transaction: Transaction) => Promise<void>;
+};
+
+export const migrations: Migration[] = [
+  { name: '0001_people_and_activity', ...m0001 },
+  { name: '0002_registry', ...m0002 },
+];

@@ -1,0 +1,15 @@
+// Registers every Sequelize model on one instance. Later domains add their init call here.
+import type { Sequelize } from 'sequelize';
+import { User } from './user';
+import { Activity } from './activity';
+import { initRegistryModels } from './registry';
+
+export { User } from './user';
+export { Activity } from './activity';
+export * from './registry';
+
+export function initModels(sequelize: Sequelize) {
+  User.initModel(sequelize);
+  Activity.initModel(sequelize);
+  initRegistryModels(sequelize);
+}

@@ -1,0 +1,69 @@
+// Seeds the demo scenario into a new database, all in one transaction. Logger tokens are issued
+// like any others; their bench sheet is written to the data folder (demo mode only) so the
+// fleet simulator can check in as those loggers.
+import fs from 'node:fs';
+import path from 'node:path';
+import type { Sequelize } from 'sequelize';
+import { Activity, Logger, LoggerModel, Site, SiteIntegrator, User } from '../models';
+import { hashPassword } from '../../auth/passwords';
+import { newToken } from '../../auth/tokens';
+import { demoEmail, demoModel, demoPeople, demoSites } from './scenario';
+
+export async function databaseIsNew(sequelize: Sequelize): Promise<boolean> {
+  return (await User.count()) === 0 && (await LoggerModel.count()) === 0;
+}
+
+export type SeedOptions = { password: string; dataDir: string; now: Date; bcryptCost: number };
+
+export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Promise<void> {
+  const { now } = options;
+  const passwordHash = await hashPassword(options.password, options.bcryptCost);
+  const bench: string[] = ['serial,token,model,board'];
+  await sequelize.transaction(async (transaction) => {
+    const people = new Map<string, User>();
+    for (const p of demoPeople) {
+      people.set(p.name, await User.create({ email: demoEmail(p.name), name: p.name, role: p.role, passwordHash }, { transaction }));
+    }
+    const model = await LoggerModel.create(demoModel, { transaction });
+    let serialNo = 1;
+    for (const [i, s] of demoSites.entries()) {
+      const integrator = people.get(s.integrator)!;
+      const site = await Site.create(
+        { name: s.name, customer: s.customer, address: s.address, latitude: s.latitude, longitude: s.longitude, timeZone: 'Europe/London', createdBy: integrator.id },
+        { transaction },
+      );
+      await SiteIntegrator.create({ siteId: site.id, userId: integrator.id }, { transaction });
+      for (let k = 0; k < 2; k++) {
+        const board = ['A', 'B', 'C'][(i + k) % 3];
+        const serial = `FL2-${String(2400 + serialNo++).padStart(5, '0')}`;
+        const { token, digest } = newToken('hlt_');
+        bench.push(`${serial},${token},${model.name},${board}`);
+        const silent = i === 4 && k === 1;
+        await Logger.create(
+          {
+            serial, modelId: model.id, board, track: 'stable', status: 'enrolled', tokenDigest: digest, tokenIssuedAt: now,
+            siteId: site.id, enrolledAt: new Date(now.getTime() - (30 + i) * 86400_000), enrolledBy: integrator.id,
+            registeredBy: people.get('Morgan')!.id, firmware: board === 'A' ? '2.1.4' : '2.2.0',
+            supplyV: board === 'A' ? 4.7 : 5.1,
+            lastSeenAt: new Date(now.getTime() - (silent ? 3 * 3600_000 : (5 + i) * 60_000)),
+          },
+          { transaction },
+        );
+      }
+    }
+    // Two registered loggers waiting on the shelf for enrollment.
+    for (const board of ['B', 'C']) {
+      const serial = `FL2-${String(2400 + serialNo++).padStart(5, '0')}`;
+      const { token, digest } = newToken('hlt_');
+      bench.push(`${serial},${token},${model.name},${board}`);
+      await Logger.create({ serial, modelId: model.id, board, track: 'stable', status: 'registered', tokenDigest: digest, tokenIssuedAt: now, registeredBy: people.get('Morgan')!.id }, { transaction });
+    }
+    await Activity.create(
+      { actorType: 'system', actorId: null, actorName: 'system', action: 'demo.seeded', targetType: 'system', targetId: null, summary: 'Demo scenario seeded: Fernhollow Energy Co-op', requestId: null, details: null },
+      { transaction },
+    );
+  });
+  const demoDir = path.join(options.dataDir, 'demo');
+  fs.mkdirSync(demoDir, { recursive: true, mode: 0o700 });
+  fs.writeFileSync(path.join(demoDir, 'bench-sheet.csv'), bench.join('\n') + '\n', { mode: 0o600 });
+}

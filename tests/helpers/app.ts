@@ -1,0 +1,115 @@
+// An in-process Heliodor on a database of its own (copied from the migrated template), for API
+// and browser tests. Each test file gets a fresh database, so files run in parallel safely.
+import crypto from 'node:crypto';
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import type { Server } from 'node:http';
+import { Sequelize } from 'sequelize';
+import request from 'supertest';
+import { createApp } from '../../server/app';
+import { createDatabase } from '../../server/db';
+import { createMailer } from '../../server/mail/mailer';
+import { seedDemo } from '../../server/db/seed/demo';
+import { User } from '../../server/db/models';
+import { hashPassword } from '../../server/auth/passwords';
+import type { Role } from '../../schemas/auth';
+import { testEnv } from './env';
+
+export const testPassword = 'correct horse battery';
+
+async function createDatabaseFromTemplate(): Promise<{ url: string; drop: () => Promise<void> }> {
+  const env = testEnv();
+  const name = `t_${crypto.randomBytes(6).toString('hex')}`;
+  const admin = new Sequelize(env.adminUrl, { logging: false });
+  try {
+    await admin.query(`CREATE DATABASE ${name} TEMPLATE ${env.templateDb}`);
+  } finally {
+    await admin.close();
+  }
+  return {
+    url: `${env.baseUrl}/${name}`,
+    drop: async () => {
+      const a = new Sequelize(env.adminUrl, { logging: false });
+      try {
+        await a.query(`DROP DATABASE IF EXISTS ${name} WITH (FORCE)`);
+      } finally {
+        await a.close();
+      }
+    },
+  };
+}
+
+export type TestApp = Awaited<ReturnType<typeof startTestApp>>;
+
+export async function startTestApp(options: { seed?: 'demo' | 'none'; now?: () => Date; webDir?: string } = {}) {
+  const env = testEnv();
+  const db = await createDatabaseFromTemplate();
+  const sequelize = createDatabase(db.url, { poolMax: 10 });
+  const storeDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-store-'));
+  const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-data-'));
+  if (options.seed === 'demo') {
+    await seedDemo(sequelize, { password: testPassword, dataDir, now: options.now?.() ?? new Date(), bcryptCost: 10 });
+  }
+  const app = createApp({
+    config: {
+      jwtSecret: crypto.randomBytes(32).toString('base64url'),
+      demo: true,
+      devMailbox: true,
+      production: false,
+      outboxDir: env.outboxDir,
+      storeDir,
+      webDir: options.webDir ?? path.resolve(__dirname, '../../dist'),
+      publicUrl: undefined,
+      imageLimitBytes: 16 * 1024 * 1024,
+      deviceRatePerMinute: 60,
+    },
+    sequelize,
+    mailer: createMailer({ host: '127.0.0.1', port: env.smtpPort, secure: false, from: 'Heliodor <heliodor@localhost>' }),
+    readiness: { migrated: true, seeded: options.seed === 'demo' ? 'complete' : 'skipped' },
+    now: options.now,
+  });
+
+  let server: Server | null = null;
+  const t = {
+    app,
+    sequelize,
+    storeDir,
+    dataDir,
+    /** A supertest agent that keeps cookies, i.e. a browser session. */
+    agent: () => request.agent(app),
+    request: () => request(app),
+    /** Creates a person with the role (or reuses the demo person) and returns a signed-in agent. */
+    async signedIn(role: Role, name = `Test ${role}`) {
+      const email = `${name.toLowerCase().replace(/[^a-z0-9]+/g, '.')}@test.example`;
+      if (!(await User.findOne({ where: { email } }))) {
+        await User.create({ email, name, role, passwordHash: await hashPassword(testPassword, 10) });
+      }
+      const agent = request.agent(app);
+      const res = await agent.post('/api/auth/sign-in').send({ email, password: testPassword });
+      if (res.status !== 200) throw new Error(`sign-in failed: ${res.status} ${JSON.stringify(res.body)}`);
+      return agent;
+    },
+    /** Listens on 127.0.0.1 with a random port, for browser tests. */
+    async listen(): Promise<string> {
+      server = await new Promise<Server>((resolve) => {
+        const s = app.listen(0, '127.0.0.1', () => resolve(s));
+      });
+      return `http://127.0.0.1:${(server.address() as { port: number }).port}`;
+    },
+    async close() {
+      if (server) {
+        server.closeAllConnections();
+        await new Promise((r) => server!.close(r));
+      }
+      await sequelize.close();
+      await db.drop();
+      fs.rmSync(storeDir, { recursive: true, force: true });
+      fs.rmSync(dataDir, { recursive: true, force: true });
+    },
+  };
+  return t;
+}
+
+/** Header every cookie-authenticated write must carry (CSRF guard). */
+export const csrf = { 'X-Requested-With': 'heliodor' } as const;

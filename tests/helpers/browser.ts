@@ -1,0 +1,28 @@
+// Debian's Chromium driven by playwright-core (never a browser download), with screenshots kept
+// under tests/e2e/artifacts/ (git-ignored).
+import fs from 'node:fs';
+import path from 'node:path';
+import { chromium, type Browser, type Page } from 'playwright-core';
+
+export const viewports = { phone: { width: 390, height: 844 }, wide: { width: 1280, height: 800 } } as const;
+export const artifacts = path.resolve(__dirname, '../e2e/artifacts');
+
+export function launchChromium(extraArgs: string[] = []): Promise<Browser> {
+  return chromium.launch({
+    executablePath: process.env.HELIODOR_CHROMIUM ?? '/usr/bin/chromium',
+    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync', ...extraArgs],
+  });
+}
+
+export async function screenshot(page: Page, name: string) {
+  fs.mkdirSync(artifacts, { recursive: true });
+  await page.screenshot({ path: path.join(artifacts, `${name}.png`), fullPage: true });
+}
+
+/** Signs in through the sign-in screen, as a person would. */
+export async function signIn(page: Page, base: string, email: string, password: string) {
+  await page.goto(`${base}/sign-in`);
+  await page.getByTestId('email').fill(email);
+  await page.getByTestId('password').fill(password);
+  await page.getByTestId('sign-in').click();
+}
