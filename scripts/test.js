@@ -34,7 +34,8 @@ async function main() {
   try {
     cluster.start();
     cluster.psql('CREATE DATABASE heliodor_template');
-    b.ensureWebBuild();
+    // HELIODOR_SKIP_WEB_BUILD=1 skips the export when only unit/API tests are run.
+    if (process.env.HELIODOR_SKIP_WEB_BUILD !== '1') b.ensureWebBuild();
     const env = {
       ...process.env,
       HELIODOR_ENV: 'test',

@@ -198,8 +198,31 @@ const webSources = ['app', 'components', 'hooks', 'schemas', 'assets', 'public',
 /** Exports the Expo web app to dist/ when the build is missing or older than its sources. */
 function ensureWebBuild({ force = false } = {}) {
   const stamp = path.join(root, 'dist', '.heliodor-build');
-  const built = fs.existsSync(stamp) ? fs.statSync(stamp).mtimeMs : 0;
-  if (!force && built > newestMtime(webSources)) return false;
+  const fresh = () => (fs.existsSync(stamp) ? fs.statSync(stamp).mtimeMs : 0) > newestMtime(webSources);
+  if (!force && fresh()) return false;
+  // One build at a time: several `npm test` runs may share this checkout.
+  const lock = path.join(root, '.expo-build.lock');
+  const waitUntil = Date.now() + 10 * 60 * 1000;
+  for (;;) {
+    try {
+      fs.mkdirSync(lock);
+      break;
+    } catch {
+      const age = fs.existsSync(lock) ? Date.now() - fs.statSync(lock).mtimeMs : 0;
+      if (age > 10 * 60 * 1000) fs.rmSync(lock, { recursive: true, force: true });
+      if (Date.now() > waitUntil) throw new Error('another web build holds .expo-build.lock');
+      Atomics.wait(new Int32Array(new SharedArrayBuffer(4)), 0, 0, 1000);
+    }
+  }
+  try {
+    if (!force && fresh()) return false;
+    return exportWeb(stamp);
+  } finally {
+    fs.rmSync(lock, { recursive: true, force: true });
+  }
+}
+
+function exportWeb(stamp) {
   log('building the web app (expo export --platform web)');
   const started = Date.now();
   run(path.join(root, 'node_modules', '.bin', 'expo'), ['export', '--platform', 'web', '--output-dir', 'dist'], {
