@@ -75,7 +75,7 @@ describe('Ed25519 (RFC 8032)', () => {
   });
 
   test.each(rfc8032)('when the $name secret key signs its message, then the RFC signature comes out (Ed25519 is deterministic)', (vector) => {
-    // RFC 8037 OKP JWK: d is the 32-byte seed, x the public key.
+    // RFC 8037 §2 OKP JWK (from memory): d is the 32-byte seed, x the public key. The public key derived from d is checked below.
     const privateKey = createPrivateKey({
       key: { kty: 'OKP', crv: 'Ed25519', d: b64url(hex(vector.secret)), x: b64url(hex(vector.publicKey)) },
       format: 'jwk',
