@@ -9,7 +9,7 @@ import {
   type InstallForProfile,
   type ModelLimits,
 } from '../../server/loggers/calibration';
-import { measurementProfile as measurementProfileSchema } from '../../schemas/loggers';
+import { installDetails, measurementProfile as measurementProfileSchema, registerLoggerRequest } from '../../schemas/loggers';
 
 // Check values: TI INA226 data sheet SBOS547 (REFERENCE.md §8): shunt full scale 81.92 mV, bus range 0–36 V,
 // Eq. 1 CAL = 0.00512 / (Current_LSB × R_SHUNT), Eq. 2 Current_LSB = max / 2^15, Eq. 3 Current = Shunt × CAL / 2048,
@@ -37,7 +37,8 @@ function errorsOf(over: Partial<InstallForProfile>, limits: ModelLimits = chipLi
   return result.errors;
 }
 
-describe('the datasheet worked example (TI INA226 data sheet SBOS547, Table 1)', () => {
+// Source of this block: TI INA226 data sheet SBOS547, Table 1 and Eq. 1–4.
+describe('the power-monitor datasheet worked example (Table 1)', () => {
   test('when R_SHUNT is 2 mΩ and the current LSB 1 mA, then the calibration register is 2560 = A00h (Eq. 1)', () => {
     const cal = calibrationFor(0.001, 0.002);
     expect(cal).toBe(2560);
@@ -214,7 +215,8 @@ describe('measurement profile', () => {
   });
 });
 
-describe('sample interval (from the probe conversion times, Maxim DS18B20 data sheet resolution table)', () => {
+// Source of the conversion times: Maxim DS18B20 data sheet, resolution table (REFERENCE.md §9).
+describe('sample interval (from the temperature probe datasheet conversion times)', () => {
   test('when the probe resolution is 9, 10, 11 or 12 bits, then the interval is whole seconds, at least 1 s and at least 4× the conversion time', () => {
     // Max conversion time: 9-bit 93.75 ms, 10-bit 187.5 ms, 11-bit 375 ms, 12-bit 750 ms (REFERENCE.md §9).
     const conversionMs: Record<number, number> = { 9: 93.75, 10: 187.5, 11: 375, 12: 750 };
@@ -226,5 +228,29 @@ describe('sample interval (from the probe conversion times, Maxim DS18B20 data s
       // and no longer than needed: one second less would break one of the rules
       expect(seconds === 1 || (seconds - 1) * 1000 < 4 * conversionMs[bits]).toBe(true);
     }
+  });
+});
+
+describe('shared install and registration schemas', () => {
+  const typical = { panelWp: 400, panelVocV: 22.4, shuntOhm: 0.002, maxCurrentA: 15, tempResolutionBits: 12 };
+
+  test('when install details are typed, then the form schema takes the probe family\'s 9–12 bits and refuses zero or out-of-range values', () => {
+    // Probe resolutions 9 to 12 bits: Maxim DS18B20 data sheet (REFERENCE.md §9).
+    expect(installDetails.safeParse(typical).success).toBe(true);
+    expect(installDetails.safeParse({ ...typical, tempResolutionBits: 9 }).success).toBe(true);
+    expect(installDetails.safeParse({ ...typical, tempResolutionBits: 8 }).success).toBe(false);
+    expect(installDetails.safeParse({ ...typical, tempResolutionBits: 13 }).success).toBe(false);
+    expect(installDetails.safeParse({ ...typical, shuntOhm: 0 }).success).toBe(false);
+    expect(installDetails.safeParse({ ...typical, notes: 'x'.repeat(501) }).success).toBe(false);
+    // What the form accepts goes straight into the calibration.
+    const parsed = installDetails.parse(typical);
+    expect(measurementProfile(parsed, chipLimits).ok).toBe(true);
+  });
+
+  test('when a logger is registered without a track, then it goes on the stable track and its serial is trimmed', () => {
+    const parsed = registerLoggerRequest.parse({ serial: ' FL2-AV-0001 ', modelId: '5b0e6f0a-2c1d-4e8f-9a3b-7c6d5e4f3a21', board: 'B' });
+    expect(parsed).toEqual({ serial: 'FL2-AV-0001', modelId: '5b0e6f0a-2c1d-4e8f-9a3b-7c6d5e4f3a21', board: 'B', track: 'stable' });
+    expect(registerLoggerRequest.safeParse({ ...parsed, track: 'beta' }).success).toBe(false);
+    expect(registerLoggerRequest.safeParse({ ...parsed, serial: 'FL 2' }).success).toBe(false);
   });
 });

@@ -16,7 +16,8 @@ const table1: Array<[number, number]> = [
 
 describe('temperature probe readings', () => {
   const rows = table1.map(([raw, celsius]) => [`${raw.toString(16).toUpperCase().padStart(4, '0')}h`, celsius, raw] as const);
-  test.each(rows)('when the temperature register reads %s, then it decodes to %s °C (Maxim DS18B20 data sheet, Table 1)', (_hex, celsius, raw) => {
+  // Maxim DS18B20 data sheet, Table 1.
+  test.each(rows)('when the temperature register reads %s, then it decodes to %s °C (probe datasheet, Table 1)', (_hex, celsius, raw) => {
     expect(decodeProbeRaw(raw)).toBe(celsius);
   });
 
@@ -31,14 +32,16 @@ describe('temperature probe readings', () => {
     expect(() => decodeProbeRaw(1.5)).toThrow(RangeError);
   });
 
-  test('when a reading is exactly +85 °C, then it is flagged as the power-on value (Maxim DS18B20 data sheet, Table 1 footnote)', () => {
+  // Maxim DS18B20 data sheet, Table 1 footnote: "The power-on reset value of the temperature register is +85°C."
+  test('when a reading is exactly +85 °C, then it is flagged as the power-on value (probe datasheet, Table 1 footnote)', () => {
     expect(probeReadingFault(decodeProbeRaw(0x0550))).toBe('power_on_value');
     // One count either side is a real temperature.
     expect(probeReadingFault(decodeProbeRaw(0x0551))).toBeNull();
     expect(probeReadingFault(decodeProbeRaw(0x054f))).toBeNull();
   });
 
-  test('when a reading is outside −55…+125 °C, then it is flagged out of range; the limits themselves are valid (Maxim DS18B20 data sheet)', () => {
+  // Maxim DS18B20 data sheet: measuring range −55 °C to +125 °C.
+  test('when a reading is outside −55…+125 °C, then it is flagged out of range; the limits themselves are valid (probe datasheet)', () => {
     expect(probeReadingFault(decodeProbeRaw(0xfc90))).toBeNull(); // −55 °C
     expect(probeReadingFault(decodeProbeRaw(0x07d0))).toBeNull(); // +125 °C
     expect(probeReadingFault(decodeProbeRaw(0xfc8f))).toBe('out_of_range'); // −55.0625 °C
