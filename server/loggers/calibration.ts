@@ -54,7 +54,7 @@ export type ProfileResult =
  * Binary floating point cannot hold 0.002 or 0.04096 exactly, so a quotient that is mathematically whole can
  * land a hair below it: 0.00512 / (0.000005 × 0.04096) is exactly 25000 but computes as 24999.999999999996,
  * and trunc would lose a whole count. A fixed epsilon would not do either: a genuine quotient such as
- * 0.00512 / (0.000001 × 0.162092) = 31586.99997… sits within 1e-9 of the next integer and must stay 31586.
+ * 0.00512 / (0.000001 × 0.162092) = 31586.99997… is within a relative 1e-9 of the next integer and must stay 31586.
  */
 type Decimal = { digits: bigint; exponent: number };
 function decimalOf(x: number): Decimal {
@@ -63,14 +63,16 @@ function decimalOf(x: number): Decimal {
   const fraction = match[2] ?? '';
   return { digits: BigInt(match[1] + fraction), exponent: Number(match[3] ?? 0) - fraction.length };
 }
-const pow10 = (n: number) => 10n ** BigInt(n);
+// BigInt() rather than 10n literals: the client bundle's transpiler settings need not know BigInt literals.
+const ONE = BigInt(1);
+const pow10 = (n: number) => BigInt(10) ** BigInt(n);
 
 /** trunc(a / (b × c)) computed exactly on the decimals a, b, c (all positive). */
 function truncQuotient(a: number, b: number, c: number): number {
   const [da, db, dc] = [decimalOf(a), decimalOf(b), decimalOf(c)];
   const shift = da.exponent - db.exponent - dc.exponent;
-  const numerator = da.digits * (shift > 0 ? pow10(shift) : 1n);
-  const denominator = db.digits * dc.digits * (shift < 0 ? pow10(-shift) : 1n);
+  const numerator = da.digits * (shift > 0 ? pow10(shift) : ONE);
+  const denominator = db.digits * dc.digits * (shift < 0 ? pow10(-shift) : ONE);
   return Number(numerator / denominator);
 }
 
