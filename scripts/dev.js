@@ -1,7 +1,7 @@
 #!/usr/bin/env node
 // `npm run dev`: PostgreSQL + the API with reload (tsx watch) on PORT (default 8080), and the Expo
-// dev server for the web app on 8081 with fast refresh. The Expo dev server proxies nothing, so
-// open the API's origin for cookies: the web app is built on demand there too.
+// dev server with fast refresh on http://127.0.0.1:8081, which forwards /api to the API
+// (metro.config.js), so open 8081 while developing.
 'use strict';
 const { spawn } = require('node:child_process');
 const path = require('node:path');
@@ -14,7 +14,7 @@ const cluster = b.pgCluster(dataDir, pgPort);
 cluster.start();
 if (!cluster.databaseExists('heliodor')) cluster.psql('CREATE DATABASE heliodor');
 
-const env = { ...process.env, HELIODOR_DATA: dataDir, HELIODOR_PG_PORT: String(pgPort) };
+const env = { ...process.env, HELIODOR_DATA: dataDir, HELIODOR_PG_PORT: String(pgPort), HELIODOR_API_PORT: process.env.PORT || '8080', EXPO_OFFLINE: '1' };
 const bin = (name) => path.join(b.root, 'node_modules', '.bin', name);
 const children = [
   spawn(bin('tsx'), ['watch', '--clear-screen=false', 'server/index.ts'], { cwd: b.root, env, stdio: 'inherit' }),

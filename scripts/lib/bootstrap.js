@@ -193,7 +193,7 @@ function newestMtime(paths) {
   return newest;
 }
 
-const webSources = ['app', 'components', 'hooks', 'schemas', 'assets', 'public', 'app.json', 'babel.config.js', 'package-lock.json'];
+const webSources = ['app', 'components', 'hooks', 'schemas', 'assets', 'public', 'app.json', 'babel.config.js', 'metro.config.js', 'package-lock.json'];
 
 /** Exports the Expo web app to dist/ when the build is missing or older than its sources. */
 function ensureWebBuild({ force = false } = {}) {
