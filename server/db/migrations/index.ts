@@ -2,6 +2,7 @@
 import type { Sequelize, Transaction } from 'sequelize';
 import * as m0001 from './0001_people_and_activity';
 import * as m0002 from './0002_registry';
+import * as m0003 from './0003_releases';
 
 export type Migration = {
   name: string;
@@ -12,4 +13,5 @@ export type Migration = {
 export const migrations: Migration[] = [
   { name: '0001_people_and_activity', ...m0001 },
   { name: '0002_registry', ...m0002 },
+  { name: '0003_releases', ...m0003 },
 ];

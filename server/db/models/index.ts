@@ -3,13 +3,16 @@ import type { Sequelize } from 'sequelize';
 import { User } from './user';
 import { Activity } from './activity';
 import { initRegistryModels } from './registry';
+import { initReleaseModels } from './releases';
 
 export { User } from './user';
 export { Activity } from './activity';
 export * from './registry';
+export * from './releases';
 
 export function initModels(sequelize: Sequelize) {
   User.initModel(sequelize);
   Activity.initModel(sequelize);
   initRegistryModels(sequelize);
+  initReleaseModels(sequelize);
 }
