@@ -61,3 +61,111 @@ export const measurementProfile = z.object({
   sampleIntervalS: z.number().int().positive(),
 });
 export type MeasurementProfile = z.infer<typeof measurementProfile>;
+
+// ─── Console API: registry requests and views (issue 3) ─────────────────────
+
+export const loggerStatuses = ['registered', 'enrolled', 'retired'] as const;
+export type LoggerStatus = (typeof loggerStatuses)[number];
+
+export const pageSizes = [25, 50, 100] as const;
+
+export const loggersQuery = z.object({
+  q: z.string().trim().max(100, 'at most 100 characters').optional(),
+  siteId: uuid.optional(),
+  modelId: uuid.optional(),
+  status: z.enum(loggerStatuses, { message: 'must be registered, enrolled or retired' }).optional(),
+  page: z.coerce.number({ message: 'must be a number' }).int().min(1, 'pages count from 1').default(1),
+  pageSize: z.coerce
+    .number({ message: 'must be a number' })
+    .refine((n) => (pageSizes as readonly number[]).includes(n), 'must be 25, 50 or 100')
+    .default(25),
+});
+export type LoggersQuery = z.infer<typeof loggersQuery>;
+
+/** A logger token as printed on the label, or the label's whole enrollment link (`…/enroll?t=<token>`). */
+export const loggerTokenInput = z
+  .string({ message: 'is required' })
+  .trim()
+  .min(1, 'is required')
+  .max(2000, 'at most 2000 characters')
+  .transform((value, ctx) => {
+    let token = value;
+    if (/^https?:\/\//i.test(value)) {
+      try {
+        token = new URL(value).searchParams.get('t') ?? '';
+      } catch {
+        token = '';
+      }
+    }
+    if (!/^hlt_[A-Za-z0-9_-]{43}$/.test(token)) {
+      ctx.addIssue({ code: 'custom', message: 'must be a logger token (hlt_ and 43 more characters) or the label\'s enrollment link' });
+      return z.NEVER;
+    }
+    return token;
+  });
+
+export const enrollmentLookupRequest = z.object({ token: loggerTokenInput });
+
+export const enrollRequest = installDetails.extend({ token: loggerTokenInput, siteId: uuid });
+export type EnrollRequest = z.infer<typeof enrollRequest>;
+
+export const moveLoggerRequest = z.object({ siteId: uuid });
+
+export const retireLoggerRequest = z.object({ reason: z.string().trim().max(500, 'at most 500 characters').optional() });
+
+/** A profile change: panel values default to the current ones. */
+export const profileChangeRequest = installDetails
+  .pick({ shuntOhm: true, maxCurrentA: true, tempResolutionBits: true })
+  .extend({ panelWp: installDetails.shape.panelWp.optional(), panelVocV: installDetails.shape.panelVocV.optional() });
+export type ProfileChangeRequest = z.infer<typeof profileChangeRequest>;
+
+/** The profile as the console shows it: the device fields plus the panel it was computed for. */
+export type ProfileView = MeasurementProfile & { panelWp: number | null; panelVocV: number | null; createdAt: string };
+
+export type LoggerRow = {
+  id: string;
+  serial: string;
+  modelId: string;
+  modelName: string;
+  board: string;
+  track: Track;
+  status: LoggerStatus;
+  siteId: string | null;
+  siteName: string | null;
+  customer: string | null;
+  firmware: string | null;
+  lastSeenAt: string | null;
+  supplyV: number | null;
+};
+
+export type LoggerDetail = {
+  id: string;
+  serial: string;
+  modelId: string;
+  modelName: string;
+  board: string;
+  track: Track;
+  status: LoggerStatus;
+  /** Enrolled and seen within three check-in intervals. */
+  online: boolean;
+  site: { id: string; name: string; customer: string } | null;
+  enrolledAt: string | null;
+  enrolledBy: { id: string; name: string } | null;
+  install: { panelWp: number | null; panelVocV: number | null; notes: string; photo: boolean } | null;
+  profile: ProfileView | null;
+  firmware: string | null;
+  lastSeenAt: string | null;
+  supplyV: number | null;
+  tokenIssuedAt: string | null;
+  retiredAt: string | null;
+  createdAt: string;
+};
+
+/** Issued once, at registration or rotation: the token in clear and its label. */
+export type IssuedLogger = { id: string; serial: string; board: string; track: Track; modelId: string; modelName: string; token: string; labelPng: string };
+export type RotatedToken = { token: string; labelPng: string; serial: string; modelName: string; board: string };
+export type BatchRegistered = { rows: { id: string; serial: string; token: string; board: string; track: Track; modelName: string }[]; total: number };
+export type EnrollmentLookup = {
+  logger: { id: string; serial: string; modelId: string; modelName: string; board: string; status: LoggerStatus; site: { id: string; name: string } | null };
+  limits: { busVMax: number; shuntFullScaleV: number; tempResolutions: number[] };
+};

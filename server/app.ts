@@ -20,6 +20,7 @@ import { registerMailRoutes } from './mail/routes';
 import { registerOverviewRoutes } from './overview/routes';
 import { registerActivityRoutes } from './activity/routes';
 import { registerTeamRoutes } from './team/routes';
+import { registerModelRoutes } from './models/routes';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -85,6 +86,7 @@ export function createApp(deps: AppDeps) {
   registerOverviewRoutes(api, services);
   registerActivityRoutes(api, services);
   registerTeamRoutes(api);
+  registerModelRoutes(api, services);
   app.use(router);
 
   app.use('/api', (req: Request, _res: Response, next: NextFunction) => next(problems.notFound('endpoint', `No endpoint ${req.method} ${req.path}.`)));

@@ -23,6 +23,11 @@ export const access: Record<string, Rule> = {
   'GET /api/activity': people(['admin', 'release_engineer', 'support']),
   'GET /api/dev/outbox': people(['admin']),
   'GET /api/users': people(['admin', 'release_engineer', 'support', 'integrator']),
+  // Registry (issue 3): models, sites, loggers, enrollment
+  'GET /api/models': people(everyone),
+  'GET /api/models/:id': people(everyone),
+  'POST /api/models': people(['admin']),
+  'PATCH /api/models/:id': people(['admin']),
 };
 
 /** Adds rows for a domain; throws on a duplicate so two domains cannot silently disagree. */

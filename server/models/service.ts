@@ -1,0 +1,100 @@
+// Logger models and their board revisions (admin): rules and transactions.
+import { fn, col, where, Op, type Sequelize } from 'sequelize';
+import { Logger, LoggerModel } from '../db/models';
+import { recordActivity } from '../activity/service';
+import { problems } from '../http/problem';
+import type { RequestContext } from '../auth/actor';
+import type { CreateModelRequest, LoggerModelView, UpdateModelRequest } from '../../schemas/models';
+
+export function presentModel(model: LoggerModel, loggerCount: number): LoggerModelView {
+  return {
+    id: model.id,
+    name: model.name,
+    boards: model.boards.map((b) => ({ label: b.label, note: b.note ?? '' })),
+    minUpdateSupplyV: Number(model.minUpdateSupplyV),
+    checkInIntervalS: model.checkInIntervalS,
+    busVMax: Number(model.busVMax),
+    shuntFullScaleV: Number(model.shuntFullScaleV),
+    tempResolutions: [...model.tempResolutions].sort((a, b) => a - b),
+    loggerCount,
+    createdAt: model.createdAt.toISOString(),
+  };
+}
+
+/** Loggers per model that are not retired. */
+async function loggerCounts(modelIds: string[]): Promise<Map<string, number>> {
+  if (modelIds.length === 0) return new Map();
+  const rows = (await Logger.findAll({
+    attributes: ['modelId', [fn('count', col('id')), 'count']],
+    where: { modelId: modelIds, status: { [Op.ne]: 'retired' } },
+    group: ['modelId'],
+    raw: true,
+  })) as unknown as { modelId: string; count: number }[];
+  return new Map(rows.map((r) => [r.modelId, Number(r.count)]));
+}
+
+export async function listModels(): Promise<{ rows: LoggerModelView[]; total: number }> {
+  const models = await LoggerModel.findAll({ order: [['name', 'ASC']] });
+  const counts = await loggerCounts(models.map((m) => m.id));
+  return { rows: models.map((m) => presentModel(m, counts.get(m.id) ?? 0)), total: models.length };
+}
+
+export async function getModel(id: string): Promise<LoggerModelView> {
+  const model = await LoggerModel.findByPk(id);
+  if (!model) throw problems.notFound('model');
+  return presentModel(model, (await loggerCounts([id])).get(id) ?? 0);
+}
+
+async function refuseTakenName(name: string, exceptId?: string) {
+  const clash = await LoggerModel.findOne({ where: where(fn('lower', col('name')), name.toLowerCase()) });
+  if (clash && clash.id !== exceptId) throw problems.conflict(`A model named "${clash.name}" already exists.`);
+}
+
+export async function createModel(sequelize: Sequelize, ctx: RequestContext, body: CreateModelRequest): Promise<LoggerModelView> {
+  await refuseTakenName(body.name);
+  const model = await sequelize.transaction(async (transaction) => {
+    const created = await LoggerModel.create({ ...body }, { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'model.created',
+      targetType: 'model',
+      targetId: created.id,
+      summary: `Model ${created.name} created with board revisions ${body.boards.map((b) => b.label).join(', ')}`,
+    });
+    return created;
+  });
+  return presentModel(model, 0);
+}
+
+export async function updateModel(sequelize: Sequelize, ctx: RequestContext, id: string, body: UpdateModelRequest): Promise<LoggerModelView> {
+  if (body.name !== undefined) await refuseTakenName(body.name, id);
+  const model = await sequelize.transaction(async (transaction) => {
+    const model = await LoggerModel.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE });
+    if (!model) throw problems.notFound('model');
+    if (body.boards) {
+      // A board revision that loggers carry cannot disappear: their labels, batches and releases name it.
+      const kept = new Set(body.boards.map((b) => b.label.toLowerCase()));
+      const removed = model.boards.filter((b) => !kept.has(b.label.toLowerCase())).map((b) => b.label);
+      if (removed.length > 0) {
+        const inUse = (await Logger.findAll({ attributes: ['board'], where: { modelId: id, board: removed }, group: ['board'], raw: true, transaction })) as unknown as {
+          board: string;
+        }[];
+        if (inUse.length > 0) {
+          throw problems.conflict(
+            `Board revision ${inUse.map((r) => r.board).join(', ')} cannot be removed: loggers of ${model.name} are registered with it.`,
+          );
+        }
+      }
+    }
+    const changed = (Object.keys(body) as (keyof UpdateModelRequest)[]).filter((k) => body[k] !== undefined);
+    await model.update(Object.fromEntries(changed.map((k) => [k, body[k]])), { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'model.updated',
+      targetType: 'model',
+      targetId: model.id,
+      summary: `Model ${model.name} updated: ${changed.join(', ')}`,
+      details: { changed },
+    });
+    return model;
+  });
+  return presentModel(model, (await loggerCounts([id])).get(id) ?? 0);
+}
