@@ -20,6 +20,8 @@ import { registerMailRoutes } from './mail/routes';
 import { registerOverviewRoutes } from './overview/routes';
 import { registerActivityRoutes } from './activity/routes';
 import { registerTeamRoutes } from './team/routes';
+import { registerKeyRoutes } from './keys/routes';
+import { registerTokenRoutes } from './tokens/routes';
 import { registerModelRoutes } from './models/routes';
 
 export type AppDeps = {
@@ -86,6 +88,8 @@ export function createApp(deps: AppDeps) {
   registerOverviewRoutes(api, services);
   registerActivityRoutes(api, services);
   registerTeamRoutes(api);
+  registerKeyRoutes(api, services);
+  registerTokenRoutes(api, services);
   registerModelRoutes(api, services);
   app.use(router);
 

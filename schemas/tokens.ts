@@ -1,0 +1,28 @@
+// API tokens for automation (issue 4 §2): shown once, stored as SHA-256, limited to their scopes.
+import { z } from 'zod';
+import { text } from './common';
+
+export const tokenScopes = ['images:write', 'releases:write', 'fleet:read'] as const;
+export const tokenScopeSchema = z.enum(tokenScopes, { error: `must be one of ${tokenScopes.join(', ')}` });
+
+export const createTokenRequest = z.strictObject({
+  name: text(80),
+  scopes: z
+    .array(tokenScopeSchema, { error: 'must be a list of scopes' })
+    .min(1, 'choose at least one scope')
+    .refine((s) => new Set(s).size === s.length, 'must not name a scope twice'),
+  expiresAt: z.iso.datetime({ offset: true, error: 'must be an RFC 3339 time such as 2027-06-30T00:00:00Z' }),
+});
+export type CreateTokenRequest = z.infer<typeof createTokenRequest>;
+
+export type CreatedToken = { id: string; token: string; name: string; scopes: string[]; expiresAt: string };
+export type TokenView = {
+  id: string;
+  name: string;
+  scopes: string[];
+  expiresAt: string;
+  lastUsedAt: string | null;
+  createdAt: string;
+  revokedAt: string | null;
+  createdBy: { id: string; name: string } | null;
+};
