@@ -18,7 +18,9 @@ export const timeZone = z
   .trim()
   .min(1, 'is required')
   .max(64, 'at most 64 characters')
-  .refine(isTimeZone, 'must be an IANA time zone such as Europe/London');
+  .refine((name) => name === '' || isTimeZone(name), 'must be an IANA time zone such as Europe/London')
+  // Intl accepts any capitalisation; keep the canonical spelling ("europe/london" → "Europe/London").
+  .transform((name) => (isTimeZone(name) ? new Intl.DateTimeFormat('en', { timeZone: name }).resolvedOptions().timeZone : name));
 
 export const latitude = z.number({ message: 'must be a number' }).min(-90, 'must be between -90 and 90').max(90, 'must be between -90 and 90');
 export const longitude = z.number({ message: 'must be a number' }).min(-180, 'must be between -180 and 180').max(180, 'must be between -180 and 180');

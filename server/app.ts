@@ -23,6 +23,7 @@ import { registerTeamRoutes } from './team/routes';
 import { registerKeyRoutes } from './keys/routes';
 import { registerTokenRoutes } from './tokens/routes';
 import { registerModelRoutes } from './models/routes';
+import { registerSiteRoutes } from './sites/routes';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -91,6 +92,7 @@ export function createApp(deps: AppDeps) {
   registerKeyRoutes(api, services);
   registerTokenRoutes(api, services);
   registerModelRoutes(api, services);
+  registerSiteRoutes(api, services);
   app.use(router);
 
   app.use('/api', (req: Request, _res: Response, next: NextFunction) => next(problems.notFound('endpoint', `No endpoint ${req.method} ${req.path}.`)));

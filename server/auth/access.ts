@@ -28,6 +28,10 @@ export const access: Record<string, Rule> = {
   'GET /api/models/:id': people(everyone),
   'POST /api/models': people(['admin']),
   'PATCH /api/models/:id': people(['admin']),
+  'GET /api/sites': people(everyone),
+  'GET /api/sites/:id': people(everyone),
+  'POST /api/sites': people(['admin', 'integrator']),
+  'PATCH /api/sites/:id': people(['admin', 'integrator']),
 };
 
 /** Adds rows for a domain; throws on a duplicate so two domains cannot silently disagree. */

@@ -1,0 +1,171 @@
+// Sites: where loggers are installed. Integrators create sites (and are assigned to those) and edit the
+// sites assigned to them; admins edit any.
+import { Op, fn, col, type InferAttributes, type Sequelize, type Transaction, type WhereOptions } from 'sequelize';
+import { Logger, Site, SiteIntegrator, User } from '../db/models';
+import { recordActivity } from '../activity/service';
+import { problems, type FieldError } from '../http/problem';
+import type { Actor, RequestContext } from '../auth/actor';
+import type { CreateSiteRequest, SiteView, UpdateSiteRequest } from '../../schemas/sites';
+
+const isIntegrator = (actor: Actor) => actor.type === 'person' && actor.role === 'integrator';
+
+/** Ids of the sites assigned to a person. */
+export async function assignedSiteIds(userId: string, transaction?: Transaction): Promise<string[]> {
+  const rows = await SiteIntegrator.findAll({ where: { userId }, attributes: ['siteId'], transaction });
+  return rows.map((r) => r.siteId);
+}
+
+export async function isAssigned(userId: string, siteId: string, transaction?: Transaction): Promise<boolean> {
+  return (await SiteIntegrator.count({ where: { userId, siteId }, transaction })) > 0;
+}
+
+/** Integrators act only on sites assigned to them; everyone else the route lets through acts on any. */
+export async function refuseUnassignedIntegrator(actor: Actor, siteId: string, transaction?: Transaction) {
+  if (isIntegrator(actor) && !(await isAssigned(actor.id!, siteId, transaction))) {
+    throw problems.forbidden('This site is not assigned to you; ask an admin to assign you to it.');
+  }
+}
+
+/** Escapes LIKE wildcards so a search for "50%" finds "50%" and not everything. */
+export function likePattern(q: string): string {
+  return `%${q.replace(/[\\%_]/g, (c) => `\\${c}`)}%`;
+}
+
+async function present(sites: Site[], transaction?: Transaction): Promise<SiteView[]> {
+  if (sites.length === 0) return [];
+  const ids = sites.map((s) => s.id);
+  const links = await SiteIntegrator.findAll({ where: { siteId: ids }, transaction });
+  const people = await User.findAll({ where: { id: [...new Set(links.map((l) => l.userId))] }, attributes: ['id', 'name'], transaction });
+  const nameOf = new Map(people.map((p) => [p.id, p.name]));
+  const counts = (await Logger.findAll({
+    attributes: ['siteId', [fn('count', col('id')), 'count']],
+    where: { siteId: ids, status: { [Op.ne]: 'retired' } },
+    group: ['siteId'],
+    raw: true,
+    transaction,
+  })) as unknown as { siteId: string; count: number }[];
+  const countOf = new Map(counts.map((c) => [c.siteId, Number(c.count)]));
+  return sites.map((s) => {
+    const integrators = links
+      .filter((l) => l.siteId === s.id)
+      .map((l) => ({ id: l.userId, name: nameOf.get(l.userId) ?? '' }))
+      .sort((a, b) => a.name.localeCompare(b.name) || a.id.localeCompare(b.id));
+    return {
+      id: s.id,
+      name: s.name,
+      customer: s.customer,
+      address: s.address,
+      latitude: s.latitude === null ? null : Number(s.latitude),
+      longitude: s.longitude === null ? null : Number(s.longitude),
+      timeZone: s.timeZone,
+      notes: s.notes,
+      integratorIds: integrators.map((i) => i.id),
+      integrators,
+      loggerCount: countOf.get(s.id) ?? 0,
+      createdAt: s.createdAt.toISOString(),
+    };
+  });
+}
+
+export async function listSites(actor: Actor, q?: string): Promise<{ rows: SiteView[]; total: number }> {
+  const conditions: WhereOptions[] = [];
+  if (isIntegrator(actor)) conditions.push({ id: await assignedSiteIds(actor.id!) });
+  if (q) {
+    const like = likePattern(q);
+    conditions.push({ [Op.or]: [{ name: { [Op.iLike]: like } }, { customer: { [Op.iLike]: like } }, { address: { [Op.iLike]: like } }] });
+  }
+  const sites = await Site.findAll({ where: { [Op.and]: conditions }, order: [['name', 'ASC'], ['id', 'ASC']] });
+  return { rows: await present(sites), total: sites.length };
+}
+
+export async function getSite(actor: Actor, id: string): Promise<SiteView> {
+  const site = await Site.findByPk(id);
+  if (!site) throw problems.notFound('site');
+  await refuseUnassignedIntegrator(actor, id);
+  return (await present([site]))[0];
+}
+
+/** Every id must name an active integrator; errors point at the list position. */
+async function checkIntegrators(ids: string[], transaction: Transaction) {
+  const found = await User.findAll({ where: { id: ids, role: 'integrator', disabledAt: null }, attributes: ['id'], transaction });
+  const ok = new Set(found.map((u) => u.id));
+  const errors: FieldError[] = ids.flatMap((id, i) => (ok.has(id) ? [] : [{ path: `integratorIds.${i}`, message: 'is not an active integrator' }]));
+  if (errors.length > 0) throw problems.badRequest('Check the body: integratorIds.', errors);
+}
+
+export async function createSite(sequelize: Sequelize, ctx: RequestContext, body: CreateSiteRequest): Promise<SiteView> {
+  const { actor } = ctx;
+  // An integrator who creates a site is assigned to it, so it appears in their list at once.
+  const integratorIds = [...new Set([...(body.integratorIds ?? []), ...(isIntegrator(actor) ? [actor.id!] : [])])];
+  return sequelize.transaction(async (transaction) => {
+    await checkIntegrators(integratorIds, transaction);
+    const site = await Site.create(
+      {
+        name: body.name,
+        customer: body.customer,
+        address: body.address,
+        latitude: body.latitude ?? null,
+        longitude: body.longitude ?? null,
+        timeZone: body.timeZone,
+        notes: body.notes ?? '',
+        createdBy: actor.type === 'person' ? actor.id : null,
+      },
+      { transaction },
+    );
+    await SiteIntegrator.bulkCreate(integratorIds.map((userId) => ({ siteId: site.id, userId })), { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'site.created',
+      targetType: 'site',
+      targetId: site.id,
+      summary: `Site ${site.name} (${site.customer}) created`,
+      details: { integratorIds },
+    });
+    return (await present([site], transaction))[0];
+  });
+}
+
+export async function updateSite(sequelize: Sequelize, ctx: RequestContext, id: string, body: UpdateSiteRequest): Promise<SiteView> {
+  const { actor } = ctx;
+  return sequelize.transaction(async (transaction) => {
+    const site = await Site.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE });
+    if (!site) throw problems.notFound('site');
+    await refuseUnassignedIntegrator(actor, id, transaction);
+
+    const latitude = body.latitude !== undefined ? body.latitude : site.latitude;
+    const longitude = body.longitude !== undefined ? body.longitude : site.longitude;
+    if ((latitude === null) !== (longitude === null)) {
+      const missing = latitude === null ? 'latitude' : 'longitude';
+      throw problems.badRequest(`Check the body: ${missing}.`, [{ path: missing, message: `give the ${missing} too, or clear both` }]);
+    }
+
+    const changed: string[] = [];
+    if (body.integratorIds !== undefined) {
+      if (isIntegrator(actor) && !body.integratorIds.includes(actor.id!)) {
+        throw problems.badRequest('Check the body: integratorIds.', [
+          { path: 'integratorIds', message: 'you cannot remove yourself from a site; ask an admin' },
+        ]);
+      }
+      await checkIntegrators(body.integratorIds, transaction);
+      await SiteIntegrator.destroy({ where: { siteId: id }, transaction });
+      await SiteIntegrator.bulkCreate(body.integratorIds.map((userId) => ({ siteId: id, userId })), { transaction });
+      changed.push('integratorIds');
+    }
+    const fields = ['name', 'customer', 'address', 'latitude', 'longitude', 'timeZone', 'notes'] as const;
+    const updates: Partial<Record<(typeof fields)[number], unknown>> = {};
+    for (const f of fields) {
+      if (body[f] !== undefined) {
+        updates[f] = body[f];
+        changed.push(f);
+      }
+    }
+    await site.update(updates as Partial<InferAttributes<Site>>, { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'site.updated',
+      targetType: 'site',
+      targetId: site.id,
+      summary: `Site ${site.name} updated: ${changed.join(', ')}`,
+      details: { changed },
+    });
+    return (await present([site], transaction))[0];
+  });
+}
