@@ -1,0 +1,81 @@
+import React from 'react';
+import { useLocalSearchParams, useRouter } from 'expo-router';
+import { ReleaseDetailScreen, type PendingMove } from '../../../components/release-detail-screen';
+import { ReleaseTargetingForm } from '../../../components/release-targeting-form';
+import { useBreakpoints } from '../../../components/breakpoints';
+import { ApiError } from '../../../hooks/api';
+import { useDeleteRelease, useRelease, useReleaseEstimate, useReleaseTransition, useSiteChoices, useUpdateRelease, type ReleaseTargeting } from '../../../hooks/releases';
+import { useMe } from '../../../hooks/session';
+
+export default function ReleaseDetail() {
+  const { id = '' } = useLocalSearchParams<{ id: string }>();
+  const router = useRouter();
+  const me = useMe();
+  const { wide } = useBreakpoints();
+  const release = useRelease(id);
+  const [pending, setPending] = React.useState<PendingMove | null>(null);
+  const estimateShare = pending && (pending.action === 'expand' || pending.action === 'complete') ? (pending.action === 'complete' ? 100 : (pending.share ?? null)) : null;
+  const estimate = useReleaseEstimate(id, estimateShare);
+  const transition = useReleaseTransition(id);
+  const remove = useDeleteRelease(id);
+  const update = useUpdateRelease(id);
+  const role = me.data?.role;
+  const canManage = role === 'admin' || role === 'release_engineer';
+  const isDraft = release.data?.state === 'draft';
+  const sites = useSiteChoices(canManage && isDraft);
+  const [pilotOpen, setPilotOpen] = React.useState(false);
+  const [saved, setSaved] = React.useState(false);
+
+  const onPending = (p: PendingMove | null) => {
+    transition.reset();
+    remove.reset();
+    setPending(p);
+  };
+
+  const startPilot = async (t: ReleaseTargeting) => {
+    try {
+      await update.mutateAsync(t);
+      await transition.mutateAsync({ action: 'start_pilot' });
+      setPilotOpen(false);
+    } catch {
+      // Shown in the dialog.
+    }
+  };
+
+  return (
+    <ReleaseDetailScreen
+      state={release}
+      canManage={canManage}
+      wide={wide}
+      pending={pending}
+      onPending={onPending}
+      estimate={estimate}
+      busy={transition.isPending || remove.isPending}
+      error={(pending?.action === 'delete' ? remove.error : transition.error) as ApiError | null}
+      onTransition={(t) => transition.mutate(t, { onSuccess: () => setPending(null) })}
+      onDelete={() => remove.mutate(undefined, { onSuccess: () => router.replace('/releases' as never) })}
+      targeting={
+        canManage && release.data && isDraft ? (
+          <ReleaseTargetingForm
+            key={release.data.id}
+            release={release.data}
+            sites={sites}
+            saving={update.isPending && !pilotOpen}
+            starting={pilotOpen && (update.isPending || transition.isPending)}
+            saved={saved}
+            error={!pilotOpen ? (update.error as ApiError | null) : null}
+            startError={(transition.error ?? update.error) as ApiError | null}
+            onSave={(t) => update.mutate(t, { onSuccess: () => setSaved(true) })}
+            onStartPilot={startPilot}
+            confirmOpen={pilotOpen}
+            onConfirmOpen={(open) => {
+              update.reset();
+              transition.reset();
+              setPilotOpen(open);
+            }}
+          />
+        ) : undefined
+      }
+    />
+  );
+}

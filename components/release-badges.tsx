@@ -1,0 +1,68 @@
+// Release words and colours: every state is a coloured word, never colour alone (DESIGN.md).
+import React from 'react';
+import { Text, View } from 'react-native';
+import { Badge, ProgressBar } from './ui';
+import { space, type, type Tone } from './theme';
+import type { ReleaseState, Track } from '../hooks/releases';
+
+export const stateWords: Record<ReleaseState, string> = {
+  draft: 'Draft',
+  pilot: 'Pilot',
+  expanding: 'Expanding',
+  complete: 'Complete',
+  paused: 'Paused',
+  halted: 'Halted',
+  withdrawn: 'Withdrawn',
+};
+
+// Slate: not offering widely yet; moss: rolling out as planned; amber: stopped for now;
+// ember: stopped because something went wrong; ink: over for good.
+export const stateTones: Record<ReleaseState, Tone> = {
+  draft: 'slate',
+  pilot: 'slate',
+  expanding: 'moss',
+  complete: 'moss',
+  paused: 'amber',
+  halted: 'ember',
+  withdrawn: 'ink',
+};
+
+export function StateBadge({ state, testID }: { state: ReleaseState; testID?: string }) {
+  return <Badge label={stateWords[state] ?? state} tone={stateTones[state] ?? 'slate'} testID={testID} />;
+}
+
+export function TrackBadge({ track }: { track: Track }) {
+  return <Badge label={track === 'early' ? 'Early track' : 'Stable track'} tone={track === 'early' ? 'amber' : 'ink'} />;
+}
+
+/** A share in percent as people say it: "25 %", "12.5 %" (numeric columns may arrive as text). */
+export function formatShare(share: number | string | null | undefined): string {
+  const n = Number(share ?? 0);
+  if (!Number.isFinite(n)) return '—';
+  return `${Number.isInteger(n) ? n : Number(n.toFixed(2))} %`;
+}
+
+/** The rollout share as a bar with its number; a pilot (share 0) reaches its pilot sites only. */
+export function ShareBar({ state, share, compact, testID }: { state: ReleaseState; share: number; compact?: boolean; testID?: string }) {
+  const n = Number(share ?? 0);
+  const caption =
+    state === 'draft'
+      ? 'Not offered yet'
+      : state === 'pilot' || (n === 0 && state !== 'withdrawn')
+        ? 'Pilot sites only'
+        : state === 'withdrawn'
+          ? `Withdrawn at ${formatShare(n)}`
+          : `${formatShare(n)} of eligible loggers`;
+  return (
+    <View testID={testID} style={{ gap: space.xs, minWidth: compact ? 96 : undefined }}>
+      <ProgressBar value={n} tone={stateTones[state] === 'ink' ? 'slate' : stateTones[state]} />
+      <Text style={[type.small, { fontVariant: ['tabular-nums'] }]}>{compact ? (state === 'draft' ? '—' : formatShare(n)) : caption}</Text>
+    </View>
+  );
+}
+
+export function bytes(n: number): string {
+  if (n < 1024) return `${n} B`;
+  if (n < 1024 * 1024) return `${(n / 1024).toFixed(1)} KiB`;
+  return `${(n / 1024 / 1024).toFixed(2)} MiB`;
+}

@@ -1,0 +1,204 @@
+// New release: upload a signed image (image + manifest + signature) with a progress bar, see what
+// the checks found, then set the draft's targeting and start the pilot.
+import React from 'react';
+import { Text, View } from 'react-native';
+import { Page } from './shell';
+import { Badge, Button, Card, Field, Mono, Notice, ProgressBar, Row } from './ui';
+import { ProblemNotice, Segmented, type ProblemLike } from './release-controls';
+import { FilePicker, type PickedFile } from './release-file-picker';
+import { StateBadge, TrackBadge, bytes } from './release-badges';
+import { colors, fonts, space, type } from './theme';
+import type { Release, ReleaseUpload, Track, UploadPart } from '../hooks/releases';
+
+type Problem = (ProblemLike & { status?: number; field?: (path: string) => string | undefined }) | null;
+
+type Props = {
+  onUpload: (body: ReleaseUpload) => void;
+  uploading: boolean;
+  /** 0–1 while uploading; 1 once the bytes are sent (the server then checks them). */
+  progress: number | null;
+  uploadError: Problem;
+  created: Release | null;
+  /** The draft's targeting form, rendered once the upload was accepted. */
+  targeting?: React.ReactNode;
+  onCancel: () => void;
+};
+
+type Mode = 'file' | 'text';
+
+const uploadFieldNames: Record<string, string> = { image: 'Image', manifest: 'Manifest', signature: 'Signature', notes: 'Notes', track: 'Track' };
+
+/** What to do next for each refused part, in the engineer's words. */
+const nextStep: Record<string, string> = {
+  image: 'Check that you chose the image the manifest was made for; if it was rebuilt, re-export the image and sign again.',
+  manifest: 'Make the manifest with `heliodor manifest` (canonical JSON) and sign it again.',
+  signature: 'Sign the manifest again with a key registered under Signing keys and still active.',
+};
+
+export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, created, targeting, onCancel }: Props) {
+  const [image, setImage] = React.useState<PickedFile | null>(null);
+  const [manifestMode, setManifestMode] = React.useState<Mode>('file');
+  const [manifestFile, setManifestFile] = React.useState<PickedFile | null>(null);
+  const [manifestText, setManifestText] = React.useState('');
+  const [signatureMode, setSignatureMode] = React.useState<Mode>('file');
+  const [signatureFile, setSignatureFile] = React.useState<PickedFile | null>(null);
+  const [signatureText, setSignatureText] = React.useState('');
+  const [notes, setNotes] = React.useState('');
+  const [track, setTrack] = React.useState<Track | 'auto'>('auto');
+  const [missing, setMissing] = React.useState<Record<string, string>>({});
+
+  const filePart = (f: PickedFile): UploadPart & { kind: 'file' } => ({ kind: 'file', name: f.name, blob: f.blob, uri: f.uri, mimeType: f.mimeType });
+
+  function submit() {
+    const m: Record<string, string> = {};
+    if (!image) m.image = 'Choose the image file.';
+    if (manifestMode === 'file' ? !manifestFile : !manifestText.trim()) m.manifest = manifestMode === 'file' ? 'Choose manifest.json.' : 'Paste the manifest.';
+    if (signatureMode === 'file' ? !signatureFile : !signatureText.trim()) m.signature = signatureMode === 'file' ? 'Choose the signature file.' : 'Paste the signature (base64).';
+    setMissing(m);
+    if (Object.keys(m).length || !image) return;
+    onUpload({
+      image: filePart(image),
+      // Pasted manifests are sent exactly as pasted: the signature covers those bytes.
+      manifest: manifestMode === 'file' ? filePart(manifestFile!) : { kind: 'text', text: manifestText },
+      signature: signatureMode === 'file' ? filePart(signatureFile!) : { kind: 'text', text: signatureText.trim() },
+      notes,
+      track: track === 'auto' ? undefined : track,
+    });
+  }
+
+  const fieldError = (path: string) => missing[path] ?? uploadError?.field?.(path);
+  const refusedParts = (uploadError?.fieldErrors ?? []).map((e) => e.path.split('.')[0]).filter((p, i, a) => nextStep[p] && a.indexOf(p) === i);
+
+  return (
+    <Page title="New release" subtitle="Upload an image signed offline; it becomes a draft that nobody is offered yet">
+      {!created ? (
+        <>
+          <Card>
+            <Text role="heading" aria-level={2} style={type.heading}>
+              Signed image
+            </Text>
+            <FilePicker label="Image" hint="The firmware image the manifest describes." value={image} onChange={setImage} error={fieldError('image')} testID="file-image" />
+            <Segmented<Mode>
+              label="Manifest"
+              value={manifestMode}
+              onChange={setManifestMode}
+              options={[
+                { value: 'file', label: 'Choose file' },
+                { value: 'text', label: 'Paste text' },
+              ]}
+            />
+            {manifestMode === 'file' ? (
+              <FilePicker label="manifest.json" accept=".json,application/json" hint="Canonical JSON made by `heliodor manifest`." value={manifestFile} onChange={setManifestFile} error={fieldError('manifest')} testID="file-manifest" />
+            ) : (
+              <Field label="Manifest (canonical JSON, exactly as signed)" mono multiline value={manifestText} onChangeText={setManifestText} error={fieldError('manifest')} style={{ minHeight: 96, paddingVertical: space.sm }} autoCapitalize="none" autoCorrect={false} testID="text-manifest" />
+            )}
+            <Segmented<Mode>
+              label="Signature"
+              value={signatureMode}
+              onChange={setSignatureMode}
+              options={[
+                { value: 'file', label: 'Choose file' },
+                { value: 'text', label: 'Paste text' },
+              ]}
+            />
+            {signatureMode === 'file' ? (
+              <FilePicker label="Signature" accept=".sig,.txt,text/plain" hint="The base64 signature from `heliodor sign`." value={signatureFile} onChange={setSignatureFile} error={fieldError('signature')} testID="file-signature" />
+            ) : (
+              <Field label="Signature (base64)" mono value={signatureText} onChangeText={setSignatureText} error={fieldError('signature')} autoCapitalize="none" autoCorrect={false} testID="text-signature" />
+            )}
+          </Card>
+          <Card>
+            <Field label="Release notes (Markdown, optional)" multiline value={notes} onChangeText={setNotes} style={{ minHeight: 96, paddingVertical: space.sm, textAlignVertical: 'top' }} testID="notes" />
+            <Segmented<Track | 'auto'>
+              label="Track"
+              value={track}
+              onChange={setTrack}
+              options={[
+                { value: 'auto', label: 'From the version' },
+                { value: 'stable', label: 'Stable' },
+                { value: 'early', label: 'Early' },
+              ]}
+            />
+            <Text style={type.small}>From the version: pre-release versions such as 2.5.0-rc.1 go to the early track, others to stable.</Text>
+          </Card>
+        </>
+      ) : null}
+
+      {progress !== null ? (
+        <Card testID="upload-progress">
+          <ProgressBar
+            value={progress * 100}
+            tone={uploadError ? 'ember' : 'moss'}
+            label={
+              uploadError
+                ? `Upload refused after ${Math.round(progress * 100)} %`
+                : created
+                  ? 'Uploaded 100 % · checks passed'
+                  : progress >= 1
+                    ? 'Uploaded 100 % · checking the signature and image…'
+                    : `Uploading ${Math.round(progress * 100)} %`
+            }
+          />
+        </Card>
+      ) : null}
+
+      {uploadError ? (
+        <View style={{ gap: space.sm }} testID="upload-refused">
+          <ProblemNotice error={uploadError} fieldNames={uploadFieldNames} />
+          {refusedParts.map((p) => (
+            <Text key={p} style={type.small}>
+              {nextStep[p]}
+            </Text>
+          ))}
+          <Text style={type.small}>Nothing was stored. Fix the part named above and upload again.</Text>
+        </View>
+      ) : null}
+
+      {!created ? (
+        <Row wrap style={{ justifyContent: 'flex-end' }}>
+          <Button label="Cancel" variant="secondary" onPress={onCancel} />
+          <Button label="Upload and check" busy={uploading} onPress={submit} testID="upload" />
+        </Row>
+      ) : (
+        <>
+          <CheckSummary release={created} />
+          {targeting}
+        </>
+      )}
+    </Page>
+  );
+}
+
+/** What the server's checks found, from the accepted upload's reply. */
+function CheckSummary({ release }: { release: Release }) {
+  const lines: [string, React.ReactNode][] = [
+    ['Signature', release.key ? <Text style={type.body}>verified with {release.key.name} (<Text style={{ fontFamily: fonts.mono }}>{release.key.keyId}</Text>)</Text> : 'verified'],
+    ['Image', <Text style={type.body}><Mono>{release.image.sha256}</Mono> · {bytes(release.image.size)} — matches the manifest</Text>],
+    ['Model', release.modelName],
+    ['Version', <Text style={type.body}><Mono>{release.version}</Mono> — new for this model</Text>],
+    ['Security counter', String(release.securityCounter)],
+    ['Board revisions in the manifest', release.manifestBoards.join(', ')],
+  ];
+  return (
+    <Card testID="check-summary">
+      <Row wrap style={{ justifyContent: 'space-between' }}>
+        <Text role="heading" aria-level={2} style={type.heading}>
+          Checks passed: draft {release.version} created
+        </Text>
+        <Row>
+          <StateBadge state={release.state} testID="created-state" />
+          <TrackBadge track={release.track} />
+        </Row>
+      </Row>
+      {lines.map(([k, v]) => (
+        <View key={k} style={{ flexDirection: 'row', flexWrap: 'wrap', gap: space.sm }}>
+          <Badge label="✓ OK" tone="moss" />
+          <Text style={[type.label, { minWidth: 160 }]}>{k}</Text>
+          <View style={{ flexShrink: 1 }}>{typeof v === 'string' ? <Text style={type.body}>{v}</Text> : v}</View>
+        </View>
+      ))}
+      {release.key?.state === 'retired' ? <Notice tone="amber" title="Signed with a retired key" detail="Retired keys sign nothing new; register and use an active key." /> : null}
+      <Text style={[type.small, { color: colors.inkSoft }]}>Nobody is offered a draft. Set who gets it below, then start the pilot.</Text>
+    </Card>
+  );
+}

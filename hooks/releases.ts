@@ -1,0 +1,199 @@
+// Releases: signed images uploaded as drafts, their targeting, and the lifecycle (issue 4).
+import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
+import { api, query, upload, STALE } from './api';
+import type { List } from '../schemas/common';
+import type { ReleaseAction, ReleaseState, ResumeState } from '../server/releases/lifecycle';
+
+export type { ReleaseAction, ReleaseState };
+export type Track = 'stable' | 'early';
+export type FailureReason = 'integrity' | 'signature' | 'storage' | 'connection' | 'unsupported' | 'low_supply' | 'other';
+
+export type ReleaseRow = {
+  id: string;
+  modelId: string;
+  modelName: string;
+  version: string;
+  track: Track;
+  state: ReleaseState;
+  share: number;
+  installed: number;
+  failed: number;
+  createdAt: string;
+  flagged: boolean;
+};
+
+export type ReleaseCounts = {
+  offered: number;
+  downloading: number;
+  downloaded: number;
+  installing: number;
+  installed: number;
+  failed: number;
+  failedByReason: Record<FailureReason, number>;
+};
+
+export type ReleaseTransition = { at: string; action: string; fromState: ReleaseState | null; toState: ReleaseState; share: number | null; reason: string | null; actorName: string };
+
+export type Release = {
+  id: string;
+  modelId: string;
+  modelName: string;
+  version: string;
+  track: Track;
+  state: ReleaseState;
+  share: number;
+  resumeState: ResumeState | null;
+  boards: string[];
+  manifestBoards: string[];
+  upgradeFrom: string | null;
+  pilotSiteIds: string[];
+  pilotSites: { id: string; name: string }[];
+  daylightWindow: boolean;
+  haltFailureRatio: number;
+  haltMinReports: number;
+  haltResetFactor: number;
+  securityCounter: number;
+  notes: string | null;
+  notesHtml: string | null;
+  image: { sha256: string; size: number };
+  key: { id: string; keyId: string; name: string; state: 'active' | 'retired' | 'revoked' } | null;
+  flagged: boolean;
+  counts: ReleaseCounts;
+  history: ReleaseTransition[];
+  allowedActions: ReleaseAction[];
+  createdAt: string;
+  createdBy: { name: string } | null;
+};
+
+export type ReleaseFilter = { state?: ReleaseState; track?: Track; modelId?: string };
+
+/** What the targeting form sends while the release is a draft. */
+export type ReleaseTargeting = {
+  boards?: string[];
+  upgradeFrom?: string | null;
+  pilotSiteIds?: string[];
+  daylightWindow?: boolean;
+  haltFailureRatio?: number;
+  haltMinReports?: number;
+  haltResetFactor?: number;
+  notes?: string;
+  track?: Track;
+};
+
+export type Estimate = { share: number; eligibleNow: number; eligibleAtShare: number; more: number };
+
+export type TransitionRequest = { action: ReleaseAction; share?: number; reason?: string };
+
+export const releaseKeys = {
+  all: ['releases'] as const,
+  lists: () => ['releases', 'list'] as const,
+  list: (filter: ReleaseFilter) => ['releases', 'list', filter] as const,
+  detail: (id: string) => ['releases', 'detail', id] as const,
+  estimate: (id: string, share: number) => ['releases', 'estimate', id, share] as const,
+  siteChoices: () => ['releases', 'site-choices'] as const,
+};
+
+export function useReleases(filter: ReleaseFilter = {}) {
+  return useQuery({
+    queryKey: releaseKeys.list(filter),
+    queryFn: () => api<List<ReleaseRow>>(`/api/releases${query(filter)}`),
+    placeholderData: keepPreviousData,
+    staleTime: STALE.SECONDS.THIRTY,
+  });
+}
+
+export function useRelease(id: string) {
+  return useQuery({
+    queryKey: releaseKeys.detail(id),
+    queryFn: () => api<Release>(`/api/releases/${encodeURIComponent(id)}`),
+    enabled: Boolean(id),
+    // Install reports arrive as loggers check in; a live release refreshes on its own.
+    refetchInterval: (q) => (q.state.data && ['pilot', 'expanding', 'complete'].includes(q.state.data.state) ? STALE.SECONDS.THIRTY : false),
+  });
+}
+
+/** How many more loggers a share would make eligible (asked only while a confirmation is open). */
+export function useReleaseEstimate(id: string, share: number | null) {
+  return useQuery({
+    queryKey: releaseKeys.estimate(id, share ?? -1),
+    queryFn: () => api<Estimate>(`/api/releases/${encodeURIComponent(id)}/estimate${query({ share: share ?? undefined })}`),
+    enabled: Boolean(id) && share !== null,
+    staleTime: 0,
+  });
+}
+
+/** Sites to choose pilot sites from: only id and name are needed here. */
+export function useSiteChoices(enabled = true) {
+  return useQuery({
+    queryKey: releaseKeys.siteChoices(),
+    queryFn: async () => {
+      const list = await api<List<{ id: string; name: string; customer?: string }>>('/api/sites');
+      return list.rows.map((s) => ({ id: s.id, name: s.name, customer: s.customer }));
+    },
+    enabled,
+    staleTime: STALE.MINUTES.ONE,
+  });
+}
+
+/** The upload's parts. On the web a file is a Blob; on a phone a picked document's uri. */
+export type UploadPart = { kind: 'file'; name: string; blob?: Blob; uri?: string; mimeType?: string } | { kind: 'text'; text: string };
+export type ReleaseUpload = { image: UploadPart & { kind: 'file' }; manifest: UploadPart; signature: UploadPart; notes?: string; track?: Track };
+
+function appendPart(form: FormData, field: string, part: UploadPart) {
+  if (part.kind === 'text') form.append(field, part.text);
+  else if (part.blob) form.append(field, part.blob, part.name);
+  // React Native's FormData takes {uri, name, type} for a file on the device.
+  else form.append(field, { uri: part.uri, name: part.name, type: part.mimeType ?? 'application/octet-stream' } as unknown as Blob);
+}
+
+export function useUploadRelease() {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: ({ body, onProgress }: { body: ReleaseUpload; onProgress: (fraction: number) => void }) => {
+      const form = new FormData();
+      appendPart(form, 'image', body.image);
+      appendPart(form, 'manifest', body.manifest);
+      appendPart(form, 'signature', body.signature);
+      if (body.notes?.trim()) form.append('notes', body.notes);
+      if (body.track) form.append('track', body.track);
+      return upload<Release>('/api/releases', form, onProgress);
+    },
+    onSuccess: (release) => {
+      qc.invalidateQueries({ queryKey: releaseKeys.lists() });
+      if (release?.id) qc.setQueryData(releaseKeys.detail(release.id), (old: Release | undefined) => (old ? { ...old, ...release } : undefined));
+    },
+  });
+}
+
+export function useUpdateRelease(id: string) {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: (body: ReleaseTargeting) => api<Release>(`/api/releases/${encodeURIComponent(id)}`, { method: 'PATCH', body }),
+    onSuccess: (release) => {
+      qc.setQueryData(releaseKeys.detail(id), release);
+      qc.invalidateQueries({ queryKey: releaseKeys.lists() });
+    },
+  });
+}
+
+export function useReleaseTransition(id: string) {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: (body: TransitionRequest) => api<Release>(`/api/releases/${encodeURIComponent(id)}/transitions`, { body }),
+    onSuccess: (release) => {
+      qc.setQueryData(releaseKeys.detail(id), release);
+      qc.invalidateQueries({ queryKey: releaseKeys.all });
+    },
+  });
+}
+
+export function useDeleteRelease(id: string) {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: () => api<void>(`/api/releases/${encodeURIComponent(id)}`, { method: 'DELETE' }),
+    onSuccess: () => {
+      qc.removeQueries({ queryKey: releaseKeys.detail(id) });
+      qc.invalidateQueries({ queryKey: releaseKeys.lists() });
+    },
+  });
+}
