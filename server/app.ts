@@ -24,6 +24,7 @@ import { registerKeyRoutes } from './keys/routes';
 import { registerTokenRoutes } from './tokens/routes';
 import { registerModelRoutes } from './models/routes';
 import { registerSiteRoutes } from './sites/routes';
+import { registerDeviceRoutes } from './device-api/routes';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -93,6 +94,7 @@ export function createApp(deps: AppDeps) {
   registerTokenRoutes(api, services);
   registerModelRoutes(api, services);
   registerSiteRoutes(api, services);
+  registerDeviceRoutes(api, services);
   app.use(router);
 
   app.use('/api', (req: Request, _res: Response, next: NextFunction) => next(problems.notFound('endpoint', `No endpoint ${req.method} ${req.path}.`)));

@@ -3,6 +3,7 @@ import type { Sequelize, Transaction } from 'sequelize';
 import * as m0001 from './0001_people_and_activity';
 import * as m0002 from './0002_registry';
 import * as m0003 from './0003_releases';
+import * as m0004 from './0004_device';
 
 export type Migration = {
   name: string;
@@ -14,4 +15,5 @@ export const migrations: Migration[] = [
   { name: '0001_people_and_activity', ...m0001 },
   { name: '0002_registry', ...m0002 },
   { name: '0003_releases', ...m0003 },
+  { name: '0004_device', ...m0004 },
 ];

@@ -4,15 +4,18 @@ import { User } from './user';
 import { Activity } from './activity';
 import { initRegistryModels } from './registry';
 import { initReleaseModels } from './releases';
+import { initDeviceModels } from './device';
 
 export { User } from './user';
 export { Activity } from './activity';
 export * from './registry';
 export * from './releases';
+export * from './device';
 
 export function initModels(sequelize: Sequelize) {
   User.initModel(sequelize);
   Activity.initModel(sequelize);
   initRegistryModels(sequelize);
   initReleaseModels(sequelize);
+  initDeviceModels(sequelize);
 }

@@ -1,0 +1,139 @@
+// The device API, version 1 (DEVICE_API.md): the check-in request and response, the install report,
+// the offer and the measurement profile as firmware sees them. Wire names are snake_case. These
+// schemas validate requests and generate the OpenAPI document (server/device-api/openapi.ts), so the
+// two cannot drift apart. Objects are not strict: unknown fields are ignored (forward compatible).
+import { z } from 'zod';
+import { uuid } from './common';
+import { strictSemver } from './semver';
+import { signatureAlgorithmSchema } from './manifest';
+
+export const resetReasons = ['power_on', 'watchdog', 'brownout', 'software', 'exception', 'external', 'unknown'] as const;
+export type ResetReason = (typeof resetReasons)[number];
+
+export const installStates = ['downloading', 'downloaded', 'installing', 'installed', 'failed'] as const;
+export type ReportedInstallState = (typeof installStates)[number];
+
+export const installFailureReasons = ['integrity', 'signature', 'storage', 'connection', 'unsupported', 'low_supply', 'other'] as const;
+export type InstallFailureReason = (typeof installFailureReasons)[number];
+
+const count = (what: string) =>
+  z.number({ message: `must be ${what}, a whole number of 0 or more` }).int('must be a whole number').min(0, 'must be 0 or more').max(Number.MAX_SAFE_INTEGER, 'is too large');
+
+const reading = (description: string) => z.number({ message: 'must be a number' }).finite().optional().meta({ description });
+
+export const readingsSchema = z
+  .object({
+    bus_v: reading('Bus (panel) voltage, V.'),
+    current_a: reading('Current through the shunt, A.'),
+    power_w: reading('Power, W.'),
+    energy_wh: reading('Energy since boot, Wh (cumulative).'),
+    temp_c: reading('Temperature at the probe, °C.'),
+  })
+  .meta({ id: 'Readings', description: 'Latest measurements. Unknown fields are ignored.' });
+export type Readings = z.infer<typeof readingsSchema>;
+
+export const resetCountsSchema = z
+  .object(Object.fromEntries(resetReasons.map((r) => [r, count('a count of boots').optional()])) as Record<ResetReason, z.ZodOptional<ReturnType<typeof count>>>)
+  .meta({
+    id: 'ResetCounts',
+    description: 'Boots since the previous check-in by reason, e.g. {"watchdog": 2, "brownout": 1}. Unknown reasons are ignored.',
+  });
+export type ResetCounts = z.infer<typeof resetCountsSchema>;
+
+export const installReportSchema = z
+  .object({
+    release: uuid.meta({ description: 'The release id from the offer.' }),
+    state: z.enum(installStates, { message: `must be one of ${installStates.join(', ')}` }),
+    reason: z
+      .enum(installFailureReasons, { message: `must be one of ${installFailureReasons.join(', ')}` })
+      .optional()
+      .meta({ description: 'With state failed. A failed report without a reason counts as other. Ignored with other states.' }),
+    detail: z.string({ message: 'must be text' }).max(200, 'at most 200 characters').optional(),
+  })
+  .meta({
+    id: 'InstallReport',
+    description:
+      'States only move forward per release (downloading < downloaded < installing < installed; failed ends the attempt). ' +
+      'A repeated or older state is accepted and ignored, so a retried check-in never double-counts. ' +
+      'Report installed when the new image has been written and the logger is about to boot it, or on the first check-in after it booted. ' +
+      'A later check-in that still runs an older version counts as a rollback by the bootloader (failed, other).',
+  });
+export type InstallReport = z.infer<typeof installReportSchema>;
+
+export const checkInRequestSchema = z
+  .object({
+    firmware: z.string({ message: 'must be the running version, e.g. "2.4.0"' }).pipe(strictSemver).meta({
+      description: 'Version now running; strict semver.org 2.0.0 grammar (no leading v, no leading zeros, no spaces).',
+      example: '2.3.1',
+    }),
+    board: z.string({ message: 'must be the board revision label, e.g. "B"' }).trim().min(1, 'is required').max(32, 'at most 32 characters').meta({ example: 'B' }),
+    security_counter: count('the highest manifest security counter accepted').meta({
+      description: 'Highest manifest counter this logger has accepted; the decision uses the value sent in this check-in.',
+    }),
+    uptime_s: count('seconds since boot').optional(),
+    reset_reason: z.enum(resetReasons, { message: `must be one of ${resetReasons.join(', ')}` }).optional().meta({ description: 'Cause of the last boot.' }),
+    resets_since_last: count('a count of boots').optional().meta({
+      description: 'Boots since the previous check-in; counted under reset_reason when reset_counts is absent.',
+    }),
+    reset_counts: resetCountsSchema.optional(),
+    rssi_dbm: z.number({ message: 'must be a whole number of dBm' }).int('must be a whole number').min(-120, 'must be −120 or more').max(0, 'must be 0 or less').optional(),
+    free_heap_b: count('free heap in bytes').optional(),
+    supply_v: z.number({ message: 'must be a number of volts' }).min(0, 'must be 0 V or more').max(60, 'must be 60 V or less').optional().meta({
+      description: 'Supply voltage at the board input, V. Checked against the model minimum before an offer (supply guard).',
+    }),
+    readings: readingsSchema.optional(),
+    config_version: count('the measurement profile version').optional().meta({
+      description: 'Measurement profile version the logger runs; when absent or behind, the response carries the profile.',
+    }),
+    report: installReportSchema.optional(),
+  })
+  .meta({ id: 'CheckInRequest', description: 'Unknown fields are ignored (forward compatible).' });
+export type CheckInRequest = z.infer<typeof checkInRequestSchema>;
+
+export const deviceConfigSchema = z
+  .object({
+    version: z.number().int().min(1),
+    shunt_ohm: z.number().meta({ description: 'Shunt resistance, Ω.' }),
+    max_current_a: z.number().meta({ description: 'Largest expected current, A.' }),
+    current_lsb_a: z.number().meta({ description: 'Current register LSB, A per bit.' }),
+    calibration: z.number().int().meta({ description: 'Calibration register value.' }),
+    power_lsb_w: z.number().meta({ description: 'Power register LSB, W per bit.' }),
+    bus_v_max: z.number().meta({ description: 'Bus voltage range, V.' }),
+    temp_resolution_bits: z.number().int().meta({ description: 'Temperature probe resolution, 9–12 bits.' }),
+    sample_interval_s: z.number().int().meta({ description: 'Seconds between samples.' }),
+  })
+  .meta({ id: 'MeasurementProfile', description: 'The measurement profile to run, sent when config_version is absent or behind.' });
+export type DeviceConfig = z.infer<typeof deviceConfigSchema>;
+
+export const offerSchema = z
+  .object({
+    release: uuid,
+    version: z.string().meta({ example: '2.4.0' }),
+    security_counter: z.number().int().min(0),
+    manifest: z.string().meta({ description: 'Base64 of the exact signed manifest bytes (RFC 8785 canonical JSON).' }),
+    signature: z.string().meta({ description: 'Base64 of the signature over the manifest bytes (Ed25519, or ECDSA P-256 raw r‖s, 64 bytes).' }),
+    key_id: z.string().meta({ description: 'First 16 hex characters of the SHA-256 of the public key (DER SubjectPublicKeyInfo).' }),
+    algorithm: signatureAlgorithmSchema,
+    image: z.object({
+      url: z.string().meta({ description: 'Path of the image on this server, /api/device/v1/images/<sha256>.' }),
+      sha256: z.string().regex(/^[0-9a-f]{64}$/),
+      size: z.number().int().min(0),
+    }),
+  })
+  .meta({ id: 'Offer', description: 'The update to install now. Verify the signature and the image digest before installing.' });
+export type Offer = z.infer<typeof offerSchema>;
+
+export const checkInResponseSchema = z
+  .object({
+    server_time: z.iso.datetime().meta({ description: 'RFC 3339, UTC.' }),
+    next_check_in_s: z.number().int().min(1).meta({
+      description: "When to come back, seconds: the model's interval ±10 % jitter, stretched when the server is busy.",
+    }),
+    config: deviceConfigSchema.nullable(),
+    offer: offerSchema.nullable(),
+  })
+  .meta({ id: 'CheckInResponse' });
+export type CheckInResponse = z.infer<typeof checkInResponseSchema>;
+
+/** An image id in a URL: 64 lowercase hex characters (anything else is 404 before storage is touched). */
+export const imageIdPattern = /^[0-9a-f]{64}$/;

@@ -1,0 +1,212 @@
+// Automatic halt (issue 5 §5): after each install report, the release's thresholds are evaluated and
+// a release that crosses one is halted by the system. The evaluation is pure (`evaluateHalt`); the
+// service (`haltIfCrossed`) reads the figures and halts inside the report's transaction, with the
+// release row locked (SELECT … FOR UPDATE, taken by the caller before the report is applied), so
+// concurrent check-ins serialise on the release: exactly one of them halts, and every report is counted.
+//
+// Choices where the issue is silent (also in the OpenAPI document):
+// - Failure ratio: failed ÷ finished, where finished = installed + failed for a reason that is not
+//   transient (connection and low_supply are not counted on either side). It halts when the ratio is
+//   above haltFailureRatio (strictly) over at least haltMinReports finished installs.
+// - Reset rate: the loggers that confirmed the release at least 24 h ago (at least 20 of them) are
+//   compared with themselves: watchdog and brown-out resets per logger-day on the new version (check-ins
+//   since each logger's confirmation) against the same per logger-day on older versions in the
+//   retention window before it. It halts when the new rate is above haltResetFactor × the old rate. A
+//   fleet with no resets at all before would halt on the first one, so the old rate counts as at least
+//   one reset per 100 logger-days (a rule of thumb of ours, common practice for such floors).
+import type { Sequelize, Transaction } from 'sequelize';
+import { QueryTypes } from 'sequelize';
+import { transition, type ReleaseLifecycle, type ReleaseState, type ResumeState } from '../releases/lifecycle';
+import { recordActivity } from '../activity/service';
+import { systemContext } from '../auth/actor';
+import type { Mail } from '../mail/mailer';
+
+export const RESET_MIN_LOGGERS = 20;
+export const RESET_MIN_HOURS = 24;
+/** Floor of the old reset rate, resets per logger-day. */
+export const RESET_RATE_FLOOR = 0.01;
+
+export type HaltThresholds = { haltFailureRatio: number; haltMinReports: number; haltResetFactor: number };
+
+export type FailureFigures = { installed: number; failed: number };
+
+export type ResetFigures = {
+  loggers: number;
+  resetsAfter: number;
+  loggerDaysAfter: number;
+  resetsBefore: number;
+  loggerDaysBefore: number;
+};
+
+export type HaltVerdict =
+  | { halt: false }
+  | { halt: true; rule: 'failure_ratio' | 'reset_rate'; reason: string };
+
+const pct = (x: number) => `${Number((x * 100).toFixed(1))} %`;
+const rate = (x: number) => Number(x.toFixed(3)).toString();
+
+export function failureRatioVerdict(t: HaltThresholds, f: FailureFigures): HaltVerdict {
+  const finished = f.installed + f.failed;
+  if (finished < t.haltMinReports || finished === 0) return { halt: false };
+  const ratio = f.failed / finished;
+  if (ratio <= t.haltFailureRatio) return { halt: false };
+  return {
+    halt: true,
+    rule: 'failure_ratio',
+    reason: `Automatic halt: ${f.failed} of ${finished} finished installs failed (${pct(ratio)}), above the halt threshold of ${pct(t.haltFailureRatio)} over at least ${t.haltMinReports} installs.`,
+  };
+}
+
+export function resetRateVerdict(t: HaltThresholds, r: ResetFigures): HaltVerdict {
+  if (r.loggers < RESET_MIN_LOGGERS || r.loggerDaysAfter <= 0) return { halt: false };
+  const after = r.resetsAfter / r.loggerDaysAfter;
+  const measuredBefore = r.loggerDaysBefore > 0 ? r.resetsBefore / r.loggerDaysBefore : 0;
+  const before = Math.max(measuredBefore, RESET_RATE_FLOOR);
+  if (after <= t.haltResetFactor * before) return { halt: false };
+  return {
+    halt: true,
+    rule: 'reset_rate',
+    reason:
+      `Automatic halt: watchdog and brown-out resets rose to ${rate(after)} per logger-day on the new version ` +
+      `(${r.resetsAfter} over ${rate(r.loggerDaysAfter)} logger-days, ${r.loggers} loggers) from ${rate(measuredBefore)} before it ` +
+      `(${r.resetsBefore} over ${rate(r.loggerDaysBefore)} logger-days), more than ${t.haltResetFactor} × the rate before.`,
+  };
+}
+
+export function evaluateHalt(t: HaltThresholds, f: FailureFigures, r: ResetFigures | null): HaltVerdict {
+  const byFailures = failureRatioVerdict(t, f);
+  if (byFailures.halt) return byFailures;
+  return r ? resetRateVerdict(t, r) : { halt: false };
+}
+
+// ─── Service ────────────────────────────────────────────────────────────────
+
+/** The release row as locked by the report's transaction. */
+export type LockedRelease = HaltThresholds & {
+  id: string;
+  modelId: string;
+  version: string;
+  state: ReleaseState;
+  share: number;
+  resumeState: ResumeState | null;
+};
+
+export async function lockRelease(sequelize: Sequelize, t: Transaction, releaseId: string): Promise<LockedRelease | null> {
+  const rows = await sequelize.query<LockedRelease>(
+    `SELECT id, model_id AS "modelId", version, state, share, resume_state AS "resumeState",
+            halt_failure_ratio AS "haltFailureRatio", halt_min_reports AS "haltMinReports", halt_reset_factor AS "haltResetFactor"
+       FROM releases WHERE id = :id FOR UPDATE`,
+    { transaction: t, type: QueryTypes.SELECT, replacements: { id: releaseId } },
+  );
+  return rows[0] ?? null;
+}
+
+export async function failureFigures(sequelize: Sequelize, t: Transaction, releaseId: string): Promise<FailureFigures> {
+  const [row] = await sequelize.query<{ installed: number; failed: number }>(
+    `SELECT count(*) FILTER (WHERE state = 'installed')::int AS installed,
+            count(*) FILTER (WHERE state = 'failed' AND COALESCE(reason, 'other') NOT IN ('connection', 'low_supply'))::int AS failed
+       FROM install_reports WHERE release_id = :id`,
+    { transaction: t, type: QueryTypes.SELECT, replacements: { id: releaseId } },
+  );
+  return { installed: Number(row?.installed ?? 0), failed: Number(row?.failed ?? 0) };
+}
+
+const RESETS = `(COALESCE((c.resets->>'watchdog')::int, 0) + COALESCE((c.resets->>'brownout')::int, 0))`;
+
+export async function resetFigures(sequelize: Sequelize, t: Transaction, release: LockedRelease, now: Date, retentionDays: number): Promise<ResetFigures> {
+  const [row] = await sequelize.query<ResetFigures>(
+    `WITH cohort AS (
+       SELECT logger_id, confirmed_at FROM install_reports
+        WHERE release_id = :id AND confirmed_at IS NOT NULL AND confirmed_at <= CAST(:now AS timestamptz) - interval '${RESET_MIN_HOURS} hours'
+     ),
+     after AS (
+       SELECT k.logger_id, COALESCE(sum(${RESETS}), 0) AS resets,
+              EXTRACT(EPOCH FROM (COALESCE(max(c.at), k.confirmed_at) - k.confirmed_at)) / 86400 AS days
+         FROM cohort k LEFT JOIN check_ins c ON c.logger_id = k.logger_id AND c.at > k.confirmed_at AND c.at <= :now AND c.firmware = :version
+        GROUP BY k.logger_id, k.confirmed_at
+     ),
+     before AS (
+       SELECT k.logger_id, COALESCE(sum(${RESETS}), 0) AS resets,
+              EXTRACT(EPOCH FROM (k.confirmed_at - COALESCE(min(c.at), k.confirmed_at))) / 86400 AS days
+         FROM cohort k LEFT JOIN check_ins c ON c.logger_id = k.logger_id AND c.at < k.confirmed_at
+              AND c.at >= k.confirmed_at - make_interval(days => :retention) AND c.firmware <> :version
+        GROUP BY k.logger_id, k.confirmed_at
+     )
+     SELECT (SELECT count(*) FROM cohort)::int AS loggers,
+            (SELECT COALESCE(sum(resets), 0) FROM after)::int AS "resetsAfter",
+            (SELECT COALESCE(sum(days), 0) FROM after)::float8 AS "loggerDaysAfter",
+            (SELECT COALESCE(sum(resets), 0) FROM before)::int AS "resetsBefore",
+            (SELECT COALESCE(sum(days), 0) FROM before)::float8 AS "loggerDaysBefore"`,
+    { transaction: t, type: QueryTypes.SELECT, replacements: { id: release.id, version: release.version, now, retention: retentionDays } },
+  );
+  return {
+    loggers: Number(row.loggers),
+    resetsAfter: Number(row.resetsAfter),
+    loggerDaysAfter: Number(row.loggerDaysAfter),
+    resetsBefore: Number(row.resetsBefore),
+    loggerDaysBefore: Number(row.loggerDaysBefore),
+  };
+}
+
+export type HaltOutcome = { release: LockedRelease; reason: string; mail: Mail };
+
+/**
+ * Evaluates a live release locked in `t` and halts it when a threshold is crossed: the release row,
+ * a release_transitions row and an activity row by the system, all in `t`. Returns the e-mail to send
+ * once `t` has committed (never before: a rolled-back halt must not be announced), or null.
+ */
+export async function haltIfCrossed(
+  sequelize: Sequelize,
+  t: Transaction,
+  release: LockedRelease,
+  options: { now: Date; retentionDays: number; requestId: string | null },
+): Promise<HaltOutcome | null> {
+  if (!['pilot', 'expanding', 'complete'].includes(release.state)) return null;
+  const failures = await failureFigures(sequelize, t, release.id);
+  let verdict = failureRatioVerdict(release, failures);
+  if (!verdict.halt) verdict = resetRateVerdict(release, await resetFigures(sequelize, t, release, options.now, options.retentionDays));
+  if (!verdict.halt) return null;
+
+  const lifecycle: ReleaseLifecycle = { state: release.state, share: release.share, resumeState: release.resumeState };
+  const next = transition(lifecycle, 'halt', { reason: verdict.reason });
+  if (!next.ok) return null;
+  await sequelize.query(
+    `UPDATE releases SET state = :state, share = :share, resume_state = :resumeState, halted_at = :now, updated_at = :now WHERE id = :id`,
+    { transaction: t, replacements: { ...next.release, now: options.now, id: release.id } },
+  );
+  await sequelize.query(
+    `INSERT INTO release_transitions (release_id, at, action, from_state, to_state, share, reason, actor_type, actor_name)
+     VALUES (:id, :now, 'halt', :from, :to, :share, :reason, 'system', 'system')`,
+    { transaction: t, replacements: { id: release.id, now: options.now, from: release.state, to: next.release.state, share: next.release.share, reason: verdict.reason } },
+  );
+  const [model] = await sequelize.query<{ name: string }>('SELECT name FROM models WHERE id = :id', {
+    transaction: t,
+    type: QueryTypes.SELECT,
+    replacements: { id: release.modelId },
+  });
+  const modelName = model?.name ?? 'the model';
+  await recordActivity(t, systemContext(options.requestId), {
+    action: 'release.halted',
+    targetType: 'release',
+    targetId: release.id,
+    summary: `Release ${release.version} of ${modelName} was halted automatically. ${verdict.reason}`,
+    details: { rule: verdict.rule, fromState: release.state, failures },
+  });
+  const recipients = await sequelize.query<{ email: string }>(
+    `SELECT email FROM users WHERE role IN ('admin', 'release_engineer') AND disabled_at IS NULL ORDER BY email`,
+    { transaction: t, type: QueryTypes.SELECT },
+  );
+  const text = [
+    `Heliodor halted release ${release.version} of ${modelName} automatically.`,
+    '',
+    verdict.reason,
+    '',
+    `Installs so far: ${failures.installed} installed, ${failures.failed} failed (transient failures not counted).`,
+    'No logger is offered this release until it is resumed or withdrawn. Open the release in the console to decide.',
+  ].join('\n');
+  return {
+    release: { ...release, state: next.release.state, share: next.release.share, resumeState: next.release.resumeState },
+    reason: verdict.reason,
+    mail: { to: recipients.map((r) => r.email), subject: `Release ${release.version} of ${modelName} halted automatically`, text },
+  };
+}

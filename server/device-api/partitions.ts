@@ -1,0 +1,119 @@
+// Check-in history partitions (migration 0004): one partition per UTC day, created a week ahead, and
+// dropped once the whole day is older than the retention window (HELIODOR_CHECKIN_RETENTION_DAYS,
+// default 30). Rows that fell into the DEFAULT partition (a day that had no partition yet) are moved
+// into the day's partition when it is created, because PostgreSQL refuses to create a partition whose
+// range the DEFAULT partition already holds rows for.
+import type { Sequelize } from 'sequelize';
+import { QueryTypes } from 'sequelize';
+
+export const DEFAULT_RETENTION_DAYS = 30;
+export const DAYS_AHEAD = 7;
+
+export function retentionDays(env: NodeJS.ProcessEnv = process.env): number {
+  const raw = env.HELIODOR_CHECKIN_RETENTION_DAYS;
+  const n = raw === undefined || raw === '' ? DEFAULT_RETENTION_DAYS : Number(raw);
+  return Number.isInteger(n) && n >= 1 ? n : DEFAULT_RETENTION_DAYS;
+}
+
+const DAY_MS = 86_400_000;
+
+/** The UTC day (midnight) that holds `at`. */
+export function utcDay(at: Date): Date {
+  return new Date(Math.floor(at.getTime() / DAY_MS) * DAY_MS);
+}
+
+export function partitionName(day: Date): string {
+  return `check_ins_p${day.toISOString().slice(0, 10).replace(/-/g, '')}`;
+}
+
+const NAME = /^check_ins_p(\d{4})(\d{2})(\d{2})$/;
+
+/** The day a partition name stands for, or null for another table (e.g. the DEFAULT partition). */
+export function dayOfPartition(name: string): Date | null {
+  const m = NAME.exec(name);
+  return m ? new Date(`${m[1]}-${m[2]}-${m[3]}T00:00:00Z`) : null;
+}
+
+export type PartitionReport = { created: string[]; dropped: string[]; movedFromDefault: number };
+
+/** Creates the partitions from today to DAYS_AHEAD ahead and drops the ones past retention. */
+export async function maintainCheckInPartitions(sequelize: Sequelize, now: Date, retention = retentionDays()): Promise<PartitionReport> {
+  const existing = new Set(
+    (
+      await sequelize.query<{ name: string }>(
+        `SELECT c.relname AS name FROM pg_inherits i JOIN pg_class c ON c.oid = i.inhrelid JOIN pg_class p ON p.oid = i.inhparent
+         WHERE p.relname = 'check_ins'`,
+        { type: QueryTypes.SELECT },
+      )
+    ).map((r) => r.name),
+  );
+  const report: PartitionReport = { created: [], dropped: [], movedFromDefault: 0 };
+  const today = utcDay(now);
+  for (let i = 0; i <= DAYS_AHEAD; i++) {
+    const day = new Date(today.getTime() + i * DAY_MS);
+    const name = partitionName(day);
+    if (existing.has(name)) continue;
+    report.movedFromDefault += await createPartition(sequelize, day);
+    report.created.push(name);
+  }
+  const oldestKept = new Date(today.getTime() - retention * DAY_MS);
+  for (const name of existing) {
+    const day = dayOfPartition(name);
+    if (day && day.getTime() < oldestKept.getTime()) {
+      await sequelize.query(`DROP TABLE IF EXISTS "${name}"`);
+      report.dropped.push(name);
+    }
+  }
+  // The DEFAULT partition keeps no more than the partitions do.
+  await sequelize.query('DELETE FROM check_ins_default WHERE at < :oldestKept', { replacements: { oldestKept } });
+  return report;
+}
+
+async function createPartition(sequelize: Sequelize, day: Date): Promise<number> {
+  const name = partitionName(day);
+  const from = day.toISOString();
+  const to = new Date(day.getTime() + DAY_MS).toISOString();
+  return sequelize.transaction(async (transaction) => {
+    // Lock the parent so no insert lands in DEFAULT for this day while its rows move.
+    await sequelize.query('LOCK TABLE check_ins IN SHARE ROW EXCLUSIVE MODE', { transaction });
+    await sequelize.query(`CREATE TABLE IF NOT EXISTS "${name}" (LIKE check_ins INCLUDING DEFAULTS INCLUDING CONSTRAINTS)`, { transaction });
+    const [, moved] = await sequelize.query(
+      `WITH moved AS (DELETE FROM check_ins_default WHERE at >= :from AND at < :to RETURNING *)
+       INSERT INTO "${name}" SELECT * FROM moved`,
+      { transaction, replacements: { from, to } },
+    );
+    await sequelize.query(`ALTER TABLE check_ins ATTACH PARTITION "${name}" FOR VALUES FROM ('${from}') TO ('${to}')`, { transaction });
+    return typeof moved === 'number' ? moved : ((moved as { rowCount?: number } | undefined)?.rowCount ?? 0);
+  });
+}
+
+/**
+ * Runs the maintenance now and then every six hours, in the background: errors (a database still
+ * starting) are logged and retried at the next run, never fatal. The timer does not keep the process
+ * alive. Returns a stop function.
+ */
+export function startPartitionMaintenance(
+  sequelize: Sequelize,
+  options: { now: () => Date; log: (err: unknown) => void; everyMs?: number },
+): () => void {
+  let running = false;
+  const run = async () => {
+    if (running) return;
+    running = true;
+    try {
+      await maintainCheckInPartitions(sequelize, options.now());
+    } catch (err) {
+      options.log(err);
+    } finally {
+      running = false;
+    }
+  };
+  const first = setTimeout(() => void run(), 0);
+  first.unref?.();
+  const timer = setInterval(() => void run(), options.everyMs ?? 6 * 3_600_000);
+  timer.unref?.();
+  return () => {
+    clearTimeout(first);
+    clearInterval(timer);
+  };
+}

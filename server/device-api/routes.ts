@@ -1,0 +1,89 @@
+// The device API routes (DEVICE_API.md): HTTP only — authenticate the logger, parse, call the service.
+import type { Request, Response } from 'express';
+import type { Sequelize } from 'sequelize';
+import type pino from 'pino';
+import { declareAccess, rules } from '../auth/access';
+import type { Api } from '../http/api';
+import { parse } from '../http/validate';
+import { problems } from '../http/problem';
+import type { Mailer } from '../mail/mailer';
+import { checkInRequestSchema } from '../../schemas/device';
+import { authenticateLogger } from './auth';
+import { checkIn } from './checkin';
+import { isImageId, serveImage } from './images';
+import { createLoadControl, deviceRateLimit } from './load';
+import { deviceOpenApiDocument } from './openapi';
+import { startPartitionMaintenance } from './partitions';
+import { createReleaseCache, type ReleaseCache } from './release-cache';
+
+export const CHECK_IN_PATH = '/api/device/v1/check-in';
+export const IMAGE_PATH = '/api/device/v1/images/:sha256';
+export const OPENAPI_PATH = '/api/device/v1/openapi.json';
+
+declareAccess({
+  [`POST ${CHECK_IN_PATH}`]: rules.device,
+  [`GET ${IMAGE_PATH}`]: rules.device,
+  [`GET ${OPENAPI_PATH}`]: rules.public,
+});
+
+export type DeviceApiDeps = {
+  sequelize: Sequelize;
+  mailer: Mailer;
+  logger: pino.Logger;
+  now: () => Date;
+  config: { storeDir: string; deviceRatePerMinute: number };
+  /** Randomness for the check-in jitter; tests inject it. */
+  random?: () => number;
+};
+
+export type DeviceApi = { releases: ReleaseCache; stop(): Promise<void> };
+
+export function registerDeviceRoutes(api: Api, deps: DeviceApiDeps): DeviceApi {
+  const { sequelize } = deps;
+  const releases = createReleaseCache(sequelize, { log: (msg, err) => deps.logger.warn({ err }, msg) });
+  const load = createLoadControl(sequelize);
+  const stopPartitions = startPartitionMaintenance(sequelize, {
+    now: deps.now,
+    log: (err) => deps.logger.warn({ err }, 'check-in partition maintenance failed; retrying later'),
+  });
+  const stop = async () => {
+    stopPartitions();
+    load.stop();
+    await releases.stop();
+  };
+  // Background work ends with the database it uses.
+  const close = sequelize.close.bind(sequelize);
+  sequelize.close = async () => {
+    await stop();
+    return close();
+  };
+
+  const limit = deviceRateLimit(deps.config.deviceRatePerMinute);
+
+  api.post(CHECK_IN_PATH, limit, load.admit, async (req: Request, res: Response) => {
+    const logger = await authenticateLogger(sequelize, req);
+    const body = parse(checkInRequestSchema, req.body);
+    const reply = await checkIn(
+      { sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch },
+      logger,
+      body,
+      { ip: req.ip ?? null, requestId: typeof req.id === 'string' ? req.id : null },
+    );
+    res.setHeader('Cache-Control', 'no-store');
+    res.json(reply);
+  });
+
+  api.get(IMAGE_PATH, async (req: Request, res: Response) => {
+    const logger = await authenticateLogger(sequelize, req);
+    const sha256 = req.params.sha256;
+    if (!isImageId(sha256)) throw problems.notFound('image', 'No such image for this logger.');
+    await serveImage(req, res, { sequelize, storeDir: deps.config.storeDir, loggerId: logger.id, sha256 });
+  });
+
+  api.get(OPENAPI_PATH, (_req: Request, res: Response) => {
+    res.setHeader('Cache-Control', 'public, max-age=300');
+    res.json(deviceOpenApiDocument());
+  });
+
+  return { releases, stop };
+}
