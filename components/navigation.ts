@@ -17,7 +17,14 @@ const everyone: readonly Role[] = ['admin', 'release_engineer', 'integrator', 's
 
 export const destinations: Destination[] = [
   { href: '/', label: 'Overview', icon: 'overview', roles: everyone, tab: true },
+  { href: '/loggers', label: 'Loggers', icon: 'loggers', roles: everyone, tab: true },
+  { href: '/releases', label: 'Releases', icon: 'releases', roles: ['admin', 'release_engineer', 'support'], tab: true },
+  { href: '/enroll', label: 'Enroll', icon: 'enroll', roles: ['admin', 'integrator'], tab: true },
+  { href: '/sites', label: 'Sites', icon: 'sites', roles: everyone },
+  { href: '/models', label: 'Models', icon: 'models', roles: everyone },
   { href: '/activity', label: 'Activity', icon: 'activity', roles: ['admin', 'release_engineer', 'support'] },
+  { href: '/keys', label: 'Signing keys', icon: 'keys', roles: ['admin', 'release_engineer'] },
+  { href: '/tokens', label: 'API tokens', icon: 'settings', roles: ['admin'] },
   { href: '/mailbox', label: 'Mailbox', icon: 'mail', roles: ['admin'], devOnly: true },
 ];
 

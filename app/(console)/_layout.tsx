@@ -37,7 +37,8 @@ export default function ConsoleLayout() {
   }
   if (!me.data) {
     // The pathname changes while the redirect runs; remember the page that was asked for.
-    redirectFrom.current ??= pathname;
+    // Keep the query too: a label's link (/enroll?t=…) must arrive with its token after sign-in.
+    redirectFrom.current ??= pathname + (typeof window !== 'undefined' && window.location ? window.location.search : '');
     const from = redirectFrom.current;
     const next = from && from !== '/' ? `?next=${encodeURIComponent(from)}` : '';
     return <Redirect href={`/sign-in${next}` as never} />;

@@ -1,0 +1,45 @@
+// Confirmation before consequential actions (DESIGN.md): a modal that names the consequence.
+import React from 'react';
+import { Modal, Pressable, StyleSheet, Text, View } from 'react-native';
+import { Button, Row } from './ui';
+import { colors, radii, space, type } from './theme';
+
+type Props = {
+  visible: boolean;
+  title: string;
+  detail?: string;
+  confirmLabel: string;
+  cancelLabel?: string;
+  danger?: boolean;
+  busy?: boolean;
+  onConfirm: () => void;
+  onCancel: () => void;
+  children?: React.ReactNode;
+};
+
+export function ConfirmDialog({ visible, title, detail, confirmLabel, cancelLabel = 'Cancel', danger, busy, onConfirm, onCancel, children }: Props) {
+  return (
+    <Modal visible={visible} transparent animationType="fade" onRequestClose={onCancel}>
+      <Pressable style={styles.backdrop} onPress={onCancel} aria-label="Close" />
+      <View style={styles.center} pointerEvents="box-none">
+        <View role="alertdialog" aria-label={title} style={styles.dialog}>
+          <Text role="heading" aria-level={2} style={type.heading}>
+            {title}
+          </Text>
+          {detail ? <Text style={type.body}>{detail}</Text> : null}
+          {children}
+          <Row gap={space.sm} wrap style={{ justifyContent: 'flex-end', marginTop: space.sm }}>
+            <Button label={cancelLabel} variant="secondary" onPress={onCancel} />
+            <Button label={confirmLabel} variant={danger ? 'danger' : 'primary'} busy={busy} onPress={onConfirm} testID="confirm" />
+          </Row>
+        </View>
+      </View>
+    </Modal>
+  );
+}
+
+const styles = StyleSheet.create({
+  backdrop: { ...StyleSheet.absoluteFill, backgroundColor: 'rgba(30,42,47,0.45)' },
+  center: { ...StyleSheet.absoluteFill, alignItems: 'center', justifyContent: 'center', padding: space.lg },
+  dialog: { backgroundColor: colors.surface, borderRadius: radii.lg, padding: space.xl, gap: space.md, width: '100%', maxWidth: 460, borderColor: colors.line, borderWidth: 1 },
+});

@@ -1,0 +1,460 @@
+// Enrollment on a phone: scan (or type) the label, pick or create the site, enter the install details,
+// see the measurement profile as it will be computed, enroll. Presentational: the route passes data in.
+import React from 'react';
+import { Image, Pressable, StyleSheet, Text, View } from 'react-native';
+import { Link } from 'expo-router';
+import { Page } from './shell';
+import { Badge, Button, Card, EmptyState, Field, Mono, Notice, ProgressBar, Row, Skeleton } from './ui';
+import { Choices } from './choice';
+import { QrScanner, type ScannerProblem } from './qr-scanner';
+import { readEnrollmentCode } from './enroll-code';
+import { CalibrationPreview, liveProfile } from './calibration-preview';
+import { SiteForm } from './site-form';
+import { loggerStatus } from './status';
+import { pickFile } from './web';
+import { colors, fonts, radii, space, touchTarget, type } from './theme';
+import type { ApiError } from '../hooks/api';
+import type { EnrollInput, Lookup } from '../hooks/loggers';
+import type { Site, SiteInput } from '../hooks/sites';
+import type { InstallForProfile } from '../server/loggers/calibration';
+
+const errorOf = (e: unknown) => e as (ApiError & Error) | null;
+
+function ProblemNotice({ error, fallback }: { error: unknown; fallback: string }) {
+  const e = errorOf(error);
+  if (!e) return null;
+  return <Notice title={e.title ?? fallback} detail={e.detail ?? e.message} />;
+}
+
+// ─── Step 1: the label ───────────────────────────────────────────────────────
+
+export function EnrollScan({ busy, error, onToken }: { busy: boolean; error: unknown; onToken: (token: string) => void }) {
+  const [typed, setTyped] = React.useState('');
+  const [typedError, setTypedError] = React.useState<string | undefined>();
+  const [camera, setCamera] = React.useState<ScannerProblem | null>(null);
+  const [scanProblem, setScanProblem] = React.useState<string | null>(null);
+  const lastRead = React.useRef<string | null>(null);
+
+  const onRead = (text: string) => {
+    if (busy || text === lastRead.current) return;
+    lastRead.current = text;
+    const reading = readEnrollmentCode(text);
+    if (reading.ok) {
+      setScanProblem(null);
+      onToken(reading.token);
+    } else {
+      setScanProblem('The camera read a QR code, but it is not a Heliodor logger label. Scan the label on the logger enclosure.');
+    }
+  };
+  const submitTyped = () => {
+    const reading = readEnrollmentCode(typed);
+    if (!reading.ok) return setTypedError(reading.message);
+    setTypedError(undefined);
+    lastRead.current = null;
+    onToken(reading.token);
+  };
+
+  return (
+    <Page title="Enroll a logger" subtitle="Scan the QR label on the logger, or type the code printed with it">
+      {camera ? <Notice title={camera.title} detail={camera.detail} tone="amber" /> : <QrScanner onRead={onRead} onProblem={setCamera} />}
+      {scanProblem ? <Notice title="Not a logger label" detail={scanProblem} tone="amber" /> : null}
+      {busy ? (
+        <Card>
+          <Text style={type.body}>Looking up the label…</Text>
+          <Skeleton rows={2} />
+        </Card>
+      ) : null}
+      <ProblemNotice error={error} fallback="This label could not be looked up" />
+      <Card>
+        <Text style={type.heading}>Type or paste the code</Text>
+        <Field
+          label="Label link or token"
+          value={typed}
+          onChangeText={(v) => {
+            setTyped(v);
+            setTypedError(undefined);
+          }}
+          onSubmitEditing={submitTyped}
+          error={typedError}
+          hint='The whole link from the label, or the token starting "hlt_"'
+          mono
+          autoCapitalize="none"
+          autoCorrect={false}
+          testID="enroll-code"
+        />
+        <Button label="Look up label" variant="secondary" onPress={submitTyped} busy={busy} testID="enroll-lookup" />
+      </Card>
+    </Page>
+  );
+}
+
+// ─── Step 2: site and install details ───────────────────────────────────────
+
+const MAX_PHOTO_BYTES = 10 * 1024 * 1024;
+
+function parseNumber(text: string): number | undefined {
+  const t = text.trim().replace(',', '.');
+  if (t === '') return undefined;
+  const n = Number(t);
+  return Number.isFinite(n) ? n : NaN;
+}
+
+export type EnrollFormProps = {
+  lookup: Lookup;
+  token: string;
+  sites: { rows: Site[]; loading: boolean; error: unknown };
+  siteQuery: string;
+  onSiteQuery: (q: string) => void;
+  createSite: { busy: boolean; error: unknown; run: (input: SiteInput, done: (site: Site) => void) => void };
+  enroll: { busy: boolean; error: unknown; run: (input: EnrollInput, photo: File | null) => void };
+  onRescan: () => void;
+};
+
+export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, createSite, enroll, onRescan }: EnrollFormProps) {
+  const { logger, limits } = lookup;
+  const [siteId, setSiteId] = React.useState<string | undefined>(logger.site?.id);
+  const [chosenSite, setChosenSite] = React.useState<Site | { id: string; name: string } | undefined>(logger.site ?? undefined);
+  const [creating, setCreating] = React.useState(false);
+  const [panelWp, setPanelWp] = React.useState('');
+  const [panelVocV, setPanelVocV] = React.useState('');
+  const [shunt, setShunt] = React.useState('');
+  const [shuntUnit, setShuntUnit] = React.useState<'mΩ' | 'Ω'>('mΩ');
+  const [maxCurrentA, setMaxCurrentA] = React.useState('');
+  const [bits, setBits] = React.useState<number | undefined>(limits.tempResolutions.includes(12) ? 12 : limits.tempResolutions[limits.tempResolutions.length - 1]);
+  const [notes, setNotes] = React.useState('');
+  const [photo, setPhoto] = React.useState<File | null>(null);
+  const [photoUrl, setPhotoUrl] = React.useState<string | null>(null);
+  const [photoError, setPhotoError] = React.useState<string | undefined>();
+  const [local, setLocal] = React.useState<Record<string, string>>({});
+
+  React.useEffect(() => () => void (photoUrl && URL.revokeObjectURL(photoUrl)), [photoUrl]);
+
+  const shuntValue = parseNumber(shunt);
+  const shuntOhm = shuntValue === undefined ? undefined : shuntUnit === 'mΩ' ? Number((shuntValue / 1000).toPrecision(12)) : shuntValue;
+  const install: Partial<InstallForProfile> = {
+    shuntOhm,
+    maxCurrentA: parseNumber(maxCurrentA),
+    panelVocV: parseNumber(panelVocV),
+    tempResolutionBits: bits,
+  };
+  const result = liveProfile(install, limits);
+  const filled = (path: keyof InstallForProfile) =>
+    path === 'tempResolutionBits' ? true : { shuntOhm: shunt, maxCurrentA, panelVocV }[path].trim() !== '';
+
+  const server = errorOf(enroll.error);
+  const fieldError = (path: string) => local[path] ?? (server?.field ? server.field(path) : undefined);
+
+  const choosePhoto = async () => {
+    const file = await pickFile('image/jpeg,image/png', 'environment');
+    if (!file) return;
+    if (!['image/jpeg', 'image/png'].includes(file.type)) return setPhotoError('The photo must be a JPEG or PNG image.');
+    if (file.size > MAX_PHOTO_BYTES) return setPhotoError(`The photo is ${(file.size / 1048576).toFixed(1)} MB; the limit is 10 MB.`);
+    setPhotoError(undefined);
+    setPhoto(file);
+    setPhotoUrl(URL.createObjectURL(file));
+  };
+
+  const submit = () => {
+    const problems: Record<string, string> = {};
+    const wp = parseNumber(panelWp);
+    if (!siteId) problems.siteId = 'Choose the site where this logger is installed, or create it.';
+    if (wp === undefined || !(wp > 0)) problems.panelWp = 'must be a number above 0';
+    if (result && !result.ok) for (const e of result.errors) problems[e.path] ??= e.message;
+    if (!result) {
+      problems.shuntOhm = 'is required';
+      problems.maxCurrentA = 'is required';
+      problems.panelVocV = 'is required';
+    }
+    setLocal(problems);
+    if (Object.keys(problems).length || !siteId || !result?.ok) return;
+    enroll.run(
+      {
+        token,
+        siteId,
+        panelWp: wp as number,
+        panelVocV: install.panelVocV as number,
+        shuntOhm: result.profile.shuntOhm,
+        maxCurrentA: result.profile.maxCurrentA,
+        tempResolutionBits: result.profile.tempResolutionBits,
+        notes: notes.trim() || undefined,
+      },
+      photo,
+    );
+  };
+
+  const status = loggerStatus(logger);
+  const siteMissing = fieldError('siteId');
+
+  return (
+    <View style={{ gap: space.lg }}>
+      <Page title="Enroll a logger" subtitle="Check the logger, choose its site, enter how it is wired">
+        <Card testID="enroll-logger">
+          <Row style={{ justifyContent: 'space-between', alignItems: 'flex-start' }}>
+            <View style={{ gap: 2, flexShrink: 1 }}>
+              <Text style={type.label}>Serial</Text>
+              <Mono style={{ fontSize: 22, lineHeight: 28, fontFamily: fonts.monoMedium }}>{logger.serial}</Mono>
+            </View>
+            <Badge label={status.label} tone={status.tone} />
+          </Row>
+          <Text style={type.body}>
+            {logger.modelName} · board {logger.board}
+          </Text>
+          {logger.status === 'enrolled' && logger.site ? (
+            <Notice title={`Already enrolled at ${logger.site.name}`} tone="amber">
+              <Text style={type.body}>
+                To install it somewhere else, use Move on{' '}
+                <Link href={`/loggers/${logger.id}` as never} style={{ textDecorationLine: 'underline' }}>
+                  the logger's page
+                </Link>
+                .
+              </Text>
+            </Notice>
+          ) : null}
+          <View style={{ alignSelf: 'flex-start' }}>
+            <Button label="Scan a different label" variant="quiet" onPress={onRescan} />
+          </View>
+        </Card>
+
+        <Card>
+          <Text role="heading" aria-level={2} style={type.heading}>
+            Site
+          </Text>
+          {chosenSite ? (
+            <Text style={type.body} testID="chosen-site">
+              Installing at <Text style={{ fontFamily: fonts.semibold }}>{chosenSite.name}</Text>
+            </Text>
+          ) : (
+            <Text style={type.small}>Choose where the logger is installed.</Text>
+          )}
+          {creating ? (
+            <SiteForm
+              submitLabel="Create site"
+              busy={createSite.busy}
+              error={errorOf(createSite.error)}
+              onCancel={() => setCreating(false)}
+              onSubmit={(input) =>
+                createSite.run(input, (site) => {
+                  setSiteId(site.id);
+                  setChosenSite(site);
+                  setCreating(false);
+                })
+              }
+            />
+          ) : (
+            <>
+              <Field label="Find a site" value={siteQuery} onChangeText={onSiteQuery} placeholder="Name, customer or address" testID="site-search" />
+              {sites.loading ? <Skeleton rows={3} height={44} /> : null}
+              <ProblemNotice error={sites.error} fallback="Could not load the sites" />
+              {!sites.loading && !sites.rows.length ? (
+                <EmptyState title="No sites found" detail={siteQuery ? 'No site matches this search.' : 'There are no sites you can install at yet: create one.'} />
+              ) : null}
+              <View role="radiogroup" aria-label="Site" style={{ gap: space.xs }}>
+                {sites.rows.slice(0, 12).map((s) => {
+                  const on = s.id === siteId;
+                  return (
+                    <Pressable
+                      key={s.id}
+                      role="radio"
+                      aria-checked={on}
+                      aria-label={s.name}
+                      onPress={() => {
+                        setSiteId(s.id);
+                        setChosenSite(s);
+                        setLocal(({ siteId: _gone, ...rest }) => rest);
+                      }}
+                      style={[styles.siteRow, on && styles.siteRowOn]}
+                    >
+                      <View style={[styles.radio, on && styles.radioOn]} />
+                      <View style={{ flexShrink: 1 }}>
+                        <Text style={[type.body, { fontFamily: on ? fonts.semibold : fonts.medium }]}>{s.name}</Text>
+                        <Text style={type.small}>
+                          {s.customer} · {s.address}
+                        </Text>
+                      </View>
+                    </Pressable>
+                  );
+                })}
+              </View>
+              {siteMissing ? (
+                <Text role="alert" style={[type.small, { color: colors.ember }]}>
+                  {siteMissing}
+                </Text>
+              ) : null}
+              <View style={{ alignSelf: 'flex-start' }}>
+                <Button label="New site" variant="secondary" onPress={() => setCreating(true)} testID="new-site" />
+              </View>
+            </>
+          )}
+        </Card>
+
+        <Notice title="Before you connect the logger" tone="amber">
+          <Text style={type.body}>• Isolate the array first: panels make voltage whenever light falls on them, and a DC arc does not put itself out.</Text>
+          <Text style={type.body}>• Fuse the measurement leads close to where they connect to the array.</Text>
+          <Text style={type.body}>
+            • Respect the monitor's limits: at most {limits.busVMax} V on the bus input and {Number((limits.shuntFullScaleV * 1000).toPrecision(4))} mV across the shunt.
+          </Text>
+          <Text style={type.body}>• Follow the local electrical codes; wiring work is for licensed practice.</Text>
+        </Notice>
+
+        <Card>
+          <Text role="heading" aria-level={2} style={type.heading}>
+            Install details
+          </Text>
+          <Row gap={space.sm} style={{ alignItems: 'flex-start' }}>
+            <View style={{ flex: 1 }}>
+              <Field label="Panel rating (Wp)" value={panelWp} onChangeText={setPanelWp} inputMode="decimal" error={fieldError('panelWp')} testID="panel-wp" />
+            </View>
+            <View style={{ flex: 1 }}>
+              <Field label="Open-circuit voltage (V)" value={panelVocV} onChangeText={setPanelVocV} inputMode="decimal" error={fieldError('panelVocV')} testID="panel-voc" />
+            </View>
+          </Row>
+          <Row gap={space.sm} style={{ alignItems: 'flex-end' }}>
+            <View style={{ flex: 1 }}>
+              <Field label={`Shunt resistance (${shuntUnit})`} value={shunt} onChangeText={setShunt} inputMode="decimal" testID="shunt" />
+            </View>
+            <Choices
+              choices={[
+                { value: 'mΩ', label: 'mΩ' },
+                { value: 'Ω', label: 'Ω' },
+              ]}
+              value={shuntUnit}
+              onChange={setShuntUnit}
+            />
+          </Row>
+          {fieldError('shuntOhm') ? (
+            <Text role="alert" style={[type.small, { color: colors.ember }]}>
+              {fieldError('shuntOhm')}
+            </Text>
+          ) : null}
+          <Field label="Maximum expected current (A)" value={maxCurrentA} onChangeText={setMaxCurrentA} inputMode="decimal" error={fieldError('maxCurrentA')} testID="max-current" />
+          <Choices
+            label="Temperature probe resolution"
+            choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: `${b} bits` }))}
+            value={bits}
+            onChange={setBits}
+            error={fieldError('tempResolutionBits')}
+            testID="probe-resolution"
+          />
+          <Field
+            label="Mounting notes (optional)"
+            value={notes}
+            onChangeText={setNotes}
+            multiline
+            style={{ minHeight: 72, paddingTop: space.sm }}
+            error={fieldError('notes')}
+            placeholder="Where the enclosure is, cable runs, anything the next visitor should know"
+            testID="notes"
+          />
+          <View style={{ gap: space.xs }}>
+            <Text style={type.label}>Photo of the install (optional, JPEG or PNG up to 10 MB)</Text>
+            {photoUrl ? <Image source={{ uri: photoUrl }} style={styles.photo} resizeMode="cover" accessibilityLabel="Install photo" /> : null}
+            <Row gap={space.sm} wrap>
+              <Button label={photo ? 'Choose another photo' : 'Add a photo'} variant="secondary" onPress={choosePhoto} testID="add-photo" />
+              {photo ? (
+                <Button
+                  label="Remove photo"
+                  variant="quiet"
+                  onPress={() => {
+                    setPhoto(null);
+                    setPhotoUrl(null);
+                  }}
+                />
+              ) : null}
+            </Row>
+            {photoError ? (
+              <Text role="alert" style={[type.small, { color: colors.ember }]}>
+                {photoError}
+              </Text>
+            ) : null}
+          </View>
+        </Card>
+
+        <CalibrationPreview result={result} filled={filled} />
+        {server && !server.fieldErrors?.length ? <ProblemNotice error={server} fallback="The logger could not be enrolled" /> : null}
+        {server && server.fieldErrors?.length ? <Notice title={server.title ?? 'Check the details'} detail={server.detail} /> : null}
+      </Page>
+      <View style={styles.sticky}>
+        <Button label="Enroll logger" onPress={submit} busy={enroll.busy} testID="enroll-submit" />
+        {chosenSite ? <Text style={[type.small, { textAlign: 'center' }]}>{`${logger.serial} at ${chosenSite.name}`}</Text> : null}
+      </View>
+    </View>
+  );
+}
+
+// ─── Step 3: done ────────────────────────────────────────────────────────────
+
+export function EnrollDone({
+  serial,
+  loggerId,
+  siteName,
+  photo,
+  onAnother,
+}: {
+  serial: string;
+  loggerId: string;
+  siteName: string;
+  photo: { state: 'none' | 'uploading' | 'done' | 'failed'; progress: number; error?: unknown; retry?: () => void };
+  onAnother: () => void;
+}) {
+  return (
+    <Page title="Logger enrolled">
+      <Card style={{ borderColor: colors.moss }} testID="enroll-done">
+        <Badge label="Enrolled" tone="moss" />
+        <Text style={type.heading}>
+          <Text style={{ fontFamily: fonts.monoMedium }}>{serial}</Text> enrolled at {siteName}; it turns online at its first check-in.
+        </Text>
+        {photo.state === 'uploading' ? <ProgressBar value={photo.progress * 100} label={`Uploading the install photo: ${Math.round(photo.progress * 100)} %`} /> : null}
+        {photo.state === 'done' ? <Text style={type.small}>Install photo saved.</Text> : null}
+        {photo.state === 'failed' ? (
+          <View style={{ gap: space.sm }}>
+            <ProblemNotice error={photo.error} fallback="The photo was not saved" />
+            {photo.retry ? (
+              <View style={{ alignSelf: 'flex-start' }}>
+                <Button label="Try the photo again" variant="secondary" onPress={photo.retry} />
+              </View>
+            ) : null}
+          </View>
+        ) : null}
+      </Card>
+      <Row gap={space.sm} wrap>
+        <Button label="Enroll another logger" onPress={onAnother} testID="enroll-another" />
+        <Link href={`/loggers/${loggerId}` as never} asChild>
+          <Pressable role="link" style={styles.link}>
+            <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Open the logger</Text>
+          </Pressable>
+        </Link>
+      </Row>
+    </Page>
+  );
+}
+
+const styles = StyleSheet.create({
+  siteRow: {
+    flexDirection: 'row',
+    alignItems: 'center',
+    gap: space.md,
+    minHeight: touchTarget + 8,
+    paddingHorizontal: space.md,
+    paddingVertical: space.sm,
+    borderRadius: radii.md,
+    borderWidth: 1,
+    borderColor: colors.line,
+  },
+  siteRowOn: { borderColor: colors.ink, borderWidth: 2, backgroundColor: colors.paperDeep },
+  radio: { width: 20, height: 20, borderRadius: 10, borderWidth: 2, borderColor: colors.inkFaint },
+  radioOn: { borderColor: colors.ink, backgroundColor: colors.heliodor },
+  photo: { width: '100%', maxWidth: 360, height: 200, borderRadius: radii.md },
+  sticky: {
+    position: 'sticky' as 'relative',
+    bottom: 0,
+    marginHorizontal: -space.lg,
+    marginBottom: -space.xxl,
+    paddingHorizontal: space.lg,
+    paddingVertical: space.sm,
+    gap: 2,
+    backgroundColor: colors.paper,
+    borderTopColor: colors.line,
+    borderTopWidth: 1,
+  },
+  link: { minHeight: touchTarget, justifyContent: 'center', paddingHorizontal: space.sm },
+});

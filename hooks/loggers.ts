@@ -1,0 +1,212 @@
+// Loggers: the registry list and detail, registration (one or a CSV batch), token rotation, retirement,
+// moves, profile changes, install photos, and on-site enrollment.
+import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
+import { api, query, STALE, upload } from './api';
+import type { List } from '../schemas/common';
+import type { MeasurementProfile } from '../schemas/loggers';
+import { siteKeys } from './sites';
+import { modelKeys } from './models';
+
+export type LoggerStatus = 'registered' | 'enrolled' | 'retired';
+
+export type LoggerRow = {
+  id: string;
+  serial: string;
+  modelId: string;
+  modelName: string;
+  board: string;
+  track: string;
+  status: LoggerStatus;
+  siteId: string | null;
+  siteName: string | null;
+  customer: string | null;
+  firmware: string | null;
+  lastSeenAt: string | null;
+  supplyV: number | null;
+  online?: boolean;
+};
+
+export type Profile = MeasurementProfile & { panelWp: number | null; panelVocV: number | null; createdAt: string };
+
+export type LoggerDetail = {
+  id: string;
+  serial: string;
+  modelId: string;
+  modelName: string;
+  board: string;
+  track: string;
+  status: LoggerStatus;
+  online: boolean;
+  site: { id: string; name: string; customer: string } | null;
+  enrolledAt: string | null;
+  enrolledBy: { id: string; name: string } | null;
+  install: { panelWp: number; panelVocV: number; notes: string | null; photo: boolean } | null;
+  profile: Profile | null;
+  firmware: string | null;
+  lastSeenAt: string | null;
+  supplyV: number | null;
+  tokenIssuedAt: string | null;
+  retiredAt: string | null;
+  createdAt: string;
+};
+
+/** A token handed out once, with what its label and bench sheet row print beside it. */
+export type IssuedToken = { id?: string; serial: string; token: string; modelName: string; board: string; track?: string };
+
+export type LoggerFilter = { q?: string; siteId?: string; modelId?: string; status?: LoggerStatus; page?: number; pageSize?: 25 | 50 | 100 };
+
+export const loggerKeys = {
+  all: ['loggers'] as const,
+  lists: () => [...loggerKeys.all, 'list'] as const,
+  list: (filter: LoggerFilter) => [...loggerKeys.lists(), filter] as const,
+  detail: (id: string) => [...loggerKeys.all, 'detail', id] as const,
+};
+
+export function useLoggers(filter: LoggerFilter) {
+  return useQuery({
+    queryKey: loggerKeys.list(filter),
+    staleTime: STALE.SECONDS.THIRTY,
+    placeholderData: keepPreviousData,
+    queryFn: () => api<List<LoggerRow>>(`/api/loggers${query(filter)}`),
+  });
+}
+
+export function useLogger(id: string | undefined) {
+  return useQuery({
+    queryKey: loggerKeys.detail(id ?? ''),
+    enabled: Boolean(id),
+    staleTime: STALE.SECONDS.THIRTY,
+    queryFn: () => api<LoggerDetail>(`/api/loggers/${id}`),
+  });
+}
+
+/** After any registry change: lists, counts on sites and models, and the overview figures. */
+function useInvalidateRegistry() {
+  const qc = useQueryClient();
+  return (loggerId?: string) =>
+    Promise.all([
+      qc.invalidateQueries({ queryKey: loggerKeys.lists() }),
+      loggerId ? qc.invalidateQueries({ queryKey: loggerKeys.detail(loggerId) }) : null,
+      qc.invalidateQueries({ queryKey: siteKeys.all }),
+      qc.invalidateQueries({ queryKey: modelKeys.all }),
+      qc.invalidateQueries({ queryKey: ['overview'] }),
+    ]);
+}
+
+export type RegisterInput = { serial: string; modelId: string; board: string; track: string };
+export type Registered = { id: string; serial: string; board: string; track: string; modelId: string; modelName: string; token: string; labelPng: string };
+
+export function useRegisterLogger() {
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: (body: RegisterInput) => api<Registered>('/api/loggers', { body }),
+    onSuccess: () => invalidate(),
+  });
+}
+
+export type BatchResult = { rows: { id: string; serial: string; token: string; board: string; track: string; modelName: string }[]; total: number };
+
+/** CSV batch upload; `onProgress` receives the fraction of the file sent (0…1). */
+export function useRegisterBatch(onProgress: (fraction: number) => void) {
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: (file: Blob & { name?: string }) => {
+      const form = new FormData();
+      form.append('file', file, file.name ?? 'loggers.csv');
+      return upload<BatchResult>('/api/loggers/batch', form, onProgress);
+    },
+    onSuccess: () => invalidate(),
+  });
+}
+
+export type Rotated = { token: string; labelPng: string; serial: string; modelName: string; board: string };
+
+export function useRotateToken(id: string) {
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: () => api<Rotated>(`/api/loggers/${id}/token`, { method: 'POST' }),
+    onSuccess: () => invalidate(id),
+  });
+}
+
+export function useRetireLogger(id: string) {
+  const qc = useQueryClient();
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: (body: { reason?: string }) => api<LoggerDetail>(`/api/loggers/${id}/retire`, { body }),
+    onSuccess: (logger) => {
+      qc.setQueryData(loggerKeys.detail(id), logger);
+      return invalidate();
+    },
+  });
+}
+
+export function useMoveLogger(id: string) {
+  const qc = useQueryClient();
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: (body: { siteId: string }) => api<LoggerDetail>(`/api/loggers/${id}/move`, { body }),
+    onSuccess: (logger) => {
+      qc.setQueryData(loggerKeys.detail(id), logger);
+      return invalidate();
+    },
+  });
+}
+
+export type ProfileInput = { panelWp?: number; panelVocV?: number; shuntOhm: number; maxCurrentA: number; tempResolutionBits: number };
+
+export function useUpdateProfile(id: string) {
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: (body: ProfileInput) => api<Profile>(`/api/loggers/${id}/profile`, { method: 'PATCH', body }),
+    onSuccess: () => invalidate(id),
+  });
+}
+
+export function useUploadPhoto(onProgress?: (fraction: number) => void) {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: ({ loggerId, file }: { loggerId: string; file: Blob & { name?: string } }) => {
+      const form = new FormData();
+      form.append('photo', file, file.name ?? 'install.jpg');
+      return upload<void>(`/api/loggers/${loggerId}/photo`, form, onProgress);
+    },
+    onSuccess: (_void, { loggerId }) => qc.invalidateQueries({ queryKey: loggerKeys.detail(loggerId) }),
+  });
+}
+
+export const photoUrl = (loggerId: string) => `${process.env.EXPO_PUBLIC_API_URL ?? ''}/api/loggers/${loggerId}/photo`;
+
+// ─── Enrollment ──────────────────────────────────────────────────────────────
+
+export type Lookup = {
+  logger: { id: string; serial: string; modelId: string; modelName: string; board: string; status: LoggerStatus; site: { id: string; name: string } | null };
+  limits: { busVMax: number; shuntFullScaleV: number; tempResolutions: number[] };
+};
+
+export function useEnrollmentLookup() {
+  return useMutation({ mutationFn: (token: string) => api<Lookup>('/api/enrollments/lookup', { body: { token } }) });
+}
+
+export type EnrollInput = {
+  token: string;
+  siteId: string;
+  panelWp: number;
+  panelVocV: number;
+  shuntOhm: number;
+  maxCurrentA: number;
+  tempResolutionBits: number;
+  notes?: string;
+};
+
+export function useEnroll() {
+  const qc = useQueryClient();
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: (body: EnrollInput) => api<{ logger: LoggerDetail; profile: Profile }>('/api/enrollments', { body }),
+    onSuccess: ({ logger }) => {
+      qc.setQueryData(loggerKeys.detail(logger.id), logger);
+      return invalidate();
+    },
+  });
+}
