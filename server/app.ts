@@ -24,6 +24,7 @@ import { registerKeyRoutes } from './keys/routes';
 import { registerTokenRoutes } from './tokens/routes';
 import { registerModelRoutes } from './models/routes';
 import { registerSiteRoutes } from './sites/routes';
+import { registerLoggerRoutes } from './loggers/routes';
 import { registerDeviceRoutes } from './device-api/routes';
 
 export type AppDeps = {
@@ -94,6 +95,7 @@ export function createApp(deps: AppDeps) {
   registerTokenRoutes(api, services);
   registerModelRoutes(api, services);
   registerSiteRoutes(api, services);
+  registerLoggerRoutes(api, services);
   registerDeviceRoutes(api, services);
   app.use(router);
 

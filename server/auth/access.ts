@@ -32,6 +32,12 @@ export const access: Record<string, Rule> = {
   'GET /api/sites/:id': people(everyone),
   'POST /api/sites': people(['admin', 'integrator']),
   'PATCH /api/sites/:id': people(['admin', 'integrator']),
+  'GET /api/loggers': people(everyone, ['fleet:read']),
+  'GET /api/loggers/:id': people(everyone, ['fleet:read']),
+  'POST /api/loggers': people(['admin', 'integrator']),
+  'POST /api/loggers/batch': people(['admin', 'integrator']),
+  'POST /api/loggers/:id/token': people(['admin']),
+  'POST /api/loggers/:id/retire': people(['admin']),
 };
 
 /** Adds rows for a domain; throws on a duplicate so two domains cannot silently disagree. */

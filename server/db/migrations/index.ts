@@ -4,6 +4,7 @@ import * as m0001 from './0001_people_and_activity';
 import * as m0002 from './0002_registry';
 import * as m0003 from './0003_releases';
 import * as m0004 from './0004_device';
+import * as m0005 from './0005_registry_more';
 
 export type Migration = {
   name: string;
@@ -16,4 +17,5 @@ export const migrations: Migration[] = [
   { name: '0002_registry', ...m0002 },
   { name: '0003_releases', ...m0003 },
   { name: '0004_device', ...m0004 },
+  { name: '0005_registry_more', ...m0005 },
 ];

@@ -1,0 +1,76 @@
+// Shapes the console API answers for loggers and measurement profiles (camelCase, RFC 3339 times).
+import { LoggerModel, MeasurementProfile, Site, User, type Logger } from '../db/models';
+import type { LoggerDetail, ProfileView, TempResolutionBits } from '../../schemas/loggers';
+import type { Transaction } from 'sequelize';
+
+const iso = (d: Date | null | undefined) => (d ? new Date(d).toISOString() : null);
+const numberOrNull = (x: unknown) => (x === null || x === undefined ? null : Number(x));
+
+export function presentProfile(p: MeasurementProfile): ProfileView {
+  return {
+    version: p.version,
+    shuntOhm: Number(p.shuntOhm),
+    maxCurrentA: Number(p.maxCurrentA),
+    currentLsbA: Number(p.currentLsbA),
+    calibration: p.calibration,
+    powerLsbW: Number(p.powerLsbW),
+    busVMax: Number(p.busVMax),
+    tempResolutionBits: p.tempResolutionBits as TempResolutionBits,
+    sampleIntervalS: p.sampleIntervalS,
+    panelWp: numberOrNull(p.panelWp),
+    panelVocV: numberOrNull(p.panelVocV),
+    createdAt: p.createdAt.toISOString(),
+  };
+}
+
+export async function latestProfile(loggerId: string, transaction?: Transaction): Promise<MeasurementProfile | null> {
+  return MeasurementProfile.findOne({ where: { loggerId }, order: [['version', 'DESC']], transaction });
+}
+
+/** What loggers.install holds: the install details entered at enrollment, and the photo's metadata. */
+export type StoredInstall = {
+  panelWp?: number | null;
+  panelVocV?: number | null;
+  notes?: string;
+  photo?: { contentType: string; size: number; sha256: string; uploadedAt: string } | null;
+};
+
+/** Online: enrolled and seen within three check-in intervals (the overview counts it the same way). */
+export function isOnline(logger: Logger, model: LoggerModel, now: Date): boolean {
+  if (logger.status !== 'enrolled' || !logger.lastSeenAt) return false;
+  return now.getTime() - new Date(logger.lastSeenAt).getTime() <= 3 * model.checkInIntervalS * 1000;
+}
+
+export async function presentDetail(logger: Logger, now: Date, transaction?: Transaction): Promise<LoggerDetail> {
+  const [model, site, enrolledBy, profile] = await Promise.all([
+    LoggerModel.findByPk(logger.modelId, { transaction }),
+    logger.siteId ? Site.findByPk(logger.siteId, { transaction }) : null,
+    logger.enrolledBy ? User.findByPk(logger.enrolledBy, { attributes: ['id', 'name'], transaction }) : null,
+    latestProfile(logger.id, transaction),
+  ]);
+  if (!model) throw new Error(`logger ${logger.id} names a missing model`);
+  const install = logger.install as StoredInstall | null;
+  return {
+    id: logger.id,
+    serial: logger.serial,
+    modelId: logger.modelId,
+    modelName: model.name,
+    board: logger.board,
+    track: logger.track,
+    status: logger.status,
+    online: isOnline(logger, model, now),
+    site: site ? { id: site.id, name: site.name, customer: site.customer } : null,
+    enrolledAt: iso(logger.enrolledAt),
+    enrolledBy: enrolledBy ? { id: enrolledBy.id, name: enrolledBy.name } : null,
+    install: install
+      ? { panelWp: numberOrNull(install.panelWp), panelVocV: numberOrNull(install.panelVocV), notes: install.notes ?? '', photo: Boolean(install.photo) }
+      : null,
+    profile: profile ? presentProfile(profile) : null,
+    firmware: logger.firmware ?? null,
+    lastSeenAt: iso(logger.lastSeenAt),
+    supplyV: numberOrNull(logger.supplyV),
+    tokenIssuedAt: iso(logger.tokenIssuedAt),
+    retiredAt: iso(logger.retiredAt),
+    createdAt: logger.createdAt.toISOString(),
+  };
+}

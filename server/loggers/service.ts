@@ -1,0 +1,263 @@
+// The logger registry: registration (one or a CSV batch), token rotation, retirement, the list and the
+// detail. Tokens are issued here and leave only in the response that issues them.
+import { QueryTypes, fn, col, where, type Sequelize, type Transaction } from 'sequelize';
+import { Logger, LoggerModel, SiteIntegrator } from '../db/models';
+import { recordActivity } from '../activity/service';
+import { problems } from '../http/problem';
+import type { Actor, RequestContext } from '../auth/actor';
+import { likePattern } from '../sites/service';
+import { issueLoggerToken } from './tokens';
+import { parseLoggerBatch } from './batch';
+import { enrollmentLink, labelPng } from './labels';
+import { presentDetail } from './present';
+import type {
+  BatchRegistered,
+  IssuedLogger,
+  LoggerDetail,
+  LoggerRow,
+  LoggersQuery,
+  RegisterLoggerRequest,
+  RotatedToken,
+} from '../../schemas/loggers';
+
+export type RegistryDeps = { sequelize: Sequelize; now: () => Date };
+
+const isIntegrator = (actor: Actor) => actor.type === 'person' && actor.role === 'integrator';
+const personId = (actor: Actor) => (actor.type === 'person' ? actor.id : null);
+
+/** A label for a token just issued: the QR of the enrollment link with serial, model and board beside it. */
+export function labelFor(origin: string, token: string, logger: { serial: string; board: string }, modelName: string): string {
+  return labelPng(enrollmentLink(origin, token), { serial: logger.serial, modelName, board: logger.board });
+}
+
+/** Integrators see loggers at their sites and loggers they registered; everyone else sees all. */
+export async function canSeeLogger(actor: Actor, logger: Logger, transaction?: Transaction): Promise<boolean> {
+  if (!isIntegrator(actor)) return true;
+  if (logger.registeredBy === actor.id) return true;
+  return logger.siteId !== null && (await SiteIntegrator.count({ where: { userId: actor.id!, siteId: logger.siteId }, transaction })) > 0;
+}
+
+/** The logger, or 404; 403 when an integrator may not see it. Locks the row when given a transaction. */
+export async function loggerFor(actor: Actor, id: string, transaction?: Transaction): Promise<Logger> {
+  const logger = await Logger.findByPk(id, transaction ? { transaction, lock: transaction.LOCK.UPDATE } : {});
+  if (!logger) throw problems.notFound('logger');
+  if (!(await canSeeLogger(actor, logger, transaction))) {
+    throw problems.forbidden('This logger is not at a site assigned to you and was not registered by you.');
+  }
+  return logger;
+}
+
+async function modelFor(id: string, transaction?: Transaction): Promise<LoggerModel> {
+  const model = await LoggerModel.findByPk(id, { transaction });
+  if (!model) throw new Error(`missing model ${id}`);
+  return model;
+}
+
+// ─── Registration ───────────────────────────────────────────────────────────
+
+export async function registerLogger(deps: RegistryDeps, ctx: RequestContext, body: RegisterLoggerRequest, origin: string): Promise<IssuedLogger> {
+  const model = await LoggerModel.findByPk(body.modelId);
+  if (!model) throw problems.badRequest('Check the body: modelId.', [{ path: 'modelId', message: 'no such model' }]);
+  const board = model.boards.find((b) => b.label.toLowerCase() === body.board.toLowerCase());
+  if (!board) {
+    const listed = model.boards.map((b) => b.label).join(', ');
+    throw problems.badRequest('Check the body: board.', [{ path: 'board', message: `"${body.board}" is not a board revision of ${model.name} (${listed})` }]);
+  }
+  const taken = await Logger.findOne({ where: where(fn('lower', col('serial')), body.serial.toLowerCase()) });
+  if (taken) throw problems.conflict(`A logger with serial ${taken.serial} is already registered.`, { loggerId: taken.id });
+
+  const { token, digest } = issueLoggerToken();
+  const logger = await deps.sequelize.transaction(async (transaction) => {
+    const created = await Logger.create(
+      {
+        serial: body.serial,
+        modelId: model.id,
+        board: board.label,
+        track: body.track,
+        tokenDigest: digest,
+        tokenIssuedAt: deps.now(),
+        registeredBy: personId(ctx.actor),
+      },
+      { transaction },
+    );
+    await recordActivity(transaction, ctx, {
+      action: 'logger.registered',
+      targetType: 'logger',
+      targetId: created.id,
+      summary: `Logger ${created.serial} registered (${model.name}, board ${board.label}, ${body.track} track)`,
+    });
+    return created;
+  });
+  return {
+    id: logger.id,
+    serial: logger.serial,
+    board: logger.board,
+    track: logger.track,
+    modelId: model.id,
+    modelName: model.name,
+    token,
+    labelPng: labelFor(origin, token, logger, model.name),
+  };
+}
+
+/** A whole CSV upload: checked completely first (422 naming every bad line, nothing stored), then one transaction. */
+export async function registerBatch(deps: RegistryDeps, ctx: RequestContext, file: Buffer, fileName: string): Promise<BatchRegistered> {
+  const models = await LoggerModel.findAll();
+  const existing = (await Logger.findAll({ attributes: ['serial'], raw: true })) as unknown as { serial: string }[];
+  const result = parseLoggerBatch(
+    file,
+    models.map((m) => ({ id: m.id, name: m.name, boards: m.boards.map((b) => b.label) })),
+    new Set(existing.map((e) => e.serial)),
+  );
+  if (!result.ok) {
+    const lines = [...new Set(result.errors.map((e) => e.line))];
+    const where = lines.length === 1 ? `line ${lines[0]}` : `${lines.length} lines (first: line ${lines[0]})`;
+    throw problems.unprocessable(`The file has problems on ${where}; nothing was registered. Fix them and upload the whole file again.`, result.errors);
+  }
+  const modelName = new Map(models.map((m) => [m.id, m.name]));
+  const issued = result.rows.map((row) => ({ row, ...issueLoggerToken() }));
+  const issuedAt = deps.now();
+  const created = await deps.sequelize.transaction(async (transaction) => {
+    const loggers = await Logger.bulkCreate(
+      issued.map(({ row, digest }) => ({
+        serial: row.serial,
+        modelId: row.modelId,
+        board: row.board,
+        track: row.track,
+        tokenDigest: digest,
+        tokenIssuedAt: issuedAt,
+        registeredBy: personId(ctx.actor),
+      })),
+      { transaction, returning: ['id', 'serial'] },
+    );
+    await recordActivity(transaction, ctx, {
+      action: 'logger.batch_registered',
+      targetType: 'logger',
+      targetId: null,
+      summary: `${loggers.length} loggers registered from ${fileName || 'a CSV file'} (${loggers[0].serial} … ${loggers[loggers.length - 1].serial})`,
+      details: { count: loggers.length, fileName, first: loggers[0].serial, last: loggers[loggers.length - 1].serial },
+    });
+    return loggers;
+  });
+  const idOf = new Map(created.map((l) => [l.serial, l.id]));
+  const rows = issued.map(({ row, token }) => ({
+    id: idOf.get(row.serial)!,
+    serial: row.serial,
+    token,
+    board: row.board,
+    track: row.track,
+    modelName: modelName.get(row.modelId) ?? '',
+  }));
+  return { rows, total: rows.length };
+}
+
+// ─── Token rotation and retirement (admin) ──────────────────────────────────
+
+export async function rotateToken(deps: RegistryDeps, ctx: RequestContext, id: string, origin: string): Promise<RotatedToken> {
+  const { token, digest } = issueLoggerToken();
+  const { logger, model } = await deps.sequelize.transaction(async (transaction) => {
+    const logger = await loggerFor(ctx.actor, id, transaction);
+    if (logger.status === 'retired') throw problems.conflict(`Logger ${logger.serial} is retired; a retired logger gets no new token.`);
+    // Replacing the digest revokes the old token at once: nothing else recognises it.
+    await logger.update({ tokenDigest: digest, tokenIssuedAt: deps.now() }, { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'logger.token_rotated',
+      targetType: 'logger',
+      targetId: logger.id,
+      summary: `Token of logger ${logger.serial} rotated; the old label no longer works`,
+    });
+    return { logger, model: await modelFor(logger.modelId, transaction) };
+  });
+  return { token, labelPng: labelFor(origin, token, logger, model.name), serial: logger.serial, modelName: model.name, board: logger.board };
+}
+
+export async function retireLogger(deps: RegistryDeps, ctx: RequestContext, id: string, reason: string | undefined): Promise<LoggerDetail> {
+  return deps.sequelize.transaction(async (transaction) => {
+    const logger = await loggerFor(ctx.actor, id, transaction);
+    if (logger.status === 'retired') throw problems.conflict(`Logger ${logger.serial} is already retired.`);
+    // Status retired revokes the token: findLoggerByToken (the device API's lookup) refuses retired loggers.
+    await logger.update({ status: 'retired', retiredAt: deps.now() }, { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'logger.retired',
+      targetType: 'logger',
+      targetId: logger.id,
+      summary: `Logger ${logger.serial} retired${reason ? `: ${reason}` : ''}`,
+      details: reason ? { reason } : undefined,
+    });
+    return presentDetail(logger, deps.now(), transaction);
+  });
+}
+
+// ─── Reading ────────────────────────────────────────────────────────────────
+
+export async function getLoggerDetail(deps: RegistryDeps, actor: Actor, id: string): Promise<LoggerDetail> {
+  return presentDetail(await loggerFor(actor, id), deps.now());
+}
+
+type RowRecord = {
+  id: string;
+  serial: string;
+  model_id: string;
+  model_name: string;
+  board: string;
+  track: LoggerRow['track'];
+  status: LoggerRow['status'];
+  site_id: string | null;
+  site_name: string | null;
+  customer: string | null;
+  firmware: string | null;
+  last_seen_at: Date | null;
+  supply_v: number | null;
+};
+
+export async function listLoggers(deps: RegistryDeps, actor: Actor, query: LoggersQuery): Promise<{ rows: LoggerRow[]; total: number; nextCursor?: string }> {
+  const conditions: string[] = [];
+  const replacements: Record<string, unknown> = {};
+  if (query.q) {
+    conditions.push('(l.serial ILIKE :q OR s.name ILIKE :q OR s.customer ILIKE :q)');
+    replacements.q = likePattern(query.q);
+  }
+  if (query.siteId) {
+    conditions.push('l.site_id = :siteId');
+    replacements.siteId = query.siteId;
+  }
+  if (query.modelId) {
+    conditions.push('l.model_id = :modelId');
+    replacements.modelId = query.modelId;
+  }
+  if (query.status) {
+    conditions.push('l.status = :status');
+    replacements.status = query.status;
+  }
+  if (isIntegrator(actor)) {
+    conditions.push('(l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))');
+    replacements.actorId = actor.id;
+  }
+  const from = `FROM loggers l JOIN models m ON m.id = l.model_id LEFT JOIN sites s ON s.id = l.site_id
+    ${conditions.length ? `WHERE ${conditions.join(' AND ')}` : ''}`;
+  const [[{ total }], records] = await Promise.all([
+    deps.sequelize.query<{ total: number }>(`SELECT count(*)::int AS total ${from}`, { type: QueryTypes.SELECT, replacements }),
+    deps.sequelize.query<RowRecord>(
+      `SELECT l.id, l.serial, l.model_id, m.name AS model_name, l.board, l.track, l.status, l.site_id, s.name AS site_name,
+              s.customer, l.firmware, l.last_seen_at, l.supply_v
+       ${from} ORDER BY lower(l.serial), l.id LIMIT :limit OFFSET :offset`,
+      { type: QueryTypes.SELECT, replacements: { ...replacements, limit: query.pageSize, offset: (query.page - 1) * query.pageSize } },
+    ),
+  ]);
+  const rows: LoggerRow[] = records.map((r) => ({
+    id: r.id,
+    serial: r.serial,
+    modelId: r.model_id,
+    modelName: r.model_name,
+    board: r.board,
+    track: r.track,
+    status: r.status,
+    siteId: r.site_id,
+    siteName: r.site_name,
+    customer: r.customer,
+    firmware: r.firmware,
+    lastSeenAt: r.last_seen_at ? new Date(r.last_seen_at).toISOString() : null,
+    supplyV: r.supply_v === null ? null : Number(r.supply_v),
+  }));
+  return { rows, total, ...(query.page * query.pageSize < total ? { nextCursor: String(query.page + 1) } : {}) };
+}
