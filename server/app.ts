@@ -20,6 +20,7 @@ import { registerMailRoutes } from './mail/routes';
 import { registerOverviewRoutes } from './overview/routes';
 import { registerActivityRoutes } from './activity/routes';
 import { registerTeamRoutes } from './team/routes';
+import { registerReleaseRoutes } from './releases/routes';
 import { registerKeyRoutes } from './keys/routes';
 import { registerTokenRoutes } from './tokens/routes';
 import { registerModelRoutes } from './models/routes';
@@ -91,6 +92,7 @@ export function createApp(deps: AppDeps) {
   registerOverviewRoutes(api, services);
   registerActivityRoutes(api, services);
   registerTeamRoutes(api);
+  registerReleaseRoutes(api, services);
   registerKeyRoutes(api, services);
   registerTokenRoutes(api, services);
   registerModelRoutes(api, services);

@@ -104,6 +104,16 @@ export class InstallReport extends Model<InferAttributes<InstallReport>, InferCr
 
 const uuid = () => ({ type: DataTypes.UUID, primaryKey: true, defaultValue: DataTypes.UUIDV4 });
 const date = (allowNull = true) => ({ type: DataTypes.DATE, allowNull });
+/** NUMERIC columns: Sequelize hands them over as text; the API speaks numbers. */
+const numeric = (name: string, defaultValue?: number) => ({
+  type: DataTypes.DECIMAL,
+  allowNull: false,
+  ...(defaultValue === undefined ? {} : { defaultValue }),
+  get(this: Model) {
+    const value = this.getDataValue(name);
+    return value === null || value === undefined ? value : Number(value);
+  },
+});
 
 export function initReleaseModels(sequelize: Sequelize) {
   SigningKey.init(
@@ -150,16 +160,15 @@ export function initReleaseModels(sequelize: Sequelize) {
       version: { type: DataTypes.TEXT, allowNull: false },
       track: { type: DataTypes.TEXT, allowNull: false },
       state: { type: DataTypes.TEXT, allowNull: false, defaultValue: 'draft' },
-      // NUMERIC columns arrive as numbers (server/db/index.ts sets the pg parser).
-      share: { type: DataTypes.DOUBLE, allowNull: false, defaultValue: 0 },
+      share: numeric('share', 0),
       resumeState: { type: DataTypes.TEXT, allowNull: true },
       boards: { type: DataTypes.ARRAY(DataTypes.TEXT), allowNull: false },
       manifestBoards: { type: DataTypes.ARRAY(DataTypes.TEXT), allowNull: false },
       upgradeFrom: { type: DataTypes.TEXT, allowNull: true },
       daylightWindow: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
-      haltFailureRatio: { type: DataTypes.DOUBLE, allowNull: false, defaultValue: 0.05 },
+      haltFailureRatio: numeric('haltFailureRatio', 0.05),
       haltMinReports: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 20 },
-      haltResetFactor: { type: DataTypes.DOUBLE, allowNull: false, defaultValue: 2 },
+      haltResetFactor: numeric('haltResetFactor', 2),
       securityCounter: { type: DataTypes.INTEGER, allowNull: false },
       imageSha256: { type: DataTypes.CHAR(64), allowNull: false },
       manifest: { type: DataTypes.BLOB, allowNull: false },
@@ -191,7 +200,7 @@ export function initReleaseModels(sequelize: Sequelize) {
       action: { type: DataTypes.TEXT, allowNull: false },
       fromState: { type: DataTypes.TEXT, allowNull: true },
       toState: { type: DataTypes.TEXT, allowNull: false },
-      share: { type: DataTypes.DOUBLE, allowNull: false },
+      share: numeric('share'),
       reason: { type: DataTypes.TEXT, allowNull: true },
       actorType: { type: DataTypes.TEXT, allowNull: false },
       actorName: { type: DataTypes.TEXT, allowNull: false },

@@ -1,0 +1,70 @@
+// Releases (issue 4 §5): upload fields, targeting edits while draft, lifecycle transitions, list filters.
+import { z } from 'zod';
+import semver from 'semver';
+import { uuid } from './common';
+import { boardLabel } from './manifest';
+import { RELEASE_ACTIONS, RELEASE_STATES } from '../server/releases/lifecycle';
+
+export const tracks = ['stable', 'early'] as const;
+export const trackSchema = z.enum(tracks, { error: 'must be stable or early' });
+export type ReleaseTrack = z.infer<typeof trackSchema>;
+
+export const notesSchema = z.string({ error: 'must be text' }).max(20_000, 'at most 20 000 characters');
+
+/** The text fields of the multipart upload besides image, manifest and signature. */
+export const uploadFields = z.strictObject({
+  notes: notesSchema.optional(),
+  track: trackSchema.optional(),
+});
+
+/** An upgrade-from range in the `semver` package's range syntax; blank means "from any version". */
+export const upgradeFromSchema = z
+  .string({ error: 'must be a semver range such as ">=2.0.0 <2.4.0", or null' })
+  .trim()
+  .max(200, 'at most 200 characters')
+  .refine((range) => range === '' || semver.validRange(range) !== null, {
+    message: 'is not a semver range (for example ">=2.0.0 <2.4.0" or "^2.3.0")',
+  })
+  .transform((range) => (range === '' ? null : range))
+  .nullable();
+
+export const patchReleaseRequest = z.strictObject({
+  boards: z
+    .array(boardLabel, { error: 'must be a list of board revision labels' })
+    .min(1, 'choose at least one board revision')
+    .refine((b) => new Set(b).size === b.length, 'must not name a board revision twice')
+    .optional(),
+  upgradeFrom: upgradeFromSchema.optional(),
+  pilotSiteIds: z
+    .array(uuid, { error: 'must be a list of site ids' })
+    .max(500, 'at most 500 pilot sites')
+    .refine((ids) => new Set(ids).size === ids.length, 'must not name a site twice')
+    .optional(),
+  daylightWindow: z.boolean({ error: 'must be true or false' }).optional(),
+  haltFailureRatio: z.number({ error: 'must be a fraction from 0 to 1' }).min(0, 'must be 0 or more').max(1, 'must be at most 1 (a fraction, not a percentage)').optional(),
+  haltMinReports: z.number({ error: 'must be a whole number' }).int('must be a whole number').min(1, 'must be at least 1').max(1_000_000, 'is too large').optional(),
+  haltResetFactor: z.number({ error: 'must be a number' }).min(1, 'must be 1 or more').max(100, 'must be at most 100').optional(),
+  notes: notesSchema.optional(),
+  track: trackSchema.optional(),
+});
+export type PatchReleaseRequest = z.infer<typeof patchReleaseRequest>;
+
+export const transitionRequest = z.strictObject({
+  action: z.enum(RELEASE_ACTIONS, { error: `must be one of ${RELEASE_ACTIONS.join(', ')}` }),
+  share: z.number({ error: 'must be a percentage' }).min(0, 'must be 0 or more').max(100, 'must be at most 100').optional(),
+  reason: z.string({ error: 'must be text' }).trim().max(1000, 'at most 1000 characters').optional(),
+});
+export type TransitionRequest = z.infer<typeof transitionRequest>;
+
+export const releaseListQuery = z.object({
+  modelId: uuid.optional(),
+  state: z.enum(RELEASE_STATES, { error: `must be one of ${RELEASE_STATES.join(', ')}` }).optional(),
+  track: trackSchema.optional(),
+});
+
+export const estimateQuery = z.object({
+  share: z.coerce.number({ error: 'must be a percentage' }).min(0, 'must be 0 or more').max(100, 'must be at most 100'),
+});
+
+export const installReasons = ['integrity', 'signature', 'storage', 'connection', 'unsupported', 'low_supply', 'other'] as const;
+export const installStates = ['offered', 'downloading', 'downloaded', 'installing', 'installed', 'failed'] as const;

@@ -1,0 +1,127 @@
+// Release JSON for the console (camelCase; the contract in issue 4 and the client hooks).
+import { QueryTypes, type Sequelize } from 'sequelize';
+import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
+import { allowedActions } from './lifecycle';
+import { renderNotes } from './notes';
+import { installReasons, installStates } from '../../schemas/releases';
+
+export type InstallCounts = Record<(typeof installStates)[number], number> & {
+  failedByReason: Record<(typeof installReasons)[number], number>;
+};
+
+/** Reports by their current state; failures by reason (a missing or unknown reason counts as other). */
+export async function installCounts(sequelize: Sequelize, releaseId: string): Promise<InstallCounts> {
+  const rows = await sequelize.query<{ state: string; reason: string | null; n: number }>(
+    'SELECT state, reason, count(*)::int AS n FROM install_reports WHERE release_id = :releaseId GROUP BY state, reason',
+    { type: QueryTypes.SELECT, replacements: { releaseId } },
+  );
+  const counts = Object.fromEntries(installStates.map((s) => [s, 0])) as unknown as InstallCounts;
+  counts.failedByReason = Object.fromEntries(installReasons.map((r) => [r, 0])) as InstallCounts['failedByReason'];
+  for (const row of rows) {
+    if (row.state in counts) counts[row.state as (typeof installStates)[number]] += row.n;
+    if (row.state === 'failed') {
+      const reason = (installReasons as readonly string[]).includes(row.reason ?? '') ? (row.reason as (typeof installReasons)[number]) : 'other';
+      counts.failedByReason[reason] += row.n;
+    }
+  }
+  return counts;
+}
+
+export async function presentRelease(sequelize: Sequelize, release: Release) {
+  const [model, image, key, transitions, pilotSites, counts] = await Promise.all([
+    LoggerModel.findByPk(release.modelId),
+    Image.findByPk(release.imageSha256),
+    SigningKey.findByPk(release.signingKeyId),
+    ReleaseTransition.findAll({ where: { releaseId: release.id }, order: [['id', 'ASC']] }),
+    sequelize.query<{ id: string; name: string }>(
+      'SELECT s.id, s.name FROM release_pilot_sites p JOIN sites s ON s.id = p.site_id WHERE p.release_id = :id ORDER BY s.name, s.id',
+      { type: QueryTypes.SELECT, replacements: { id: release.id } },
+    ),
+    installCounts(sequelize, release.id),
+  ]);
+  return {
+    id: release.id,
+    modelId: release.modelId,
+    modelName: model?.name ?? '',
+    version: release.version,
+    track: release.track,
+    state: release.state,
+    share: release.share,
+    resumeState: release.resumeState,
+    boards: release.boards,
+    manifestBoards: release.manifestBoards,
+    upgradeFrom: release.upgradeFrom,
+    pilotSiteIds: pilotSites.map((s) => s.id),
+    pilotSites,
+    daylightWindow: release.daylightWindow,
+    haltFailureRatio: release.haltFailureRatio,
+    haltMinReports: release.haltMinReports,
+    haltResetFactor: release.haltResetFactor,
+    securityCounter: release.securityCounter,
+    notes: release.notes,
+    notesHtml: renderNotes(release.notes),
+    image: { sha256: release.imageSha256, size: image?.size ?? 0 },
+    key: key ? { id: key.id, keyId: key.keyId, name: key.name, state: key.state } : null,
+    flagged: key?.state === 'revoked',
+    counts,
+    history: transitions.map((t) => ({
+      at: t.at.toISOString(),
+      action: t.action,
+      fromState: t.fromState,
+      toState: t.toState,
+      share: t.share,
+      reason: t.reason,
+      actorName: t.actorName,
+    })),
+    allowedActions: allowedActions(release.state),
+    createdAt: release.createdAt.toISOString(),
+    createdBy: { name: transitions[0]?.actorName ?? '' },
+  };
+}
+export type ReleaseView = Awaited<ReturnType<typeof presentRelease>>;
+
+export type ReleaseRow = {
+  id: string;
+  modelId: string;
+  modelName: string;
+  version: string;
+  track: string;
+  state: string;
+  share: number;
+  installed: number;
+  failed: number;
+  createdAt: string;
+  flagged: boolean;
+};
+
+export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: string; state?: string; track?: string }) {
+  const where = ['TRUE'];
+  if (filter.modelId) where.push('r.model_id = :modelId');
+  if (filter.state) where.push('r.state = :state');
+  if (filter.track) where.push('r.track = :track');
+  const rows = await sequelize.query<Omit<ReleaseRow, 'createdAt'> & { createdAt: Date }>(
+    `SELECT r.id, r.model_id AS "modelId", m.name AS "modelName", r.version, r.track, r.state, r.share,
+            coalesce(c.installed, 0)::int AS installed, coalesce(c.failed, 0)::int AS failed,
+            r.created_at AS "createdAt", (k.state = 'revoked') AS flagged
+       FROM releases r
+       JOIN models m ON m.id = r.model_id
+       JOIN signing_keys k ON k.id = r.signing_key_id
+       LEFT JOIN (
+         SELECT release_id,
+                count(*) FILTER (WHERE state = 'installed') AS installed,
+                count(*) FILTER (WHERE state = 'failed') AS failed
+           FROM install_reports GROUP BY release_id
+       ) c ON c.release_id = r.id
+      WHERE ${where.join(' AND ')}
+      ORDER BY r.created_at DESC, r.id`,
+    { type: QueryTypes.SELECT, replacements: filter },
+  );
+  const out: ReleaseRow[] = rows.map((r) => ({ ...r, share: Number(r.share), createdAt: new Date(r.createdAt).toISOString() }));
+  return { rows: out, total: out.length };
+}
+
+/** Names of sites by id, for checking pilot sites. */
+export async function existingSiteIds(ids: string[]): Promise<Set<string>> {
+  if (ids.length === 0) return new Set();
+  return new Set((await Site.findAll({ where: { id: ids }, attributes: ['id'] })).map((s) => s.id));
+}

@@ -1,0 +1,69 @@
+import type { Api } from '../http/api';
+import { parse } from '../http/validate';
+import { contextOf } from '../http/context';
+import { declareAccess, rules } from '../auth/access';
+import { idParams } from '../../schemas/common';
+import { estimateQuery, patchReleaseRequest, releaseListQuery, transitionRequest } from '../../schemas/releases';
+import type { AppServices } from '../app';
+import { LocalImageStore, type ImageStore } from '../images/store';
+import { releaseUploadMiddleware, uploadPartsOf } from '../images/upload';
+import { listReleaseRows } from './presenter';
+import { createRelease, deleteRelease, estimateShare, getRelease, patchRelease, transitionRelease, type ReleaseDeps } from './service';
+
+const engineers = ['admin', 'release_engineer'] as const;
+declareAccess({
+  'POST /api/releases': rules.people(engineers, ['images:write']),
+  'GET /api/releases': rules.people(rules.everyone, ['fleet:read']),
+  'GET /api/releases/:id': rules.people(rules.everyone, ['fleet:read']),
+  'GET /api/releases/:id/estimate': rules.people(rules.everyone, ['fleet:read']),
+  'PATCH /api/releases/:id': rules.people(engineers, ['releases:write']),
+  'DELETE /api/releases/:id': rules.people(engineers),
+  'POST /api/releases/:id/transitions': rules.people(engineers, ['releases:write']),
+});
+
+export function registerReleaseRoutes(api: Api, services: AppServices, store: ImageStore = new LocalImageStore(services.config.storeDir)) {
+  const deps: ReleaseDeps = { sequelize: services.sequelize, store, now: services.now, logger: services.logger };
+
+  api.post('/api/releases', releaseUploadMiddleware(store, services.config.imageLimitBytes), async (req, res) => {
+    const files = req.files as Record<string, { received?: { discard(): Promise<void> } }[]> | undefined;
+    const image = files?.image?.[0]?.received;
+    try {
+      const release = await createRelease(deps, contextOf(req), uploadPartsOf(req));
+      res.status(201).json(release);
+    } finally {
+      // A refused upload leaves nothing behind; after a commit this does nothing.
+      await image?.discard();
+    }
+  });
+
+  api.get('/api/releases', async (req, res) => {
+    res.json(await listReleaseRows(services.sequelize, parse(releaseListQuery, req.query, 'query')));
+  });
+
+  api.get('/api/releases/:id', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    res.json(await getRelease(deps, id));
+  });
+
+  api.get('/api/releases/:id/estimate', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    const { share } = parse(estimateQuery, req.query, 'query');
+    res.json(await estimateShare(deps, id, share));
+  });
+
+  api.patch('/api/releases/:id', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    res.json(await patchRelease(deps, contextOf(req), id, parse(patchReleaseRequest, req.body)));
+  });
+
+  api.delete('/api/releases/:id', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    await deleteRelease(deps, contextOf(req), id);
+    res.status(204).end();
+  });
+
+  api.post('/api/releases/:id/transitions', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    res.json(await transitionRelease(deps, contextOf(req), id, parse(transitionRequest, req.body)));
+  });
+}

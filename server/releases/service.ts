@@ -1,0 +1,344 @@
+// Releases: created from a verified upload, edited while draft, moved through the lifecycle.
+// Every mutation is one transaction with its history row (release_transitions) and activity row.
+import semver from 'semver';
+import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
+import { Image, LoggerModel, Release, ReleasePilotSite, ReleaseTransition, SigningKey } from '../db/models';
+import { problems, Problem, type FieldError } from '../http/problem';
+import { parse } from '../http/validate';
+import { recordActivity } from '../activity/service';
+import type { RequestContext } from '../auth/actor';
+import { decodeSignature, ManifestError, parsePublicKeyPem, parseSignedManifest, verifyManifestSignature, type Manifest } from '../images/manifest';
+import type { ImageStore } from '../images/store';
+import type { UploadParts } from '../images/upload';
+import { shareThreshold } from '../device-api/cohort';
+import { canDelete, transition, type ReleaseState } from './lifecycle';
+import { existingSiteIds, presentRelease } from './presenter';
+import { uploadFields, type PatchReleaseRequest, type TransitionRequest } from '../../schemas/releases';
+
+export type ReleaseDeps = { sequelize: Sequelize; store: ImageStore; now: () => Date; logger?: { warn: (o: object, msg: string) => void } };
+
+const label = (release: { version: string }, modelName: string) => `${modelName} ${release.version}`;
+
+function manifestProblem(error: ManifestError): Problem {
+  const errors: FieldError[] = error.errors.length ? error.errors : [{ path: error.field, message: error.message }];
+  const what = error.field === 'signature' ? 'signature' : 'manifest';
+  return problems.badRequest(`The ${what} cannot be used: ${error.message}.`, errors);
+}
+
+const refuse = (path: string, detail: string, message = detail) => problems.unprocessable(detail, [{ path, message }]);
+
+/** Finds the registered key that made the signature; only active keys may sign an upload. */
+async function signingKeyFor(manifestBytes: Buffer, signatureText: string): Promise<SigningKey> {
+  const keys = await SigningKey.findAll({ order: [['createdAt', 'ASC']] });
+  const active = keys.filter((k) => k.state === 'active');
+  // Both algorithms use 64-byte signatures; decode with the algorithm whose hint helps most (DER for ECDSA).
+  const algorithm = active.some((k) => k.algorithm === 'ecdsa-p256-sha256') || keys.some((k) => k.algorithm === 'ecdsa-p256-sha256') ? 'ecdsa-p256-sha256' : 'ed25519';
+  let signature: Buffer;
+  try {
+    signature = decodeSignature(signatureText, algorithm);
+  } catch (error) {
+    if (error instanceof ManifestError) throw manifestProblem(error);
+    throw error;
+  }
+  const signedBy = (key: SigningKey) => verifyManifestSignature(manifestBytes, signature, parsePublicKeyPem(key.publicKeyPem));
+  const match = active.find(signedBy);
+  if (match) return match;
+  const inactive = keys.find((k) => k.state !== 'active' && signedBy(k));
+  if (inactive) {
+    const why = inactive.state === 'revoked' ? 'uploads signed by a revoked key are refused' : 'a retired key signs nothing new';
+    throw refuse('signature', `The manifest is signed by key "${inactive.name}" (key id ${inactive.keyId}), which is ${inactive.state}: ${why}. Sign with an active key.`);
+  }
+  if (active.length === 0) {
+    throw refuse('signature', 'No active signing key is registered: an admin registers the public key under Signing keys first.');
+  }
+  throw refuse('signature', 'The signature does not match the manifest with any active signing key: check the key used and that the manifest file was not changed after signing.');
+}
+
+/** The checks of issue 4 §4, in order; throws the first refusal. Nothing is written here. */
+async function checkUpload(parts: UploadParts): Promise<{ manifest: Manifest; key: SigningKey; model: LoggerModel; image: NonNullable<UploadParts['image']> }> {
+  const missing = (['image', 'manifest', 'signature'] as const).filter((name) => !parts[name]);
+  if (missing.length) {
+    throw problems.badRequest(`The upload needs ${missing.join(', ')} (multipart/form-data with image, manifest and signature).`,
+      missing.map((path) => ({ path, message: 'is required' })));
+  }
+  const manifestBytes = parts.manifest!;
+  let manifest: Manifest;
+  try {
+    manifest = parseSignedManifest(manifestBytes);
+  } catch (error) {
+    if (error instanceof ManifestError) throw manifestProblem(error);
+    throw error;
+  }
+  const key = await signingKeyFor(manifestBytes, parts.signature!);
+  const image = parts.image!;
+  if (image.size !== manifest.image_size) {
+    throw refuse('image', `The image is ${image.size} bytes but the manifest says ${manifest.image_size}: this is not the image that was signed.`);
+  }
+  if (image.sha256 !== manifest.image_sha256) {
+    throw refuse('image', `The image's SHA-256 is ${image.sha256} but the manifest says ${manifest.image_sha256}: this is not the image that was signed.`);
+  }
+  const model = await LoggerModel.findByPk(manifest.model);
+  if (!model) throw refuse('manifest.model', `No model has the id ${manifest.model}: copy the model id from the Models screen.`);
+  const known = model.boards.map((b) => b.label);
+  const unknown = manifest.board_revisions.filter((b) => !known.includes(b));
+  if (unknown.length) {
+    throw refuse('manifest.board_revisions', `${model.name} has no board revision ${unknown.join(', ')} (it has ${known.join(', ')}).`);
+  }
+  const versions = await Release.findAll({ where: { modelId: model.id }, attributes: ['id', 'version', 'state', 'securityCounter'] });
+  // Build metadata does not count in precedence (semver.org §10), so 2.4.0+b7 would be the same version as 2.4.0 to a logger.
+  const same = versions.find((r) => semver.eq(r.version, manifest.version));
+  if (same) {
+    throw new Problem(409, 'conflict', 'Conflict', `${model.name} already has release ${same.version}: a version is uploaded once (delete the draft first to replace it).`, {
+      errors: [{ path: 'manifest.version', message: `${same.version} already exists for ${model.name}` }],
+    });
+  }
+  const published = versions.filter((r) => r.state !== 'draft').map((r) => r.securityCounter);
+  const highest = published.length ? Math.max(...published) : null;
+  if (highest !== null && manifest.security_counter < highest) {
+    throw refuse('manifest.security_counter',
+      `The security counter ${manifest.security_counter} is below ${highest}, the highest among ${model.name}'s published releases: loggers would refuse this image.`);
+  }
+  return { manifest, key, model, image };
+}
+
+export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, parts: UploadParts) {
+  const fields = parse(uploadFields, parts.fields);
+  const { manifest, key, model, image } = await checkUpload(parts);
+  const now = deps.now();
+  const track = fields.track ?? (semver.prerelease(manifest.version) ? 'early' : 'stable');
+  let createdFile = false;
+  try {
+    const release = await deps.sequelize.transaction(async (t) => {
+      await deps.sequelize.query('INSERT INTO images (sha256, size, created_at) VALUES (:sha256, :size, :now) ON CONFLICT (sha256) DO NOTHING', {
+        transaction: t,
+        replacements: { sha256: image.sha256, size: image.size, now: now.toISOString() },
+      });
+      const created = await Release.create(
+        {
+          modelId: model.id,
+          version: manifest.version,
+          track,
+          boards: manifest.board_revisions,
+          manifestBoards: manifest.board_revisions,
+          securityCounter: manifest.security_counter,
+          imageSha256: image.sha256,
+          manifest: parts.manifest!,
+          signature: Buffer.from(parts.signature!.trim(), 'base64'),
+          signingKeyId: key.id,
+          notes: fields.notes ?? '',
+          createdBy: ctx.actor.type === 'person' ? ctx.actor.id : null,
+          createdAt: now,
+          updatedAt: now,
+        },
+        { transaction: t },
+      );
+      await ReleaseTransition.create(
+        { releaseId: created.id, at: now, action: 'upload', fromState: null, toState: 'draft', share: 0, reason: null, actorType: ctx.actor.type, actorName: ctx.actor.name },
+        { transaction: t },
+      );
+      await recordActivity(t, ctx, {
+        action: 'release.uploaded',
+        targetType: 'release',
+        targetId: created.id,
+        summary: `${ctx.actor.name} uploaded ${label(created, model.name)} (draft, ${track}, signed by key ${key.keyId})`,
+        details: { sha256: image.sha256, size: image.size, keyId: key.keyId },
+      });
+      // Last step before commit: the image takes its final name only when every row is written.
+      createdFile = await image.commit();
+      return created;
+    });
+    return presentRelease(deps.sequelize, release);
+  } catch (error) {
+    // The rows were rolled back; a file this upload created must not outlive them.
+    if (createdFile) await deps.store.remove(image.sha256).catch(() => undefined);
+    throw error;
+  }
+}
+
+async function lockedRelease(t: Transaction, id: string): Promise<Release> {
+  const release = await Release.findByPk(id, { transaction: t, lock: t.LOCK.UPDATE });
+  if (!release) throw problems.notFound('release');
+  return release;
+}
+
+async function modelName(modelId: string, t?: Transaction) {
+  return (await LoggerModel.findByPk(modelId, { transaction: t, attributes: ['name'] }))?.name ?? 'model';
+}
+
+export async function patchRelease(deps: ReleaseDeps, ctx: RequestContext, id: string, input: PatchReleaseRequest) {
+  const release = await deps.sequelize.transaction(async (t) => {
+    const found = await lockedRelease(t, id);
+    if (found.state !== 'draft') {
+      throw problems.conflict(`Only a draft can be edited; this release is ${found.state}.`, { allowedActions: [] });
+    }
+    const errors: FieldError[] = [];
+    if (input.boards) {
+      const outside = input.boards.filter((b) => !found.manifestBoards.includes(b));
+      if (outside.length) errors.push({ path: 'boards', message: `${outside.join(', ')} not in the signed manifest (${found.manifestBoards.join(', ')})` });
+    }
+    if (input.pilotSiteIds) {
+      const existing = await existingSiteIds(input.pilotSiteIds);
+      const missing = input.pilotSiteIds.filter((s) => !existing.has(s));
+      if (missing.length) errors.push({ path: 'pilotSiteIds', message: `no such site: ${missing.join(', ')}` });
+    }
+    if (errors.length) throw problems.badRequest(`Check ${errors.map((e) => e.path).join(', ')}.`, errors);
+
+    const changed: string[] = [];
+    const set = <K extends keyof Release & keyof PatchReleaseRequest>(k: K, v: Release[K] | undefined) => {
+      if (v === undefined) return;
+      if (JSON.stringify(found[k]) !== JSON.stringify(v)) changed.push(k);
+      found.set(k, v);
+    };
+    set('boards', input.boards);
+    set('upgradeFrom', input.upgradeFrom);
+    set('daylightWindow', input.daylightWindow);
+    set('haltFailureRatio', input.haltFailureRatio);
+    set('haltMinReports', input.haltMinReports);
+    set('haltResetFactor', input.haltResetFactor);
+    set('notes', input.notes);
+    set('track', input.track);
+    if (input.pilotSiteIds) {
+      const before = (await ReleasePilotSite.findAll({ where: { releaseId: id }, transaction: t })).map((p) => p.siteId).sort();
+      if (JSON.stringify(before) !== JSON.stringify([...input.pilotSiteIds].sort())) changed.push('pilotSiteIds');
+      await ReleasePilotSite.destroy({ where: { releaseId: id }, transaction: t });
+      await ReleasePilotSite.bulkCreate(input.pilotSiteIds.map((siteId) => ({ releaseId: id, siteId })), { transaction: t });
+    }
+    found.updatedAt = deps.now();
+    await found.save({ transaction: t });
+    await recordActivity(t, ctx, {
+      action: 'release.edited',
+      targetType: 'release',
+      targetId: id,
+      summary: `${ctx.actor.name} edited ${label(found, await modelName(found.modelId, t))}${changed.length ? ` (${changed.join(', ')})` : ' (no changes)'}`,
+      details: { changed },
+    });
+    return found;
+  });
+  return presentRelease(deps.sequelize, release);
+}
+
+export async function deleteRelease(deps: ReleaseDeps, ctx: RequestContext, id: string) {
+  const freed = await deps.sequelize.transaction(async (t) => {
+    const found = await lockedRelease(t, id);
+    if (!canDelete(found.state)) {
+      throw problems.conflict(`Only a draft can be deleted; this release is ${found.state} and keeps its history.`, { allowedActions: [] });
+    }
+    const name = await modelName(found.modelId, t);
+    await found.destroy({ transaction: t });
+    const [{ n }] = await deps.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM releases WHERE image_sha256 = :sha', {
+      type: QueryTypes.SELECT,
+      transaction: t,
+      replacements: { sha: found.imageSha256 },
+    });
+    if (n === 0) await Image.destroy({ where: { sha256: found.imageSha256 }, transaction: t });
+    await recordActivity(t, ctx, {
+      action: 'release.deleted',
+      targetType: 'release',
+      targetId: id,
+      summary: `${ctx.actor.name} deleted the draft ${label(found, name)}; the version is free again`,
+    });
+    return n === 0 ? found.imageSha256 : null;
+  });
+  if (freed) {
+    await deps.store.remove(freed).catch((error: Error) => deps.logger?.warn({ err: error, sha256: freed }, 'image file left behind'));
+  }
+}
+
+const firstEntered: Partial<Record<ReleaseState, 'pilotedAt' | 'expandedAt' | 'completedAt' | 'haltedAt'>> = {
+  pilot: 'pilotedAt',
+  expanding: 'expandedAt',
+  complete: 'completedAt',
+  halted: 'haltedAt',
+};
+
+const actionWords: Record<string, (share: number) => string> = {
+  start_pilot: () => 'started the pilot of',
+  expand: (share) => `widened to ${share} %`,
+  complete: () => 'completed the rollout of',
+  pause: () => 'paused',
+  resume: () => 'resumed',
+  halt: () => 'halted',
+  withdraw: () => 'withdrew',
+};
+
+export async function transitionRelease(deps: ReleaseDeps, ctx: RequestContext, id: string, input: TransitionRequest) {
+  const release = await deps.sequelize.transaction(async (t) => {
+    const found = await lockedRelease(t, id);
+    const share = input.share === undefined ? undefined : Math.round(input.share * 100) / 100;
+    const result = transition({ state: found.state, share: found.share, resumeState: found.resumeState }, input.action, { share, reason: input.reason });
+    if (!result.ok) {
+      const extensions = { allowedActions: result.allowedActions };
+      if (result.code === 'illegal') throw problems.conflict(result.detail, extensions);
+      const path = result.code === 'reason_required' ? 'reason' : 'share';
+      throw new Problem(400, 'invalid-request', 'The request is not valid', result.detail, { errors: [{ path, message: result.detail }], extensions });
+    }
+    if (input.action === 'start_pilot') {
+      const key = await SigningKey.findByPk(found.signingKeyId, { transaction: t });
+      if (key?.state === 'revoked') {
+        throw problems.conflict(`This draft is signed by key "${key.name}" (key id ${key.keyId}), which is revoked: upload it again signed with an active key.`, {
+          allowedActions: [],
+        });
+      }
+    }
+    const now = deps.now();
+    const from: ReleaseState = found.state;
+    const to: ReleaseState = result.release.state;
+    found.state = to;
+    found.share = result.release.share;
+    found.resumeState = result.release.resumeState;
+    const stamp = firstEntered[to];
+    if (stamp && from !== to && !found.get(stamp)) found.set(stamp, now);
+    found.updatedAt = now;
+    await found.save({ transaction: t });
+    const reason = input.reason?.trim() || null;
+    await ReleaseTransition.create(
+      { releaseId: id, at: now, action: input.action, fromState: from, toState: found.state, share: found.share, reason, actorType: ctx.actor.type, actorName: ctx.actor.name },
+      { transaction: t },
+    );
+    const name = label(found, await modelName(found.modelId, t));
+    const words = actionWords[input.action](found.share);
+    await recordActivity(t, ctx, {
+      action: `release.${input.action}`,
+      targetType: 'release',
+      targetId: id,
+      summary:
+        input.action === 'expand'
+          ? `${ctx.actor.name} widened ${name} to ${found.share} %${reason ? `: ${reason}` : ''}`
+          : `${ctx.actor.name} ${words} ${name}${reason ? `: ${reason}` : ''}`,
+      details: { fromState: from, toState: found.state, share: found.share, reason },
+    });
+    return found;
+  });
+  return presentRelease(deps.sequelize, release);
+}
+
+export async function getRelease(deps: ReleaseDeps, id: string) {
+  const release = await Release.findByPk(id);
+  if (!release) throw problems.notFound('release');
+  return presentRelease(deps.sequelize, release);
+}
+
+/**
+ * How many loggers a share would reach: of the release's model, track and boards, enrolled and not
+ * retired, running an older version (by semver precedence; an unknown running version is not
+ * counted). Pilot-site loggers count at every share. The cohort bucket is computed in SQL with the
+ * same definition as server/device-api/cohort.ts.
+ */
+export async function estimateShare(deps: ReleaseDeps, id: string, share: number) {
+  const release = await Release.findByPk(id);
+  if (!release) throw problems.notFound('release');
+  const rows = await deps.sequelize.query<{ id: string; firmware: string | null; bucket: number; pilot: boolean }>(
+    `SELECT l.id, l.firmware,
+            (('x' || substr(encode(sha256((l.id::text || ':' || :releaseId)::bytea), 'hex'), 1, 8))::bit(32)::bigint % 10000)::int AS bucket,
+            (l.site_id IS NOT NULL AND l.site_id IN (SELECT site_id FROM release_pilot_sites WHERE release_id = :releaseId)) AS pilot
+       FROM loggers l
+      WHERE l.model_id = :modelId AND l.track = :track AND l.board IN (:boards)
+        AND l.status = 'enrolled' AND l.retired_at IS NULL`,
+    { type: QueryTypes.SELECT, replacements: { releaseId: release.id, modelId: release.modelId, track: release.track, boards: release.boards } },
+  );
+  const older = rows.filter((r) => r.firmware !== null && semver.valid(r.firmware) !== null && semver.lt(r.firmware, release.version));
+  const reached = (percent: number) => older.filter((r) => r.pilot || r.bucket < shareThreshold(percent)).length;
+  const eligibleNow = reached(release.share);
+  const eligibleAtShare = reached(share);
+  return { share, eligibleNow, eligibleAtShare, more: Math.max(0, eligibleAtShare - eligibleNow) };
+}
