@@ -1,0 +1,119 @@
+// Automatic halt under concurrent install reports (issue 5 §5): 50 loggers report failed at once; the
+// release halts exactly once, one e-mail goes out, every report is counted. Threshold figures: the
+// release's own haltFailureRatio (5 %) and haltMinReports (20), as DEVICE_API.md's releases carry them.
+import { QueryTypes } from 'sequelize';
+import { startTestApp, type TestApp } from '../helpers/app';
+import { bearer, checkInBody, createFleet, type Fleet } from './device-fixtures';
+
+let t: TestApp;
+let fleet: Fleet;
+beforeAll(async () => {
+  t = await startTestApp();
+  fleet = await createFleet(t);
+});
+afterAll(() => t.close());
+
+const CHECK_IN = '/api/device/v1/check-in';
+
+async function one<T>(sql: string, replacements: Record<string, unknown>): Promise<T> {
+  const [row] = await t.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements });
+  return row;
+}
+
+describe('automatic halt', () => {
+  test('when 50 loggers report a failed install at the same moment, then the release halts once, one e-mail is sent and all 50 failures are counted', async () => {
+    await t.signedIn('admin', 'Morgan Halt Admin');
+    await t.signedIn('release_engineer', 'Priya Halt Engineer');
+    const release = await fleet.release({ version: '7.0.0', haltFailureRatio: 0.05, haltMinReports: 20 });
+    const loggers = await Promise.all(Array.from({ length: 50 }, () => fleet.logger()));
+    for (const lg of loggers) {
+      const res = await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('6.9.0'));
+      expect(res.body.offer?.release).toBe(release.id);
+    }
+
+    const replies = await Promise.all(
+      loggers.map((lg) =>
+        t
+          .request()
+          .post(CHECK_IN)
+          .set(bearer(lg.token))
+          .send(checkInBody('6.9.0', { report: { release: release.id, state: 'failed', reason: 'integrity', detail: 'image digest mismatch after download' } })),
+      ),
+    );
+    expect(replies.map((r) => r.status)).toEqual(loggers.map(() => 200));
+    // A halted release offers nothing, from the check-in that halted it on.
+    expect(replies.every((r) => r.body.offer === null)).toBe(true);
+
+    const state = await one<{ state: string; resume_state: string; halted_at: Date | null }>('SELECT state, resume_state, halted_at FROM releases WHERE id = :id', { id: release.id });
+    expect(state).toMatchObject({ state: 'halted', resume_state: 'complete' });
+    expect(state.halted_at).not.toBeNull();
+    const counts = await one<{ failed: number; total: number }>(
+      `SELECT count(*) FILTER (WHERE state = 'failed' AND reason = 'integrity')::int AS failed, count(*)::int AS total FROM install_reports WHERE release_id = :id`,
+      { id: release.id },
+    );
+    expect(counts).toEqual({ failed: 50, total: 50 });
+    const transitions = await t.sequelize.query<{ action: string; actor_type: string; actor_name: string; from_state: string; to_state: string; reason: string }>(
+      'SELECT action, actor_type, actor_name, from_state, to_state, reason FROM release_transitions WHERE release_id = :id',
+      { type: QueryTypes.SELECT, replacements: { id: release.id } },
+    );
+    expect(transitions).toHaveLength(1);
+    expect(transitions[0]).toMatchObject({ action: 'halt', actor_type: 'system', actor_name: 'system', from_state: 'complete', to_state: 'halted' });
+    // The halt happened at the 20th finished install: 20 of 20 failed, 100 % > 5 %.
+    expect(transitions[0].reason).toContain('20 of 20 finished installs failed (100 %)');
+    const activity = await t.sequelize.query<{ actor_type: string; summary: string }>(
+      `SELECT actor_type, summary FROM activity WHERE action = 'release.halted' AND target_id = :id`,
+      { type: QueryTypes.SELECT, replacements: { id: release.id } },
+    );
+    expect(activity).toHaveLength(1);
+    expect(activity[0].actor_type).toBe('system');
+
+    const admin = await t.signedIn('admin', 'Morgan Halt Admin');
+    const subject = `Release 7.0.0 of ${fleet.model.name} halted automatically`;
+    let mails: { to: string[]; subject: string; text: string }[] = [];
+    for (let i = 0; i < 50; i++) {
+      const res = await admin.get('/api/dev/outbox');
+      mails = (res.body as { to: string[]; subject: string; text: string }[]).filter((m) => m.subject === subject);
+      if (mails.length > 0) break;
+      await new Promise((r) => setTimeout(r, 100));
+    }
+    await new Promise((r) => setTimeout(r, 300)); // a second e-mail, if any, would have arrived by now
+    mails = ((await admin.get('/api/dev/outbox')).body as typeof mails).filter((m) => m.subject === subject);
+    expect(mails).toHaveLength(1);
+    expect(mails[0].to).toEqual(expect.arrayContaining(['morgan.halt.admin@test.example', 'priya.halt.engineer@test.example']));
+    expect(mails[0].text).toContain('20 of 20 finished installs failed');
+  });
+
+  test('when installs fail only for transient reasons, then the release keeps going', async () => {
+    const release = await fleet.release({ version: '8.0.0', boards: ['C'], haltFailureRatio: 0.05, haltMinReports: 5 });
+    const loggers = await Promise.all(Array.from({ length: 10 }, () => fleet.logger({ board: 'C' })));
+    for (const lg of loggers) {
+      await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('7.9.0', { board: 'C' })).expect(200);
+    }
+    const replies = await Promise.all(
+      loggers.map((lg, i) =>
+        t
+          .request()
+          .post(CHECK_IN)
+          .set(bearer(lg.token))
+          .send(checkInBody('7.9.0', { board: 'C', report: { release: release.id, state: 'failed', reason: i % 2 ? 'connection' : 'low_supply' } })),
+      ),
+    );
+    expect(replies.every((r) => r.status === 200 && r.body.offer?.release === release.id)).toBe(true);
+    expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('complete');
+  });
+
+  test('when failures stay at the threshold over the minimum, then no halt; one more failure crosses it', async () => {
+    // 1 failure in 20 finished installs is exactly 5 %: not above the threshold.
+    const release = await fleet.release({ version: '9.0.0', boards: ['A'], haltFailureRatio: 0.05, haltMinReports: 20 });
+    const loggers = await Promise.all(Array.from({ length: 21 }, () => fleet.logger({ board: 'A' })));
+    const report = (lg: { token: string }, state: string, reason?: string) =>
+      t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('8.9.0', { board: 'A', report: { release: release.id, state, ...(reason ? { reason } : {}) } }));
+    for (const lg of loggers) await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('8.9.0', { board: 'A' })).expect(200);
+    await report(loggers[0], 'failed', 'storage');
+    for (const lg of loggers.slice(1, 20)) await report(lg, 'installed');
+    expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('complete');
+    // 2 of 21 = 9.5 % > 5 %.
+    await report(loggers[20], 'failed', 'other');
+    expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('halted');
+  });
+});
