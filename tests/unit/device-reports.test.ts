@@ -1,0 +1,133 @@
+// Install report order, rollback detection, halt thresholds and load manners: the pure parts of the
+// device API service. Orders and figures come from DEVICE_API.md ("States only move forward"),
+// issue 5 §4–§6, and semantic-version precedence as the semver package (npm) computes it.
+import semver from 'semver';
+import { afterInstalled, applyReport, isFinished, type StoredReport } from '../../server/device-api/reports';
+import { evaluateHalt, failureRatioVerdict, resetRateVerdict } from '../../server/device-api/halt';
+import { busyness, nextCheckInSeconds, stretchFor } from '../../server/device-api/load';
+import { dayOfPartition, partitionName, retentionDays, utcDay } from '../../server/device-api/partitions';
+
+const at = new Date('2026-12-01T10:00:00Z');
+const row = (state: StoredReport['state'], reason: string | null = null, retriedAt: Date | null = null): StoredReport => ({ state, reason, updatedAt: at, retriedAt });
+
+describe('install report order', () => {
+  const order = ['downloading', 'downloaded', 'installing', 'installed'] as const;
+  test.each(order.flatMap((from, i) => order.map((to, j) => [from, to, j > i] as const)))('when the row is %s and %s is reported, then applied is %s', (from, to, applied) => {
+    expect(applyReport(row(from), to).apply).toBe(applied);
+  });
+
+  test('when there is no row yet, then any state is applied as a new attempt', () => {
+    expect(applyReport(null, 'installing')).toEqual({ apply: true, state: 'installing', reason: null, newAttempt: true });
+  });
+
+  test('when failed comes without a reason, then it is recorded as other', () => {
+    expect(applyReport(row('downloading'), 'failed')).toEqual({ apply: true, state: 'failed', reason: 'other', newAttempt: false });
+  });
+
+  test('when a reason comes with a state other than failed, then it is dropped', () => {
+    expect(applyReport(row('offered'), 'downloading', 'storage')).toMatchObject({ apply: true, reason: null });
+  });
+
+  test('when the last failure was transient, then a new attempt may start; when permanent, then reports wait for a retry', () => {
+    expect(applyReport(row('failed', 'connection'), 'downloading')).toMatchObject({ apply: true, newAttempt: true });
+    expect(applyReport(row('failed', 'low_supply'), 'installed')).toMatchObject({ apply: true });
+    expect(applyReport(row('failed', 'signature'), 'downloading')).toEqual({ apply: false, why: 'failed_awaiting_retry' });
+    expect(applyReport(row('failed', 'signature', new Date(at.getTime() + 1000)), 'downloading')).toMatchObject({ apply: true, newAttempt: true });
+  });
+
+  test('when failed is reported twice for one attempt, then the second is ignored', () => {
+    expect(applyReport(row('failed', 'connection'), 'failed', 'connection')).toEqual({ apply: false, why: 'repeated' });
+  });
+
+  test('when the row is installed, then nothing but a retry changes it', () => {
+    expect(applyReport(row('installed'), 'failed', 'other')).toEqual({ apply: false, why: 'after_install' });
+    expect(applyReport(row('installed'), 'installed')).toEqual({ apply: false, why: 'repeated' });
+  });
+
+  test('finished installs are installed and non-transient failures', () => {
+    expect([isFinished('installed', null), isFinished('failed', 'integrity'), isFinished('failed', null), isFinished('failed', 'connection'), isFinished('failed', 'low_supply'), isFinished('installing', null)]).toEqual([
+      true,
+      true,
+      true,
+      false,
+      false,
+      false,
+    ]);
+  });
+});
+
+describe('confirmation and rollback', () => {
+  test.each([
+    ['2.4.0', '2.4.0', false, 'confirmed'],
+    ['2.5.0', '2.4.0', false, 'confirmed'],
+    ['2.3.1', '2.4.0', true, 'pending'],
+    ['2.3.1', '2.4.0', false, 'rolled_back'],
+    // semver.org §11: 2.4.0-rc.1 < 2.4.0, so a logger still on the release candidate has rolled back.
+    ['2.4.0-rc.1', '2.4.0', false, 'rolled_back'],
+  ] as const)('when a logger that reported installed runs %s after installing %s (reported in this check-in: %s), then %s', (running, version, now, expected) => {
+    expect(semver.gte(running, version)).toBe(expected === 'confirmed');
+    expect(afterInstalled(running, version, now)).toBe(expected);
+  });
+});
+
+describe('halt thresholds', () => {
+  const release = { haltFailureRatio: 0.05, haltMinReports: 20, haltResetFactor: 2 };
+  test('when fewer than the minimum installs finished, then no halt whatever the ratio', () => {
+    expect(failureRatioVerdict(release, { installed: 0, failed: 19 }).halt).toBe(false);
+  });
+  test('when the ratio equals the threshold, then no halt; above it, then halt with the figures', () => {
+    expect(failureRatioVerdict(release, { installed: 19, failed: 1 }).halt).toBe(false); // 1/20 = 5 %
+    const v = failureRatioVerdict(release, { installed: 19, failed: 2 }); // 2/21 = 9.52 %
+    expect(v).toMatchObject({ halt: true, rule: 'failure_ratio' });
+    expect(v.halt && v.reason).toContain('2 of 21 finished installs failed (9.5 %)');
+  });
+  const resets = { loggers: 20, resetsAfter: 0, loggerDaysAfter: 20, resetsBefore: 10, loggerDaysBefore: 100 };
+  test('when fewer than 20 loggers confirmed a day ago, then the reset rate is not judged', () => {
+    expect(resetRateVerdict(release, { ...resets, loggers: 19, resetsAfter: 1000 }).halt).toBe(false);
+  });
+  test('when the reset rate is exactly twice the rate before, then no halt; above twice, then halt', () => {
+    // before: 10 resets / 100 logger-days = 0.1 a day; after: 4 / 20 = 0.2 (= 2 ×), 5 / 20 = 0.25 (> 2 ×).
+    expect(resetRateVerdict(release, { ...resets, resetsAfter: 4 }).halt).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsAfter: 5 })).toMatchObject({ halt: true, rule: 'reset_rate' });
+  });
+  test('when there were no resets before, then the floor of one per 100 logger-days is the rate before', () => {
+    // floor 0.01 a day × factor 2 × 20 logger-days = 0.4 resets: 1 reset crosses it, 0 does not.
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 0 }).halt).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 1 }).halt).toBe(true);
+  });
+  test('the failure ratio is judged first', () => {
+    expect(evaluateHalt(release, { installed: 0, failed: 20 }, { ...resets, resetsAfter: 100 })).toMatchObject({ rule: 'failure_ratio' });
+  });
+});
+
+describe('load manners', () => {
+  test('when random is 0, ½ and just below 1, then the interval is −10 %, exact and +10 % (uniform jitter)', () => {
+    expect(nextCheckInSeconds(900, 0)).toBe(810);
+    expect(nextCheckInSeconds(900, 0.5)).toBe(900);
+    expect(nextCheckInSeconds(900, 0.999999)).toBe(990);
+  });
+  test('when the server is busy, then the interval stretches, at most four times', () => {
+    expect(nextCheckInSeconds(900, 0.5, stretchFor(1))).toBe(3600);
+    expect(nextCheckInSeconds(900, 0.5, 10)).toBe(3600);
+    expect(stretchFor(0)).toBe(1);
+    expect(busyness({ eventLoopDelayMs: 10, poolWaiting: 0, poolMax: 20, inFlight: 0, maxInFlight: 200 })).toBe(0);
+    expect(busyness({ eventLoopDelayMs: 120, poolWaiting: 0, poolMax: 20, inFlight: 0, maxInFlight: 200 })).toBeCloseTo(0.5, 10);
+    expect(busyness({ eventLoopDelayMs: 0, poolWaiting: 20, poolMax: 20, inFlight: 0, maxInFlight: 200 })).toBe(1);
+    expect(busyness({ eventLoopDelayMs: 0, poolWaiting: 0, poolMax: 20, inFlight: 50, maxInFlight: 200 })).toBe(0.25);
+  });
+});
+
+describe('check-in history partitions', () => {
+  test('partition names follow the UTC day and read back', () => {
+    const day = utcDay(new Date('2026-12-01T23:59:59.999Z'));
+    expect(day.toISOString()).toBe('2026-12-01T00:00:00.000Z');
+    expect(partitionName(day)).toBe('check_ins_p20261201');
+    expect(dayOfPartition('check_ins_p20261201')?.toISOString()).toBe('2026-12-01T00:00:00.000Z');
+    expect(dayOfPartition('check_ins_default')).toBeNull();
+  });
+  test('the retention window defaults to 30 days and reads HELIODOR_CHECKIN_RETENTION_DAYS', () => {
+    expect(retentionDays({})).toBe(30);
+    expect(retentionDays({ HELIODOR_CHECKIN_RETENTION_DAYS: '7' })).toBe(7);
+    expect(retentionDays({ HELIODOR_CHECKIN_RETENTION_DAYS: 'zero' })).toBe(30);
+  });
+});
