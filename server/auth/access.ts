@@ -38,6 +38,12 @@ export const access: Record<string, Rule> = {
   'POST /api/loggers/batch': people(['admin', 'integrator']),
   'POST /api/loggers/:id/token': people(['admin']),
   'POST /api/loggers/:id/retire': people(['admin']),
+  'POST /api/enrollments/lookup': people(['admin', 'integrator']),
+  'POST /api/enrollments': people(['admin', 'integrator']),
+  'POST /api/loggers/:id/move': people(['admin', 'integrator']),
+  'PATCH /api/loggers/:id/profile': people(['admin', 'integrator']),
+  'POST /api/loggers/:id/photo': people(['admin', 'integrator']),
+  'GET /api/loggers/:id/photo': people(everyone),
 };
 
 /** Adds rows for a domain; throws on a duplicate so two domains cannot silently disagree. */

@@ -1,0 +1,167 @@
+// Enrollment on site: the label's token names the logger, the integrator binds it to a site with the
+// install details, and the server computes the measurement profile from the power-monitor equations.
+// Later: moving to another site and profile changes (each a new profile version, delivered at check-in).
+import type { Transaction } from 'sequelize';
+import { Logger, LoggerModel, MeasurementProfile, Site } from '../db/models';
+import { recordActivity } from '../activity/service';
+import { problems } from '../http/problem';
+import type { RequestContext } from '../auth/actor';
+import { digestToken } from '../auth/tokens';
+import { refuseUnassignedIntegrator } from '../sites/service';
+import { measurementProfile, type ComputedProfile } from './calibration';
+import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
+import { loggerFor, type RegistryDeps } from './service';
+import type { EnrollmentLookup, EnrollRequest, LoggerDetail, ProfileChangeRequest, ProfileView } from '../../schemas/loggers';
+
+export const unknownLabel =
+  'This label is not known: its token may have been rotated or the logger retired. Ask an admin for a new label.';
+
+const personId = (ctx: RequestContext) => (ctx.actor.type === 'person' ? ctx.actor.id : null);
+
+async function loggerByToken(token: string, transaction?: Transaction): Promise<Logger> {
+  const logger = await Logger.findOne({
+    where: { tokenDigest: digestToken(token) },
+    ...(transaction ? { transaction, lock: transaction.LOCK.UPDATE } : {}),
+  });
+  if (!logger) throw problems.notFound('label', unknownLabel);
+  if (logger.status === 'retired') {
+    throw problems.conflict(`Logger ${logger.serial} was retired${logger.retiredAt ? ` on ${logger.retiredAt.toISOString().slice(0, 10)}` : ''}; it cannot be enrolled.`);
+  }
+  return logger;
+}
+
+const limitsOf = (model: LoggerModel) => ({
+  busVMax: Number(model.busVMax),
+  shuntFullScaleV: Number(model.shuntFullScaleV),
+  tempResolutions: [...model.tempResolutions].sort((a, b) => a - b),
+});
+
+export async function lookupLabel(token: string): Promise<EnrollmentLookup> {
+  const logger = await loggerByToken(token);
+  const [model, site] = await Promise.all([LoggerModel.findByPk(logger.modelId), logger.siteId ? Site.findByPk(logger.siteId) : null]);
+  return {
+    logger: {
+      id: logger.id,
+      serial: logger.serial,
+      modelId: logger.modelId,
+      modelName: model!.name,
+      board: logger.board,
+      status: logger.status,
+      site: site ? { id: site.id, name: site.name } : null,
+    },
+    limits: limitsOf(model!),
+  };
+}
+
+/** The profile for the install, or 400 whose field errors name the limit that refuses it. */
+function computeProfile(install: { shuntOhm: number; maxCurrentA: number; panelVocV: number; tempResolutionBits: number }, model: LoggerModel): ComputedProfile {
+  const result = measurementProfile(install, limitsOf(model));
+  if (!result.ok) {
+    throw problems.badRequest(`The measurement profile cannot be set up: ${result.errors.map((e) => e.message).join('; ')}.`, result.errors);
+  }
+  return result.profile;
+}
+
+async function storeProfile(
+  ctx: RequestContext,
+  logger: Logger,
+  profile: ComputedProfile,
+  panel: { panelWp: number | null; panelVocV: number | null },
+  transaction: Transaction,
+): Promise<MeasurementProfile> {
+  const previous = await latestProfile(logger.id, transaction);
+  return MeasurementProfile.create(
+    { loggerId: logger.id, version: (previous?.version ?? 0) + 1, ...profile, ...panel, createdBy: personId(ctx) },
+    { transaction },
+  );
+}
+
+async function siteFor(siteId: string, transaction: Transaction): Promise<Site> {
+  const site = await Site.findByPk(siteId, { transaction });
+  if (!site) throw problems.badRequest('Check the body: siteId.', [{ path: 'siteId', message: 'no such site' }]);
+  return site;
+}
+
+export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: EnrollRequest): Promise<{ logger: LoggerDetail; profile: ProfileView }> {
+  return deps.sequelize.transaction(async (transaction) => {
+    const logger = await loggerByToken(body.token, transaction);
+    if (logger.status === 'enrolled') {
+      const at = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
+      throw problems.conflict(`Logger ${logger.serial} is already enrolled at ${at?.name ?? 'a site'}; use Move to take it to another site.`, {
+        loggerId: logger.id,
+      });
+    }
+    const site = await siteFor(body.siteId, transaction);
+    await refuseUnassignedIntegrator(ctx.actor, site.id, transaction);
+    const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
+    const computed = computeProfile(body, model);
+
+    const now = deps.now();
+    const previous = (logger.install as StoredInstall | null) ?? {};
+    const install: StoredInstall = { ...previous, panelWp: body.panelWp, panelVocV: body.panelVocV, notes: body.notes ?? '' };
+    await logger.update({ status: 'enrolled', siteId: site.id, enrolledAt: now, enrolledBy: personId(ctx), install }, { transaction });
+    const profile = await storeProfile(ctx, logger, computed, { panelWp: body.panelWp, panelVocV: body.panelVocV }, transaction);
+    await recordActivity(transaction, ctx, {
+      action: 'logger.enrolled',
+      targetType: 'logger',
+      targetId: logger.id,
+      summary: `Logger ${logger.serial} enrolled at ${site.name} (profile v${profile.version}: calibration ${profile.calibration}, ${body.panelWp} Wp panel)`,
+      details: { siteId: site.id, profileVersion: profile.version },
+    });
+    return { logger: await presentDetail(logger, now, transaction), profile: presentProfile(profile) };
+  });
+}
+
+export async function moveLogger(deps: RegistryDeps, ctx: RequestContext, id: string, siteId: string): Promise<LoggerDetail> {
+  return deps.sequelize.transaction(async (transaction) => {
+    const logger = await loggerFor(ctx.actor, id, transaction);
+    if (logger.status === 'registered') throw problems.conflict(`Logger ${logger.serial} is not enrolled yet; enroll it by scanning its label.`);
+    if (logger.status === 'retired') throw problems.conflict(`Logger ${logger.serial} is retired; it cannot be moved.`);
+    const site = await siteFor(siteId, transaction);
+    if (logger.siteId === site.id) throw problems.conflict(`Logger ${logger.serial} is already at ${site.name}.`);
+    // An integrator moves a logger only between sites assigned to them.
+    if (logger.siteId) await refuseUnassignedIntegrator(ctx.actor, logger.siteId, transaction);
+    await refuseUnassignedIntegrator(ctx.actor, site.id, transaction);
+    const from = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
+    await logger.update({ siteId: site.id }, { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'logger.moved',
+      targetType: 'logger',
+      targetId: logger.id,
+      summary: `Logger ${logger.serial} moved from ${from?.name ?? 'no site'} to ${site.name}`,
+      details: { fromSiteId: from?.id ?? null, toSiteId: site.id },
+    });
+    return presentDetail(logger, deps.now(), transaction);
+  });
+}
+
+export async function changeProfile(deps: RegistryDeps, ctx: RequestContext, id: string, body: ProfileChangeRequest): Promise<ProfileView> {
+  return deps.sequelize.transaction(async (transaction) => {
+    const logger = await loggerFor(ctx.actor, id, transaction);
+    if (logger.status !== 'enrolled') {
+      throw problems.conflict(`Logger ${logger.serial} is ${logger.status}; a measurement profile belongs to an enrolled logger.`);
+    }
+    if (logger.siteId) await refuseUnassignedIntegrator(ctx.actor, logger.siteId, transaction);
+    const previous = await latestProfile(logger.id, transaction);
+    const install = (logger.install as StoredInstall | null) ?? {};
+    const panelWp = body.panelWp ?? previous?.panelWp ?? install.panelWp ?? null;
+    const panelVocV = body.panelVocV ?? previous?.panelVocV ?? install.panelVocV ?? null;
+    if (panelVocV === null) {
+      throw problems.badRequest('Check the body: panelVocV.', [
+        { path: 'panelVocV', message: 'give the panel open-circuit voltage: it is checked against the bus limit' },
+      ]);
+    }
+    const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
+    const computed = computeProfile({ ...body, panelVocV: Number(panelVocV) }, model);
+    const profile = await storeProfile(ctx, logger, computed, { panelWp: panelWp === null ? null : Number(panelWp), panelVocV: Number(panelVocV) }, transaction);
+    await logger.update({ install: { ...install, panelWp, panelVocV } }, { transaction });
+    await recordActivity(transaction, ctx, {
+      action: 'profile.changed',
+      targetType: 'logger',
+      targetId: logger.id,
+      summary: `Measurement profile of logger ${logger.serial} changed to v${profile.version} (calibration ${profile.calibration}); sent at its next check-in`,
+      details: { version: profile.version },
+    });
+    return presentProfile(profile);
+  });
+}
