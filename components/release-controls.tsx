@@ -46,7 +46,7 @@ export function ConfirmDialog({ visible, title, children, confirmLabel, tone = '
   }, [visible]);
   const missingReason = Boolean(reasonLabel) && reason.trim() === '';
   return (
-    <Modal visible={visible} transparent animationType="fade" onRequestClose={onCancel}>
+    <Modal visible={visible} transparent animationType="none" onRequestClose={onCancel}>
       <View style={styles.backdrop}>
         <View role="dialog" aria-modal aria-label={title} testID={testID} style={styles.dialog}>
           <Text role="heading" aria-level={2} style={type.heading}>

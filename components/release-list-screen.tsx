@@ -1,6 +1,6 @@
 // Images & releases: every release of every model, newest first, with its state and rollout share.
 import React from 'react';
-import { Pressable, StyleSheet, Text, View } from 'react-native';
+import { Pressable, ScrollView, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
 import { Page } from './shell';
 import { Badge, Button, Card, EmptyState, Mono, Row } from './ui';
@@ -37,12 +37,14 @@ export function ReleaseListScreen({ state, filter, onFilterChange, canCreate, on
           value={filter.state ?? 'all'}
           options={stateOptions.map((s) => ({ value: s, label: s === 'all' ? 'All states' : stateWords[s] }))}
           onChange={(v) => onFilterChange({ ...filter, state: v === 'all' ? undefined : v })}
+          scroll={!wide}
         />
         <FilterChips
           label="Track"
           value={filter.track ?? 'all'}
           options={trackOptions.map((t) => ({ value: t, label: t === 'all' ? 'All tracks' : t === 'stable' ? 'Stable' : 'Early' }))}
           onChange={(v) => onFilterChange({ ...filter, track: v === 'all' ? undefined : v })}
+          scroll={!wide}
         />
       </View>
       <QueryView state={state} rows={5}>
@@ -76,17 +78,26 @@ export function ReleaseListScreen({ state, filter, onFilterChange, canCreate, on
   );
 }
 
-function FilterChips<T extends string>({ label, value, options, onChange }: { label: string; value: T; options: { value: T; label: string }[]; onChange: (v: T) => void }) {
+function FilterChips<T extends string>({ label, value, options, onChange, scroll }: { label: string; value: T; options: { value: T; label: string }[]; onChange: (v: T) => void; scroll?: boolean }) {
+  // On phones the chips scroll sideways in one line instead of taking half the screen.
+  const chips = options.map((o) => {
+    const on = o.value === value;
+    return (
+      <Pressable key={o.value} role="radio" aria-checked={on} aria-label={`${label}: ${o.label}`} onPress={() => onChange(o.value)} style={[styles.filter, on && styles.filterOn]}>
+        <Text style={[type.body, { fontSize: 14, color: on ? colors.onInk : colors.ink }, on && { fontFamily: fonts.semibold }]}>{o.label}</Text>
+      </Pressable>
+    );
+  });
+  if (scroll) {
+    return (
+      <ScrollView horizontal role="radiogroup" aria-label={label} showsHorizontalScrollIndicator={false} contentContainerStyle={{ gap: space.xs }}>
+        {chips}
+      </ScrollView>
+    );
+  }
   return (
     <View role="radiogroup" aria-label={label} style={styles.filters}>
-      {options.map((o) => {
-        const on = o.value === value;
-        return (
-          <Pressable key={o.value} role="radio" aria-checked={on} aria-label={`${label}: ${o.label}`} onPress={() => onChange(o.value)} style={[styles.filter, on && styles.filterOn]}>
-            <Text style={[type.body, { fontSize: 14, color: on ? colors.onInk : colors.ink }, on && { fontFamily: fonts.semibold }]}>{o.label}</Text>
-          </Pressable>
-        );
-      })}
+      {chips}
     </View>
   );
 }

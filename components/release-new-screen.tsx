@@ -173,7 +173,7 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
 function CheckSummary({ release }: { release: Release }) {
   const lines: [string, React.ReactNode][] = [
     ['Signature', release.key ? <Text style={type.body}>verified with {release.key.name} (<Text style={{ fontFamily: fonts.mono }}>{release.key.keyId}</Text>)</Text> : 'verified'],
-    ['Image', <Text style={type.body}><Mono>{release.image.sha256}</Mono> · {bytes(release.image.size)} — matches the manifest</Text>],
+    ['Image', <Text style={type.body}><Mono style={{ wordBreak: 'break-all' } as object}>{release.image.sha256}</Mono> · {bytes(release.image.size)} — matches the manifest</Text>],
     ['Model', release.modelName],
     ['Version', <Text style={type.body}><Mono>{release.version}</Mono> — new for this model</Text>],
     ['Security counter', String(release.securityCounter)],
@@ -191,10 +191,12 @@ function CheckSummary({ release }: { release: Release }) {
         </Row>
       </Row>
       {lines.map(([k, v]) => (
-        <View key={k} style={{ flexDirection: 'row', flexWrap: 'wrap', gap: space.sm }}>
-          <Badge label="✓ OK" tone="moss" />
-          <Text style={[type.label, { minWidth: 160 }]}>{k}</Text>
-          <View style={{ flexShrink: 1 }}>{typeof v === 'string' ? <Text style={type.body}>{v}</Text> : v}</View>
+        <View key={k} style={{ flexDirection: 'row', gap: space.sm, alignItems: 'flex-start' }}>
+          <Badge label="OK" tone="moss" />
+          <View style={{ flex: 1, minWidth: 0, flexDirection: 'row', flexWrap: 'wrap', columnGap: space.md }}>
+            <Text style={[type.label, { width: 200, paddingTop: 2 }]}>{k}</Text>
+            <View style={{ flex: 1, minWidth: 200 }}>{typeof v === 'string' ? <Text style={type.body}>{v}</Text> : v}</View>
+          </View>
         </View>
       ))}
       {release.key?.state === 'retired' ? <Notice tone="amber" title="Signed with a retired key" detail="Retired keys sign nothing new; register and use an active key." /> : null}

@@ -12,7 +12,7 @@ import { tokenScopes, type ApiToken, type NewToken, type TokenScope } from '../h
 
 type Props = {
   state: QueryState<List<ApiToken>>;
-  onCreate: (body: { name: string; scopes: TokenScope[]; expiresAt: string }) => void;
+  onCreate: (body: { name: string; scopes: TokenScope[]; expiresAt: string }, done: () => void) => void;
   creating: boolean;
   createError: (ProblemLike & { field?: (p: string) => string | undefined }) | null;
   created: NewToken | null;
@@ -112,7 +112,7 @@ function CreateForm({ onCreate, busy, error, now }: { onCreate: Props['onCreate'
     else if (Date.parse(at) <= now.getTime()) m.expiresAt = 'Choose a date in the future.';
     setLocal(m);
     if (Object.keys(m).length) return;
-    onCreate({ name: name.trim(), scopes, expiresAt: at });
+    onCreate({ name: name.trim(), scopes, expiresAt: at }, () => setName(''));
   };
   return (
     <Card>

@@ -16,7 +16,14 @@ export default function Tokens() {
     <TokenScreen
       state={tokens}
       wide={wide}
-      onCreate={(body) => create.mutate(body, { onSuccess: (t) => setCreated(t) })}
+      onCreate={(body, done) =>
+        create.mutate(body, {
+          onSuccess: (t) => {
+            setCreated(t);
+            done();
+          },
+        })
+      }
       creating={create.isPending}
       createError={create.error as ApiError | null}
       created={created}
