@@ -22,8 +22,10 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
+// One signed-in session for the engineer (signing in hashes a password: slow on purpose).
+let engineerAgent: Awaited<ReturnType<TestApp['signedIn']>> | undefined;
 async function engineer() {
-  return t.signedIn('release_engineer', 'Priya Test');
+  return (engineerAgent ??= await t.signedIn('release_engineer', 'Priya Test'));
 }
 
 /** Runs a refused upload and checks that nothing was stored: no file, no row. */
