@@ -1,0 +1,86 @@
+// The signing CLI end to end against a listening console: keys new → manifest → sign → verify → push
+// (issue 4 §3). The CLI's own functions run in-process (scripts/cli/commands.ts); the console is the
+// real app on its own port, reached over HTTP with an API token.
+import crypto from 'node:crypto';
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { startTestApp, csrf, type TestApp } from '../helpers/app';
+import { newSigningKey, pushRelease, signManifestFile, verifySignedManifest, writeManifest } from '../../scripts/cli/commands';
+import { demoModel, storeEntries } from './release-fixtures';
+
+let t: TestApp;
+let base: string;
+let work: string;
+beforeAll(async () => {
+  t = await startTestApp({ seed: 'demo' });
+  base = await t.listen();
+  work = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-cli-'));
+});
+afterAll(async () => {
+  fs.rmSync(work, { recursive: true, force: true });
+  await t.close();
+});
+
+async function apiToken(scopes: string[]) {
+  const admin = await t.signedIn('admin', 'CLI Admin');
+  const res = await admin.post('/api/tokens').set(csrf).send({ name: `CI ${scopes.join(' ')}`, scopes, expiresAt: '2099-01-01T00:00:00Z' });
+  expect(res.status).toBe(201);
+  return res.body.token as string;
+}
+
+test.each([
+  ['ed25519', '2.4.0'],
+  ['ecdsa-p256-sha256', '2.4.1'],
+] as const)('when a release engineer signs a %s manifest offline and pushes it with an images:write token, then a draft is created; pushing again is 409', async (algorithm, version) => {
+  const dir = path.join(work, algorithm);
+  const token = await apiToken(['images:write']);
+  const key = await newSigningKey({ algorithm, out: path.join(dir, 'keys'), name: 'build' });
+  expect((fs.statSync(key.privateKeyFile).mode & 0o777).toString(8)).toBe('600');
+
+  const admin = await t.signedIn('admin', 'CLI Admin');
+  const registered = await admin.post('/api/keys').set(csrf).send({ name: `CLI ${algorithm}`, publicKeyPem: fs.readFileSync(key.publicKeyFile, 'utf8') });
+  expect(registered.status).toBe(201);
+  expect(registered.body.keyId).toBe(key.keyId);
+
+  const model = await demoModel();
+  const imageFile = path.join(dir, 'fw.bin');
+  const image = crypto.randomBytes(20_000);
+  fs.writeFileSync(imageFile, image);
+  const manifestFile = path.join(dir, 'manifest.json');
+  fs.writeFileSync(manifestFile, await writeManifest({ image: imageFile, model: model.id, version, boards: 'B,C', counter: '5' }));
+  const signatureFile = path.join(dir, 'manifest.sig');
+  fs.writeFileSync(signatureFile, await signManifestFile({ key: key.privateKeyFile, manifest: manifestFile }));
+  expect(await verifySignedManifest({ key: key.publicKeyFile, signature: signatureFile, manifest: manifestFile, image: imageFile })).toMatch(/^verified: /);
+
+  const out = await pushRelease({ url: base, token, image: imageFile, manifest: manifestFile, signature: signatureFile, notes: 'Field trial build for Aldmere Vale.' });
+  const sha256 = crypto.createHash('sha256').update(image).digest('hex');
+  expect(out).toContain(`created release ${version}`);
+  expect(out).toContain('state draft');
+  expect(out).toContain(sha256);
+  expect(storeEntries(t)).toContain(sha256);
+
+  const list = await admin.get('/api/releases').query({ modelId: model.id });
+  const row = list.body.rows.find((r: { version: string }) => r.version === version);
+  const detail = await admin.get(`/api/releases/${row.id}`);
+  expect(detail.body).toMatchObject({ state: 'draft', boards: ['B', 'C'], securityCounter: 5, notes: 'Field trial build for Aldmere Vale.', key: { keyId: key.keyId }, createdBy: { name: `CI images:write` } });
+
+  const entries = storeEntries(t);
+  await expect(pushRelease({ url: base, token, image: imageFile, manifest: manifestFile, signature: signatureFile })).rejects.toThrow(/upload refused \(409/);
+  expect(storeEntries(t)).toEqual(entries);
+});
+
+test('when the token only reads the fleet, then the push is refused with 403 and nothing is stored', async () => {
+  const token = await apiToken(['fleet:read']);
+  const dir = path.join(work, 'reader');
+  const key = await newSigningKey({ algorithm: 'ed25519', out: dir, name: 'reader' });
+  const imageFile = path.join(dir, 'fw.bin');
+  fs.writeFileSync(imageFile, crypto.randomBytes(1000));
+  const manifestFile = path.join(dir, 'manifest.json');
+  fs.writeFileSync(manifestFile, await writeManifest({ image: imageFile, model: (await demoModel()).id, version: '2.9.0', boards: 'A', counter: '5' }));
+  const signatureFile = path.join(dir, 'manifest.sig');
+  fs.writeFileSync(signatureFile, await signManifestFile({ key: key.privateKeyFile, manifest: manifestFile }));
+  const entries = storeEntries(t);
+  await expect(pushRelease({ url: base, token, image: imageFile, manifest: manifestFile, signature: signatureFile })).rejects.toThrow(/upload refused \(403/);
+  expect(storeEntries(t)).toEqual(entries);
+});
