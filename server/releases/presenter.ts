@@ -106,12 +106,11 @@ export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: 
        FROM releases r
        JOIN models m ON m.id = r.model_id
        JOIN signing_keys k ON k.id = r.signing_key_id
-       LEFT JOIN (
-         SELECT release_id,
-                count(*) FILTER (WHERE state = 'installed') AS installed,
-                count(*) FILTER (WHERE state = 'failed') AS failed
-           FROM install_reports GROUP BY release_id
-       ) c ON c.release_id = r.id
+       LEFT JOIN LATERAL (
+         SELECT count(*) FILTER (WHERE i.state = 'installed') AS installed,
+                count(*) FILTER (WHERE i.state = 'failed') AS failed
+           FROM install_reports i WHERE i.release_id = r.id
+       ) c ON TRUE
       WHERE ${where.join(' AND ')}
       ORDER BY r.created_at DESC, r.id`,
     { type: QueryTypes.SELECT, replacements: filter },

@@ -109,7 +109,9 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
   let createdFile = false;
   try {
     const release = await deps.sequelize.transaction(async (t) => {
-      await deps.sequelize.query('INSERT INTO images (sha256, size, created_at) VALUES (:sha256, :size, :now) ON CONFLICT (sha256) DO NOTHING', {
+      // DO UPDATE (not DO NOTHING) so that an existing row is locked: a concurrent DELETE of the last
+      // draft using this image waits for this upload, then sees it and keeps the file.
+      await deps.sequelize.query('INSERT INTO images (sha256, size, created_at) VALUES (:sha256, :size, :now) ON CONFLICT (sha256) DO UPDATE SET sha256 = EXCLUDED.sha256', {
         transaction: t,
         replacements: { sha256: image.sha256, size: image.size, now: now.toISOString() },
       });
@@ -218,13 +220,15 @@ export async function patchRelease(deps: ReleaseDeps, ctx: RequestContext, id: s
 }
 
 export async function deleteRelease(deps: ReleaseDeps, ctx: RequestContext, id: string) {
-  const freed = await deps.sequelize.transaction(async (t) => {
+  await deps.sequelize.transaction(async (t) => {
     const found = await lockedRelease(t, id);
     if (!canDelete(found.state)) {
       throw problems.conflict(`Only a draft can be deleted; this release is ${found.state} and keeps its history.`, { allowedActions: [] });
     }
     const name = await modelName(found.modelId, t);
     await found.destroy({ transaction: t });
+    // Lock the image row first, so an upload of the same image either finished (and is counted) or waits.
+    await deps.sequelize.query('SELECT sha256 FROM images WHERE sha256 = :sha FOR UPDATE', { transaction: t, replacements: { sha: found.imageSha256 } });
     const [{ n }] = await deps.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM releases WHERE image_sha256 = :sha', {
       type: QueryTypes.SELECT,
       transaction: t,
@@ -237,11 +241,11 @@ export async function deleteRelease(deps: ReleaseDeps, ctx: RequestContext, id: 
       targetId: id,
       summary: `${ctx.actor.name} deleted the draft ${label(found, name)}; the version is free again`,
     });
-    return n === 0 ? found.imageSha256 : null;
+    // Last step, still holding the image row's lock: an upload waiting on it will find no file and write it anew.
+    if (n === 0) {
+      await deps.store.remove(found.imageSha256).catch((error: Error) => deps.logger?.warn({ err: error, sha256: found.imageSha256 }, 'image file left behind'));
+    }
   });
-  if (freed) {
-    await deps.store.remove(freed).catch((error: Error) => deps.logger?.warn({ err: error, sha256: freed }, 'image file left behind'));
-  }
 }
 
 const firstEntered: Partial<Record<ReleaseState, 'pilotedAt' | 'expandedAt' | 'completedAt' | 'haltedAt'>> = {
