@@ -29,7 +29,12 @@ export type CheckInDeps = {
   now: () => Date;
   random: () => number;
   stretch: () => number;
+  /** When the reset rate of each release was last judged at a check-in with resets (ms, by `now`). */
+  resetChecks?: Map<string, number>;
 };
+
+/** At most one reset-rate evaluation per release and process in this many milliseconds. */
+export const RESET_CHECK_EVERY_MS = 60_000;
 
 export type CheckInContext = { ip: string | null; requestId: string | null };
 
@@ -236,6 +241,23 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
         if (halt) halts.push(halt);
       }
       rows = await reportsOf(sequelize, t, logger.id);
+    }
+
+    // 4b. Watchdog and brown-out resets on a release this logger confirmed: judge the release's reset rate.
+    const resetsNow = (resets?.watchdog ?? 0) + (resets?.brownout ?? 0);
+    if (resetsNow > 0 && deps.resetChecks) {
+      const running = releases.find(
+        (r) => r.version === body.firmware && ['pilot', 'expanding', 'complete'].includes(r.state) && rows.some((x) => x.releaseId === r.id && x.confirmedAt !== null),
+      );
+      const last = running ? deps.resetChecks.get(running.id) : undefined;
+      if (running && !halts.some((h) => h.release.id === running.id) && (last === undefined || now.getTime() - last >= RESET_CHECK_EVERY_MS)) {
+        deps.resetChecks.set(running.id, now.getTime());
+        // SKIP LOCKED: another check-in holding the release is judging it already, and waiting here in
+        // another lock order could deadlock with it.
+        const locked = await lockRelease(sequelize, t, running.id, { skipLocked: true });
+        const halt = locked ? await haltIfCrossed(sequelize, t, locked, { now, retentionDays: retentionDays(), requestId: ctx.requestId }) : null;
+        if (halt) halts.push(halt);
+      }
     }
 
     // 5. The offer, on the releases as this transaction left them (a halt just made applies now).

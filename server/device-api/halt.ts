@@ -8,8 +8,12 @@
 // - Failure ratio: failed ÷ finished, where finished = installed + failed for a reason that is not
 //   transient (connection and low_supply are not counted on either side). It halts when the ratio is
 //   above haltFailureRatio (strictly) over at least haltMinReports finished installs.
-// - Reset rate: the loggers that confirmed the release at least 24 h ago (at least 20 of them) are
-//   compared with themselves: watchdog and brown-out resets per logger-day on the new version (check-ins
+// - When it is evaluated: after every finished report and confirmation (with the release locked), and
+//   at a check-in that brings watchdog or brown-out resets from a logger that confirmed a live release
+//   it runs — at most once a minute per release and process, so a fleet of resetting boards does not
+//   queue on the release row.
+// - Reset rate: the loggers that confirmed the release and have checked in on it over at least 24 h
+//   since (at least 20 of them) are compared with themselves: watchdog and brown-out resets per logger-day on the new version (check-ins
 //   since each logger's confirmation) against the same per logger-day on older versions in the
 //   retention window before it. It halts when the new rate is above haltResetFactor × the old rate. A
 //   fleet with no resets at all before would halt on the first one, so the old rate counts as at least
@@ -91,11 +95,12 @@ export type LockedRelease = HaltThresholds & {
   resumeState: ResumeState | null;
 };
 
-export async function lockRelease(sequelize: Sequelize, t: Transaction, releaseId: string): Promise<LockedRelease | null> {
+/** Locks the release row for this transaction; with skipLocked, gives up (null) when another transaction holds it. */
+export async function lockRelease(sequelize: Sequelize, t: Transaction, releaseId: string, options: { skipLocked?: boolean } = {}): Promise<LockedRelease | null> {
   const rows = await sequelize.query<LockedRelease>(
     `SELECT id, model_id AS "modelId", version, state, share, resume_state AS "resumeState",
             halt_failure_ratio AS "haltFailureRatio", halt_min_reports AS "haltMinReports", halt_reset_factor AS "haltResetFactor"
-       FROM releases WHERE id = :id FOR UPDATE`,
+       FROM releases WHERE id = :id FOR UPDATE${options.skipLocked ? ' SKIP LOCKED' : ''}`,
     { transaction: t, type: QueryTypes.SELECT, replacements: { id: releaseId } },
   );
   return rows[0] ?? null;
@@ -115,16 +120,16 @@ const RESETS = `(COALESCE((c.resets->>'watchdog')::int, 0) + COALESCE((c.resets-
 
 export async function resetFigures(sequelize: Sequelize, t: Transaction, release: LockedRelease, now: Date, retentionDays: number): Promise<ResetFigures> {
   const [row] = await sequelize.query<ResetFigures>(
-    `WITH cohort AS (
-       SELECT logger_id, confirmed_at FROM install_reports
-        WHERE release_id = :id AND confirmed_at IS NOT NULL AND confirmed_at <= CAST(:now AS timestamptz) - interval '${RESET_MIN_HOURS} hours'
+    `WITH confirmed AS (
+       SELECT logger_id, confirmed_at FROM install_reports WHERE release_id = :id AND confirmed_at IS NOT NULL AND confirmed_at <= :now
      ),
      after AS (
-       SELECT k.logger_id, COALESCE(sum(${RESETS}), 0) AS resets,
+       SELECT k.logger_id, k.confirmed_at, COALESCE(sum(${RESETS}), 0) AS resets,
               EXTRACT(EPOCH FROM (COALESCE(max(c.at), k.confirmed_at) - k.confirmed_at)) / 86400 AS days
-         FROM cohort k LEFT JOIN check_ins c ON c.logger_id = k.logger_id AND c.at > k.confirmed_at AND c.at <= :now AND c.firmware = :version
+         FROM confirmed k LEFT JOIN check_ins c ON c.logger_id = k.logger_id AND c.at > k.confirmed_at AND c.at <= :now AND c.firmware = :version
         GROUP BY k.logger_id, k.confirmed_at
      ),
+     cohort AS (SELECT * FROM after WHERE days * 24 >= ${RESET_MIN_HOURS}),
      before AS (
        SELECT k.logger_id, COALESCE(sum(${RESETS}), 0) AS resets,
               EXTRACT(EPOCH FROM (k.confirmed_at - COALESCE(min(c.at), k.confirmed_at))) / 86400 AS days
@@ -133,8 +138,8 @@ export async function resetFigures(sequelize: Sequelize, t: Transaction, release
         GROUP BY k.logger_id, k.confirmed_at
      )
      SELECT (SELECT count(*) FROM cohort)::int AS loggers,
-            (SELECT COALESCE(sum(resets), 0) FROM after)::int AS "resetsAfter",
-            (SELECT COALESCE(sum(days), 0) FROM after)::float8 AS "loggerDaysAfter",
+            (SELECT COALESCE(sum(resets), 0) FROM cohort)::int AS "resetsAfter",
+            (SELECT COALESCE(sum(days), 0) FROM cohort)::float8 AS "loggerDaysAfter",
             (SELECT COALESCE(sum(resets), 0) FROM before)::int AS "resetsBefore",
             (SELECT COALESCE(sum(days), 0) FROM before)::float8 AS "loggerDaysBefore"`,
     { transaction: t, type: QueryTypes.SELECT, replacements: { id: release.id, version: release.version, now, retention: retentionDays } },

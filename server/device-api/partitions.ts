@@ -9,7 +9,7 @@ import { QueryTypes } from 'sequelize';
 export const DEFAULT_RETENTION_DAYS = 30;
 export const DAYS_AHEAD = 7;
 
-export function retentionDays(env: NodeJS.ProcessEnv = process.env): number {
+export function retentionDays(env: Record<string, string | undefined> = process.env): number {
   const raw = env.HELIODOR_CHECKIN_RETENTION_DAYS;
   const n = raw === undefined || raw === '' ? DEFAULT_RETENTION_DAYS : Number(raw);
   return Number.isInteger(n) && n >= 1 ? n : DEFAULT_RETENTION_DAYS;

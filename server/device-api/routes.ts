@@ -59,12 +59,13 @@ export function registerDeviceRoutes(api: Api, deps: DeviceApiDeps): DeviceApi {
   };
 
   const limit = deviceRateLimit(deps.config.deviceRatePerMinute);
+  const resetChecks = new Map<string, number>();
 
   api.post(CHECK_IN_PATH, limit, load.admit, async (req: Request, res: Response) => {
     const logger = await authenticateLogger(sequelize, req);
     const body = parse(checkInRequestSchema, req.body);
     const reply = await checkIn(
-      { sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch },
+      { sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch, resetChecks },
       logger,
       body,
       { ip: req.ip ?? null, requestId: typeof req.id === 'string' ? req.id : null },

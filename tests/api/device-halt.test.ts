@@ -15,9 +15,9 @@ afterAll(() => t.close());
 
 const CHECK_IN = '/api/device/v1/check-in';
 
-async function one<T>(sql: string, replacements: Record<string, unknown>): Promise<T> {
+async function one<T extends object>(sql: string, replacements: Record<string, unknown>): Promise<T> {
   const [row] = await t.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements });
-  return row;
+  return row!;
 }
 
 describe('automatic halt', () => {
