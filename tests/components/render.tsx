@@ -1,0 +1,48 @@
+// Renders a component into jsdom with react-dom (the web target), as STACK.md recommends, and
+// offers the few interactions screen tests need. React Native Web maps testID to data-testid.
+import React from 'react';
+import { act } from 'react';
+import { createRoot, type Root } from 'react-dom/client';
+
+(globalThis as { IS_REACT_ACT_ENVIRONMENT?: boolean }).IS_REACT_ACT_ENVIRONMENT = true;
+
+export type Rendered = {
+  container: HTMLElement;
+  byTestId: (id: string) => HTMLElement;
+  text: () => string;
+  press: (id: string) => void;
+  type: (id: string, value: string) => void;
+  unmount: () => void;
+};
+
+export function render(element: React.ReactElement): Rendered {
+  const container = document.createElement('div');
+  document.body.appendChild(container);
+  let root: Root;
+  act(() => {
+    root = createRoot(container);
+    root.render(element);
+  });
+  const byTestId = (id: string) => {
+    const el = container.querySelector(`[data-testid="${id}"]`);
+    if (!el) throw new Error(`no element with testID ${id}`);
+    return el as HTMLElement;
+  };
+  return {
+    container,
+    byTestId,
+    text: () => container.textContent ?? '',
+    press: (id) => act(() => byTestId(id).click()),
+    type: (id, value) =>
+      act(() => {
+        const input = byTestId(id) as HTMLInputElement;
+        const setter = Object.getOwnPropertyDescriptor(HTMLInputElement.prototype, 'value')!.set!;
+        setter.call(input, value);
+        input.dispatchEvent(new Event('input', { bubbles: true }));
+      }),
+    unmount: () => {
+      act(() => root.unmount());
+      container.remove();
+    },
+  };
+}
