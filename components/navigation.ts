@@ -25,6 +25,7 @@ export const destinations: Destination[] = [
   { href: '/activity', label: 'Activity', icon: 'activity', roles: ['admin', 'release_engineer', 'support'] },
   { href: '/keys', label: 'Signing keys', icon: 'keys', roles: ['admin', 'release_engineer'] },
   { href: '/tokens', label: 'API tokens', icon: 'settings', roles: ['admin'] },
+  { href: '/settings/device-api', label: 'Settings · Device API', icon: 'settings', roles: everyone },
   { href: '/mailbox', label: 'Mailbox', icon: 'mail', roles: ['admin'], devOnly: true },
 ];
 

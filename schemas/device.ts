@@ -137,3 +137,19 @@ export type CheckInResponse = z.infer<typeof checkInResponseSchema>;
 
 /** An image id in a URL: 64 lowercase hex characters (anything else is 404 before storage is touched). */
 export const imageIdPattern = /^[0-9a-f]{64}$/;
+
+/** Where DEVICE_API.md leaves room, what this server does (OpenAPI description and the console's Device API page). */
+export const deviceApiChoices: readonly string[] = [
+  'Board: the offer decision uses the board revision the logger reports in this check-in (`board`); the registry keeps the label it was registered with.',
+  'Supply guard: when no supply voltage was ever reported, the guard does not block (an unknown supply is not below the minimum).',
+  'Daylight window: a release that asks for it at a site without coordinates is offered without the window.',
+  'When the supply guard or the daylight window blocks the chosen release, nothing is offered at that check-in (no older release instead).',
+  'Install reports: a report for a release this server does not know for the logger\'s model is ignored. A failed report without a reason counts as `other`; a `reason` sent with another state is ignored. After a transient failure (connection, low_supply) the offer stands and a new attempt may start with any state; after any other failure further reports are ignored until an operator retries the release.',
+  'Report `installed` when the new image has been written and is about to boot, or on the first check-in after booting it. The check-in that carries `installed` may still run the old version; a later check-in on an older version than the release counts as a rollback by the bootloader (failed, other, "rolled back by the bootloader"). A check-in on the release\'s version (or newer) confirms the install.',
+  'Reset counts: when neither `reset_counts` nor `resets_since_last` is sent, the check-in records no boots.',
+  '`config` is sent when `config_version` is absent or lower than the profile\'s version, and is null when the logger has no measurement profile yet (not enrolled).',
+  '`next_check_in_s`: the model\'s check-in interval with ±10 % uniform jitter, stretched up to four times when the server is busy (event-loop delay, database pool queue, check-ins in flight).',
+  'Rate limit: 60 check-ins a minute per logger token by default (per server process); above it `429` with `Retry-After`. Overload and an unreachable database answer `503` with `Retry-After`; come back after that many seconds (with jitter of your own).',
+  'Images: the route checks the token first (401), then the id — anything but 64 lowercase hex characters is `404` —, then that this logger was offered the image by a live release (else `404`). `HEAD` is answered like `GET` without a body. Multiple ranges are answered with the whole image (`200`). An `If-Range` that is an HTTP-date never matches (no `Last-Modified` is sent), so it yields the whole image.',
+  'Automatic halt: a release halts when more than its halt failure ratio of at least its minimum number of finished installs failed (installed + non-transient failures), or when the watchdog and brown-out resets of at least 20 loggers, each observed on it for 24 h or more since confirming it, rose above the halt reset factor × their rate on the versions before (the earlier rate counts as at least 1 reset per 100 logger-days).',
+];
