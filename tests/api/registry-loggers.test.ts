@@ -246,15 +246,16 @@ describe('retiring a logger', () => {
 });
 
 describe('the logger list and detail', () => {
-  test('when support lists loggers, then rows carry the contract fields, 25 per page by default, with a cursor to the next page', async () => {
+  test('when support lists loggers, then rows carry the contract fields, 25 per page by default, with a cursor while more rows follow', async () => {
     const { agent } = await demoAgent(t, 'Lena');
     const res = await agent.get('/api/loggers');
     expect(res.status).toBe(200);
     expect(res.body.total).toBe(await Logger.count());
     expect(res.body.rows).toHaveLength(25);
-    expect(res.body.nextCursor).toBe('2');
-    expect(Object.keys(res.body.rows[0]).sort()).toEqual(
-      ['id', 'serial', 'modelId', 'modelName', 'board', 'track', 'status', 'siteId', 'siteName', 'customer', 'firmware', 'lastSeenAt', 'supplyV'].sort(),
+    expect(typeof res.body.nextCursor).toBe('string');
+    // The registry contract's fields; the fleet view may add more to the same rows.
+    expect(Object.keys(res.body.rows[0])).toEqual(
+      expect.arrayContaining(['id', 'serial', 'modelId', 'modelName', 'board', 'track', 'status', 'siteId', 'siteName', 'customer', 'firmware', 'lastSeenAt', 'supplyV']),
     );
     const page2 = await agent.get('/api/loggers').query({ page: 2, pageSize: 50 });
     expect(page2.body.rows).toHaveLength(50);
