@@ -332,3 +332,35 @@ describe('install photo', () => {
     expect((await support.agent.post(`/api/loggers/${logger.id}/photo`).set(csrf).attach('photo', pngBytes, 'a.png')).status).toBe(403);
   });
 });
+
+describe('with the device API', () => {
+  const CHECK_IN = '/api/device/v1/check-in';
+  const checkIn = (token: string, configVersion?: number) =>
+    t
+      .request()
+      .post(CHECK_IN)
+      .set('Authorization', `Bearer ${token}`)
+      .send({ firmware: '2.1.4', board: 'B', security_counter: 0, ...(configVersion === undefined ? {} : { config_version: configVersion }) });
+
+  test('when a logger enrolled here checks in, then it receives the profile in the device fields, and a profile change reaches it as version 2', async () => {
+    const logger = await enrolledLogger();
+    const first = await checkIn(logger.token);
+    expect(first.status).toBe(200);
+    // DEVICE_API.md `config`: the same values as the console profile, in snake_case (Table 1 values, SBOS547).
+    expect(first.body.config).toMatchObject({ version: 1, shunt_ohm: 0.002, max_current_a: 32.768, current_lsb_a: 0.001, calibration: 2560, power_lsb_w: 0.025, bus_v_max: 36, temp_resolution_bits: 12 });
+    const { agent } = await demoAgent(t, 'Morgan');
+    await agent.patch(`/api/loggers/${logger.id}/profile`).set(csrf).send({ shuntOhm: 0.005, maxCurrentA: 16.384, tempResolutionBits: 12 });
+    const second = await checkIn(logger.token, 1);
+    expect(second.body.config).toMatchObject({ version: 2, shunt_ohm: 0.005, calibration: 2048 });
+  });
+
+  test('when a token is rotated, then the old one is refused with 401 at once and the new one checks in; once retired, 401', async () => {
+    const logger = await enrolledLogger();
+    const { agent } = await demoAgent(t, 'Morgan');
+    const rotated = await agent.post(`/api/loggers/${logger.id}/token`).set(csrf);
+    expect((await checkIn(logger.token)).status).toBe(401);
+    expect((await checkIn(rotated.body.token)).status).toBe(200);
+    await agent.post(`/api/loggers/${logger.id}/retire`).set(csrf).send({});
+    expect((await checkIn(rotated.body.token)).status).toBe(401);
+  });
+});
