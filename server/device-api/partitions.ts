@@ -89,7 +89,7 @@ async function createPartition(sequelize: Sequelize, day: Date): Promise<number>
 
 /**
  * Runs the maintenance now and then every six hours, in the background: errors (a database still
- * starting) are logged and retried at the next run, never fatal. The timer does not keep the process
+ * starting) are logged and retried a minute later, never fatal. The timer does not keep the process
  * alive. Returns a stop function.
  */
 export function startPartitionMaintenance(
@@ -97,13 +97,17 @@ export function startPartitionMaintenance(
   options: { now: () => Date; log: (err: unknown) => void; everyMs?: number },
 ): () => void {
   let running = false;
+  let retry: NodeJS.Timeout | null = null;
   const run = async () => {
     if (running) return;
     running = true;
     try {
       await maintainCheckInPartitions(sequelize, options.now());
     } catch (err) {
+      // At boot the database may still be starting or migrating: try again in a minute.
       options.log(err);
+      retry = setTimeout(() => void run(), 60_000);
+      retry.unref?.();
     } finally {
       running = false;
     }
@@ -114,6 +118,7 @@ export function startPartitionMaintenance(
   timer.unref?.();
   return () => {
     clearTimeout(first);
+    if (retry) clearTimeout(retry);
     clearInterval(timer);
   };
 }

@@ -110,6 +110,7 @@ export function createReleaseCache(
   let connected = false;
   let stopped = false;
   let retry: NodeJS.Timeout | null = null;
+  let warned = false;
 
   const invalidate = (modelId?: string) => {
     generation++;
@@ -138,7 +139,9 @@ export function createReleaseCache(
       next.on('error', () => undefined);
       next.end().catch(() => undefined);
       if (!stopped) {
-        if (err) options.log?.('release change listener lost; reconnecting', err);
+        // One warning per outage, not one every 5 s.
+        if (err && !warned) options.log?.('release change listener lost; reconnecting every 5 s', err);
+        if (err) warned = true;
         retry = setTimeout(() => void connect(), 5_000);
         retry.unref?.();
       }
@@ -155,6 +158,7 @@ export function createReleaseCache(
       await next.query(`LISTEN ${CHANNEL}`);
       if (stopped) return void next.end().catch(() => undefined);
       connected = true;
+      warned = false;
       invalidate(); // anything may have changed while nobody listened
     } catch (err) {
       lost(err);
