@@ -91,6 +91,7 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
           </Text>
         ) : null}
         {r.state === 'withdrawn' ? <Text style={type.small}>Withdrawn for good: loggers that installed it keep it.</Text> : null}
+        <WhyStopped r={r} />
         {canManage && live ? <Moves r={r} onPending={onPending} /> : null}
         {canManage && r.state === 'draft' ? (
           <Row wrap>
@@ -127,6 +128,17 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
 
       <MoveDialog r={r} pending={pending} onPending={onPending} estimate={estimate} onTransition={onTransition} onDelete={onDelete} busy={busy} error={error} />
     </Page>
+  );
+}
+
+/** Why a release is paused, halted or withdrawn: the reason of the transition that put it there. */
+function WhyStopped({ r }: { r: Release }) {
+  if (!['paused', 'halted', 'withdrawn'].includes(r.state)) return null;
+  const last = [...(r.history ?? [])].reverse().find((h) => h.toState === r.state);
+  if (!last) return null;
+  const tone = r.state === 'halted' ? 'ember' : r.state === 'paused' ? 'amber' : 'ink';
+  return (
+    <Notice tone={tone} title={`${stateWords[r.state]} by ${last.actorName} ${relativeTime(last.at)}`} detail={last.reason ? `“${last.reason}”` : 'No reason was given.'} />
   );
 }
 

@@ -145,7 +145,7 @@ function ReleaseTable({ rows }: { rows: ReleaseRow[] }) {
       </View>
       {rows.map((r) => (
         <Link key={r.id} href={`/releases/${r.id}` as never} asChild>
-          <Pressable role="row" aria-label={`Release ${r.version} of ${r.modelName}, ${stateWords[r.state]}`} style={({ hovered }: { pressed: boolean; hovered?: boolean }) => [styles.tr, hovered && { backgroundColor: colors.paper }]}>
+          <Pressable role="row" aria-label={`Release ${r.version} of ${r.modelName}, ${stateWords[r.state]}`} style={styles.tr}>
             <View style={[styles.cell, cols[0]]}>
               <Mono style={{ fontFamily: fonts.monoMedium }}>{r.version}</Mono>
               {r.flagged ? <Badge label="Revoked key" tone="ember" /> : null}
