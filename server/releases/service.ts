@@ -32,7 +32,7 @@ async function signingKeyFor(manifestBytes: Buffer, signatureText: string): Prom
   const keys = await SigningKey.findAll({ order: [['createdAt', 'ASC']] });
   const active = keys.filter((k) => k.state === 'active');
   // Both algorithms use 64-byte signatures; decode with the algorithm whose hint helps most (DER for ECDSA).
-  const algorithm = active.some((k) => k.algorithm === 'ecdsa-p256-sha256') || keys.some((k) => k.algorithm === 'ecdsa-p256-sha256') ? 'ecdsa-p256-sha256' : 'ed25519';
+  const algorithm = keys.some((k) => k.algorithm === 'ecdsa-p256-sha256') ? 'ecdsa-p256-sha256' : 'ed25519';
   let signature: Buffer;
   try {
     signature = decodeSignature(signatureText, algorithm);

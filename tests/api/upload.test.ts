@@ -7,6 +7,7 @@ import fs from 'node:fs';
 import http from 'node:http';
 import path from 'node:path';
 import request from 'supertest';
+import { QueryTypes } from 'sequelize';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity, Release, ReleaseTransition } from '../../server/db/models';
 import { demoModel, keyPair, postUpload, registerKey, signBytes, signedUpload, storeEntries, tableCount, type KeyPair } from './release-fixtures';
@@ -80,7 +81,7 @@ describe('a verified upload', () => {
     const sha256 = crypto.createHash('sha256').update(image).digest('hex');
     expect(storeEntries(t).filter((e) => e === sha256)).toHaveLength(1);
     expect(storeEntries(t).every((e) => /^[0-9a-f]{64}$/.test(e))).toBe(true);
-    const [{ n }] = await t.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM images WHERE sha256 = :sha256', { type: 'SELECT' as never, replacements: { sha256 } });
+    const [{ n }] = await t.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM images WHERE sha256 = :sha256', { type: QueryTypes.SELECT, replacements: { sha256 } });
     expect(n).toBe(1);
   });
 
