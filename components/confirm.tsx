@@ -19,7 +19,7 @@ type Props = {
 
 export function ConfirmDialog({ visible, title, detail, confirmLabel, cancelLabel = 'Cancel', danger, busy, onConfirm, onCancel, children }: Props) {
   return (
-    <Modal visible={visible} transparent animationType="fade" onRequestClose={onCancel}>
+    <Modal visible={visible} transparent animationType="none" onRequestClose={onCancel}>
       <Pressable style={styles.backdrop} onPress={onCancel} aria-label="Close" />
       <View style={styles.center} pointerEvents="box-none">
         <View role="alertdialog" aria-label={title} style={styles.dialog}>

@@ -108,9 +108,10 @@ export type EnrollFormProps = {
   createSite: { busy: boolean; error: unknown; run: (input: SiteInput, done: (site: Site) => void) => void };
   enroll: { busy: boolean; error: unknown; run: (input: EnrollInput, photo: File | null) => void };
   onRescan: () => void;
+  wide: boolean;
 };
 
-export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, createSite, enroll, onRescan }: EnrollFormProps) {
+export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, createSite, enroll, onRescan, wide }: EnrollFormProps) {
   const { logger, limits } = lookup;
   const [siteId, setSiteId] = React.useState<string | undefined>(logger.site?.id);
   const [chosenSite, setChosenSite] = React.useState<Site | { id: string; name: string } | undefined>(logger.site ?? undefined);
@@ -185,198 +186,236 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
   const status = loggerStatus(logger);
   const siteMissing = fieldError('siteId');
 
-  return (
-    <View style={{ gap: space.lg }}>
-      <Page title="Enroll a logger" subtitle="Check the logger, choose its site, enter how it is wired">
-        <Card testID="enroll-logger">
-          <Row style={{ justifyContent: 'space-between', alignItems: 'flex-start' }}>
-            <View style={{ gap: 2, flexShrink: 1 }}>
-              <Text style={type.label}>Serial</Text>
-              <Mono style={{ fontSize: 22, lineHeight: 28, fontFamily: fonts.monoMedium }}>{logger.serial}</Mono>
-            </View>
-            <Badge label={status.label} tone={status.tone} />
-          </Row>
+  const identity = (
+    <Card testID="enroll-logger">
+      <Row style={{ justifyContent: 'space-between', alignItems: 'flex-start' }}>
+        <View style={{ gap: 2, flexShrink: 1 }}>
+          <Text style={type.label}>Serial</Text>
+          <Mono style={{ fontSize: 22, lineHeight: 28, fontFamily: fonts.monoMedium }}>{logger.serial}</Mono>
+        </View>
+        <Badge label={status.label} tone={status.tone} />
+      </Row>
+      <Text style={type.body}>
+        {logger.modelName} · board {logger.board}
+      </Text>
+      {logger.status === 'enrolled' && logger.site ? (
+        <Notice title={`Already enrolled at ${logger.site.name}`} tone="amber">
           <Text style={type.body}>
-            {logger.modelName} · board {logger.board}
+            To install it somewhere else, use Move on{' '}
+            <Link href={`/loggers/${logger.id}` as never} style={{ textDecorationLine: 'underline' }}>
+              the logger's page
+            </Link>
+            .
           </Text>
-          {logger.status === 'enrolled' && logger.site ? (
-            <Notice title={`Already enrolled at ${logger.site.name}`} tone="amber">
-              <Text style={type.body}>
-                To install it somewhere else, use Move on{' '}
-                <Link href={`/loggers/${logger.id}` as never} style={{ textDecorationLine: 'underline' }}>
-                  the logger's page
-                </Link>
-                .
-              </Text>
-            </Notice>
+        </Notice>
+      ) : null}
+      <View style={{ alignSelf: 'flex-start' }}>
+        <Button label="Scan a different label" variant="quiet" onPress={onRescan} />
+      </View>
+    </Card>
+  );
+  const siteCard = (
+    <Card>
+      <Text role="heading" aria-level={2} style={type.heading}>
+        Site
+      </Text>
+      {chosenSite ? (
+        <Text style={type.body} testID="chosen-site">
+          Installing at <Text style={{ fontFamily: fonts.semibold }}>{chosenSite.name}</Text>
+        </Text>
+      ) : (
+        <Text style={type.small}>Choose where the logger is installed.</Text>
+      )}
+      {creating ? (
+        <SiteForm
+          submitLabel="Create site"
+          busy={createSite.busy}
+          error={errorOf(createSite.error)}
+          onCancel={() => setCreating(false)}
+          onSubmit={(input) =>
+            createSite.run(input, (site) => {
+              setSiteId(site.id);
+              setChosenSite(site);
+              setCreating(false);
+            })
+          }
+        />
+      ) : (
+        <>
+          <Field label="Find a site" value={siteQuery} onChangeText={onSiteQuery} placeholder="Name, customer or address" testID="site-search" />
+          {sites.loading ? <Skeleton rows={3} height={44} /> : null}
+          <ProblemNotice error={sites.error} fallback="Could not load the sites" />
+          {!sites.loading && !sites.rows.length ? (
+            <EmptyState title="No sites found" detail={siteQuery ? 'No site matches this search.' : 'There are no sites you can install at yet: create one.'} />
+          ) : null}
+          <View role="radiogroup" aria-label="Site" style={{ gap: space.xs }}>
+            {sites.rows.slice(0, 12).map((s) => {
+              const on = s.id === siteId;
+              return (
+                <Pressable
+                  key={s.id}
+                  role="radio"
+                  aria-checked={on}
+                  aria-label={s.name}
+                  onPress={() => {
+                    setSiteId(s.id);
+                    setChosenSite(s);
+                    setLocal(({ siteId: _gone, ...rest }) => rest);
+                  }}
+                  style={[styles.siteRow, on && styles.siteRowOn]}
+                >
+                  <View style={[styles.radio, on && styles.radioOn]} />
+                  <View style={{ flexShrink: 1 }}>
+                    <Text style={[type.body, { fontFamily: on ? fonts.semibold : fonts.medium }]}>{s.name}</Text>
+                    <Text style={type.small}>
+                      {s.customer} · {s.address}
+                    </Text>
+                  </View>
+                </Pressable>
+              );
+            })}
+          </View>
+          {siteMissing ? (
+            <Text role="alert" style={[type.small, { color: colors.ember }]}>
+              {siteMissing}
+            </Text>
           ) : null}
           <View style={{ alignSelf: 'flex-start' }}>
-            <Button label="Scan a different label" variant="quiet" onPress={onRescan} />
+            <Button label="New site" variant="secondary" onPress={() => setCreating(true)} testID="new-site" />
           </View>
-        </Card>
-
-        <Card>
-          <Text role="heading" aria-level={2} style={type.heading}>
-            Site
-          </Text>
-          {chosenSite ? (
-            <Text style={type.body} testID="chosen-site">
-              Installing at <Text style={{ fontFamily: fonts.semibold }}>{chosenSite.name}</Text>
-            </Text>
-          ) : (
-            <Text style={type.small}>Choose where the logger is installed.</Text>
-          )}
-          {creating ? (
-            <SiteForm
-              submitLabel="Create site"
-              busy={createSite.busy}
-              error={errorOf(createSite.error)}
-              onCancel={() => setCreating(false)}
-              onSubmit={(input) =>
-                createSite.run(input, (site) => {
-                  setSiteId(site.id);
-                  setChosenSite(site);
-                  setCreating(false);
-                })
-              }
+        </>
+      )}
+    </Card>
+  );
+  const cautions = (
+    <Notice title="Before you connect the logger" tone="amber">
+      <Text style={type.body}>• Isolate the array first: panels make voltage whenever light falls on them, and a DC arc does not put itself out.</Text>
+      <Text style={type.body}>• Fuse the measurement leads close to where they connect to the array.</Text>
+      <Text style={type.body}>
+        • Respect the monitor's limits: at most {limits.busVMax} V on the bus input and {Number((limits.shuntFullScaleV * 1000).toPrecision(4))} mV across the shunt.
+      </Text>
+      <Text style={type.body}>• Follow the local electrical codes; wiring work is for licensed practice.</Text>
+    </Notice>
+  );
+  const details = (
+    <Card>
+      <Text role="heading" aria-level={2} style={type.heading}>
+        Install details
+      </Text>
+      <Row gap={space.sm} style={{ alignItems: 'flex-start' }}>
+        <View style={{ flex: 1 }}>
+          <Field label="Panel rating (Wp)" value={panelWp} onChangeText={setPanelWp} inputMode="decimal" error={fieldError('panelWp')} testID="panel-wp" />
+        </View>
+        <View style={{ flex: 1 }}>
+          <Field label="Open-circuit voltage (V)" value={panelVocV} onChangeText={setPanelVocV} inputMode="decimal" error={fieldError('panelVocV')} testID="panel-voc" />
+        </View>
+      </Row>
+      <Row gap={space.sm} style={{ alignItems: 'flex-end' }}>
+        <View style={{ flex: 1 }}>
+          <Field label={`Shunt resistance (${shuntUnit})`} value={shunt} onChangeText={setShunt} inputMode="decimal" testID="shunt" />
+        </View>
+        <Choices
+          choices={[
+            { value: 'mΩ', label: 'mΩ' },
+            { value: 'Ω', label: 'Ω' },
+          ]}
+          value={shuntUnit}
+          onChange={setShuntUnit}
+        />
+      </Row>
+      {fieldError('shuntOhm') ? (
+        <Text role="alert" style={[type.small, { color: colors.ember }]}>
+          {fieldError('shuntOhm')}
+        </Text>
+      ) : null}
+      <Field label="Maximum expected current (A)" value={maxCurrentA} onChangeText={setMaxCurrentA} inputMode="decimal" error={fieldError('maxCurrentA')} testID="max-current" />
+      <Choices
+        label="Temperature probe resolution"
+        choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: `${b} bits` }))}
+        value={bits}
+        onChange={setBits}
+        error={fieldError('tempResolutionBits')}
+        testID="probe-resolution"
+      />
+      <Field
+        label="Mounting notes (optional)"
+        value={notes}
+        onChangeText={setNotes}
+        multiline
+        style={{ minHeight: 72, paddingTop: space.sm }}
+        error={fieldError('notes')}
+        placeholder="Where the enclosure is, cable runs, anything the next visitor should know"
+        testID="notes"
+      />
+      <View style={{ gap: space.xs }}>
+        <Text style={type.label}>Photo of the install (optional, JPEG or PNG up to 10 MB)</Text>
+        {photoUrl ? <Image source={{ uri: photoUrl }} style={styles.photo} resizeMode="cover" accessibilityLabel="Install photo" /> : null}
+        <Row gap={space.sm} wrap>
+          <Button label={photo ? 'Choose another photo' : 'Add a photo'} variant="secondary" onPress={choosePhoto} testID="add-photo" />
+          {photo ? (
+            <Button
+              label="Remove photo"
+              variant="quiet"
+              onPress={() => {
+                setPhoto(null);
+                setPhotoUrl(null);
+              }}
             />
-          ) : (
-            <>
-              <Field label="Find a site" value={siteQuery} onChangeText={onSiteQuery} placeholder="Name, customer or address" testID="site-search" />
-              {sites.loading ? <Skeleton rows={3} height={44} /> : null}
-              <ProblemNotice error={sites.error} fallback="Could not load the sites" />
-              {!sites.loading && !sites.rows.length ? (
-                <EmptyState title="No sites found" detail={siteQuery ? 'No site matches this search.' : 'There are no sites you can install at yet: create one.'} />
-              ) : null}
-              <View role="radiogroup" aria-label="Site" style={{ gap: space.xs }}>
-                {sites.rows.slice(0, 12).map((s) => {
-                  const on = s.id === siteId;
-                  return (
-                    <Pressable
-                      key={s.id}
-                      role="radio"
-                      aria-checked={on}
-                      aria-label={s.name}
-                      onPress={() => {
-                        setSiteId(s.id);
-                        setChosenSite(s);
-                        setLocal(({ siteId: _gone, ...rest }) => rest);
-                      }}
-                      style={[styles.siteRow, on && styles.siteRowOn]}
-                    >
-                      <View style={[styles.radio, on && styles.radioOn]} />
-                      <View style={{ flexShrink: 1 }}>
-                        <Text style={[type.body, { fontFamily: on ? fonts.semibold : fonts.medium }]}>{s.name}</Text>
-                        <Text style={type.small}>
-                          {s.customer} · {s.address}
-                        </Text>
-                      </View>
-                    </Pressable>
-                  );
-                })}
-              </View>
-              {siteMissing ? (
-                <Text role="alert" style={[type.small, { color: colors.ember }]}>
-                  {siteMissing}
-                </Text>
-              ) : null}
-              <View style={{ alignSelf: 'flex-start' }}>
-                <Button label="New site" variant="secondary" onPress={() => setCreating(true)} testID="new-site" />
-              </View>
-            </>
-          )}
-        </Card>
-
-        <Notice title="Before you connect the logger" tone="amber">
-          <Text style={type.body}>• Isolate the array first: panels make voltage whenever light falls on them, and a DC arc does not put itself out.</Text>
-          <Text style={type.body}>• Fuse the measurement leads close to where they connect to the array.</Text>
-          <Text style={type.body}>
-            • Respect the monitor's limits: at most {limits.busVMax} V on the bus input and {Number((limits.shuntFullScaleV * 1000).toPrecision(4))} mV across the shunt.
-          </Text>
-          <Text style={type.body}>• Follow the local electrical codes; wiring work is for licensed practice.</Text>
-        </Notice>
-
-        <Card>
-          <Text role="heading" aria-level={2} style={type.heading}>
-            Install details
-          </Text>
-          <Row gap={space.sm} style={{ alignItems: 'flex-start' }}>
-            <View style={{ flex: 1 }}>
-              <Field label="Panel rating (Wp)" value={panelWp} onChangeText={setPanelWp} inputMode="decimal" error={fieldError('panelWp')} testID="panel-wp" />
-            </View>
-            <View style={{ flex: 1 }}>
-              <Field label="Open-circuit voltage (V)" value={panelVocV} onChangeText={setPanelVocV} inputMode="decimal" error={fieldError('panelVocV')} testID="panel-voc" />
-            </View>
-          </Row>
-          <Row gap={space.sm} style={{ alignItems: 'flex-end' }}>
-            <View style={{ flex: 1 }}>
-              <Field label={`Shunt resistance (${shuntUnit})`} value={shunt} onChangeText={setShunt} inputMode="decimal" testID="shunt" />
-            </View>
-            <Choices
-              choices={[
-                { value: 'mΩ', label: 'mΩ' },
-                { value: 'Ω', label: 'Ω' },
-              ]}
-              value={shuntUnit}
-              onChange={setShuntUnit}
-            />
-          </Row>
-          {fieldError('shuntOhm') ? (
-            <Text role="alert" style={[type.small, { color: colors.ember }]}>
-              {fieldError('shuntOhm')}
-            </Text>
           ) : null}
-          <Field label="Maximum expected current (A)" value={maxCurrentA} onChangeText={setMaxCurrentA} inputMode="decimal" error={fieldError('maxCurrentA')} testID="max-current" />
-          <Choices
-            label="Temperature probe resolution"
-            choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: `${b} bits` }))}
-            value={bits}
-            onChange={setBits}
-            error={fieldError('tempResolutionBits')}
-            testID="probe-resolution"
-          />
-          <Field
-            label="Mounting notes (optional)"
-            value={notes}
-            onChangeText={setNotes}
-            multiline
-            style={{ minHeight: 72, paddingTop: space.sm }}
-            error={fieldError('notes')}
-            placeholder="Where the enclosure is, cable runs, anything the next visitor should know"
-            testID="notes"
-          />
-          <View style={{ gap: space.xs }}>
-            <Text style={type.label}>Photo of the install (optional, JPEG or PNG up to 10 MB)</Text>
-            {photoUrl ? <Image source={{ uri: photoUrl }} style={styles.photo} resizeMode="cover" accessibilityLabel="Install photo" /> : null}
-            <Row gap={space.sm} wrap>
-              <Button label={photo ? 'Choose another photo' : 'Add a photo'} variant="secondary" onPress={choosePhoto} testID="add-photo" />
-              {photo ? (
-                <Button
-                  label="Remove photo"
-                  variant="quiet"
-                  onPress={() => {
-                    setPhoto(null);
-                    setPhotoUrl(null);
-                  }}
-                />
-              ) : null}
-            </Row>
-            {photoError ? (
-              <Text role="alert" style={[type.small, { color: colors.ember }]}>
-                {photoError}
-              </Text>
-            ) : null}
-          </View>
-        </Card>
-
-        <CalibrationPreview result={result} filled={filled} />
-        {server && !server.fieldErrors?.length ? <ProblemNotice error={server} fallback="The logger could not be enrolled" /> : null}
-        {server && server.fieldErrors?.length ? <Notice title={server.title ?? 'Check the details'} detail={server.detail} /> : null}
-      </Page>
-      <View style={styles.sticky}>
-        <Button label="Enroll logger" onPress={submit} busy={enroll.busy} testID="enroll-submit" />
-        {chosenSite ? <Text style={[type.small, { textAlign: 'center' }]}>{`${logger.serial} at ${chosenSite.name}`}</Text> : null}
+        </Row>
+        {photoError ? (
+          <Text role="alert" style={[type.small, { color: colors.ember }]}>
+            {photoError}
+          </Text>
+        ) : null}
       </View>
+    </Card>
+  );
+  const problems = (
+    <>
+      {server && !server.fieldErrors?.length ? <ProblemNotice error={server} fallback="The logger could not be enrolled" /> : null}
+      {server && server.fieldErrors?.length ? <Notice title={server.title ?? 'Check the details'} detail={server.detail} /> : null}
+    </>
+  );
+  const action = (
+    <View style={wide ? styles.actionWide : styles.sticky}>
+      <Button label="Enroll logger" onPress={submit} busy={enroll.busy} testID="enroll-submit" />
+      {chosenSite ? <Text style={[type.small, { textAlign: 'center' }]}>{`${logger.serial} at ${chosenSite.name}`}</Text> : null}
+    </View>
+  );
+  const title = { title: 'Enroll a logger', subtitle: 'Check the logger, choose its site, enter how it is wired' };
+
+  if (wide) {
+    // Form on the left; cautions, live calibration and the action stay in view on the right.
+    return (
+      <Page {...title}>
+        <View style={styles.columns}>
+          <View style={styles.main}>
+            {identity}
+            {siteCard}
+            {details}
+          </View>
+          <View style={styles.aside}>
+            {cautions}
+            <CalibrationPreview result={result} filled={filled} />
+            {problems}
+            {action}
+          </View>
+        </View>
+      </Page>
+    );
+  }
+  return (
+    <View style={{ gap: space.lg }}>
+      <Page {...title}>
+        {identity}
+        {siteCard}
+        {cautions}
+        {details}
+        <CalibrationPreview result={result} filled={filled} />
+        {problems}
+      </Page>
+      {action}
     </View>
   );
 }
@@ -457,4 +496,8 @@ const styles = StyleSheet.create({
     borderTopWidth: 1,
   },
   link: { minHeight: touchTarget, justifyContent: 'center', paddingHorizontal: space.sm },
+  columns: { flexDirection: 'row', gap: space.xl, alignItems: 'flex-start' },
+  main: { flex: 3, gap: space.lg },
+  aside: { flex: 2, gap: space.lg, position: 'sticky' as 'relative', top: 0 },
+  actionWide: { gap: space.xs },
 });

@@ -5,7 +5,7 @@ import { Page } from './shell';
 import { Badge, Button, Card, EmptyState, Field, Mono, Row, Skeleton } from './ui';
 import { Choices } from './choice';
 import { QueryView, type QueryState } from './query-state';
-import { loggerStatus } from './status';
+import { loggerStatus, withOnline } from './status';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, touchTarget, type } from './theme';
 import type { List } from '../schemas/common';
@@ -19,6 +19,8 @@ type Props = {
   canRegister: boolean;
   onRegister: () => void;
   onOpen: (id: string) => void;
+  /** Check-in interval of each model, by id: a row is online when seen within three of them. */
+  intervals: Record<string, number>;
 };
 
 const statusChoices: { value: LoggerStatus | 'all'; label: string }[] = [
@@ -28,7 +30,7 @@ const statusChoices: { value: LoggerStatus | 'all'; label: string }[] = [
   { value: 'retired', label: 'Retired' },
 ];
 
-export function LoggersScreen({ state, filter, onFilter, wide, canRegister, onRegister, onOpen }: Props) {
+export function LoggersScreen({ state, filter, onFilter, wide, canRegister, onRegister, onOpen, intervals }: Props) {
   const [q, setQ] = React.useState(filter.q ?? '');
   // Search as the person types, a moment after the last key.
   React.useEffect(() => {
@@ -68,7 +70,7 @@ export function LoggersScreen({ state, filter, onFilter, wide, canRegister, onRe
           }
           return (
             <View style={{ gap: space.md, opacity: state.isFetching ? 0.7 : 1 }}>
-              {wide ? <LoggerTable rows={data.rows} onOpen={onOpen} /> : data.rows.map((r) => <LoggerCard key={r.id} row={r} onOpen={onOpen} />)}
+              {wide ? <LoggerTable rows={data.rows.map((r) => withOnline(r, intervals))} onOpen={onOpen} /> : data.rows.map((r) => <LoggerCard key={r.id} row={withOnline(r, intervals)} onOpen={onOpen} />)}
               <Pager total={data.total} filter={filter} onFilter={onFilter} wide={wide} />
             </View>
           );

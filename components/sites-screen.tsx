@@ -5,7 +5,7 @@ import { Page } from './shell';
 import { Badge, Button, Card, EmptyState, Field, Mono, Row } from './ui';
 import { QueryView, type QueryState } from './query-state';
 import { SiteForm } from './site-form';
-import { loggerStatus } from './status';
+import { loggerStatus, withOnline } from './status';
 import { absoluteTime } from './format';
 import { colors, fonts, space, type } from './theme';
 import type { List } from '../schemas/common';
@@ -91,6 +91,7 @@ export function SiteScreen({
   integrators,
   save,
   onOpenLogger,
+  intervals,
 }: {
   state: QueryState<Site>;
   loggers: QueryState<List<LoggerRow>>;
@@ -98,6 +99,7 @@ export function SiteScreen({
   integrators?: Person[];
   save: Save;
   onOpenLogger: (id: string) => void;
+  intervals: Record<string, number>;
 }) {
   const [editing, setEditing] = React.useState(false);
   return (
@@ -136,14 +138,16 @@ export function SiteScreen({
               data.rows.length ? (
                 <Card style={{ gap: 0, padding: 0 }}>
                   {data.rows.map((r) => {
-                    const s = loggerStatus(r);
+                    const s = loggerStatus(withOnline(r, intervals));
                     return (
                       <Pressable key={r.id} role="link" aria-label={`Logger ${r.serial}`} onPress={() => onOpenLogger(r.id)} style={styles.loggerRow}>
                         <Mono>{r.serial}</Mono>
                         <Text style={[type.small, { flex: 1 }]}>
                           {r.modelName} · board {r.board}
                         </Text>
-                        <Badge label={s.label} tone={s.tone} />
+                        <View>
+                          <Badge label={s.label} tone={s.tone} />
+                        </View>
                       </Pressable>
                     );
                   })}

@@ -5,12 +5,14 @@ import { EnrollDone, EnrollForm, EnrollScan } from '../../components/enroll-scre
 import { readEnrollmentCode } from '../../components/enroll-code';
 import { useEnroll, useEnrollmentLookup, useUploadPhoto, type EnrollInput } from '../../hooks/loggers';
 import { useCreateSite, useSites } from '../../hooks/sites';
+import { useBreakpoints } from '../../components/breakpoints';
 
 type Done = { serial: string; loggerId: string; siteName: string; photo: File | null };
 
 export default function Enroll() {
   const params = useLocalSearchParams<{ t?: string }>();
   const router = useRouter();
+  const { wide } = useBreakpoints();
   const lookup = useEnrollmentLookup();
   const enroll = useEnroll();
   const createSite = useCreateSite();
@@ -97,6 +99,7 @@ export default function Enroll() {
             }),
         }}
         onRescan={reset}
+        wide={wide}
       />
     );
   }

@@ -4,6 +4,7 @@ import { LoggersScreen } from '../../../components/loggers-screen';
 import { useBreakpoints } from '../../../components/breakpoints';
 import { useLoggers, type LoggerFilter } from '../../../hooks/loggers';
 import { useMe } from '../../../hooks/session';
+import { useModels } from '../../../hooks/models';
 
 export default function Loggers() {
   const router = useRouter();
@@ -11,6 +12,8 @@ export default function Loggers() {
   const { wide } = useBreakpoints();
   const [filter, setFilter] = React.useState<LoggerFilter>({ page: 1, pageSize: 25 });
   const loggers = useLoggers(filter);
+  const models = useModels();
+  const intervals = React.useMemo(() => Object.fromEntries((models.data?.rows ?? []).map((m) => [m.id, m.checkInIntervalS])), [models.data]);
   const role = me.data?.role;
   return (
     <LoggersScreen
@@ -18,6 +21,7 @@ export default function Loggers() {
       filter={filter}
       onFilter={setFilter}
       wide={wide}
+      intervals={intervals}
       canRegister={role === 'admin' || role === 'integrator'}
       onRegister={() => router.push('/loggers/register')}
       onOpen={(id) => router.push(`/loggers/${id}` as never)}

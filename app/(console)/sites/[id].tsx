@@ -4,6 +4,7 @@ import { SiteScreen } from '../../../components/sites-screen';
 import { useIntegrators, useSite, useUpdateSite } from '../../../hooks/sites';
 import { useLoggers } from '../../../hooks/loggers';
 import { useMe } from '../../../hooks/session';
+import { useModels } from '../../../hooks/models';
 
 export default function SitePage() {
   const { id } = useLocalSearchParams<{ id: string }>();
@@ -14,6 +15,8 @@ export default function SitePage() {
   const role = me.data?.role;
   const integrators = useIntegrators(role === 'admin');
   const save = useUpdateSite(id);
+  const models = useModels();
+  const intervals = React.useMemo(() => Object.fromEntries((models.data?.rows ?? []).map((m) => [m.id, m.checkInIntervalS])), [models.data]);
   return (
     <SiteScreen
       state={site}
@@ -21,6 +24,7 @@ export default function SitePage() {
       canEdit={(s) => role === 'admin' || (role === 'integrator' && !!me.data && s.integratorIds.includes(me.data.id))}
       integrators={role === 'admin' ? integrators.data?.rows ?? [] : undefined}
       save={{ busy: save.isPending, error: save.error, run: (input, done) => save.mutate(input, { onSuccess: done }) }}
+      intervals={intervals}
       onOpenLogger={(loggerId) => router.push(`/loggers/${loggerId}` as never)}
     />
   );
