@@ -38,7 +38,11 @@ async function main() {
   if (config.demo) {
     if (await databaseIsNew(sequelize)) {
       logger.info('seeding the demo scenario');
-      await seedDemo(sequelize, { password: config.demoPassword, dataDir: config.dataDir, now: new Date(), bcryptCost: bcryptCost(false) });
+      const started = Date.now();
+      await seedDemo(sequelize, {
+        password: config.demoPassword, dataDir: config.dataDir, storeDir: config.storeDir, now: new Date(), bcryptCost: bcryptCost(false), size: 'full',
+      });
+      logger.info(`demo scenario seeded in ${((Date.now() - started) / 1000).toFixed(1)} s`);
     }
     readiness.seeded = 'complete';
   }

@@ -42,14 +42,19 @@ async function createDatabaseFromTemplate(): Promise<{ url: string; drop: () => 
 
 export type TestApp = Awaited<ReturnType<typeof startTestApp>>;
 
-export async function startTestApp(options: { seed?: 'demo' | 'none'; now?: () => Date; webDir?: string } = {}) {
+/**
+ * `seed: 'demo'` seeds the small demo scenario (six sites, 14 loggers, no releases) most tests build on;
+ * `seedSize: 'full'` seeds the full scenario `npm start` shows (about 240 loggers, signed releases,
+ * 14 days of check-ins; a few seconds more).
+ */
+export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?: 'small' | 'full'; now?: () => Date; webDir?: string } = {}) {
   const env = testEnv();
   const db = await createDatabaseFromTemplate();
   const sequelize = createDatabase(db.url, { poolMax: 10 });
   const storeDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-store-'));
   const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-data-'));
   if (options.seed === 'demo') {
-    await seedDemo(sequelize, { password: testPassword, dataDir, now: options.now?.() ?? new Date(), bcryptCost: 10 });
+    await seedDemo(sequelize, { password: testPassword, dataDir, storeDir, now: options.now?.() ?? new Date(), bcryptCost: 10, size: options.seedSize ?? 'small' });
   }
   const app = createApp({
     config: {

@@ -1,6 +1,10 @@
-// Seeds the demo scenario into a new database, all in one transaction. Logger tokens are issued
-// like any others; their bench sheet is written to the data folder (demo mode only) so the
-// fleet simulator can check in as those loggers.
+// Seeds the demo scenario into a new database, all in one transaction (nothing half-seeded: /api/health
+// waits for it). Logger tokens are issued like any others; their bench sheet is written to the data
+// folder (demo mode only) so the fleet simulator can check in as those loggers.
+//
+// Two sizes: 'full' is PRODUCT.md's scenario at full size (about 240 loggers at 60 sites, signed
+// releases, 14 days of check-ins; see full-scenario.ts), what `npm start` seeds; 'small' is the six
+// sites and 14 loggers most API and browser tests build on (no releases, no history).
 import fs from 'node:fs';
 import path from 'node:path';
 import type { Sequelize } from 'sequelize';
@@ -8,23 +12,41 @@ import { Activity, Logger, LoggerModel, Site, SiteIntegrator, User } from '../mo
 import { hashPassword } from '../../auth/passwords';
 import { newToken } from '../../auth/tokens';
 import { demoEmail, demoModel, demoPeople, demoSites } from './scenario';
+import { seedFullScenario } from './full-scenario';
 
 export async function databaseIsNew(sequelize: Sequelize): Promise<boolean> {
   return (await User.count()) === 0 && (await LoggerModel.count()) === 0;
 }
 
-export type SeedOptions = { password: string; dataDir: string; now: Date; bcryptCost: number };
+export type SeedSize = 'full' | 'small';
+
+export type SeedOptions = {
+  password: string;
+  dataDir: string;
+  now: Date;
+  bcryptCost: number;
+  /** Default 'small'. */
+  size?: SeedSize;
+  /** The firmware store (where 'full' puts its images); required for 'full'. */
+  storeDir?: string;
+};
 
 export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Promise<void> {
   const { now } = options;
   const passwordHash = await hashPassword(options.password, options.bcryptCost);
   const bench: string[] = ['serial,token,model,board'];
+  const size = options.size ?? 'small';
+  if (size === 'full' && !options.storeDir) throw new Error('the full demo seed needs the firmware store directory');
   await sequelize.transaction(async (transaction) => {
     const people = new Map<string, User>();
     for (const p of demoPeople) {
       people.set(p.name, await User.create({ email: demoEmail(p.name), name: p.name, role: p.role, passwordHash }, { transaction }));
     }
     const model = await LoggerModel.create(demoModel, { transaction });
+    if (size === 'full') {
+      await seedFullScenario({ sequelize, transaction, now, people, model, dataDir: options.dataDir, storeDir: options.storeDir!, bench });
+      return;
+    }
     let serialNo = 1;
     for (const [i, s] of demoSites.entries()) {
       const integrator = people.get(s.integrator)!;
