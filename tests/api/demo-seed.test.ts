@@ -246,13 +246,18 @@ describe('tokens', () => {
       expect({ table: name, n }).toEqual({ table: name, n: 0 });
     }
     const lines = fs.readFileSync(path.join(t.dataDir, 'demo', 'bench-sheet.csv'), 'utf8').trim().split('\n');
-    expect(lines[0]).toBe('serial,token,model,board');
-    const sheet = new Map(lines.slice(1).map((line) => line.split(',')).map(([serial, token]) => [serial, token]));
-    const loggers = await q<{ serial: string; token_digest: string }>("SELECT serial, token_digest FROM loggers WHERE status <> 'retired'");
+    expect(lines[0]).toBe('serial,token,model,board,firmware,security_counter');
+    const sheet = new Map(lines.slice(1).map((line) => line.split(',')).map(([serial, token, , board, firmware, counter]) => [serial, { token, board, firmware, counter }]));
+    const loggers = await q<{ serial: string; token_digest: string; board: string; firmware: string | null; security_counter: number }>(
+      "SELECT serial, token_digest, board, firmware, security_counter FROM loggers WHERE status <> 'retired'",
+    );
     expect(sheet.size).toBe(loggers.length);
     for (const l of loggers) {
+      const row = sheet.get(l.serial)!;
       // Stored as the SHA-256 of the token (FIPS 180-4 by node:crypto).
-      expect(crypto.createHash('sha256').update(sheet.get(l.serial)!).digest('hex')).toBe(l.token_digest);
+      expect(crypto.createHash('sha256').update(row.token).digest('hex')).toBe(l.token_digest);
+      // What the logger runs, so a simulated logger starts where the seed left it.
+      expect([row.board, row.firmware, row.counter]).toEqual([l.board, l.firmware ?? '', l.firmware ? String(l.security_counter) : '']);
     }
   });
 });

@@ -23,7 +23,7 @@ import { newToken } from '../../auth/tokens';
 import { measurementProfile } from '../../loggers/calibration';
 import { seededRandom } from '../../../scripts/simulator/random';
 import { createDemoKey, demoImage, signDemoManifest, storeImage } from './demo-signing';
-import { DAY, HOUR, planFleet, SITE, type PlannedRelease } from './fleet-plan';
+import { COUNTER_OF, DAY, HOUR, planFleet, SITE, type PlannedRelease } from './fleet-plan';
 import { seedCheckInHistory, ensureHistoryPartitions } from './history';
 
 export type FullSeedContext = {
@@ -34,7 +34,7 @@ export type FullSeedContext = {
   model: LoggerModel;
   dataDir: string;
   storeDir: string;
-  /** Lines of the bench sheet (serial,token,model,board); tokens are never stored in clear. */
+  /** Lines of the bench sheet (header first); tokens are never stored in clear. */
   bench: string[];
 };
 
@@ -121,11 +121,13 @@ export async function seedFullScenario(ctx: FullSeedContext) {
     if (!computed.has(panelWp)) computed.set(panelWp, computeProfile(panelWp));
     return computed.get(panelWp)!;
   };
+  // The bench sheet also says what each logger runs, so the fleet simulator can start from the seeded state.
+  ctx.bench[0] = 'serial,token,model,board,firmware,security_counter';
   const loggerRows = [];
   const profiles = [];
   for (const l of plan.loggers) {
     const { token, digest } = newToken('hlt_');
-    if (l.status !== 'retired') ctx.bench.push(`${l.serial},${token},${model.name},${l.board}`);
+    if (l.status !== 'retired') ctx.bench.push(`${l.serial},${token},${model.name},${l.board},${l.firmware ?? ''},${l.firmware ? (COUNTER_OF[l.firmware] ?? 0) : ''}`);
     const site = l.siteIndex === null ? null : plan.sites[l.siteIndex];
     const integrator = l.enrolledBy ? person(l.enrolledBy) : null;
     loggerRows.push({
