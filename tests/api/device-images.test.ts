@@ -68,6 +68,15 @@ describe('image download', () => {
     }
   });
 
+  test('when HEAD is asked, then the same headers as GET and no body (RFC 9110 §9.3.2)', async () => {
+    const res = await t.request().head(url()).set(bearer(lg.token)).set('Range', 'bytes=10-19');
+    expect(res.status).toBe(206);
+    expect(res.headers['content-range']).toBe(`bytes 10-19/${image.length}`);
+    expect(res.headers['content-length']).toBe('10');
+    expect(res.headers.etag).toBe(`"${release.sha256}"`);
+    expect(res.text ?? '').toBe('');
+  });
+
   test('when the range starts past the end, then 416 with Content-Range bytes */size', async () => {
     const res = await get({ Range: `bytes=${image.length}-` });
     expect(res.status).toBe(416);
