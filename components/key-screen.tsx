@@ -127,7 +127,7 @@ function RegisterForm({ onRegister, busy, error }: { onRegister: Props['onRegist
         style={{ minHeight: 120, paddingVertical: space.sm, fontSize: 13 }}
         testID="key-pem"
       />
-      <ProblemNotice error={error && !error.fieldErrors?.length ? error : null} />
+      <ProblemNotice error={error} />
       <Row style={{ justifyContent: 'flex-end' }}>
         <Button label="Register key" busy={busy} onPress={submit} testID="register-key" />
       </Row>

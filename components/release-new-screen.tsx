@@ -26,14 +26,34 @@ type Props = {
 
 type Mode = 'file' | 'text';
 
-const uploadFieldNames: Record<string, string> = { image: 'Image', manifest: 'Manifest', signature: 'Signature', notes: 'Notes', track: 'Track' };
+const uploadFieldNames: Record<string, string> = {
+  image: 'Image',
+  manifest: 'Manifest',
+  signature: 'Signature',
+  notes: 'Notes',
+  track: 'Track',
+  'manifest.version': 'Manifest version',
+  'manifest.model': 'Manifest model',
+  'manifest.board_revisions': 'Manifest board revisions',
+  'manifest.security_counter': 'Manifest security counter',
+  'manifest.image_sha256': 'Manifest image SHA-256',
+  'manifest.image_size': 'Manifest image size',
+  'manifest.issued_at': 'Manifest issue time',
+};
 
 /** What to do next for each refused part, in the engineer's words. */
 const nextStep: Record<string, string> = {
   image: 'Check that you chose the image the manifest was made for; if it was rebuilt, re-export the image and sign again.',
   manifest: 'Make the manifest with `heliodor manifest` (canonical JSON) and sign it again.',
+  'manifest.version': 'Choose a version this model has not had yet (releases are one per model and version), make the manifest again and sign it.',
+  'manifest.security_counter': 'Use a security counter at least as high as the model’s published releases, make the manifest again and sign it.',
+  'manifest.board_revisions': 'Name only board revisions registered for the model (see Models), make the manifest again and sign it.',
+  'manifest.model': 'Use the model id shown under Models, make the manifest again and sign it.',
   signature: 'Sign the manifest again with a key registered under Signing keys and still active.',
 };
+
+/** The advice for a refused field: its own, else its part's (image, manifest, signature). */
+const adviceFor = (path: string) => nextStep[path] ?? nextStep[path.split('.')[0]];
 
 export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, created, targeting, onCancel }: Props) {
   const [image, setImage] = React.useState<PickedFile | null>(null);
@@ -66,8 +86,15 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
     });
   }
 
-  const fieldError = (path: string) => missing[path] ?? uploadError?.field?.(path);
-  const refusedParts = (uploadError?.fieldErrors ?? []).map((e) => e.path.split('.')[0]).filter((p, i, a) => nextStep[p] && a.indexOf(p) === i);
+  // A refusal of manifest.version and the like is shown under the manifest picker too.
+  const fieldError = (part: string) =>
+    missing[part] ??
+    ((uploadError?.fieldErrors ?? [])
+      .filter((e) => e.path === part || e.path.startsWith(`${part}.`))
+      .map((e) => (e.path === part ? e.message : `${uploadFieldNames[e.path] ?? e.path}: ${e.message}`))
+      .join(' ') ||
+      undefined);
+  const advice = [...new Set((uploadError?.fieldErrors ?? []).map((e) => adviceFor(e.path)).filter(Boolean))];
 
   return (
     <Page title="New release" subtitle="Upload an image signed offline; it becomes a draft that nobody is offered yet">
@@ -145,9 +172,9 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
       {uploadError ? (
         <View style={{ gap: space.sm }} testID="upload-refused">
           <ProblemNotice error={uploadError} fieldNames={uploadFieldNames} />
-          {refusedParts.map((p) => (
-            <Text key={p} style={type.small}>
-              {nextStep[p]}
+          {advice.map((a) => (
+            <Text key={a} style={type.small}>
+              {a}
             </Text>
           ))}
           <Text style={type.small}>Nothing was stored. Fix the part named above and upload again.</Text>

@@ -131,7 +131,7 @@ function CreateForm({ onCreate, busy, error, now }: { onCreate: Props['onCreate'
         {local.scopes ?? error?.field?.('scopes') ? <Text role="alert" style={[type.small, { color: colors.ember }]}>{local.scopes ?? error?.field?.('scopes')}</Text> : null}
       </View>
       <Field label="Expires on (YYYY-MM-DD, end of day UTC)" value={expires} onChangeText={setExpires} error={local.expiresAt ?? error?.field?.('expiresAt')} autoCapitalize="none" testID="token-expiry" />
-      <ProblemNotice error={error && !error.fieldErrors?.length ? error : null} />
+      <ProblemNotice error={error} />
       <Row style={{ justifyContent: 'flex-end' }}>
         <Button label="Create token" busy={busy} onPress={submit} testID="create-token" />
       </Row>
