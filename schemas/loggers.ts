@@ -2,6 +2,7 @@
 // Console API is camelCase; the device API spells the same profile fields in snake_case (DEVICE_API.md `config`).
 import { z } from 'zod';
 import { text, uuid } from './common';
+import { fleetFilterFields, type FleetFlag, type UpdateState } from './fleet';
 
 // ─── Identity ────────────────────────────────────────────────────────────────
 
@@ -69,10 +70,9 @@ export type LoggerStatus = (typeof loggerStatuses)[number];
 
 export const pageSizes = [25, 50, 100] as const;
 
+/** The fleet table's query (issue 6): filters, allow-listed sort keys, a keyset cursor or a page. */
 export const loggersQuery = z.object({
-  q: z.string().trim().max(100, 'at most 100 characters').optional(),
-  siteId: uuid.optional(),
-  modelId: uuid.optional(),
+  ...fleetFilterFields,
   status: z.enum(loggerStatuses, { message: 'must be registered, enrolled or retired' }).optional(),
   page: z.coerce.number({ message: 'must be a number' }).int().min(1, 'pages count from 1').default(1),
   pageSize: z.coerce
@@ -136,6 +136,15 @@ export type LoggerRow = {
   firmware: string | null;
   lastSeenAt: string | null;
   supplyV: number | null;
+  /** Latest probe reading (°C), or null. */
+  tempC: number | null;
+  /** Where the logger stands with the current release of its track. */
+  updateState: UpdateState;
+  /** Watchdog and brown-out resets in the last 24 h. */
+  resets24h: number;
+  /** Flags, worst first; worstFlag is the first of them or null. */
+  flags: FleetFlag[];
+  worstFlag: FleetFlag | null;
 };
 
 export type LoggerDetail = {

@@ -12,6 +12,25 @@ export const overviewSchema = z.object({
   sites: z.number().int(),
   models: z.number().int(),
   people: z.number().int(),
+  /** Fleet health for support and release steering (issue 6 §7); each href opens the filtered view. */
+  fleet: z.object({
+    silent: z.object({ count: z.number().int(), href: z.string() }),
+    flags: z.array(z.object({ flag: z.enum(['silent', 'unstable', 'low_supply', 'probe_fault']), count: z.number().int(), href: z.string() })),
+    laggingSites: z.object({ count: z.number().int(), href: z.string() }),
+    liveReleases: z.array(
+      z.object({
+        id: z.string(),
+        modelName: z.string(),
+        version: z.string(),
+        track: z.enum(['stable', 'early']),
+        state: z.string(),
+        share: z.number(),
+        installed: z.number().int(),
+        failed: z.number().int(),
+        href: z.string(),
+      }),
+    ),
+  }),
   recentActivity: z.array(
     z.object({ id: z.number(), at: z.string(), actorName: z.string(), action: z.string(), summary: z.string() }),
   ),

@@ -26,6 +26,7 @@ import { registerTokenRoutes } from './tokens/routes';
 import { registerModelRoutes } from './models/routes';
 import { registerSiteRoutes } from './sites/routes';
 import { registerLoggerRoutes } from './loggers/routes';
+import { registerFleetRoutes } from './fleet/routes';
 import { registerDeviceRoutes } from './device-api/routes';
 
 export type AppDeps = {
@@ -97,6 +98,7 @@ export function createApp(deps: AppDeps) {
   registerTokenRoutes(api, services);
   registerModelRoutes(api, services);
   registerSiteRoutes(api, services);
+  registerFleetRoutes(api, services); // before the logger routes: /api/loggers/export.csv is not a logger id
   registerLoggerRoutes(api, services);
   registerDeviceRoutes(api, services);
   app.use(router);

@@ -1,15 +1,15 @@
 // The logger registry: registration (one or a CSV batch), token rotation, retirement, the list and the
 // detail. Tokens are issued here and leave only in the response that issues them.
-import { QueryTypes, fn, col, where, type Sequelize, type Transaction } from 'sequelize';
+import { fn, col, where, type Sequelize, type Transaction } from 'sequelize';
 import { Logger, LoggerModel, SiteIntegrator } from '../db/models';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import type { Actor, RequestContext } from '../auth/actor';
-import { likePattern } from '../sites/service';
 import { issueLoggerToken } from './tokens';
 import { parseLoggerBatch } from './batch';
 import { enrollmentLink, labelPng } from './labels';
 import { presentDetail } from './present';
+import { listFleet } from '../fleet/table';
 import type {
   BatchRegistered,
   IssuedLogger,
@@ -194,70 +194,7 @@ export async function getLoggerDetail(deps: RegistryDeps, actor: Actor, id: stri
   return presentDetail(await loggerFor(actor, id), deps.now());
 }
 
-type RowRecord = {
-  id: string;
-  serial: string;
-  model_id: string;
-  model_name: string;
-  board: string;
-  track: LoggerRow['track'];
-  status: LoggerRow['status'];
-  site_id: string | null;
-  site_name: string | null;
-  customer: string | null;
-  firmware: string | null;
-  last_seen_at: Date | null;
-  supply_v: number | null;
-};
-
+/** The fleet table: filters, allow-listed sort keys and paging in PostgreSQL (server/fleet/table.ts). */
 export async function listLoggers(deps: RegistryDeps, actor: Actor, query: LoggersQuery): Promise<{ rows: LoggerRow[]; total: number; nextCursor?: string }> {
-  const conditions: string[] = [];
-  const replacements: Record<string, unknown> = {};
-  if (query.q) {
-    conditions.push('(l.serial ILIKE :q OR s.name ILIKE :q OR s.customer ILIKE :q)');
-    replacements.q = likePattern(query.q);
-  }
-  if (query.siteId) {
-    conditions.push('l.site_id = :siteId');
-    replacements.siteId = query.siteId;
-  }
-  if (query.modelId) {
-    conditions.push('l.model_id = :modelId');
-    replacements.modelId = query.modelId;
-  }
-  if (query.status) {
-    conditions.push('l.status = :status');
-    replacements.status = query.status;
-  }
-  if (isIntegrator(actor)) {
-    conditions.push('(l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))');
-    replacements.actorId = actor.id;
-  }
-  const from = `FROM loggers l JOIN models m ON m.id = l.model_id LEFT JOIN sites s ON s.id = l.site_id
-    ${conditions.length ? `WHERE ${conditions.join(' AND ')}` : ''}`;
-  const [[{ total }], records] = await Promise.all([
-    deps.sequelize.query<{ total: number }>(`SELECT count(*)::int AS total ${from}`, { type: QueryTypes.SELECT, replacements }),
-    deps.sequelize.query<RowRecord>(
-      `SELECT l.id, l.serial, l.model_id, m.name AS model_name, l.board, l.track, l.status, l.site_id, s.name AS site_name,
-              s.customer, l.firmware, l.last_seen_at, l.supply_v
-       ${from} ORDER BY lower(l.serial), l.id LIMIT :limit OFFSET :offset`,
-      { type: QueryTypes.SELECT, replacements: { ...replacements, limit: query.pageSize, offset: (query.page - 1) * query.pageSize } },
-    ),
-  ]);
-  const rows: LoggerRow[] = records.map((r) => ({
-    id: r.id,
-    serial: r.serial,
-    modelId: r.model_id,
-    modelName: r.model_name,
-    board: r.board,
-    track: r.track,
-    status: r.status,
-    siteId: r.site_id,
-    siteName: r.site_name,
-    customer: r.customer,
-    firmware: r.firmware,
-    lastSeenAt: r.last_seen_at ? new Date(r.last_seen_at).toISOString() : null,
-    supplyV: r.supply_v === null ? null : Number(r.supply_v),
-  }));
-  return { rows, total, ...(query.page * query.pageSize < total ? { nextCursor: String(query.page + 1) } : {}) };
+  return listFleet(deps, actor, query);
 }

@@ -2,6 +2,7 @@ import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import type { Api } from '../http/api';
 import type { Overview } from '../../schemas/overview';
+import { fleetOverview } from '../fleet/overview';
 
 /** Fleet numbers for the first screen, in two indexed queries. */
 export async function overview(sequelize: Sequelize, now: Date): Promise<Overview> {
@@ -23,7 +24,9 @@ export async function overview(sequelize: Sequelize, now: Date): Promise<Overvie
     "SELECT id, at, actor_name, action, summary FROM activity WHERE action <> 'person.signed_in' ORDER BY at DESC, id DESC LIMIT 8",
     { type: QueryTypes.SELECT },
   );
+  const fleet = await fleetOverview(sequelize, now);
   return {
+    fleet,
     loggers: {
       total: counts.total,
       registered: counts.registered,

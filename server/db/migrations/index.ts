@@ -5,6 +5,7 @@ import * as m0002 from './0002_registry';
 import * as m0003 from './0003_releases';
 import * as m0004 from './0004_device';
 import * as m0005 from './0005_registry_more';
+import * as m0006 from './0006_fleet';
 
 export type Migration = {
   name: string;
@@ -18,4 +19,5 @@ export const migrations: Migration[] = [
   { name: '0003_releases', ...m0003 },
   { name: '0004_device', ...m0004 },
   { name: '0005_registry_more', ...m0005 },
+  { name: '0006_fleet', ...m0006 },
 ];

@@ -1,0 +1,197 @@
+// Fleet views (issue 6): the fleet table's filters, sort keys, flags and update states, the version
+// matrix, lagging sites, notes, the logger timeline, sparklines and retries. Console API, camelCase.
+import { z } from 'zod';
+import semver from 'semver';
+import { uuid } from './common';
+
+// ─── Flags and update states ────────────────────────────────────────────────
+
+/**
+ * Flags, worst first (the phone card shows the worst): silent (no check-in for 3 intervals), unstable
+ * (≥ 3 watchdog or brown-out resets in 24 h), low supply (below the model's update minimum), probe fault
+ * (the probe's power-on value 85 °C, or a reading outside its −55…125 °C range).
+ */
+export const fleetFlags = ['silent', 'unstable', 'low_supply', 'probe_fault'] as const;
+export type FleetFlag = (typeof fleetFlags)[number];
+
+export const FLAG_LABELS: Record<FleetFlag, string> = {
+  silent: 'Silent',
+  unstable: 'Unstable',
+  low_supply: 'Low supply',
+  probe_fault: 'Probe fault',
+};
+
+/** Resets in 24 h at which a logger is unstable (issue 6 §1). */
+export const UNSTABLE_RESETS_24H = 3;
+/** The temperature probe's power-on register value and valid range (probe datasheet; REFERENCE.md §9). */
+export const PROBE_POWER_ON_C = 85;
+export const PROBE_MIN_C = -55;
+export const PROBE_MAX_C = 125;
+
+/**
+ * Where a logger stands with the current release of its track (the highest release of its model and
+ * track that reached expanding or complete and was not withdrawn):
+ * up_to_date — runs it or newer; offered … failed — its install report for that release;
+ * none — behind with no report yet, or there is no current release, or no version reported.
+ */
+export const updateStates = ['up_to_date', 'offered', 'downloading', 'downloaded', 'installing', 'installed', 'failed', 'none'] as const;
+export type UpdateState = (typeof updateStates)[number];
+
+export const fleetSortKeys = ['serial', 'site', 'customer', 'model', 'board', 'track', 'firmware', 'updateState', 'lastSeen', 'supplyV', 'resets24h'] as const;
+export type FleetSortKey = (typeof fleetSortKeys)[number];
+
+const oneOf = (values: readonly string[]) => `must be one of ${values.join(', ')}`;
+
+/** A version filter: an exact semantic version, or a range in the semver package's syntax (e.g. ">=2.1.0 <2.3.0", "2.x"). */
+export const versionFilter = z
+  .string()
+  .trim()
+  .min(1, 'is required')
+  .max(100, 'at most 100 characters')
+  .refine((v) => semver.valid(v) !== null || semver.validRange(v, { includePrerelease: true }) !== null, 'must be a semantic version or a semver range');
+
+/** The fleet table's filters, sort and paging (GET /api/loggers and its CSV export). */
+export const fleetFilterFields = {
+  q: z.string().trim().max(100, 'at most 100 characters').optional(),
+  siteId: uuid.optional(),
+  modelId: uuid.optional(),
+  board: z.string().trim().min(1, 'is required').max(20, 'at most 20 characters').optional(),
+  track: z.enum(['stable', 'early'], { message: 'must be stable or early' }).optional(),
+  version: versionFilter.optional(),
+  flag: z.enum(fleetFlags, { message: oneOf(fleetFlags) }).optional(),
+  updateState: z.enum(updateStates, { message: oneOf(updateStates) }).optional(),
+  sort: z.enum(fleetSortKeys, { message: oneOf(fleetSortKeys) }).default('serial'),
+  dir: z.enum(['asc', 'desc'], { message: 'must be asc or desc' }).default('asc'),
+  /** nextCursor of the previous answer: a page number in page mode, or a keyset cursor; "start" begins a keyset walk. */
+  cursor: z.string().trim().max(1000, 'at most 1000 characters').optional(),
+};
+
+// ─── Version matrix ─────────────────────────────────────────────────────────
+
+export type VersionMatrix = {
+  models: {
+    modelId: string;
+    modelName: string;
+    boards: string[];
+    /** Loggers (not retired) per running version × board; versions newest first. */
+    versions: { firmware: string | null; total: number; byBoard: Record<string, number> }[];
+    tracks: {
+      track: 'stable' | 'early';
+      currentRelease: { id: string; version: string; state: string; share: number; since: string | null } | null;
+      /** Enrolled loggers on the track. */
+      loggers: number;
+      /** Of them, running the current release or newer. */
+      onCurrent: number;
+      /** onCurrent / loggers, 0–1 (0 when there are no loggers). */
+      share: number;
+    }[];
+    releases: {
+      id: string;
+      version: string;
+      track: 'stable' | 'early';
+      state: string;
+      startedAt: string | null;
+      /** Installs per UTC day since the release started, with the running total. */
+      adoption: { day: string; installed: number; cumulative: number }[];
+    }[];
+  }[];
+};
+
+// ─── Lagging sites ──────────────────────────────────────────────────────────
+
+export const laggingReasons = [
+  'silent',
+  'low_supply',
+  'board_not_supported',
+  'outside_daylight_window',
+  'outside_share',
+  'not_pilot_site',
+  'release_not_live',
+  'failed_awaiting_retry',
+  'needs_stepping_stone',
+  'security_counter_too_low',
+  'offered',
+  'other',
+] as const;
+export type LaggingReason = (typeof laggingReasons)[number];
+
+export const LAGGING_REASON_LABELS: Record<LaggingReason, string> = {
+  silent: 'Offline: no check-in for 3 intervals',
+  low_supply: 'Supply below the update minimum',
+  board_not_supported: 'Board revision not supported',
+  outside_daylight_window: 'Outside the daylight window',
+  outside_share: 'Not yet in the rollout share',
+  not_pilot_site: 'Not a pilot site',
+  release_not_live: 'Release halted or paused',
+  failed_awaiting_retry: 'Install failed, awaiting retry',
+  needs_stepping_stone: 'Needs a stepping-stone release first',
+  security_counter_too_low: 'Security counter below the logger’s',
+  offered: 'Offered, installing',
+  other: 'Other',
+};
+
+export const laggingQuery = z.object({
+  reason: z.enum(laggingReasons, { message: oneOf(laggingReasons) }).optional(),
+  customer: z.string().trim().max(100, 'at most 100 characters').optional(),
+  sort: z.enum(['lagging_since', 'behind'], { message: 'must be lagging_since or behind' }).default('lagging_since'),
+  dir: z.enum(['asc', 'desc'], { message: 'must be asc or desc' }).optional(),
+  page: z.coerce.number({ message: 'must be a number' }).int().min(1, 'pages count from 1').default(1),
+  pageSize: z.coerce
+    .number({ message: 'must be a number' })
+    .refine((n) => [25, 50, 100].includes(n), 'must be 25, 50 or 100')
+    .default(25),
+});
+export type LaggingQuery = z.infer<typeof laggingQuery>;
+
+export type LaggingLogger = { id: string; serial: string; firmware: string | null; targetVersion: string; reason: LaggingReason; reasonLabel: string; detail: string };
+
+export type LaggingSite = {
+  siteId: string;
+  siteName: string;
+  customer: string;
+  /** Enrolled loggers below the current release of their track. */
+  behind: number;
+  /** Enrolled loggers at the site. */
+  total: number;
+  oldestVersion: string | null;
+  /** When the earliest release the site lacks reached expanding or complete. */
+  laggingSince: string;
+  lastContactAt: string | null;
+  reasons: Partial<Record<LaggingReason, number>>;
+  loggers: LaggingLogger[];
+};
+
+// ─── Retry, notes, timeline ─────────────────────────────────────────────────
+
+export const retryRequest = z.union(
+  [
+    z.object({ loggerIds: z.array(uuid).min(1, 'needs at least one logger').max(1000, 'at most 1000 loggers') }).strict(),
+    z.object({ siteId: uuid }).strict(),
+  ],
+  { message: 'send either loggerIds (a list) or siteId' },
+);
+export type RetryRequest = z.infer<typeof retryRequest>;
+
+export const noteRequest = z.object({
+  text: z.string({ message: 'is required' }).trim().min(1, 'is required').max(1000, 'at most 1000 characters'),
+});
+
+export type Note = { id: string; targetType: 'logger' | 'site'; targetId: string; text: string; authorName: string; createdAt: string };
+
+export const timelineQuery = z.object({
+  cursor: z.string().trim().max(500, 'at most 500 characters').optional(),
+  limit: z.coerce.number({ message: 'must be a number' }).int().min(1, 'at least 1').max(200, 'at most 200').default(50),
+});
+
+export type TimelineItem =
+  | { kind: 'check_in'; at: string; firmware: string; supplyV: number | null; tempC: number | null; resets: Record<string, number> | null }
+  | { kind: 'reset'; at: string; reason: string | null; counts: Record<string, number> }
+  | { kind: 'install'; at: string; releaseId: string; version: string; state: string; reason: string | null; detail: string | null }
+  | { kind: 'activity'; at: string; action: string; actorName: string; summary: string }
+  | { kind: 'note'; at: string; id: string; authorName: string; text: string };
+
+export const sparklineQuery = z.object({
+  days: z.coerce.number({ message: 'must be a number' }).int().min(1, 'at least 1').max(30, 'at most 30').default(7),
+});
+
+export type Sparklines = { from: string; to: string; points: { hour: string; supplyV: number | null; tempC: number | null }[] };

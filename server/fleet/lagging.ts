@@ -1,0 +1,213 @@
+// Lagging sites (issue 6 §3): sites with at least one enrolled logger below the current release of its
+// track (semantic-version precedence, in SQL on firmware_key), and for each such logger the reason from
+// the offer decision for that release — or "silent" when it has not checked in for 3 intervals, since
+// nothing can reach it until it does.
+//
+// The sites are grouped, sorted and paged in PostgreSQL; the decision (pure, in JS: cohort hash,
+// daylight) runs only for the loggers of the page's sites — or, when filtering by reason, for every
+// logger behind the current release (that filter needs the reason of each).
+import { QueryTypes } from 'sequelize';
+import type { ReasonCode } from '../device-api/decision';
+import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingQuery, type LaggingReason, type LaggingSite } from '../../schemas/fleet';
+import { likePattern } from '../sites/service';
+import { csvRecord, safeText } from './csv';
+import { CURRENT_RELEASES, SILENT } from './sql';
+import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
+import type { FleetDeps } from './table';
+
+/** Enrolled loggers below the current release of their track (firmware reported). */
+const BEHIND_FROM = `
+  FROM loggers l
+  JOIN models m ON m.id = l.model_id
+  JOIN sites s ON s.id = l.site_id
+  JOIN current_releases cr ON cr.model_id = l.model_id AND cr.track = l.track
+  WHERE l.status = 'enrolled' AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`;
+
+const REASON_OF: Partial<Record<ReasonCode, LaggingReason>> = {
+  low_supply: 'low_supply',
+  board_not_supported: 'board_not_supported',
+  outside_daylight_window: 'outside_daylight_window',
+  outside_share: 'outside_share',
+  not_pilot_site: 'not_pilot_site',
+  not_live: 'release_not_live',
+  failed_awaiting_retry: 'failed_awaiting_retry',
+  needs_stepping_stone: 'needs_stepping_stone',
+  security_counter_too_low: 'security_counter_too_low',
+  offered: 'offered',
+  stepping_stone: 'offered',
+  superseded: 'offered',
+};
+
+type BehindRow = LoggerForDecision & { serial: string; silent: boolean; currentId: string; currentVersion: string; siteName: string; customer: string };
+
+type SiteRow = {
+  site_id: string;
+  site_name: string;
+  customer: string;
+  behind: number;
+  total: number;
+  oldest_version: string | null;
+  lagging_since: Date;
+  last_contact_at: Date | null;
+};
+
+/** Why one logger lacks the current release: silent first, else the decision's verdict for that release. */
+function reasonOf(row: BehindRow, decision: Awaited<ReturnType<typeof decisionsFor>> extends Map<string, infer D> ? D | undefined : never): { reason: LaggingReason; detail: string } {
+  if (row.silent) return { reason: 'silent', detail: 'No check-in for 3 intervals; nothing reaches the logger until it checks in again.' };
+  const verdict = decision?.considered.find((v) => v.releaseId === row.currentId);
+  if (!verdict) return { reason: 'other', detail: 'The release was not considered.' };
+  // A guard that blocks the release chosen instead (a stepping stone, or a newer pilot) is what holds the logger now.
+  if (verdict.reason === 'needs_stepping_stone' || verdict.reason === 'superseded') {
+    const guard = decision!.considered.find((v) => v.reason === 'low_supply' || v.reason === 'outside_daylight_window');
+    if (guard) return { reason: REASON_OF[guard.reason]!, detail: guard.detail };
+  }
+  return { reason: REASON_OF[verdict.reason] ?? 'other', detail: verdict.detail };
+}
+
+async function behindLoggers(deps: FleetDeps, siteIds: string[] | null, customer: string | undefined, now: Date): Promise<BehindRow[]> {
+  const conditions: string[] = [];
+  const replacements: Record<string, unknown> = { now: now.toISOString() };
+  if (siteIds) {
+    if (siteIds.length === 0) return [];
+    conditions.push('l.site_id IN (:siteIds)');
+    replacements.siteIds = siteIds;
+  }
+  if (customer) {
+    conditions.push('s.customer ILIKE :customer');
+    replacements.customer = likePattern(customer);
+  }
+  return deps.sequelize.query<BehindRow>(
+    `WITH current_releases AS (${CURRENT_RELEASES})
+     SELECT ${DECISION_COLUMNS}, l.serial, ${SILENT} AS silent, cr.id AS "currentId", cr.version AS "currentVersion",
+            s.name AS "siteName", s.customer
+       ${BEHIND_FROM} ${conditions.map((c) => `AND ${c}`).join(' ')}
+      ORDER BY l.site_id, l.firmware_key, lower(l.serial)`,
+    { type: QueryTypes.SELECT, replacements },
+  );
+}
+
+async function withReasons(deps: FleetDeps, rows: BehindRow[], now: Date): Promise<Map<string, LaggingLogger[]>> {
+  const decisions = await decisionsFor(deps.sequelize, rows, now);
+  const bySite = new Map<string, LaggingLogger[]>();
+  for (const r of rows) {
+    const { reason, detail } = reasonOf(r, decisions.get(r.id));
+    const list = bySite.get(r.siteId!) ?? [];
+    list.push({ id: r.id, serial: r.serial, firmware: r.firmware, targetVersion: r.currentVersion, reason, reasonLabel: LAGGING_REASON_LABELS[reason], detail });
+    bySite.set(r.siteId!, list);
+  }
+  return bySite;
+}
+
+async function siteRows(deps: FleetDeps, query: LaggingQuery, now: Date, onlySites: string[] | null, paged: boolean): Promise<{ rows: SiteRow[]; total: number }> {
+  const conditions: string[] = [];
+  const replacements: Record<string, unknown> = { now: now.toISOString() };
+  if (query.customer) {
+    conditions.push('s.customer ILIKE :customer');
+    replacements.customer = likePattern(query.customer);
+  }
+  if (onlySites) {
+    if (onlySites.length === 0) return { rows: [], total: 0 };
+    conditions.push('l.site_id IN (:onlySites)');
+    replacements.onlySites = onlySites;
+  }
+  // Allow-listed: the sort column and direction come from these two tables only.
+  const sortColumn = query.sort === 'behind' ? 'behind' : 'lagging_since';
+  const dir = query.dir ?? (query.sort === 'behind' ? 'desc' : 'asc');
+  const order = `${sortColumn} ${dir === 'desc' ? 'DESC' : 'ASC'}, site_name ASC, site_id ASC`;
+  const grouped = `
+    WITH current_releases AS (${CURRENT_RELEASES}),
+    lagging AS (
+      SELECT l.site_id, count(*)::int AS behind, min(cr.since) AS lagging_since,
+             (array_agg(l.firmware ORDER BY l.firmware_key))[1] AS oldest_version
+        ${BEHIND_FROM} ${conditions.map((c) => `AND ${c}`).join(' ')}
+       GROUP BY l.site_id
+    )
+    SELECT g.site_id, s.name AS site_name, s.customer, g.behind, g.lagging_since, g.oldest_version,
+           t.total, t.last_contact_at
+      FROM lagging g JOIN sites s ON s.id = g.site_id
+      CROSS JOIN LATERAL (SELECT count(*)::int AS total, max(x.last_seen_at) AS last_contact_at
+                            FROM loggers x WHERE x.site_id = g.site_id AND x.status = 'enrolled') t`;
+  const [{ total }] = await deps.sequelize.query<{ total: number }>(`SELECT count(*)::int AS total FROM (${grouped}) q`, {
+    type: QueryTypes.SELECT,
+    replacements,
+  });
+  const rows = await deps.sequelize.query<SiteRow>(
+    `SELECT * FROM (${grouped}) q ORDER BY ${order} ${paged ? 'LIMIT :limit OFFSET :offset' : ''}`,
+    { type: QueryTypes.SELECT, replacements: { ...replacements, limit: query.pageSize, offset: (query.page - 1) * query.pageSize } },
+  );
+  return { rows, total };
+}
+
+function present(r: SiteRow, loggers: LaggingLogger[]): LaggingSite {
+  const reasons: Partial<Record<LaggingReason, number>> = {};
+  for (const l of loggers) reasons[l.reason] = (reasons[l.reason] ?? 0) + 1;
+  return {
+    siteId: r.site_id,
+    siteName: r.site_name,
+    customer: r.customer,
+    behind: r.behind,
+    total: r.total,
+    oldestVersion: r.oldest_version,
+    laggingSince: new Date(r.lagging_since).toISOString(),
+    lastContactAt: r.last_contact_at ? new Date(r.last_contact_at).toISOString() : null,
+    reasons,
+    loggers,
+  };
+}
+
+/** Lagging sites, one page. */
+export async function laggingSites(deps: FleetDeps, query: LaggingQuery, all = false): Promise<{ rows: LaggingSite[]; total: number; nextCursor?: string }> {
+  const now = deps.now();
+  let onlySites: string[] | null = null;
+  let reasonsBySite: Map<string, LaggingLogger[]> | null = null;
+  if (query.reason) {
+    reasonsBySite = await withReasons(deps, await behindLoggers(deps, null, query.customer, now), now);
+    onlySites = [...reasonsBySite].filter(([, list]) => list.some((l) => l.reason === query.reason)).map(([site]) => site);
+  }
+  const { rows, total } = await siteRows(deps, query, now, onlySites, !all);
+  if (!reasonsBySite) reasonsBySite = await withReasons(deps, await behindLoggers(deps, rows.map((r) => r.site_id), undefined, now), now);
+  const presented = rows.map((r) => present(r, reasonsBySite!.get(r.site_id) ?? []));
+  const more = !all && query.page * query.pageSize < total;
+  return { rows: presented, total, ...(more ? { nextCursor: String(query.page + 1) } : {}) };
+}
+
+export const LAGGING_CSV_HEADER = [
+  'site',
+  'customer',
+  'site_behind',
+  'site_total',
+  'lagging_since',
+  'last_contact_at',
+  'serial',
+  'firmware',
+  'target_version',
+  'reason',
+  'reason_label',
+] as const;
+
+/** Every lagging site of the filter, one record per logger behind (the site's columns repeated). */
+export async function exportLagging(deps: FleetDeps, query: LaggingQuery, write: (chunk: string) => Promise<void>): Promise<number> {
+  const { rows } = await laggingSites(deps, query, true);
+  await write(csvRecord([...LAGGING_CSV_HEADER]));
+  let count = 0;
+  for (const site of rows) {
+    const lines = site.loggers.map((l) =>
+      csvRecord([
+        safeText(site.siteName),
+        safeText(site.customer),
+        site.behind,
+        site.total,
+        site.laggingSince,
+        site.lastContactAt,
+        safeText(l.serial),
+        safeText(l.firmware),
+        l.targetVersion,
+        l.reason,
+        l.reasonLabel,
+      ]),
+    );
+    count += lines.length;
+    await write(lines.join(''));
+  }
+  return count;
+}

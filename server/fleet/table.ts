@@ -1,0 +1,292 @@
+// The fleet table (issue 6 §1): GET /api/loggers and its CSV export. Filtering, sorting and paging all
+// happen in PostgreSQL; sort keys and filters come from allow-lists (schemas/fleet.ts) and every value
+// is a bound replacement.
+//
+// Paging: `page` (offset) or a keyset `cursor` — the sort value and id of the last row, so the next
+// batch is an index range read whatever the depth. The export walks the whole filter by cursor in
+// batches, writing as it goes.
+import semver from 'semver';
+import { QueryTypes, type Sequelize } from 'sequelize';
+import type { Actor } from '../auth/actor';
+import { problems } from '../http/problem';
+import { likePattern } from '../sites/service';
+import { isStrictSemver } from '../../schemas/semver';
+import { fleetFlags, type FleetFlag, type FleetSortKey, type UpdateState } from '../../schemas/fleet';
+import type { LoggerRow, LoggersQuery } from '../../schemas/loggers';
+import { csvRecord, safeText } from './csv';
+import { CURRENT_RELEASES, FLAG_SQL, FLEET_FROM, RESETS_24H, TEMP_C, UPDATE_STATE, UPDATE_STATE_RANK } from './sql';
+
+export type FleetDeps = { sequelize: Sequelize; now: () => Date };
+
+/** Each sort key's expression and the SQL type its cursor value is read back as. Never null, so keyset comparisons hold. */
+export const SORTS: Record<FleetSortKey, { expr: string; type: string }> = {
+  serial: { expr: 'lower(l.serial)', type: 'text' },
+  site: { expr: "COALESCE(lower(s.name), '')", type: 'text' },
+  customer: { expr: "COALESCE(lower(s.customer), '')", type: 'text' },
+  model: { expr: 'lower(m.name)', type: 'text' },
+  board: { expr: 'l.board', type: 'text' },
+  track: { expr: 'l.track', type: 'text' },
+  firmware: { expr: 'l.firmware_key', type: 'text[]' },
+  updateState: { expr: UPDATE_STATE_RANK, type: 'integer' },
+  lastSeen: { expr: "COALESCE(l.last_seen_at, '-infinity'::timestamptz)", type: 'timestamptz' },
+  supplyV: { expr: 'COALESCE(l.supply_v, -1)', type: 'numeric' },
+  resets24h: { expr: RESETS_24H, type: 'integer' },
+};
+
+const CURSOR_VALUE: Record<string, RegExp> = {
+  text: /^[\s\S]{0,400}$/,
+  'text[]': /^\{[\s\S]{0,400}\}$/,
+  integer: /^-?\d{1,9}$/,
+  numeric: /^-?\d{1,12}(\.\d{1,6})?$/,
+  timestamptz: /^(-infinity|\d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2}(\.\d{1,6})?[+-]\d{2}(:\d{2})?)$/,
+};
+
+type FleetFilter = Omit<LoggersQuery, 'page' | 'pageSize' | 'cursor'>;
+type Cursor = { sort: FleetSortKey; dir: 'asc' | 'desc'; value: string; id: string };
+
+const isIntegrator = (actor: Actor) => actor.type === 'person' && actor.role === 'integrator';
+
+/** The cursor that starts a keyset walk at the first row. */
+export const KEYSET_START = 'start';
+
+export function encodeCursor(c: Cursor): string {
+  return Buffer.from(JSON.stringify([c.sort, c.dir, c.value, c.id]), 'utf8').toString('base64url');
+}
+
+function decodeCursor(text: string, query: FleetFilter): Cursor {
+  const bad = () => problems.badRequest('Check the query: cursor.', [{ path: 'cursor', message: 'is not a cursor from this list; start again from the first page' }]);
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(Buffer.from(text, 'base64url').toString('utf8'));
+  } catch {
+    throw bad();
+  }
+  if (!Array.isArray(parsed) || parsed.length !== 4 || !parsed.every((p) => typeof p === 'string')) throw bad();
+  const [sort, dir, value, id] = parsed as string[];
+  // A cursor belongs to one sort and direction; its id must be a UUID (it is bound, never interpolated).
+  if (sort !== query.sort || dir !== query.dir || !/^[0-9a-f-]{36}$/.test(id)) throw bad();
+  // The value is bound too; checking its form keeps a hand-edited cursor a 400 rather than a database error.
+  if (!CURSOR_VALUE[SORTS[query.sort].type].test(value)) throw bad();
+  return { sort: query.sort, dir: query.dir, value, id };
+}
+
+/** Versions present in the fleet that a semver range admits (few: one per release ever run), or the exact one. */
+async function versionsMatching(deps: FleetDeps, version: string): Promise<string[]> {
+  if (isStrictSemver(version)) return [version];
+  const present = await deps.sequelize.query<{ firmware: string }>('SELECT DISTINCT firmware FROM loggers WHERE firmware IS NOT NULL', {
+    type: QueryTypes.SELECT,
+  });
+  // Pre-releases included, as the decision evaluates upgrade-from ranges (DEVICE_API.md rule 4).
+  return present.map((p) => p.firmware).filter((v) => semver.valid(v) !== null && semver.satisfies(v, version, { includePrerelease: true }));
+}
+
+async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: Date) {
+  const conditions: string[] = [];
+  const replacements: Record<string, unknown> = { now: now.toISOString() };
+  if (query.q) {
+    conditions.push('(l.serial ILIKE :q OR s.name ILIKE :q OR s.customer ILIKE :q)');
+    replacements.q = likePattern(query.q);
+  }
+  if (query.siteId) {
+    conditions.push('l.site_id = :siteId');
+    replacements.siteId = query.siteId;
+  }
+  if (query.modelId) {
+    conditions.push('l.model_id = :modelId');
+    replacements.modelId = query.modelId;
+  }
+  if (query.status) {
+    conditions.push('l.status = :status');
+    replacements.status = query.status;
+  }
+  if (query.board) {
+    conditions.push('lower(l.board) = lower(:board)');
+    replacements.board = query.board;
+  }
+  if (query.track) {
+    conditions.push('l.track = :track');
+    replacements.track = query.track;
+  }
+  if (query.version) {
+    const versions = await versionsMatching(deps, query.version);
+    if (versions.length === 0) conditions.push('false');
+    else {
+      conditions.push('l.firmware IN (:versions)');
+      replacements.versions = versions;
+    }
+  }
+  if (query.flag) conditions.push(FLAG_SQL[query.flag]);
+  if (query.updateState) {
+    conditions.push(`${UPDATE_STATE} = :updateState`);
+    replacements.updateState = query.updateState;
+  }
+  if (isIntegrator(actor)) {
+    conditions.push('(l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))');
+    replacements.actorId = actor.id;
+  }
+  return { conditions, replacements };
+}
+
+type RowRecord = {
+  id: string;
+  serial: string;
+  model_id: string;
+  model_name: string;
+  board: string;
+  track: LoggerRow['track'];
+  status: LoggerRow['status'];
+  site_id: string | null;
+  site_name: string | null;
+  customer: string | null;
+  firmware: string | null;
+  last_seen_at: Date | null;
+  supply_v: string | number | null;
+  temp_c: number | null;
+  resets_24h: number;
+  update_state: UpdateState;
+  sort_value: string;
+} & Record<`f_${FleetFlag}`, boolean>;
+
+function presentRow(r: RowRecord): LoggerRow {
+  const flags = fleetFlags.filter((f) => r[`f_${f}`]);
+  return {
+    id: r.id,
+    serial: r.serial,
+    modelId: r.model_id,
+    modelName: r.model_name,
+    board: r.board,
+    track: r.track,
+    status: r.status,
+    siteId: r.site_id,
+    siteName: r.site_name,
+    customer: r.customer,
+    firmware: r.firmware,
+    lastSeenAt: r.last_seen_at ? new Date(r.last_seen_at).toISOString() : null,
+    supplyV: r.supply_v === null ? null : Number(r.supply_v),
+    tempC: r.temp_c === null ? null : Number(r.temp_c),
+    updateState: r.update_state,
+    resets24h: Number(r.resets_24h),
+    flags,
+    worstFlag: flags[0] ?? null,
+  };
+}
+
+async function readRows(
+  deps: FleetDeps,
+  where: { conditions: string[]; replacements: Record<string, unknown> },
+  query: FleetFilter,
+  page: { limit: number; offset: number; after?: Cursor },
+): Promise<RowRecord[]> {
+  const sort = SORTS[query.sort];
+  const dir = query.dir === 'desc' ? 'DESC' : 'ASC';
+  const conditions = [...where.conditions];
+  const replacements: Record<string, unknown> = { ...where.replacements, limit: page.limit, offset: page.offset };
+  if (page.after) {
+    conditions.push(`(${sort.expr}, l.id) ${dir === 'DESC' ? '<' : '>'} (CAST(:afterValue AS ${sort.type}), CAST(:afterId AS uuid))`);
+    replacements.afterValue = page.after.value;
+    replacements.afterId = page.after.id;
+  }
+  const flagColumns = fleetFlags.map((f) => `${FLAG_SQL[f]} AS f_${f}`).join(', ');
+  return deps.sequelize.query<RowRecord>(
+    `WITH current_releases AS (${CURRENT_RELEASES})
+     SELECT l.id, l.serial, l.model_id, m.name AS model_name, l.board, l.track, l.status, l.site_id, s.name AS site_name,
+            s.customer, l.firmware, l.last_seen_at, l.supply_v, ${TEMP_C} AS temp_c, ${RESETS_24H} AS resets_24h,
+            ${UPDATE_STATE} AS update_state, ${flagColumns}, (${sort.expr})::text AS sort_value
+       ${FLEET_FROM}
+      ${conditions.length ? `WHERE ${conditions.join(' AND ')}` : ''}
+      ORDER BY ${sort.expr} ${dir}, l.id ${dir}
+      LIMIT :limit OFFSET :offset`,
+    { type: QueryTypes.SELECT, replacements },
+  );
+}
+
+export async function listFleet(deps: FleetDeps, actor: Actor, query: LoggersQuery): Promise<{ rows: LoggerRow[]; total: number; nextCursor?: string }> {
+  const now = deps.now();
+  const where = await whereOf(deps, actor, query, now);
+  let page = query.page;
+  let after: Cursor | undefined;
+  // cursor: a page number (what page mode answers), "start" (keyset mode from the first row), or a keyset cursor.
+  const keyset = query.cursor !== undefined && !/^[1-9]\d{0,8}$/.test(query.cursor);
+  if (query.cursor && !keyset) page = Number(query.cursor);
+  else if (keyset && query.cursor !== KEYSET_START) after = decodeCursor(query.cursor!, query);
+  if (keyset) page = 1;
+
+  const [[{ total }], records] = await Promise.all([
+    deps.sequelize.query<{ total: number }>(
+      `WITH current_releases AS (${CURRENT_RELEASES}) SELECT count(*)::int AS total ${FLEET_FROM}
+       ${where.conditions.length ? `WHERE ${where.conditions.join(' AND ')}` : ''}`,
+      { type: QueryTypes.SELECT, replacements: where.replacements },
+    ),
+    readRows(deps, where, query, { limit: query.pageSize + 1, offset: (page - 1) * query.pageSize, after }),
+  ]);
+  const more = records.length > query.pageSize;
+  const rows = records.slice(0, query.pageSize);
+  let nextCursor: string | undefined;
+  if (more) {
+    const last = rows[rows.length - 1];
+    // Page mode keeps answering page numbers; cursor mode answers the next keyset cursor.
+    nextCursor = keyset ? encodeCursor({ sort: query.sort, dir: query.dir, value: last.sort_value, id: last.id }) : String(page + 1);
+  }
+  return { rows: rows.map(presentRow), total, ...(nextCursor ? { nextCursor } : {}) };
+}
+
+export const FLEET_CSV_HEADER = [
+  'serial',
+  'site',
+  'customer',
+  'model',
+  'board',
+  'track',
+  'status',
+  'firmware',
+  'update_state',
+  'last_seen_at',
+  'supply_v',
+  'temp_c',
+  'resets_24h',
+  'flags',
+] as const;
+
+function csvOf(r: LoggerRow): string {
+  return csvRecord([
+    safeText(r.serial),
+    safeText(r.siteName),
+    safeText(r.customer),
+    safeText(r.modelName),
+    safeText(r.board),
+    r.track,
+    r.status,
+    safeText(r.firmware),
+    r.updateState,
+    r.lastSeenAt,
+    r.supplyV,
+    r.tempC,
+    r.resets24h,
+    r.flags.join(' '),
+  ]);
+}
+
+/** Every row the filter matches, in its sort order, read in keyset batches and handed on as CSV text. */
+export async function exportFleet(
+  deps: FleetDeps,
+  actor: Actor,
+  query: LoggersQuery,
+  write: (chunk: string) => Promise<void>,
+  batchSize = 1000,
+): Promise<number> {
+  const now = deps.now();
+  const where = await whereOf(deps, actor, query, now);
+  await write(csvRecord([...FLEET_CSV_HEADER]));
+  let after: Cursor | undefined;
+  let count = 0;
+  for (;;) {
+    const records = await readRows(deps, where, query, { limit: batchSize, offset: 0, after });
+    if (records.length === 0) break;
+    await write(records.map((r) => csvOf(presentRow(r))).join(''));
+    count += records.length;
+    if (records.length < batchSize) break;
+    const last = records[records.length - 1];
+    after = { sort: query.sort, dir: query.dir, value: last.sort_value, id: last.id };
+  }
+  return count;
+}

@@ -1,0 +1,80 @@
+// The offer decision as the console sees it: for loggers read from the database (not a check-in), run
+// decideOffer on their model's releases with their latest reported state, so "Why no update?" and the
+// lagging sites say exactly what the next check-in would decide (at the time `now`).
+import { QueryTypes, type Sequelize } from 'sequelize';
+import { decideOffer, type LastInstallReport, type LoggerStatus, type OfferDecision, type Track } from '../device-api/decision';
+import { loadReleasesOfModel, type CachedRelease } from '../device-api/release-cache';
+import { retriedSince, type StoredState } from '../device-api/reports';
+
+export type LoggerForDecision = {
+  id: string;
+  modelId: string;
+  status: LoggerStatus;
+  siteId: string | null;
+  board: string;
+  track: Track;
+  firmware: string | null;
+  securityCounter: number;
+  supplyV: number | null;
+  minUpdateSupplyV: number;
+  latitude: number | null;
+  longitude: number | null;
+};
+
+/** The columns a LoggerForDecision is read from (alias l = loggers, m = models, s = sites). */
+export const DECISION_COLUMNS = `l.id, l.model_id AS "modelId", l.status, l.site_id AS "siteId", COALESCE(l.reported_board, l.board) AS board,
+  l.track, l.firmware, l.security_counter AS "securityCounter", l.supply_v::float8 AS "supplyV",
+  m.min_update_supply_v::float8 AS "minUpdateSupplyV", s.latitude::float8 AS latitude, s.longitude::float8 AS longitude`;
+
+type ReportRow = { loggerId: string; releaseId: string; state: StoredState; reason: string | null; updatedAt: Date; retriedAt: Date | null };
+
+/** Decisions for many loggers: one read of each model's releases and one read of their install reports. */
+export async function decisionsFor(sequelize: Sequelize, loggers: LoggerForDecision[], now: Date): Promise<Map<string, OfferDecision<CachedRelease>>> {
+  const out = new Map<string, OfferDecision<CachedRelease>>();
+  if (loggers.length === 0) return out;
+  const models = [...new Set(loggers.map((l) => l.modelId))];
+  const releasesOf = new Map<string, CachedRelease[]>();
+  for (const m of models) releasesOf.set(m, await loadReleasesOfModel(sequelize, m));
+
+  const reports = new Map<string, Record<string, LastInstallReport | undefined>>();
+  const ids = loggers.map((l) => l.id);
+  for (let i = 0; i < ids.length; i += 5000) {
+    const rows = await sequelize.query<ReportRow>(
+      `SELECT logger_id AS "loggerId", release_id AS "releaseId", state, reason, updated_at AS "updatedAt", retried_at AS "retriedAt"
+         FROM install_reports WHERE logger_id IN (:ids)`,
+      { type: QueryTypes.SELECT, replacements: { ids: ids.slice(i, i + 5000) } },
+    );
+    for (const r of rows) {
+      const stored = { state: r.state, reason: r.reason, updatedAt: new Date(r.updatedAt), retriedAt: r.retriedAt ? new Date(r.retriedAt) : null };
+      // As the check-in service does: offered is no report yet, and a retry clears what came before it.
+      if (r.state === 'offered' || retriedSince(stored)) continue;
+      const forLogger = reports.get(r.loggerId) ?? {};
+      forLogger[r.releaseId] = { state: r.state, reason: (r.reason as LastInstallReport['reason']) ?? null };
+      reports.set(r.loggerId, forLogger);
+    }
+  }
+
+  for (const l of loggers) {
+    out.set(
+      l.id,
+      decideOffer({
+        logger: {
+          id: l.id,
+          status: l.status,
+          siteId: l.siteId,
+          board: l.board,
+          track: l.track,
+          firmware: l.firmware,
+          securityCounter: Number(l.securityCounter),
+          supplyV: l.supplyV === null ? null : Number(l.supplyV),
+          minUpdateSupplyV: Number(l.minUpdateSupplyV),
+          siteCoordinates: l.latitude !== null && l.longitude !== null ? { latitude: Number(l.latitude), longitude: Number(l.longitude) } : null,
+        },
+        releases: releasesOf.get(l.modelId) ?? [],
+        lastReports: reports.get(l.id) ?? {},
+        now,
+      }),
+    );
+  }
+  return out;
+}

@@ -1,0 +1,259 @@
+// Lagging sites (issue 6 §3) against a hand-built fleet where the reason of every logger behind is
+// known, the retry of failed installs, the version matrix (§2) and the overview's fleet counts (§7).
+import semver from 'semver';
+import { createHash } from 'node:crypto';
+import { parse as parseCsv } from 'csv-parse/sync';
+import { startTestApp, csrf, type TestApp } from '../helpers/app';
+import { Activity, Site } from '../../server/db/models';
+import { createFleet, checkInBody, bearer, type Fleet } from './device-fixtures';
+import { reached, setReported } from './fleet-fixtures';
+
+// 23:30 UTC at midsummer: night in the Vale (about 52° N, 2° W), so a daylight window is closed there.
+const now = new Date('2026-06-21T23:30:00Z');
+const daysBefore = (d: number) => new Date(now.getTime() - d * 86_400_000);
+let t: TestApp;
+let a: Fleet;
+let b: Fleet;
+const logger: Record<string, { id: string; token: string; serial: string }> = {};
+const site: Record<string, string> = {};
+const release: Record<string, string> = {};
+type Agent = Awaited<ReturnType<TestApp['signedIn']>>;
+let support: Agent;
+
+/** The reason each site's one lagging logger must show, and why (DEVICE_API.md rules; issue 6 §3). */
+const expected: Record<string, string> = {
+  silent: 'silent', // last check-in 3 days ago, far beyond 3 × 900 s
+  lowSupply: 'low_supply', // 4.0 V below the model's 4.6 V update minimum (rule 5)
+  boardA: 'board_not_supported', // 2.3.0 is for boards B and C (rule 2)
+  daylight: 'outside_daylight_window', // 2.3.0 asks for the window; the site has coordinates and it is night (rule 5)
+  failed: 'failed_awaiting_retry', // its 2.3.0 install failed with integrity (rule 6)
+  steppingStone: 'needs_stepping_stone', // 2.0.3 is outside 2.3.0's upgrade-from >=2.1.0; 2.1.4 goes first (rule 4)
+  offered: 'offered', // nothing holds it back: the next check-in is offered 2.3.0
+  early: 'outside_share', // early track, 3.0.0-beta.2 expanding at 0 % (rule 3)
+  halted: 'release_not_live', // model B's 1.1.0 reached expanding, then was halted (rule 6)
+};
+
+beforeAll(async () => {
+  t = await startTestApp({ now: () => now });
+  a = await createFleet(t, { modelName: 'FL-2 field logger' });
+  b = await createFleet(t, { modelName: 'FL-2 field logger, bench series' });
+  const newSite = async (key: string, name: string, customer: string) => {
+    const s = await Site.create({ name, customer, address: 'Aldmere Vale', latitude: null, longitude: null, timeZone: 'Europe/London', createdBy: null });
+    site[key] = s.id;
+  };
+  site.daylight = a.site.id; // Aldmere Village Hall, with coordinates
+  await newSite('silent', 'Aldmere Primary School', 'Aldmere Parish Council');
+  await newSite('lowSupply', 'Coldbrook Dairy', 'Coldbrook Farms');
+  await newSite('boardA', 'Vale Boat Club', 'Vale Boat Club');
+  await newSite('failed', "Hobb's End Telecom Hut", 'Vale Telecom Trust');
+  await newSite('steppingStone', 'Marsh Lane Pump House', 'Vale Irrigation Group');
+  await newSite('offered', 'Upper Aldmere Hall', 'Aldmere Parish Council');
+  await newSite('early', 'Fernhollow Workshop', 'Fernhollow Energy Co-op');
+  await newSite('halted', 'Brackenford Mill', 'Vale Irrigation Group');
+  await newSite('current', 'Kettle Green Pump House', 'Vale Irrigation Group');
+
+  release.r214 = (await a.release({ version: '2.1.4', state: 'complete' })).id;
+  release.r230 = (await a.release({ version: '2.3.0', state: 'expanding', share: 100, boards: ['B', 'C'], upgradeFrom: '>=2.1.0' })).id;
+  release.r300 = (await a.release({ version: '3.0.0-beta.2', state: 'expanding', share: 0 })).id;
+  release.r110 = (await b.release({ version: '1.1.0', state: 'halted' })).id;
+  await reached(t, release.r214, 'complete', daysBefore(20));
+  await reached(t, release.r230, 'expanding', daysBefore(5), { share: 100, daylightWindow: true });
+  await reached(t, release.r300, 'expanding', daysBefore(2), { track: 'early', share: 0 });
+  await reached(t, release.r110, 'halted', daysBefore(8));
+
+  const healthy = { firmware: '2.1.4', lastSeenAgoS: 300, supplyV: 5.1, tempC: 21 };
+  const add = async (key: string, fleet: Fleet, siteKey: string, state: Parameters<typeof setReported>[3], track: 'stable' | 'early' = 'stable') => {
+    const l = await fleet.logger({ siteId: site[siteKey], board: state.board ?? 'B', track });
+    logger[key] = l;
+    await setReported(t, l.id, now, { ...state, track });
+  };
+  await add('silent', a, 'silent', { ...healthy, lastSeenAgoS: 3 * 86_400 });
+  await add('lowSupply', a, 'lowSupply', { ...healthy, supplyV: 4.0 });
+  await add('boardA', a, 'boardA', { ...healthy, board: 'A' });
+  await add('daylight', a, 'daylight', healthy);
+  await add('failed', a, 'failed', healthy);
+  await add('steppingStone', a, 'steppingStone', { ...healthy, firmware: '2.0.3' });
+  await add('offered', a, 'offered', healthy);
+  await add('early', a, 'early', { ...healthy, firmware: '3.0.0-beta.1' }, 'early');
+  await add('halted', b, 'halted', { ...healthy, firmware: '1.0.0' });
+  // Up to date: at the "offered" site (so it counts 1 behind of 2), and a site with nobody behind.
+  await add('current1', a, 'offered', { ...healthy, firmware: '2.3.0' });
+  await add('current2', a, 'current', { ...healthy, firmware: '2.3.0' });
+  await add('current3', a, 'current', { ...healthy, firmware: '2.3.0', board: 'C' });
+
+  await t.sequelize.query(
+    `INSERT INTO install_reports (logger_id, release_id, state, reason, offered_at, updated_at, finished_at)
+     VALUES (:l, :r, 'failed', 'integrity', :at, :at, :at)`,
+    { replacements: { l: logger.failed.id, r: release.r230, at: daysBefore(1) } },
+  );
+  // Installs of 2.3.0 confirmed 4 days and 2 days ago, for the adoption chart.
+  const installed = (key: string, at: Date) =>
+    t.sequelize.query(
+      `INSERT INTO install_reports (logger_id, release_id, state, offered_at, updated_at, finished_at, confirmed_at) VALUES (:l, :r, 'installed', :at, :at, :at, :at)`,
+      { replacements: { l: logger[key].id, r: release.r230, at } },
+    );
+  await installed('current1', daysBefore(4));
+  await installed('current2', daysBefore(4));
+  await installed('current3', daysBefore(2));
+  support = await t.signedIn('support', 'Lena Support');
+});
+afterAll(() => t.close());
+
+type LaggingSite = { siteId: string; siteName: string; customer: string; behind: number; total: number; oldestVersion: string; laggingSince: string; lastContactAt: string | null; reasons: Record<string, number>; loggers: { id: string; serial: string; firmware: string; reason: string; reasonLabel: string }[] };
+
+async function lagging(query: Record<string, string | number> = {}): Promise<{ rows: LaggingSite[]; total: number }> {
+  const res = await support.get('/api/fleet/lagging-sites').query({ pageSize: 100, ...query });
+  expect(res.status).toBe(200);
+  return res.body;
+}
+
+describe('lagging sites', () => {
+  test('when support opens lagging sites, then each site with a logger behind is listed once, with the reason the rules give for it', async () => {
+    const { rows, total } = await lagging();
+    expect(total).toBe(Object.keys(expected).length);
+    for (const [key, reason] of Object.entries(expected)) {
+      const row = rows.find((r) => r.siteId === site[key])!;
+      expect(row.loggers.map((l) => [l.id, l.reason])).toEqual([[logger[key].id, reason]]);
+      expect(row.reasons).toEqual({ [reason]: 1 });
+      expect(row.loggers[0].reasonLabel.length).toBeGreaterThan(0);
+    }
+    expect(rows.some((r) => r.siteId === site.current)).toBe(false);
+  });
+
+  test('when a site has loggers behind and up to date, then behind / total, oldest version, lagging since and last contact are its own', async () => {
+    const { rows } = await lagging();
+    const offered = rows.find((r) => r.siteId === site.offered)!;
+    expect(offered).toMatchObject({ behind: 1, total: 2, oldestVersion: '2.1.4', laggingSince: daysBefore(5).toISOString() });
+    expect(offered.lastContactAt).toBe(new Date(now.getTime() - 300_000).toISOString());
+    expect(rows.find((r) => r.siteId === site.halted)!.laggingSince).toBe(daysBefore(8).toISOString());
+    expect(rows.find((r) => r.siteId === site.early)!.laggingSince).toBe(daysBefore(2).toISOString());
+    expect(rows.find((r) => r.siteId === site.steppingStone)!.oldestVersion).toBe('2.0.3');
+  });
+
+  test('when sorted by how long lagging or by count, both ways, then the order follows those values', async () => {
+    const bySince = (await lagging({ sort: 'lagging_since' })).rows.map((r) => Date.parse(r.laggingSince));
+    expect(bySince).toEqual([...bySince].sort((x, y) => x - y));
+    expect(bySince[0]).toBe(daysBefore(8).getTime()); // the halted release has waited longest
+    const bySinceDesc = (await lagging({ sort: 'lagging_since', dir: 'desc' })).rows.map((r) => Date.parse(r.laggingSince));
+    expect(bySinceDesc).toEqual([...bySinceDesc].sort((x, y) => y - x));
+    const byBehind = (await lagging({ sort: 'behind' })).rows.map((r) => r.behind);
+    expect(byBehind).toEqual([...byBehind].sort((x, y) => y - x));
+    const bad = await support.get('/api/fleet/lagging-sites').query({ sort: 'behind; DROP TABLE sites' });
+    expect(bad.status).toBe(400);
+    expect(bad.body.errors[0].path).toBe('sort');
+  });
+
+  test('when filtered by reason or customer, then only sites with that reason or customer are listed', async () => {
+    for (const [key, reason] of Object.entries(expected)) {
+      const { rows } = await lagging({ reason });
+      expect(rows.map((r) => r.siteId)).toEqual([site[key]]);
+    }
+    const parish = await lagging({ customer: 'parish council' }); // Aldmere Village Hall is the parish council's too
+    expect(parish.rows.map((r) => r.siteId).sort()).toEqual([site.silent, site.offered, site.daylight].sort());
+    expect(parish.rows.every((r) => r.customer === 'Aldmere Parish Council')).toBe(true);
+    const both = await lagging({ customer: 'parish', reason: 'silent' });
+    expect(both.rows.map((r) => r.siteId)).toEqual([site.silent]);
+    const bad = await support.get('/api/fleet/lagging-sites').query({ reason: "silent' OR 1=1 --" });
+    expect(bad.status).toBe(400);
+    expect(bad.body.errors[0].path).toBe('reason');
+    expect((await lagging({ customer: "' OR 1=1 --" })).total).toBe(0);
+  });
+
+  test('when support exports lagging sites, then one CSV record per logger behind, quoted per RFC 4180, as an attachment', async () => {
+    const res = await support.get('/api/fleet/lagging-sites/export.csv');
+    expect(res.status).toBe(200);
+    expect(res.headers['content-disposition']).toMatch(/^attachment; filename="heliodor-lagging-sites-.*\.csv"$/);
+    const records = parseCsv(res.text, { columns: true }) as Record<string, string>[];
+    const { rows } = await lagging();
+    expect(records).toHaveLength(rows.reduce((n, r) => n + r.behind, 0));
+    expect(records.find((r) => r.serial === logger.failed.serial)).toMatchObject({ site: "Hobb's End Telecom Hut", reason: 'failed_awaiting_retry', target_version: '2.3.0' });
+    const filtered = parseCsv((await support.get('/api/fleet/lagging-sites/export.csv').query({ reason: 'low_supply' })).text, { columns: true });
+    expect(filtered).toHaveLength(1);
+  });
+});
+
+describe('why no update', () => {
+  test('when support asks why a 2.0.x logger gets no 2.3.0, then every release of the model has a verdict, and 2.1.4 is the stepping stone', async () => {
+    const res = await support.get(`/api/loggers/${logger.steppingStone.id}/why`);
+    expect(res.status).toBe(200);
+    const verdict = (id: string) => res.body.verdicts.find((v: { releaseId: string }) => v.releaseId === id);
+    expect(verdict(release.r230).reason).toBe('needs_stepping_stone');
+    expect(verdict(release.r214).reason).toBe('stepping_stone');
+    expect(verdict(release.r300).reason).toBe('wrong_track');
+    expect(res.body.offer).toEqual({ releaseId: release.r214, version: '2.1.4' });
+  });
+
+  test('when support asks about the early logger, then the verdict names the bucket computed by the SHA-256 formula (DEVICE_API.md rule 3)', async () => {
+    const res = await support.get(`/api/loggers/${logger.early.id}/why`);
+    const bucket = createHash('sha256').update(`${logger.early.id}:${release.r300}`).digest().readUInt32BE(0) % 10_000;
+    const verdict = res.body.verdicts.find((v: { releaseId: string }) => v.releaseId === release.r300);
+    expect(verdict.reason).toBe('outside_share');
+    expect(verdict.detail).toContain(`Bucket ${bucket} `);
+  });
+});
+
+describe('retrying failed installs', () => {
+  test('when support asks for a retry, then 403; when the body names neither loggers nor a site, then 400', async () => {
+    expect((await support.post(`/api/releases/${release.r230}/retry`).set(csrf).send({ siteId: site.failed })).status).toBe(403);
+    const priya = await t.signedIn('release_engineer', 'Priya Engineer');
+    expect((await priya.post(`/api/releases/${release.r230}/retry`).set(csrf).send({})).status).toBe(400);
+    expect((await priya.post(`/api/releases/${release.r230}/retry`).set(csrf).send({ loggerIds: [] })).status).toBe(400);
+  });
+
+  test('when a release engineer retries a site, then its failed install is cleared once, the site lags for "offered", and the next check-in is offered the release', async () => {
+    const priya = await t.signedIn('release_engineer', 'Priya Engineer');
+    const first = await priya.post(`/api/releases/${release.r230}/retry`).set(csrf).send({ siteId: site.failed });
+    expect(first.status).toBe(200);
+    expect(first.body).toEqual({ retried: 1 });
+    const again = await priya.post(`/api/releases/${release.r230}/retry`).set(csrf).send({ loggerIds: [logger.failed.id] });
+    expect(again.body).toEqual({ retried: 0 });
+    expect(await Activity.count({ where: { action: 'release.retried', targetId: release.r230 } })).toBe(2);
+
+    const row = (await lagging({ reason: 'offered' })).rows.find((r) => r.siteId === site.failed)!;
+    expect(row.loggers[0].reason).toBe('offered');
+
+    const checkIn = await t.request().post('/api/device/v1/check-in').set(bearer(logger.failed.token)).send(checkInBody('2.1.4'));
+    expect(checkIn.status).toBe(200);
+    expect(checkIn.body.offer?.release).toBe(release.r230);
+  });
+});
+
+describe('version matrix', () => {
+  test('when support opens the version matrix, then counts per version × board, the share on the current release and adoption per day are the fleet’s', async () => {
+    const res = await support.get('/api/fleet/versions');
+    expect(res.status).toBe(200);
+    const model = res.body.models.find((m: { modelId: string }) => m.modelId === a.model.id);
+    const v = (fw: string) => model.versions.find((x: { firmware: string }) => x.firmware === fw);
+    expect(v('2.3.0')).toEqual({ firmware: '2.3.0', total: 3, byBoard: { B: 2, C: 1 } });
+    expect(v('2.1.4').byBoard).toEqual({ A: 1, B: 5 });
+    // Newest first by semantic-version precedence (semver.org §11), as the semver package sorts them.
+    const listed = model.versions.map((x: { firmware: string }) => x.firmware);
+    expect(listed).toEqual(semver.rsort([...listed]));
+
+    const stable = model.tracks.find((x: { track: string }) => x.track === 'stable');
+    expect(stable.currentRelease).toMatchObject({ id: release.r230, version: '2.3.0' });
+    expect(stable).toMatchObject({ loggers: 10, onCurrent: 3 });
+    expect(stable.share).toBeCloseTo(3 / 10, 10);
+    const early = model.tracks.find((x: { track: string }) => x.track === 'early');
+    expect(early).toMatchObject({ loggers: 1, onCurrent: 0, share: 0 });
+
+    const adoption = model.releases.find((r: { id: string }) => r.id === release.r230).adoption;
+    expect(adoption.map((d: { day: string }) => d.day)).toEqual(['2026-06-16', '2026-06-17', '2026-06-18', '2026-06-19', '2026-06-20', '2026-06-21']);
+    expect(adoption.map((d: { installed: number }) => d.installed)).toEqual([0, 2, 0, 1, 0, 0]);
+    expect(adoption.map((d: { cumulative: number }) => d.cumulative)).toEqual([0, 2, 2, 3, 3, 3]);
+  });
+});
+
+describe('overview', () => {
+  test('when the overview is read, then it counts lagging sites, silent loggers and flags, and lists live releases, each with a link', async () => {
+    const res = await support.get('/api/overview');
+    expect(res.status).toBe(200);
+    const { rows } = await lagging();
+    expect(res.body.fleet.laggingSites).toEqual({ count: rows.length, href: '/lagging' });
+    expect(res.body.fleet.silent).toEqual({ count: 1, href: '/loggers?flag=silent' });
+    expect(res.body.fleet.flags.find((f: { flag: string }) => f.flag === 'low_supply')).toEqual({ flag: 'low_supply', count: 1, href: '/loggers?flag=low_supply' });
+    const live = res.body.fleet.liveReleases.map((r: { id: string }) => r.id).sort();
+    expect(live).toEqual([release.r214, release.r230, release.r300].sort());
+    expect(res.body.fleet.liveReleases.find((r: { id: string }) => r.id === release.r230)).toMatchObject({ installed: 3, failed: 1, href: `/releases/${release.r230}` });
+  });
+});
