@@ -102,6 +102,13 @@ export function startPartitionMaintenance(
     if (running) return;
     running = true;
     try {
+      // At first boot the migrations may not have created the table yet: look again shortly, quietly.
+      const [[found]] = (await sequelize.query("SELECT to_regclass('check_ins') IS NOT NULL AS ready")) as [{ ready: boolean }[], unknown];
+      if (!found.ready) {
+        retry = setTimeout(() => void run(), 5_000);
+        retry.unref?.();
+        return;
+      }
       await maintainCheckInPartitions(sequelize, options.now());
     } catch (err) {
       // At boot the database may still be starting or migrating: try again in a minute.
