@@ -38,8 +38,10 @@ export function ConfirmDialog({ visible, title, detail, confirmLabel, cancelLabe
   );
 }
 
+const cover = { position: 'absolute', top: 0, right: 0, bottom: 0, left: 0 } as const;
+
 const styles = StyleSheet.create({
-  backdrop: { ...StyleSheet.absoluteFill, backgroundColor: 'rgba(30,42,47,0.45)' },
-  center: { ...StyleSheet.absoluteFill, alignItems: 'center', justifyContent: 'center', padding: space.lg },
+  backdrop: { ...cover, backgroundColor: `${colors.ink}73` }, // ink at 45 %
+  center: { ...cover, alignItems: 'center', justifyContent: 'center', padding: space.lg },
   dialog: { backgroundColor: colors.surface, borderRadius: radii.lg, padding: space.xl, gap: space.md, width: '100%', maxWidth: 460, borderColor: colors.line, borderWidth: 1 },
 });

@@ -5,13 +5,15 @@ import { Link } from 'expo-router';
 import { Page } from './shell';
 import { Badge, Button, Card, Field, Mono, Notice, Row } from './ui';
 import { ConfirmDialog } from './confirm';
+import { ProfileForm } from './profile-form';
 import { QueryView, type QueryState } from './query-state';
 import { loggerStatus } from './status';
 import { formatCurrent, formatPower } from './calibration-preview';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, radii, space, touchTarget, type } from './theme';
 import type { ApiError } from '../hooks/api';
-import type { LoggerDetail } from '../hooks/loggers';
+import type { LoggerDetail, ProfileInput } from '../hooks/loggers';
+import type { ModelLimits } from '../server/loggers/calibration';
 import type { Site } from '../hooks/sites';
 
 type Action<A extends unknown[] = []> = { busy: boolean; error: unknown; run: (...args: A) => void };
@@ -24,6 +26,8 @@ type Props = {
   rotate: Action;
   retire: Action<[reason: string]>;
   move: Action<[siteId: string]> & { sites: Site[] };
+  /** Present for people who may change the profile; limits come from the logger's model. */
+  profile?: Action<[input: ProfileInput]> & { limits?: ModelLimits };
   photoUrl: string;
 };
 
@@ -54,8 +58,9 @@ export function LoggerScreen(props: Props) {
   );
 }
 
-function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retire, move, photoUrl }: Props & { logger: LoggerDetail }) {
+function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retire, move, profile, photoUrl }: Props & { logger: LoggerDetail }) {
   const [ask, setAsk] = React.useState<'rotate' | 'retire' | 'move' | null>(null);
+  const [editing, setEditing] = React.useState(false);
   const [reason, setReason] = React.useState('');
   const [target, setTarget] = React.useState<string | undefined>();
   const status = loggerStatus(logger);
@@ -64,6 +69,7 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
   // Close a dialog once its action went through (busy → idle without an error).
   useClosedWhenDone(move.busy, move.error, () => setAsk(null));
   useClosedWhenDone(retire.busy, retire.error, () => setAsk(null));
+  useClosedWhenDone(profile?.busy ?? false, profile?.error, () => setEditing(false));
 
   return (
     <Page
@@ -121,7 +127,9 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
           <Text style={type.heading}>Measurement profile</Text>
           {p ? <Badge label={`version ${p.version}`} tone="slate" /> : null}
         </Row>
-        {p ? (
+        {p && editing && profile?.limits ? (
+          <ProfileForm current={p} limits={profile.limits} busy={profile.busy} error={profile.error} onSave={profile.run} onCancel={() => setEditing(false)} />
+        ) : p ? (
           <View style={styles.grid}>
             <Item label="Shunt" mono>{`${Number((p.shuntOhm * 1000).toPrecision(6))} mΩ`}</Item>
             <Item label="Maximum current" mono>{`${p.maxCurrentA} A`}</Item>
@@ -136,6 +144,11 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
         ) : (
           <Text style={type.body}>No profile yet: it is computed when the logger is enrolled.</Text>
         )}
+        {p && !editing && profile?.limits && logger.status === 'enrolled' ? (
+          <View style={{ alignSelf: 'flex-start' }}>
+            <Button label="Change profile" variant="secondary" onPress={() => setEditing(true)} testID="change-profile" />
+          </View>
+        ) : null}
       </Card>
 
       {logger.install ? (

@@ -177,3 +177,31 @@ test("when a signed-out integrator opens a label's link, then after sign-in the 
   await screenshot(page, 'enroll-refusals-wide');
   await context.close();
 });
+
+test('when an admin changes an enrolled logger’s profile, then the new version shows the recomputed calibration', async () => {
+  const third = await register('FL2-E2E03', 'A');
+  const site = (await admin.get('/api/sites?q=Hollins')).body.rows[0];
+  const enrolled = await admin
+    .post('/api/enrollments')
+    .set(csrf)
+    .send({ token: third.token, siteId: site.id, panelWp: 250, panelVocV: 22.5, shuntOhm: 0.002, maxCurrentA: 20, tempResolutionBits: 12 });
+  expect(enrolled.status).toBe(201);
+  const context = await plain.newContext({ viewport: viewports.wide });
+  const page = await context.newPage();
+  page.setDefaultTimeout(60_000);
+  await signIn(page, base, 'morgan@fernhollow.example', testPassword);
+  await page.getByRole('heading', { name: 'Overview' }).waitFor();
+  await page.goto(`${base}/loggers/${third.id}`);
+  await page.getByText('version 1').waitFor();
+  await page.getByTestId('change-profile').click();
+  await page.getByTestId('profile-shunt').fill('1');
+  // TI INA226 data sheet, Equation 1: CAL = 0.00512 / (Current_LSB × R_SHUNT) = 0.00512 / (1 mA × 1 mΩ) = 5120.
+  await expect(page.getByTestId('calibration-value').innerText()).resolves.toBe('5120');
+  await screenshot(page, 'logger-profile-edit-wide');
+  await page.getByTestId('profile-save').click();
+  await page.getByText('version 2').waitFor();
+  const res = await admin.get(`/api/loggers/${third.id}`);
+  expect(res.body.profile).toMatchObject({ version: 2, shuntOhm: 0.001, calibration: 5120 });
+  await screenshot(page, 'logger-detail-wide');
+  await context.close();
+});

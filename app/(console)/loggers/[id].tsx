@@ -6,7 +6,8 @@ import { TokenSheet, type SheetToken } from '../../../components/label-sheet';
 import { ConfirmDialog } from '../../../components/confirm';
 import { Page } from '../../../components/shell';
 import { consoleOrigin, useLeaveGuard } from '../../../components/web';
-import { photoUrl, useLogger, useMoveLogger, useRetireLogger, useRotateToken } from '../../../hooks/loggers';
+import { photoUrl, useLogger, useMoveLogger, useRetireLogger, useRotateToken, useUpdateProfile } from '../../../hooks/loggers';
+import { useModel } from '../../../hooks/models';
 import { useSites } from '../../../hooks/sites';
 import { useMe } from '../../../hooks/session';
 
@@ -18,6 +19,8 @@ export default function LoggerPage() {
   const rotate = useRotateToken(id);
   const retire = useRetireLogger(id);
   const move = useMoveLogger(id);
+  const changeProfile = useUpdateProfile(id);
+  const model = useModel(logger.data?.modelId);
   const role = me.data?.role;
   const canMove = role === 'admin' || role === 'integrator';
   const sites = useSites();
@@ -62,6 +65,11 @@ export default function LoggerPage() {
       }}
       retire={{ busy: retire.isPending, error: retire.error, run: (reason) => retire.mutate({ reason: reason || undefined }) }}
       move={{ busy: move.isPending, error: move.error, run: (siteId) => move.mutate({ siteId }), sites: sites.data?.rows ?? [] }}
+      profile={
+        canMove
+          ? { busy: changeProfile.isPending, error: changeProfile.error, run: (input) => changeProfile.mutate(input), limits: model.data }
+          : undefined
+      }
       photoUrl={photoUrl(id)}
     />
   );
