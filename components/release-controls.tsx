@@ -10,9 +10,18 @@ export type ProblemLike = { title?: string; detail?: string; message?: string; f
 
 export function ProblemNotice({ error, fieldNames = {} }: { error: ProblemLike; fieldNames?: Record<string, string> }) {
   if (!error) return null;
-  const fields = error.fieldErrors ?? [];
+  const detail = error.detail ?? error.message;
+  const all = error.fieldErrors ?? [];
+  // A field whose message repeats the detail is named once, not said twice.
+  const named = all.filter((f) => f.message === detail).map((f) => fieldNames[f.path] ?? f.path);
+  const fields = all.filter((f) => f.message !== detail);
   return (
-    <Notice title={error.title ?? 'Something went wrong'} detail={error.detail ?? error.message}>
+    <Notice title={error.title ?? 'Something went wrong'} detail={detail}>
+      {named.length ? (
+        <Text style={type.body}>
+          Refused: <Text style={{ fontFamily: fonts.semibold }}>{named.join(', ')}</Text>
+        </Text>
+      ) : null}
       {fields.map((f) => (
         <Text key={`${f.path}:${f.message}`} style={type.body}>
           <Text style={{ fontFamily: fonts.semibold }}>{fieldNames[f.path] ?? f.path}</Text>: {f.message}
