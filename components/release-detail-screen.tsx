@@ -210,7 +210,7 @@ function MoveDialog({ r, pending, onPending, estimate, onTransition, onDelete, b
         confirmLabel={a === 'complete' ? 'Complete' : `Widen to ${formatShare(share)}`}
         onConfirm={() => onTransition(a === 'complete' ? { action: 'complete' } : { action: 'expand', share })}
       >
-        <EstimateText estimate={estimate} share={share} />
+        <EstimateText estimate={estimate} share={share} lead={a === 'complete' ? 'Complete (100 %)' : `Widen to ${formatShare(share)}`} />
         <Text style={type.small}>Eligible loggers are offered {r.version} at their next check-in. A failed install can leave a logger offline until someone visits.</Text>
       </ConfirmDialog>
     );
@@ -256,14 +256,14 @@ function MoveDialog({ r, pending, onPending, estimate, onTransition, onDelete, b
   return null;
 }
 
-function EstimateText({ estimate, share }: { estimate: QueryState<Estimate>; share: number }) {
+function EstimateText({ estimate, share, lead }: { estimate: QueryState<Estimate>; share: number; lead: string }) {
   if (estimate.isPending) return <Text style={type.body}>Counting the loggers that become eligible…</Text>;
   if (estimate.error || !estimate.data) return <Text style={type.body}>The number of loggers could not be counted just now; you can still go ahead.</Text>;
   const e = estimate.data;
   return (
     <View style={{ gap: space.xs }} testID="estimate">
       <Text style={[type.body, { fontFamily: fonts.semibold }]}>
-        {formatShare(share)}: about {e.more} more {e.more === 1 ? 'logger becomes' : 'loggers become'} eligible.
+        {lead}: about {e.more} more {e.more === 1 ? 'logger becomes' : 'loggers become'} eligible.
       </Text>
       <Text style={type.small}>
         {e.eligibleAtShare} eligible in all at {formatShare(share)}, up from {e.eligibleNow} now (pilot sites included).
