@@ -7,7 +7,7 @@
 // daylight) runs only for the loggers of the page's sites — or, when filtering by reason, for every
 // logger behind the current release (that filter needs the reason of each).
 import { QueryTypes } from 'sequelize';
-import type { ReasonCode } from '../device-api/decision';
+import type { OfferDecision, ReasonCode } from '../device-api/decision';
 import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingQuery, type LaggingReason, type LaggingSite } from '../../schemas/fleet';
 import { likePattern } from '../sites/service';
 import { csvRecord, safeText } from './csv';
@@ -52,7 +52,7 @@ type SiteRow = {
 };
 
 /** Why one logger lacks the current release: silent first, else the decision's verdict for that release. */
-function reasonOf(row: BehindRow, decision: Awaited<ReturnType<typeof decisionsFor>> extends Map<string, infer D> ? D | undefined : never): { reason: LaggingReason; detail: string } {
+function reasonOf(row: BehindRow, decision: OfferDecision | undefined): { reason: LaggingReason; detail: string } {
   if (row.silent) return { reason: 'silent', detail: 'No check-in for 3 intervals; nothing reaches the logger until it checks in again.' };
   const verdict = decision?.considered.find((v) => v.releaseId === row.currentId);
   if (!verdict) return { reason: 'other', detail: 'The release was not considered.' };

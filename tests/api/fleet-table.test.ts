@@ -2,7 +2,7 @@
 // against a hand-built fleet, refusals of injection attempts, and the streamed CSV export.
 import semver from 'semver';
 import { parse as parseCsv } from 'csv-parse/sync';
-import { startTestApp, type TestApp } from '../helpers/app';
+import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Site } from '../../server/db/models';
 import { createFleet, checkInBody, bearer, type Fleet } from './device-fixtures';
 import { addCheckIn, hoursBefore, reached, setReported } from './fleet-fixtures';
@@ -300,6 +300,18 @@ describe('CSV export', () => {
 });
 
 describe('access', () => {
+  test('when an automation token has the fleet:read scope, then it may read the fleet views and export, but not write notes', async () => {
+    const admin = await t.signedIn('admin', 'Morgan Admin');
+    const issued = await admin.post('/api/tokens').set(csrf).send({ name: 'Fleet report job', scopes: ['fleet:read'], expiresAt: new Date(Date.now() + 30 * 86_400_000).toISOString() });
+    expect(issued.status).toBe(201);
+    const auth = { Authorization: `Bearer ${issued.body.token}` };
+    expect((await t.request().get('/api/loggers/export.csv').set(auth)).status).toBe(200);
+    expect((await t.request().get('/api/fleet/versions').set(auth)).status).toBe(200);
+    expect((await t.request().get('/api/fleet/lagging-sites').set(auth)).status).toBe(200);
+    expect((await t.request().get(`/api/loggers/${ids.healthy}/timeline`).set(auth)).status).toBe(200);
+    expect((await t.request().post(`/api/loggers/${ids.healthy}/notes`).set(auth).send({ text: 'from a script' })).status).toBe(403);
+  });
+
   test('when nobody is signed in, then 401; when an integrator asks, then only loggers they may see', async () => {
     expect((await t.request().get('/api/loggers/export.csv')).status).toBe(401);
     const integrator = await t.signedIn('integrator', 'Ade Integrator');
