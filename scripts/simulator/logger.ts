@@ -10,7 +10,8 @@
 //   as the install does; a report that could not be delivered (network, 429, 503) is kept and sent
 //   with the next check-in, and only the latest state is kept (states only move forward).
 // - The image is verified before "downloaded" is reported: "downloaded" means complete and trusted.
-// - The new firmware runs from the next check-in after "installed" (the reboot happens in between).
+// - After reporting "installed" the logger reboots into the new version and checks in as soon as it
+//   is up (a few seconds later), so the server confirms the install without waiting a whole interval.
 // - The image URL must be on the server the logger checks in with; redirects are refused
 //   (RFC 9124 §4.2.6, NET.REDIRECT).
 // - 429 and 503 on a download end the attempt as a transient `connection` failure; the bytes already
@@ -197,6 +198,8 @@ export type InstallOutcome = { state: 'installed' | 'failed'; reason?: FailureRe
 type Download = { release: string; sha256: string; etag: string | null; parts: Buffer[]; have: number };
 
 const DEFAULT_RETRY_S = 60;
+/** From the installed report to the new version's first check-in: the reboot. */
+const REBOOT_MS = 5_000;
 const injectedFailures: readonly FailureReason[] = ['integrity', 'storage', 'other'];
 
 export class VirtualLogger {
@@ -541,9 +544,11 @@ export class VirtualLogger {
         return fail(reason, `${detail} (simulated)`);
       }
       const now = this.env.clock();
-      // The reboot takes a few seconds; the logger runs the new version from its next check-in.
-      this.rebootInto = { version: verdict.manifest.version, securityCounter: verdict.manifest.security_counter, at: new Date(now.getTime() + 5_000) };
+      const bootAt = new Date(now.getTime() + REBOOT_MS);
+      this.rebootInto = { version: verdict.manifest.version, securityCounter: verdict.manifest.security_counter, at: bootAt };
       await this.report({ release: offer.release, state: 'installed' });
+      // Firmware keeps no timer across a reboot: it checks in as soon as the new version is up.
+      this.nextCheckInAt = bootAt;
       return { state: 'installed' };
     } finally {
       this.installing = false;

@@ -1,0 +1,188 @@
+// `npm run simulate -- --loggers 500 --minutes 10 --speed 60 …`: a fleet of virtual loggers checking
+// in with a running Heliodor, taking the offers it makes, and reporting how their installs went.
+// Wiring only: the loggers live in ./logger.ts, the fleet in ./fleet.ts.
+import fs from 'node:fs';
+import path from 'node:path';
+import { Command, InvalidArgumentError, Option } from 'commander';
+import { ManifestError } from '../../server/images/manifest';
+import type { LoggerIdentity } from './logger';
+import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, FleetTally, loadTrustedKeys, readBenchSheet, registerFleet, runFleet } from './fleet';
+import { seededRandom } from './random';
+
+const MAX_LOGGERS = 5000;
+const MAX_MINUTES = 24 * 60;
+
+function number(name: string, min: number, max: number, integer = false) {
+  return (value: string) => {
+    const n = Number(value);
+    if (!Number.isFinite(n) || n < min || n > max || (integer && !Number.isInteger(n))) {
+      throw new InvalidArgumentError(`${name} must be ${integer ? 'a whole number' : 'a number'} from ${min} to ${max}`);
+    }
+    return n;
+  };
+}
+
+type Options = {
+  url: string;
+  loggers: number;
+  minutes: number;
+  speed: number;
+  benchSheet?: string;
+  register: boolean;
+  email: string;
+  password?: string;
+  model?: string;
+  earlyShare: number;
+  keys?: string;
+  firmware: string;
+  counter: number;
+  failRate: number;
+  interruptRate: number;
+  seed: number;
+  concurrency: number;
+  start?: string;
+};
+
+const dataDir = path.resolve(process.env.HELIODOR_DATA ?? '.data');
+
+function buildProgram(run: (o: Options) => Promise<number>): Command {
+  return new Command('simulate')
+    .description('Heliodor fleet simulator: virtual loggers that check in, take offers, download, verify, install and report')
+    .showHelpAfterError('(run with --help for usage)')
+    .option('--url <origin>', 'the Heliodor server; all traffic goes there and nowhere else', 'http://127.0.0.1:8080')
+    .option('--loggers <n>', `how many loggers (1–${MAX_LOGGERS})`, number('--loggers', 1, MAX_LOGGERS, true), 50)
+    .option('--minutes <n>', `how long to run, in real minutes (up to ${MAX_MINUTES})`, number('--minutes', 0.05, MAX_MINUTES), 10)
+    .option('--speed <n>', 'simulated seconds per real second', number('--speed', 1, 3600), 60)
+    .option('--bench-sheet <file>', `take tokens from a bench sheet (default: ${path.join(dataDir, 'demo', 'bench-sheet.csv')})`)
+    .option('--register', 'register and enroll new loggers through the console API instead (needs an admin sign-in)', false)
+    .option('--email <email>', 'admin e-mail for --register', process.env.HELIODOR_SIM_EMAIL ?? 'morgan@fernhollow.example')
+    .option('--password <password>', 'admin password for --register (default: $HELIODOR_SIM_PASSWORD, else the demo password)')
+    .option('--model <name-or-id>', 'model of the loggers to register (--register)')
+    .option('--early-share <share>', 'share of registered loggers on the early track, 0–1 (--register)', number('--early-share', 0, 1), 0)
+    .option('--keys <dir>', `folder of trusted public-key PEMs; private keys in it are skipped (default: ${path.join(dataDir, 'demo')}, where the demo seed writes its key)`)
+    .option('--firmware <spec>', 'version the loggers run at the start, per board or for all', 'A=2.1.4,B=2.2.0,C=2.2.0')
+    .option('--counter <n>', 'security counter the loggers start with', number('--counter', 0, Number.MAX_SAFE_INTEGER, true), 0)
+    .option('--fail-rate <share>', 'share of installs that fail (reason integrity, storage or other), 0–1', number('--fail-rate', 0, 1), 0)
+    .option('--interrupt-rate <share>', 'share of download attempts cut short, 0–1', number('--interrupt-rate', 0, 0.95), 0.1)
+    .option('--seed <n>', 'seed for readings, faults and failures (same seed, same run)', number('--seed', 0, 2 ** 32 - 1, true), 1)
+    .addOption(new Option('--concurrency <n>', 'loggers talking to the server at once').argParser(number('--concurrency', 1, 256, true)).default(32))
+    .option('--start <time>', 'simulated start time, RFC 3339 (default: now)')
+    .action(async (options: Options) => {
+      process.exitCode = await run(options);
+    });
+}
+
+async function identities(o: Options, random: () => number, firmware: (board: string) => string, say: (s: string) => void): Promise<LoggerIdentity[]> {
+  if (o.register) {
+    const session = new ConsoleSession(o.url);
+    await session.signIn(o.email, o.password ?? process.env.HELIODOR_SIM_PASSWORD ?? process.env.HELIODOR_DEMO_PASSWORD ?? 'fernhollow-demo');
+    say(`registering and enrolling ${o.loggers} loggers through the console API…`);
+    const prefix = `SIM${Date.now().toString(36).toUpperCase()}`;
+    return registerFleet(session, { count: o.loggers, model: o.model, earlyShare: o.earlyShare, firmware, securityCounter: o.counter, random, serialPrefix: prefix });
+  }
+  const file = o.benchSheet ?? path.join(dataDir, 'demo', 'bench-sheet.csv');
+  if (!fs.existsSync(file)) throw new SetupError(`no bench sheet at ${file}: pass --bench-sheet <file>, or --register`);
+  const rows = readBenchSheet(fs.readFileSync(file, 'utf8'));
+  if (rows.length < o.loggers) say(`the bench sheet has ${rows.length} loggers; simulating those`);
+  return rows.slice(0, o.loggers).map((r) => ({ serial: r.serial, token: r.token, board: r.board, firmware: firmware(r.board), securityCounter: o.counter }));
+}
+
+async function simulate(o: Options): Promise<number> {
+  const say = (s: string) => process.stderr.write(`${s}\n`);
+  let url: URL;
+  try {
+    url = new URL(o.url);
+    if (url.protocol !== 'http:' && url.protocol !== 'https:') throw new Error('not http');
+  } catch {
+    say(`simulate: --url must be an http(s) origin such as http://127.0.0.1:8080`);
+    return 2;
+  }
+  const start = o.start ? new Date(o.start) : new Date();
+  if (Number.isNaN(start.getTime())) {
+    say('simulate: --start must be an RFC 3339 time such as 2026-06-21T06:00:00Z');
+    return 2;
+  }
+  try {
+    const keysDir = o.keys ?? path.join(dataDir, 'demo');
+    if (!fs.existsSync(keysDir)) throw new SetupError(`no trusted keys folder at ${keysDir}: pass --keys <dir> with the signing keys' public PEMs`);
+    const trustedKeys = loadTrustedKeys(keysDir);
+    if (trustedKeys.length === 0) throw new SetupError(`no public-key PEM in ${keysDir}: every install would fail its signature check`);
+
+    const random = seededRandom(o.seed);
+    const firmware = firmwareByBoard(o.firmware);
+    const who = await identities(o, random, firmware, say);
+    const clock = acceleratedClock(start, o.speed);
+    const tally = new FleetTally();
+    const loggers = buildFleet(
+      who,
+      { baseUrl: url.origin, clock, random, trustedKeys, failRate: o.failRate, interruptRate: o.interruptRate, spreadS: 60 },
+      tally,
+    );
+    const until = new Date(start.getTime() + o.minutes * 60_000 * o.speed);
+    say(`${loggers.length} loggers → ${url.origin}, ${o.minutes} min at ${o.speed}× (simulated ${start.toISOString()} … ${until.toISOString()}), ${trustedKeys.length} trusted key(s)`);
+
+    let stop = false;
+    const onSignal = () => {
+      stop = true;
+    };
+    process.once('SIGINT', onSignal);
+    const tty = process.stdout.isTTY === true;
+    let shownAt = 0;
+    const show = (final = false) => {
+      const wall = Date.now();
+      if (!final && wall - shownAt < (tty ? 250 : 10_000)) return;
+      shownAt = wall;
+      const line = `${clock().toISOString().slice(0, 16).replace('T', ' ')}  ${tally.line()}`;
+      process.stdout.write(tty ? `\r\x1b[2K${line}${final ? '\n' : ''}` : `${line}\n`);
+    };
+    const sleep = (ms: number) => new Promise<void>((resolve) => setTimeout(resolve, Math.max(1, ms)));
+    await runFleet(loggers, {
+      clock,
+      until,
+      concurrency: o.concurrency,
+      tally,
+      waitUntil: (at) => sleep(Math.min(250, (at.getTime() - clock().getTime()) / o.speed)),
+      pause: () => sleep(100),
+      onStep: () => {
+        show();
+        return stop;
+      },
+    });
+    process.off('SIGINT', onSignal);
+    show(true);
+
+    const c = tally.counts;
+    const versions = new Map<string, number>();
+    for (const l of loggers) versions.set(l.firmware, (versions.get(l.firmware) ?? 0) + 1);
+    const list = (r: Record<string, number>) => Object.entries(r).map(([k, v]) => `${k} ${v}`).join(', ') || 'none';
+    process.stdout.write(
+      [
+        '',
+        `Summary${stop ? ' (stopped early)' : ''}`,
+        `  check-ins      ${c.checkIns}`,
+        `  offers taken   ${c.offers}`,
+        `  installs       ${c.installs}`,
+        `  failures       ${c.failures}${c.failures ? ` (${list(c.failuresByReason)})` : ''}`,
+        `  errors         ${c.errors}`,
+        `  backoffs       ${c.backoffs} (429/503 with Retry-After)`,
+        `  interruptions  ${c.interruptions} (downloads resumed)`,
+        `  resets         ${list(c.resets)}`,
+        `  now running    ${[...versions].sort(([a], [b]) => a.localeCompare(b, 'en', { numeric: true })).map(([v, n]) => `${v} × ${n}`).join(', ')}`,
+        ...tally.errorSamples.map((e, i) => `${i === 0 ? '  first errors   ' : '                 '}${e}`),
+        '',
+      ].join('\n'),
+    );
+    return c.errors > 0 ? 1 : 0;
+  } catch (error) {
+    const known = error instanceof SetupError || error instanceof ManifestError;
+    say(`simulate: ${known ? '' : 'unexpected error: '}${error instanceof Error ? error.message : String(error)}`);
+    return 1;
+  }
+}
+
+buildProgram(simulate)
+  .parseAsync(process.argv)
+  .catch((error: unknown) => {
+    process.stderr.write(`simulate: ${(error as Error).message}\n`);
+    process.exitCode = 1;
+  });
