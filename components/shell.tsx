@@ -21,6 +21,11 @@ type ShellProps = {
 
 export function Shell({ me, wide, pathname, destinations, onSignOut, children }: ShellProps) {
   const insets = useSafeAreaInsets();
+  // A new page starts at its top, not where the previous page was scrolled to.
+  const scroller = React.useRef<ScrollView>(null);
+  React.useEffect(() => {
+    scroller.current?.scrollTo({ y: 0, animated: false });
+  }, [pathname]);
   if (wide) {
     return (
       <View style={styles.wideRoot}>
@@ -40,7 +45,7 @@ export function Shell({ me, wide, pathname, destinations, onSignOut, children }:
             </Pressable>
           </View>
         </View>
-        <ScrollView style={{ flex: 1 }} contentContainerStyle={styles.wideContent}>
+        <ScrollView ref={scroller} style={{ flex: 1 }} contentContainerStyle={styles.wideContent}>
           <View style={{ width: '100%', maxWidth: BREAKPOINTS.contentMax }}>{children}</View>
         </ScrollView>
       </View>
@@ -50,7 +55,7 @@ export function Shell({ me, wide, pathname, destinations, onSignOut, children }:
   const moreCurrent = !tabs.some((t) => isCurrent(t.href, pathname));
   return (
     <View style={[styles.phoneRoot, { paddingTop: insets.top }]}>
-      <ScrollView style={{ flex: 1 }} contentContainerStyle={styles.phoneContent}>
+      <ScrollView ref={scroller} style={{ flex: 1 }} contentContainerStyle={styles.phoneContent}>
         {children}
       </ScrollView>
       <View style={[styles.tabBar, { paddingBottom: Math.max(insets.bottom, space.xs) }]} role="tablist" aria-label="Main">

@@ -225,12 +225,20 @@ function ensureWebBuild({ force = false } = {}) {
 function exportWeb(stamp) {
   log('building the web app (expo export --platform web)');
   const started = Date.now();
-  run(path.join(root, 'node_modules', '.bin', 'expo'), ['export', '--platform', 'web', '--output-dir', 'dist'], {
+  // Export beside dist/ and swap it in at once, so a running server never sees a half-written app.
+  const next = path.join(root, '.dist-next');
+  const old = path.join(root, '.dist-old');
+  fs.rmSync(next, { recursive: true, force: true });
+  run(path.join(root, 'node_modules', '.bin', 'expo'), ['export', '--platform', 'web', '--output-dir', '.dist-next'], {
     cwd: root,
     env: { ...process.env, CI: '1', EXPO_NO_TELEMETRY: '1' },
     stdio: ['ignore', 'ignore', 'inherit'],
   });
-  fs.writeFileSync(stamp, new Date().toISOString());
+  fs.writeFileSync(path.join(next, path.basename(stamp)), new Date().toISOString());
+  fs.rmSync(old, { recursive: true, force: true });
+  if (fs.existsSync(path.join(root, 'dist'))) fs.renameSync(path.join(root, 'dist'), old);
+  fs.renameSync(next, path.join(root, 'dist'));
+  fs.rmSync(old, { recursive: true, force: true });
   log(`web app built in ${((Date.now() - started) / 1000).toFixed(1)} s`);
   return true;
 }

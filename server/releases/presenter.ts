@@ -69,7 +69,7 @@ export async function presentRelease(sequelize: Sequelize, release: Release) {
       action: t.action,
       fromState: t.fromState,
       toState: t.toState,
-      share: t.share,
+      share: t.share === null || t.share === undefined ? null : Number(t.share),
       reason: t.reason,
       actorName: t.actorName,
     })),
