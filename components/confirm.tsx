@@ -20,8 +20,8 @@ type Props = {
 export function ConfirmDialog({ visible, title, detail, confirmLabel, cancelLabel = 'Cancel', danger, busy, onConfirm, onCancel, children }: Props) {
   return (
     <Modal visible={visible} transparent animationType="none" onRequestClose={onCancel}>
-      <Pressable style={styles.backdrop} onPress={onCancel} aria-label="Close" />
-      <View style={styles.center} pointerEvents="box-none">
+      <View style={styles.backdrop}>
+        <Pressable style={styles.cover} onPress={onCancel} aria-label="Close" />
         <View role="alertdialog" aria-label={title} style={styles.dialog}>
           <Text role="heading" aria-level={2} style={type.heading}>
             {title}
@@ -38,10 +38,14 @@ export function ConfirmDialog({ visible, title, detail, confirmLabel, cancelLabe
   );
 }
 
-const cover = { position: 'absolute', top: 0, right: 0, bottom: 0, left: 0 } as const;
+/** A theme colour with opacity, as rgba() (every browser reads it). */
+function withAlpha(hex: string, alpha: number): string {
+  const n = parseInt(hex.slice(1), 16);
+  return `rgba(${(n >> 16) & 255}, ${(n >> 8) & 255}, ${n & 255}, ${alpha})`;
+}
 
 const styles = StyleSheet.create({
-  backdrop: { ...cover, backgroundColor: `${colors.ink}73` }, // ink at 45 %
-  center: { ...cover, alignItems: 'center', justifyContent: 'center', padding: space.lg },
+  backdrop: { flex: 1, backgroundColor: withAlpha(colors.ink, 0.45), alignItems: 'center', justifyContent: 'center', padding: space.lg },
+  cover: { position: 'absolute', top: 0, right: 0, bottom: 0, left: 0 },
   dialog: { backgroundColor: colors.surface, borderRadius: radii.lg, padding: space.xl, gap: space.md, width: '100%', maxWidth: 460, borderColor: colors.line, borderWidth: 1 },
 });

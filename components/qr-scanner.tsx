@@ -117,5 +117,5 @@ export function QrScanner({ onRead, onProblem }: { onRead: (text: string) => voi
 const styles = StyleSheet.create({
   frame: { width: '100%', aspectRatio: 4 / 3, maxHeight: 420, backgroundColor: colors.ink, borderRadius: radii.lg, overflow: 'hidden', position: 'relative' },
   target: { position: 'absolute', top: '15%', bottom: '15%', left: '25%', right: '25%', borderColor: colors.heliodor, borderWidth: 3, borderRadius: radii.md },
-  caption: { position: 'absolute', left: 0, right: 0, bottom: 0, padding: space.sm, backgroundColor: `${colors.ink}B3` }, // ink at 70 %
+  caption: { position: 'absolute', left: 0, right: 0, bottom: 0, padding: space.sm, backgroundColor: colors.ink, opacity: 0.85 },
 });
