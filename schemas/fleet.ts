@@ -133,6 +133,8 @@ export const LAGGING_REASON_LABELS: Record<LaggingReason, string> = {
 export const laggingQuery = z.object({
   reason: z.enum(laggingReasons, { message: oneOf(laggingReasons) }).optional(),
   customer: z.string().trim().max(100, 'at most 100 characters').optional(),
+  /** One site (the lagging site's own screen). */
+  siteId: uuid.optional(),
   sort: z.enum(['lagging_since', 'behind'], { message: 'must be lagging_since or behind' }).default('lagging_since'),
   dir: z.enum(['asc', 'desc'], { message: 'must be asc or desc' }).optional(),
   page: z.coerce.number({ message: 'must be a number' }).int().min(1, 'pages count from 1').default(1),

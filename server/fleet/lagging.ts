@@ -105,6 +105,10 @@ async function siteRows(deps: FleetDeps, query: LaggingQuery, now: Date, onlySit
     conditions.push('s.customer ILIKE :customer');
     replacements.customer = likePattern(query.customer);
   }
+  if (query.siteId) {
+    conditions.push('l.site_id = :siteId');
+    replacements.siteId = query.siteId;
+  }
   if (onlySites) {
     if (onlySites.length === 0) return { rows: [], total: 0 };
     conditions.push('l.site_id IN (:onlySites)');
@@ -161,7 +165,7 @@ export async function laggingSites(deps: FleetDeps, query: LaggingQuery, all = f
   let onlySites: string[] | null = null;
   let reasonsBySite: Map<string, LaggingLogger[]> | null = null;
   if (query.reason) {
-    reasonsBySite = await withReasons(deps, await behindLoggers(deps, null, query.customer, now), now);
+    reasonsBySite = await withReasons(deps, await behindLoggers(deps, query.siteId ? [query.siteId] : null, query.customer, now), now);
     onlySites = [...reasonsBySite].filter(([, list]) => list.some((l) => l.reason === query.reason)).map(([site]) => site);
   }
   const { rows, total } = await siteRows(deps, query, now, onlySites, !all);

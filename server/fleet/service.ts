@@ -222,7 +222,7 @@ export async function sparklines(deps: FleetDeps, actor: Actor, loggerId: string
 
 // ─── Why no update? ─────────────────────────────────────────────────────────
 
-export type WhyAnswer = { loggerId: string; at: string; offer: { releaseId: string; version: string } | null; verdicts: (ReleaseVerdict & { label: string })[] };
+export type WhyAnswer = { loggerId: string; at: string; offer: { releaseId: string; version: string } | null; verdicts: (ReleaseVerdict & { offer: boolean; label: string })[] };
 
 /** The decision the logger's next check-in would get now, from its latest reported state, for every release of its model. */
 export async function whyNoUpdate(deps: FleetDeps, actor: Actor, loggerId: string): Promise<WhyAnswer> {
@@ -237,6 +237,6 @@ export async function whyNoUpdate(deps: FleetDeps, actor: Actor, loggerId: strin
     loggerId: row.id,
     at: now.toISOString(),
     offer: decision.offer ? { releaseId: decision.offer.id, version: decision.offer.version } : null,
-    verdicts: decision.considered.map((v) => ({ ...v, label: REASON_LABELS[v.reason] })),
+    verdicts: decision.considered.map((v) => ({ ...v, offer: v.outcome === 'offered', label: REASON_LABELS[v.reason] })),
   };
 }

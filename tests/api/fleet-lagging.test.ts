@@ -151,6 +151,9 @@ describe('lagging sites', () => {
     const parish = await lagging({ customer: 'parish council' }); // Aldmere Village Hall is the parish council's too
     expect(parish.rows.map((r) => r.siteId).sort()).toEqual([site.silent, site.offered, site.daylight].sort());
     expect(parish.rows.every((r) => r.customer === 'Aldmere Parish Council')).toBe(true);
+    const one = await lagging({ siteId: site.failed });
+    expect(one.rows.map((r) => r.siteId)).toEqual([site.failed]);
+    expect((await lagging({ siteId: site.current })).total).toBe(0);
     const both = await lagging({ customer: 'parish', reason: 'silent' });
     expect(both.rows.map((r) => r.siteId)).toEqual([site.silent]);
     const bad = await support.get('/api/fleet/lagging-sites').query({ reason: "silent' OR 1=1 --" });
