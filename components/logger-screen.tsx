@@ -29,6 +29,8 @@ type Props = {
   /** Present for people who may change the profile; limits come from the logger's model. */
   profile?: Action<[input: ProfileInput]> & { limits?: ModelLimits };
   photoUrl: string;
+  /** The fleet views' part of the page (Why no update?, readings, timeline, notes), shown below the registry's. */
+  fleet?: React.ReactNode;
 };
 
 const asApi = (e: unknown) => e as (ApiError & Error) | null;
@@ -58,7 +60,7 @@ export function LoggerScreen(props: Props) {
   );
 }
 
-function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retire, move, profile, photoUrl }: Props & { logger: LoggerDetail }) {
+function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retire, move, profile, photoUrl, fleet }: Props & { logger: LoggerDetail }) {
   const [ask, setAsk] = React.useState<'rotate' | 'retire' | 'move' | null>(null);
   const [editing, setEditing] = React.useState(false);
   const [reason, setReason] = React.useState('');
@@ -174,6 +176,8 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
           </Row>
         </Card>
       ) : null}
+
+      {fleet}
 
       <ConfirmDialog
         visible={ask === 'rotate'}

@@ -20,6 +20,8 @@ export const destinations: Destination[] = [
   { href: '/loggers', label: 'Loggers', icon: 'loggers', roles: everyone, tab: true },
   { href: '/releases', label: 'Releases', icon: 'releases', roles: ['admin', 'release_engineer', 'support'], tab: true },
   { href: '/enroll', label: 'Enroll', icon: 'enroll', roles: ['admin', 'integrator'], tab: true },
+  { href: '/lagging', label: 'Lagging sites', icon: 'lagging', roles: ['admin', 'release_engineer', 'support'] },
+  { href: '/fleet/versions', label: 'Versions', icon: 'releases', roles: everyone },
   { href: '/sites', label: 'Sites', icon: 'sites', roles: everyone },
   { href: '/models', label: 'Models', icon: 'models', roles: everyone },
   { href: '/activity', label: 'Activity', icon: 'activity', roles: ['admin', 'release_engineer', 'support'] },

@@ -1,8 +1,10 @@
 import React from 'react';
-import { StyleSheet, Text, View } from 'react-native';
+import { Pressable, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
 import { Page } from './shell';
-import { Card, EmptyState } from './ui';
+import { Badge, Card, EmptyState, ProgressBar, Row } from './ui';
+import { FLAG_TONES } from './fleet-controls';
+import { FLAG_LABELS } from '../schemas/fleet';
 import { QueryView, type QueryState } from './query-state';
 import { useBreakpoints } from './breakpoints';
 import { colors, space, type, toneColors, type Tone } from './theme';
@@ -22,11 +24,12 @@ export function OverviewScreen({ name, state }: { name: string; state: QueryStat
           ) : (
             <View style={{ gap: space.lg }}>
               <View style={[styles.grid, wide && { flexWrap: 'nowrap' }]}>
-                <Figure label="Loggers" value={o.loggers.total} note={`${o.loggers.registered} waiting to be enrolled`} />
-                <Figure label="Online" value={o.loggers.online} tone="moss" note="checked in within 3 intervals" />
-                <Figure label="Silent" value={o.loggers.silent} tone={o.loggers.silent ? 'amber' : 'moss'} note="enrolled, no recent check-in" />
-                <Figure label="Sites" value={o.sites} note={`${o.models} model${o.models === 1 ? '' : 's'}, ${o.people} people`} />
+                <Figure label="Loggers" value={o.loggers.total} note={`${o.loggers.registered} waiting to be enrolled`} href="/loggers" />
+                <Figure label="Online" value={o.loggers.online} tone="moss" note="checked in within 3 intervals" href="/loggers?status=enrolled" />
+                <Figure label="Silent" value={o.fleet?.silent.count ?? o.loggers.silent} tone={o.loggers.silent ? 'amber' : 'moss'} note="enrolled, no recent check-in" href={o.fleet?.silent.href ?? '/loggers?flag=silent'} />
+                <Figure label="Sites" value={o.sites} note={`${o.models} model${o.models === 1 ? '' : 's'}, ${o.people} people`} href="/sites" />
               </View>
+              {o.fleet ? <FleetHealth fleet={o.fleet} registered={o.loggers.registered} retired={o.loggers.retired} /> : null}
               <Card>
                 <Text role="heading" aria-level={2} style={type.heading}>
                   Recent activity
@@ -55,19 +58,94 @@ export function OverviewScreen({ name, state }: { name: string; state: QueryStat
   );
 }
 
-function Figure({ label, value, note, tone = 'ink' }: { label: string; value: number; note: string; tone?: Tone }) {
-  return (
+function Figure({ label, value, note, tone = 'ink', href }: { label: string; value: number; note: string; tone?: Tone; href?: string }) {
+  const card = (
     <Card style={styles.figure} testID={`figure-${label.toLowerCase()}`}>
       <Text style={type.label}>{label}</Text>
       <Text style={[type.figure, { color: toneColors[tone].fg }]}>{value.toLocaleString('en-GB')}</Text>
       <Text style={type.small}>{note}</Text>
     </Card>
   );
+  if (!href) return card;
+  return (
+    <Link href={href as never} asChild>
+      <Pressable role="link" aria-label={`${label}: ${value}`} style={styles.figureLink}>
+        {card}
+      </Pressable>
+    </Link>
+  );
+}
+
+/** Fleet health (issue 6 §7): flags, lagging sites and live releases, each a link into its filtered view. */
+function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet']; registered: number; retired: number }) {
+  return (
+    <View style={{ gap: space.md }}>
+      <Card>
+        <Text role="heading" aria-level={2} style={type.heading}>
+          Fleet health
+        </Text>
+        <Row wrap gap={space.sm}>
+          {fleet.flags.map((f) => (
+            <Link key={f.flag} href={f.href as never} asChild>
+              <Pressable role="link" style={styles.chip} aria-label={`${FLAG_LABELS[f.flag]}: ${f.count}`} testID={`overview-flag-${f.flag}`}>
+                <Badge label={`${FLAG_LABELS[f.flag]} · ${f.count}`} tone={f.count ? FLAG_TONES[f.flag] : 'moss'} />
+              </Pressable>
+            </Link>
+          ))}
+          <Link href={fleet.laggingSites.href as never} asChild>
+            <Pressable role="link" style={styles.chip} aria-label={`Lagging sites: ${fleet.laggingSites.count}`} testID="overview-lagging">
+              <Badge label={`Lagging sites · ${fleet.laggingSites.count}`} tone={fleet.laggingSites.count ? 'amber' : 'moss'} />
+            </Pressable>
+          </Link>
+          <Link href={'/loggers?status=registered' as never} asChild>
+            <Pressable role="link" style={styles.chip} aria-label={`Registered, not enrolled: ${registered}`}>
+              <Badge label={`Registered · ${registered}`} tone="slate" />
+            </Pressable>
+          </Link>
+          <Link href={'/loggers?status=retired' as never} asChild>
+            <Pressable role="link" style={styles.chip} aria-label={`Retired: ${retired}`}>
+              <Badge label={`Retired · ${retired}`} tone="ink" />
+            </Pressable>
+          </Link>
+        </Row>
+      </Card>
+      <Card>
+        <Text role="heading" aria-level={2} style={type.heading}>
+          Live releases
+        </Text>
+        {fleet.liveReleases.length === 0 ? (
+          <Text style={type.body}>No release is rolling out right now.</Text>
+        ) : (
+          fleet.liveReleases.map((r) => (
+            <Link key={r.id} href={r.href as never} asChild>
+              <Pressable role="link" style={styles.releaseRow} aria-label={`Release ${r.version} ${r.track}`}>
+                <View style={{ gap: space.xs, width: '100%' }}>
+                  <Row wrap style={{ justifyContent: 'space-between' }}>
+                    <Text style={type.body}>
+                      {r.modelName} <Text style={type.mono}>{r.version}</Text> · {r.track}
+                    </Text>
+                    <Badge label={`${r.state} · ${r.share} %`} tone={r.state === 'halted' ? 'ember' : r.state === 'paused' ? 'amber' : 'slate'} />
+                  </Row>
+                  <ProgressBar value={r.share} tone={r.state === 'halted' ? 'ember' : 'moss'} />
+                  <Text style={type.small}>
+                    {r.installed} installed · {r.failed} failed
+                  </Text>
+                </View>
+              </Pressable>
+            </Link>
+          ))
+        )}
+      </Card>
+    </View>
+  );
 }
 
 const styles = StyleSheet.create({
   grid: { flexDirection: 'row', flexWrap: 'wrap', gap: space.md },
   figure: { flexGrow: 1, flexBasis: 150, minWidth: 150 },
+  figureLink: { flexGrow: 1, flexBasis: 150, minWidth: 150, textDecorationLine: 'none' },
+  chip: { minHeight: 44, justifyContent: 'center', paddingVertical: space.sm, textDecorationLine: 'none' },
+  releaseRow: { borderTopColor: colors.line, borderTopWidth: 1, paddingVertical: space.sm, textDecorationLine: 'none' },
   activityRow: { borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm, gap: 2 },
   link: { textDecorationLine: 'underline', color: colors.ink, alignSelf: 'flex-start', paddingVertical: space.sm },
 });

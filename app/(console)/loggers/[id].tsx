@@ -10,6 +10,7 @@ import { photoUrl, useLogger, useMoveLogger, useRetireLogger, useRotateToken, us
 import { useModel } from '../../../hooks/models';
 import { useSites } from '../../../hooks/sites';
 import { useMe } from '../../../hooks/session';
+import { LoggerFleet } from '../../../components/fleet-logger-panel';
 
 export default function LoggerPage() {
   const { id } = useLocalSearchParams<{ id: string }>();
@@ -71,6 +72,7 @@ export default function LoggerPage() {
           : undefined
       }
       photoUrl={photoUrl(id)}
+      fleet={<LoggerFleet loggerId={id} role={role} />}
     />
   );
 }

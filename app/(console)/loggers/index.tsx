@@ -1,27 +1,36 @@
 import React from 'react';
-import { useRouter } from 'expo-router';
-import { LoggersScreen } from '../../../components/loggers-screen';
+import { useLocalSearchParams, useRouter } from 'expo-router';
+import { FleetScreen } from '../../../components/fleet-screen';
 import { useBreakpoints } from '../../../components/breakpoints';
-import { useLoggers, type LoggerFilter } from '../../../hooks/loggers';
+import { fleetExportUrl, fleetQueryFromParams, fleetQueryToParams, useFleet, type FleetQuery } from '../../../hooks/fleet';
 import { useMe } from '../../../hooks/session';
 import { useModels } from '../../../hooks/models';
+import { useSites } from '../../../hooks/sites';
 
 export default function Loggers() {
   const router = useRouter();
+  const params = useLocalSearchParams<Record<string, string>>();
   const me = useMe();
   const { wide } = useBreakpoints();
-  const [filter, setFilter] = React.useState<LoggerFilter>({ page: 1, pageSize: 25 });
-  const loggers = useLoggers(filter);
+  const filter = React.useMemo(() => fleetQueryFromParams(params), [params]);
+  const fleet = useFleet(filter);
   const models = useModels();
-  const intervals = React.useMemo(() => Object.fromEntries((models.data?.rows ?? []).map((m) => [m.id, m.checkInIntervalS])), [models.data]);
+  const sites = useSites();
+  const modelOptions = (models.data?.rows ?? []).map((m) => ({ value: m.id, label: m.name }));
+  const boardOptions = [...new Set((models.data?.rows ?? []).flatMap((m) => m.boards.map((b) => b.label)))].sort().map((b) => ({ value: b, label: `Board ${b}` }));
+  const siteOptions = (sites.data?.rows ?? []).map((s) => ({ value: s.id, label: `${s.name} · ${s.customer}` }));
   const role = me.data?.role;
   return (
-    <LoggersScreen
-      state={loggers}
+    <FleetScreen
+      state={fleet}
       filter={filter}
-      onFilter={setFilter}
+      // The URL is the filter's home: every change goes there, and the view follows.
+      onFilter={(next: FleetQuery) => router.setParams(fleetQueryToParams(next))}
       wide={wide}
-      intervals={intervals}
+      sites={siteOptions}
+      models={modelOptions}
+      boards={boardOptions}
+      exportHref={fleetExportUrl(filter)}
       canRegister={role === 'admin' || role === 'integrator'}
       onRegister={() => router.push('/loggers/register')}
       onOpen={(id) => router.push(`/loggers/${id}` as never)}

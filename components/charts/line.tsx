@@ -1,0 +1,85 @@
+// A line chart over days (adoption, sparklines): react-native-gifted-charts fitted to the width it gets.
+import React from 'react';
+import { Text, View } from 'react-native';
+import { LineChart } from 'react-native-gifted-charts';
+import { Measured } from './width';
+import { colors, fonts, space, type } from '../theme';
+
+export type Point = { label: string; value: number | null };
+
+export function DayLineChart({ points, height = 160, color = colors.moss, label, unit = '' }: { points: Point[]; height?: number; color?: string; label: string; unit?: string }) {
+  const values = points.filter((p) => p.value !== null) as { label: string; value: number }[];
+  if (values.length < 2) return <Text style={type.small}>Not enough data yet for a chart.</Text>;
+  const every = Math.max(1, Math.ceil(points.length / 6));
+  return (
+    <View style={{ gap: space.xs }} role="img" aria-label={label}>
+      <Measured>
+        {(width) => {
+          const yLabel = 40;
+          const room = width - yLabel - 16;
+          const spacing = Math.max(2, room / Math.max(1, points.length - 1));
+          return (
+            <LineChart
+              data={points.map((p, i) => ({ value: p.value ?? 0, label: i % every === 0 ? p.label : '', hideDataPoint: p.value === null }))}
+              width={room}
+              height={height}
+              spacing={spacing}
+              initialSpacing={0}
+              endSpacing={0}
+              color={color}
+              thickness={2}
+              hideDataPoints={points.length > 20}
+              dataPointsColor={color}
+              noOfSections={4}
+              yAxisLabelWidth={yLabel}
+              yAxisLabelSuffix={unit}
+              yAxisTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 11 }}
+              xAxisLabelTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 10, width: 48 }}
+              xAxisColor={colors.line}
+              yAxisColor={colors.line}
+              rulesColor={colors.line}
+              disableScroll
+              isAnimated={false}
+            />
+          );
+        }}
+      </Measured>
+    </View>
+  );
+}
+
+/** A small line without axes for a logger's last days (supply voltage, temperature). */
+export function Sparkline({ values, color = colors.slate, height = 48, label }: { values: (number | null)[]; color?: string; height?: number; label: string }) {
+  const known = values.filter((v): v is number => v !== null);
+  if (known.length < 2) return <Text style={type.small}>No readings in this period.</Text>;
+  const min = Math.min(...known);
+  const max = Math.max(...known);
+  const pad = (max - min) * 0.1 || 0.5;
+  return (
+    <View role="img" aria-label={label}>
+      <Measured min={160}>
+        {(width) => (
+          <LineChart
+            data={values.map((v) => ({ value: (v ?? min) - (min - pad), hideDataPoint: true }))}
+            width={width - 8}
+            height={height}
+            spacing={(width - 8) / Math.max(1, values.length - 1)}
+            initialSpacing={0}
+            endSpacing={0}
+            color={color}
+            thickness={1.5}
+            hideDataPoints
+            hideRules
+            hideYAxisText
+            yAxisLabelWidth={0}
+            xAxisColor="transparent"
+            yAxisColor="transparent"
+            maxValue={max - min + 2 * pad}
+            disableScroll
+            isAnimated={false}
+          />
+        )}
+      </Measured>
+    </View>
+  );
+}

@@ -1,0 +1,52 @@
+// A stacked bar chart (react-native-gifted-charts on react-native-svg): one bar per group, one stack
+// per series, with a legend of series names and totals.
+import React from 'react';
+import { View } from 'react-native';
+import { BarChart } from 'react-native-gifted-charts';
+import { Legend } from './legend';
+import { Measured } from './width';
+import { seriesColor } from './series';
+import { colors, fonts, space } from '../theme';
+
+export type StackedBars = { groups: string[]; series: { label: string; values: number[] }[] };
+
+export function StackedBarChart({ data, height = 180, label }: { data: StackedBars; height?: number; label: string }) {
+  const stackData = data.groups.map((g, gi) => ({
+    label: g,
+    stacks: data.series.map((s, si) => ({ value: s.values[gi] ?? 0, color: seriesColor(si) })).filter((s) => s.value > 0),
+  }));
+  const max = Math.max(1, ...stackData.map((b) => b.stacks.reduce((a, s) => a + s.value, 0)));
+  return (
+    <View style={{ gap: space.sm }} aria-label={label} role="img">
+      <Measured>
+        {(width) => {
+          const yLabel = 36;
+          const room = width - yLabel - 24;
+          const barWidth = Math.max(18, Math.min(56, Math.floor(room / Math.max(1, data.groups.length) / 1.8)));
+          const spacing = Math.max(12, Math.floor((room - barWidth * data.groups.length) / Math.max(1, data.groups.length)));
+          return (
+            <BarChart
+              stackData={stackData}
+              width={room}
+              height={height}
+              barWidth={barWidth}
+              spacing={spacing}
+              initialSpacing={spacing / 2}
+              maxValue={max}
+              noOfSections={4}
+              yAxisLabelWidth={yLabel}
+              yAxisTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 11 }}
+              xAxisLabelTextStyle={{ color: colors.ink, fontFamily: fonts.regular, fontSize: 12 }}
+              xAxisColor={colors.line}
+              yAxisColor={colors.line}
+              rulesColor={colors.line}
+              disableScroll
+              isAnimated={false}
+            />
+          );
+        }}
+      </Measured>
+      <Legend mono items={data.series.map((s, i) => ({ label: s.label, color: seriesColor(i), value: String(s.values.reduce((a, v) => a + v, 0)) }))} />
+    </View>
+  );
+}

@@ -1,0 +1,149 @@
+// Support's fleet journey in the browser (issue 6 tests), at phone and wide sizes: filter the fleet to
+// low-supply loggers of one customer with the screen's own controls, check the URL carries the filter
+// and the rows are the API's answer to the same query, export that filter as CSV, then open the lagging
+// sites, open one, and read a logger's reason in plain words. Expected values come from the API at run
+// time (the demo seed decides the fleet); CSV rows are counted with csv-parse (an RFC 4180 reader).
+import fs from 'node:fs';
+import { parse } from 'csv-parse/sync';
+import type { Browser, Page } from 'playwright-core';
+import { startTestApp, testPassword, type TestApp } from '../helpers/app';
+import { launchChromium, screenshot, signIn, viewports } from '../helpers/browser';
+
+type FleetRow = { id: string; serial: string; customer: string | null; flags: string[] };
+type LaggingSite = { siteId: string; siteName: string; customer: string; loggers: { serial: string; reasonLabel: string }[] };
+
+let t: TestApp;
+let base: string;
+let browser: Browser;
+let support: ReturnType<TestApp['agent']>;
+
+beforeAll(async () => {
+  t = await startTestApp({ seed: 'demo', seedSize: 'full' });
+  base = await t.listen();
+  browser = await launchChromium();
+  support = t.agent();
+  expect((await support.post('/api/auth/sign-in').send({ email: 'lena@fernhollow.example', password: testPassword })).status).toBe(200);
+});
+
+afterAll(async () => {
+  await browser?.close();
+  await t?.close();
+});
+
+async function apiList<T>(path: string): Promise<{ rows: T[]; total: number }> {
+  const res = await support.get(path);
+  expect(res.status).toBe(200);
+  return res.body;
+}
+
+/** The serials the page shows (table rows on wide screens, cards on phones), in order. */
+async function shownSerials(page: Page, wide: boolean): Promise<string[]> {
+  const labels = await page.getByTestId(wide ? 'fleet-row' : 'fleet-card').evaluateAll((els) => els.map((e) => e.getAttribute('aria-label') ?? ''));
+  return labels.map((l) => l.replace(/^Logger /, ''));
+}
+
+/** Waits (up to 10 s) for the shown serials to settle on the expected list, then compares them. */
+async function expectSerials(page: Page, wide: boolean, expected: string[]) {
+  let shown: string[] = [];
+  for (let i = 0; i < 50; i++) {
+    shown = await shownSerials(page, wide);
+    if (JSON.stringify(shown) === JSON.stringify(expected)) break;
+    await page.waitForTimeout(200);
+  }
+  expect(shown).toEqual(expected);
+}
+
+async function open(page: Page, label: string, phone: boolean) {
+  if (phone) {
+    const tab = page.getByRole('tab', { name: label });
+    if (await tab.count()) {
+      await tab.click();
+      return;
+    }
+    await page.getByRole('tab', { name: 'More' }).click();
+    await page.getByRole('heading', { name: 'More' }).waitFor();
+    await page.getByText(label, { exact: true }).first().click();
+    return;
+  }
+  await page.getByRole('navigation', { name: 'Main' }).getByText(label, { exact: true }).click();
+}
+
+describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewport) => {
+  const wide = size === 'wide';
+
+  test('when support filters the fleet to one customer’s low-supply loggers, exports them and opens a lagging site, then the URL, rows, CSV and reason match the API', async () => {
+    // The customer with low-supply loggers, and the API's answer for the filter the UI will build.
+    const lowSupply = await apiList<FleetRow>('/api/loggers?flag=low_supply&pageSize=100');
+    const customer = lowSupply.rows.find((r) => r.customer)?.customer;
+    expect(customer).toBeTruthy();
+    const expected = await apiList<FleetRow>(`/api/loggers?flag=low_supply&q=${encodeURIComponent(customer!)}&pageSize=25`);
+    expect(expected.total).toBeGreaterThan(0);
+    expect(expected.rows.every((r) => r.flags.includes('low_supply'))).toBe(true);
+
+    const context = await browser.newContext({ viewport, acceptDownloads: true });
+    const page = await context.newPage();
+    const errors: string[] = [];
+    page.on('pageerror', (e) => errors.push(e.message));
+    await signIn(page, base, 'lena@fernhollow.example', testPassword);
+    await page.getByRole('heading', { name: 'Overview' }).waitFor();
+
+    await open(page, 'Loggers', !wide);
+    await page.getByRole('heading', { name: 'Loggers' }).waitFor();
+    await page.getByTestId(wide ? 'fleet-row' : 'fleet-card').first().waitFor();
+    await screenshot(page, `fleet-all-${size}`);
+
+    await page.getByTestId('logger-search').fill(customer!);
+    await page.waitForURL((u) => u.searchParams.get('q') === customer);
+    if (!wide) await page.getByTestId('toggle-filters').click();
+    await page.getByTestId('filter-flag').selectOption('low_supply');
+    await page.waitForURL((u) => u.searchParams.get('flag') === 'low_supply' && u.searchParams.get('q') === customer);
+    await page.getByText(`${expected.total} ${expected.total === 1 ? 'logger' : 'loggers'} match`).waitFor();
+    await expectSerials(page, wide, expected.rows.map((r) => r.serial));
+    await screenshot(page, `fleet-low-supply-${size}`);
+
+    // A link reproduces the view: the same URL opened afresh shows the same rows.
+    const link = page.url();
+    const again = await context.newPage();
+    await again.goto(link);
+    await again.getByText(`${expected.total} ${expected.total === 1 ? 'logger' : 'loggers'} match`).waitFor();
+    await expectSerials(again, wide, expected.rows.map((r) => r.serial));
+    await again.close();
+
+    // CSV of the whole filter: the export's header, and one record per matching logger.
+    const [download] = await Promise.all([page.waitForEvent('download'), page.getByTestId('fleet-export').click()]);
+    const csv = fs.readFileSync((await download.path())!, 'utf8');
+    const records: string[][] = parse(csv);
+    const reference = await support.get(`/api/loggers/export.csv?flag=low_supply&q=${encodeURIComponent(customer!)}`);
+    expect(reference.status).toBe(200);
+    expect(records[0]).toEqual((parse(reference.text) as string[][])[0]);
+    expect(records[0]).toContain('serial');
+    expect(records.length - 1).toBe(expected.total);
+    const serialAt = records[0].indexOf('serial');
+    expect(records.slice(1, 1 + expected.rows.length).map((r) => r[serialAt])).toEqual(expected.rows.map((r) => r.serial));
+
+    // Lagging sites: the API's first site, opened from the list, with its first logger's reason in words.
+    const lagging = await apiList<LaggingSite>('/api/fleet/lagging-sites');
+    expect(lagging.total).toBeGreaterThan(0);
+    const site = lagging.rows[0];
+    await open(page, 'Lagging sites', !wide);
+    await page.getByRole('heading', { name: 'Lagging sites' }).waitFor();
+    await page.getByText(`${lagging.total} ${lagging.total === 1 ? 'site' : 'sites'} lagging`).waitFor();
+    await screenshot(page, `lagging-sites-${size}`);
+
+    const [laggingCsv] = await Promise.all([page.waitForEvent('download'), page.getByTestId('lagging-export').click()]);
+    const laggingRecords: string[][] = parse(fs.readFileSync((await laggingCsv.path())!, 'utf8'));
+    const laggingReference: string[][] = parse((await support.get('/api/fleet/lagging-sites/export.csv')).text);
+    expect(laggingRecords[0]).toEqual(laggingReference[0]);
+    expect(laggingRecords.length).toBe(laggingReference.length);
+
+    await page.getByLabel(`Lagging site ${site.siteName}`, { exact: true }).first().click();
+    await page.getByRole('heading', { name: site.siteName }).waitFor();
+    const first = site.loggers[0];
+    await page.getByText(first.serial, { exact: true }).first().waitFor();
+    await page.getByText(first.reasonLabel, { exact: false }).first().waitFor();
+    await screenshot(page, `lagging-site-${size}`);
+
+    expect(errors).toEqual([]);
+    await context.close();
+  });
+});
