@@ -292,6 +292,14 @@ describe('CSV export', () => {
     expect(records.map((r) => r.site)).toEqual(['Hall "North", Aldmere', 'Hall "North", Aldmere']);
   });
 
+  test('when a site name starts like a spreadsheet formula, then the exported cell is prefixed with an apostrophe (OWASP "CSV Injection", common practice)', async () => {
+    const odd = await Site.create({ name: '=Quarry Hut+1', customer: '@Vale Quarry', address: 'Quarry Lane', latitude: null, longitude: null, timeZone: 'Europe/London', createdBy: null });
+    const l = await fleet.logger({ siteId: odd.id });
+    const res = await support.get('/api/loggers/export.csv').query({ q: l.serial });
+    const [record] = parseCsv(res.text, { columns: true }) as Record<string, string>[];
+    expect(record).toMatchObject({ site: "'=Quarry Hut+1", customer: "'@Vale Quarry" });
+  });
+
   test('when the export is asked with a bad sort, then 400 before anything is streamed', async () => {
     const res = await support.get('/api/loggers/export.csv').query({ sort: 'serial;DROP TABLE loggers' });
     expect(res.status).toBe(400);
