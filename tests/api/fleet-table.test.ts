@@ -222,6 +222,22 @@ describe('sorting', () => {
   });
 });
 
+describe('semantic-version precedence in SQL', () => {
+  test('when the examples of semver.org §11 are ordered by the firmware sort key, then they come in the order the specification lists', async () => {
+    // semver.org 2.0.0 §11: 1.0.0 < 2.0.0 < 2.1.0 < 2.1.1, and 1.0.0-alpha < 1.0.0-alpha.1 < 1.0.0-alpha.beta <
+    // 1.0.0-beta < 1.0.0-beta.2 < 1.0.0-beta.11 < 1.0.0-rc.1 < 1.0.0; build metadata does not count (§10).
+    const spec = ['1.0.0-alpha', '1.0.0-alpha.1', '1.0.0-alpha.beta', '1.0.0-beta', '1.0.0-beta.2', '1.0.0-beta.11', '1.0.0-rc.1', '1.0.0', '2.0.0', '2.1.0', '2.1.1', '2.10.0', '10.0.0'];
+    const shuffled = [...spec].reverse();
+    const [rows] = await t.sequelize.query(
+      `SELECT v FROM unnest(ARRAY[:versions]::text[]) AS x(v) ORDER BY heliodor_semver_key(v) COLLATE "C"`,
+      { replacements: { versions: shuffled } },
+    );
+    expect((rows as { v: string }[]).map((r) => r.v)).toEqual(spec);
+    const [[same]] = (await t.sequelize.query(`SELECT heliodor_semver_key('1.0.0+build.7') = heliodor_semver_key('1.0.0') AS equal`)) as [{ equal: boolean }[], unknown];
+    expect(same.equal).toBe(true);
+  });
+});
+
 describe('indexes', () => {
   test.each([
     ['serial', 'loggers_sort_serial_idx'],
