@@ -192,3 +192,25 @@ export function NoteForm({ busy, error, onAdd, done }: { busy: boolean; error: E
     </Card>
   );
 }
+
+/** Notes on a site: the form, and the notes added from this page (each is also in the activity log). */
+export function SiteNotes({ busy, error, added, onAdd }: { busy: boolean; error: Error | null; added: { id: string; text: string; authorName: string; createdAt: string }[]; onAdd: (text: string, clear: () => void) => void }) {
+  return (
+    <View style={{ gap: space.md }} testID="site-notes">
+      <NoteForm busy={busy} error={error} onAdd={onAdd} done={false} />
+      {added.length ? (
+        <Card>
+          <Text style={type.label}>Notes added now</Text>
+          {added.map((n) => (
+            <View key={n.id} style={{ borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm, gap: 2 }}>
+              <Text style={type.body}>{n.text}</Text>
+              <Text style={type.small}>
+                {n.authorName} · {absoluteTime(n.createdAt)}
+              </Text>
+            </View>
+          ))}
+        </Card>
+      ) : null}
+    </View>
+  );
+}

@@ -28,6 +28,8 @@ type Props = {
   error: ProblemLike;
   /** The draft's targeting form (drafts only). */
   targeting?: React.ReactNode;
+  /** The rollout dashboard (halt thresholds now, adoption), given the release as loaded. */
+  dashboard?: (r: Release) => React.ReactNode;
 };
 
 const SHORTCUTS = [5, 25, 50];
@@ -63,7 +65,7 @@ export function ReleaseDetailScreen(props: Props) {
   );
 }
 
-function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition, onDelete, busy, error, targeting }: Props & { r: Release }) {
+function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition, onDelete, busy, error, targeting, dashboard }: Props & { r: Release }) {
   const live = r.state !== 'draft';
   return (
     <Page title={`Release ${r.version}`} subtitle={`${r.modelName} · uploaded ${r.createdBy ? `by ${r.createdBy.name} ` : ''}${relativeTime(r.createdAt)}`}>
@@ -116,6 +118,8 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
         </View>
         <View style={wide ? styles.column : undefined}>{live || !canManage ? <Targeting r={r} /> : <ImageCard r={r} />}</View>
       </View>
+
+      {live && dashboard ? dashboard(r) : null}
 
       <Card>
         <Text role="heading" aria-level={2} style={type.heading}>

@@ -1,9 +1,11 @@
 // Fleet views (issue 6): the fleet table's query as URL search params, the version matrix, lagging
 // sites, retries, notes, a logger's timeline, sparklines and "Why no update?". Every list is sorted,
 // filtered and paged by the server; the client only carries the query.
+import React from 'react';
 import { keepPreviousData, useInfiniteQuery, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, STALE } from './api';
 import { loggerKeys } from './loggers';
+import { releaseKeys, type Release } from './releases';
 import type { List } from '../schemas/common';
 import type { LoggerRow as FleetRow } from '../schemas/loggers';
 import {
@@ -133,6 +135,37 @@ export function useVersionMatrix() {
   return useQuery({ queryKey: fleetKeys.versions(), staleTime: STALE.MINUTES.ONE, queryFn: () => api<VersionMatrix>('/api/fleet/versions') });
 }
 
+/** A release's adoption per day, read from the version matrix (which carries every started release). */
+export function useReleaseAdoption(releaseId: string) {
+  const matrix = useVersionMatrix();
+  const release = matrix.data?.models.flatMap((m) => m.releases).find((r) => r.id === releaseId);
+  return release?.adoption ?? null;
+}
+
+/**
+ * Keeps a release's page fresh while it is live (pilot, expanding): a second observer of the release's
+ * query with a refetch interval. TanStack Query stops interval refetches while the tab is hidden (the
+ * root layout wires focusManager to visibilitychange; refetchIntervalInBackground stays false).
+ */
+export function useLiveRelease(releaseId: string, live: boolean) {
+  useQuery({
+    queryKey: releaseKeys.detail(releaseId),
+    enabled: live && Boolean(releaseId),
+    refetchInterval: live ? 15_000 : false,
+    refetchIntervalInBackground: false,
+    queryFn: () => api<Release>(`/api/releases/${encodeURIComponent(releaseId)}`),
+  });
+  const qc = useQueryClient();
+  // The adoption chart follows the same rhythm.
+  React.useEffect(() => {
+    if (!live) return;
+    const t = setInterval(() => {
+      if (typeof document === 'undefined' || document.visibilityState === 'visible') qc.invalidateQueries({ queryKey: fleetKeys.versions() });
+    }, 60_000);
+    return () => clearInterval(t);
+  }, [live, qc]);
+}
+
 // ─── Lagging sites ──────────────────────────────────────────────────────────
 
 export type LaggingFilter = { reason?: LaggingReason; customer?: string; sort: 'lagging_since' | 'behind'; dir: 'asc' | 'desc'; page: number; pageSize: 25 | 50 | 100 };
@@ -201,7 +234,7 @@ export function useRetryInstall() {
   return useMutation({
     mutationFn: ({ releaseId, ...body }: { releaseId: string } & ({ loggerIds: string[] } | { siteId: string })) =>
       api<{ retried: number }>(`/api/releases/${releaseId}/retry`, { body }),
-    onSuccess: () => Promise.all([qc.invalidateQueries({ queryKey: fleetKeys.all }), qc.invalidateQueries({ queryKey: loggerKeys.all }), qc.invalidateQueries({ queryKey: ['releases'] })]),
+    onSuccess: () => Promise.all([qc.invalidateQueries({ queryKey: fleetKeys.all }), qc.invalidateQueries({ queryKey: loggerKeys.all }), qc.invalidateQueries({ queryKey: releaseKeys.all })]),
   });
 }
 

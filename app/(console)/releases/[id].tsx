@@ -6,6 +6,8 @@ import { useBreakpoints } from '../../../components/breakpoints';
 import { ApiError } from '../../../hooks/api';
 import { useDeleteRelease, useRelease, useReleaseEstimate, useReleaseTransition, useSiteChoices, useUpdateRelease, type ReleaseTargeting } from '../../../hooks/releases';
 import { useMe } from '../../../hooks/session';
+import { ReleaseDashboard } from '../../../components/release-dashboard';
+import { useLiveRelease, useReleaseAdoption } from '../../../hooks/fleet';
 
 export default function ReleaseDetail() {
   const { id = '' } = useLocalSearchParams<{ id: string }>();
@@ -13,6 +15,9 @@ export default function ReleaseDetail() {
   const me = useMe();
   const { wide } = useBreakpoints();
   const release = useRelease(id);
+  const live = release.data?.state === 'pilot' || release.data?.state === 'expanding';
+  useLiveRelease(id, live);
+  const adoption = useReleaseAdoption(id);
   const [pending, setPending] = React.useState<PendingMove | null>(null);
   const estimateShare = pending && (pending.action === 'expand' || pending.action === 'complete') ? (pending.action === 'complete' ? 100 : (pending.share ?? null)) : null;
   const estimate = useReleaseEstimate(id, estimateShare);
@@ -54,6 +59,7 @@ export default function ReleaseDetail() {
       error={(pending?.action === 'delete' ? remove.error : transition.error) as ApiError | null}
       onTransition={(t) => transition.mutate(t, { onSuccess: () => setPending(null) })}
       onDelete={() => remove.mutate(undefined, { onSuccess: () => router.replace('/releases' as never) })}
+      dashboard={(r) => <ReleaseDashboard r={r} adoption={adoption} refreshing={live} />}
       targeting={
         canManage && release.data && isDraft ? (
           <ReleaseTargetingForm

@@ -5,6 +5,10 @@ import { useIntegrators, useSite, useUpdateSite } from '../../../hooks/sites';
 import { useLoggers } from '../../../hooks/loggers';
 import { useMe } from '../../../hooks/session';
 import { useModels } from '../../../hooks/models';
+import { View } from 'react-native';
+import { SiteNotes } from '../../../components/fleet-logger';
+import { useAddNote } from '../../../hooks/fleet';
+import type { Note } from '../../../schemas/fleet';
 
 export default function SitePage() {
   const { id } = useLocalSearchParams<{ id: string }>();
@@ -17,15 +21,35 @@ export default function SitePage() {
   const save = useUpdateSite(id);
   const models = useModels();
   const intervals = React.useMemo(() => Object.fromEntries((models.data?.rows ?? []).map((m) => [m.id, m.checkInIntervalS])), [models.data]);
+  const note = useAddNote('sites', id);
+  const [added, setAdded] = React.useState<Note[]>([]);
+  const canNote = role === 'support' || role === 'release_engineer' || role === 'admin';
   return (
-    <SiteScreen
-      state={site}
-      loggers={loggers}
-      canEdit={(s) => role === 'admin' || (role === 'integrator' && !!me.data && s.integratorIds.includes(me.data.id))}
-      integrators={role === 'admin' ? integrators.data?.rows ?? [] : undefined}
-      save={{ busy: save.isPending, error: save.error, run: (input, done) => save.mutate(input, { onSuccess: done }) }}
-      intervals={intervals}
-      onOpenLogger={(loggerId) => router.push(`/loggers/${loggerId}` as never)}
-    />
+    <View style={{ gap: 24 }}>
+      <SiteScreen
+        state={site}
+        loggers={loggers}
+        canEdit={(s) => role === 'admin' || (role === 'integrator' && !!me.data && s.integratorIds.includes(me.data.id))}
+        integrators={role === 'admin' ? integrators.data?.rows ?? [] : undefined}
+        save={{ busy: save.isPending, error: save.error, run: (input, done) => save.mutate(input, { onSuccess: done }) }}
+        intervals={intervals}
+        onOpenLogger={(loggerId) => router.push(`/loggers/${loggerId}` as never)}
+      />
+      {canNote && site.data ? (
+        <SiteNotes
+          busy={note.isPending}
+          error={note.error}
+          added={added}
+          onAdd={(text, clear) =>
+            note.mutate(text, {
+              onSuccess: (n) => {
+                clear();
+                setAdded((list) => [n, ...list]);
+              },
+            })
+          }
+        />
+      ) : null}
+    </View>
   );
 }
