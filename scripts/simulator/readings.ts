@@ -12,7 +12,7 @@
 //   logarithmically in dim light and by 0.35 %/K with cell temperature (common practice for
 //   crystalline silicon); cell temperature by the NOCT model, Ta + G × (NOCT − 20) / 800 with NOCT 45 °C.
 import { getPosition } from 'suncalc';
-import { chance, gaussian, poisson, type Random } from './random';
+import { gaussian, poisson, type Random } from './random';
 
 export type Spot = { latitude: number; longitude: number };
 
@@ -240,9 +240,4 @@ export function supplyBetweenCheckIns(
   if (brownouts > 0) resets.brownout = brownouts;
   if (watchdogs > 0) resets.watchdog = watchdogs;
   return { supplyV: Number(supplyV.toFixed(3)), resets };
-}
-
-/** Whether an event with the given hourly rate happened in `hours` (used for rarer faults). */
-export function happened(random: Random, perHour: number, hours: number): boolean {
-  return chance(random, 1 - Math.exp(-perHour * hours));
 }
