@@ -55,7 +55,7 @@ export function EnrollScan({ busy, error, onToken }: { busy: boolean; error: unk
   };
 
   return (
-    <Page title="Enroll a logger" subtitle="Scan the QR label on the logger, or type the code printed with it">
+    <Page title="Enroll a logger" subtitle="Scan the QR label on the logger with the camera, or paste its link">
       {camera ? <Notice title={camera.title} detail={camera.detail} tone="amber" /> : <QrScanner onRead={onRead} onProblem={setCamera} />}
       {scanProblem ? <Notice title="Not a logger label" detail={scanProblem} tone="amber" /> : null}
       {busy ? (
