@@ -208,6 +208,17 @@ export async function registerFleet(session: ConsoleSession, options: Registrati
   return fleet;
 }
 
+/** The version each logger runs by the console's records (GET /api/loggers, page by page), by serial. */
+export async function firmwareOnRecord(session: ConsoleSession): Promise<Map<string, string>> {
+  const versions = new Map<string, string>();
+  for (let page = 1; page <= 1000; page++) {
+    const list = await session.request<{ rows: { serial: string; firmware: string | null }[]; total: number }>('GET', `/api/loggers?page=${page}&pageSize=100`);
+    for (const row of list.rows) if (row.firmware && semver.valid(row.firmware) === row.firmware) versions.set(row.serial, row.firmware);
+    if (list.rows.length < 100 || page * 100 >= list.total) break;
+  }
+  return versions;
+}
+
 // ---- Trusted keys ----
 
 /**

@@ -6,7 +6,7 @@ import path from 'node:path';
 import { Command, InvalidArgumentError, Option } from 'commander';
 import { ManifestError } from '../../server/images/manifest';
 import type { LoggerIdentity } from './logger';
-import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, FleetTally, loadTrustedKeys, readBenchSheet, registerFleet, runFleet } from './fleet';
+import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, firmwareOnRecord, FleetTally, loadTrustedKeys, readBenchSheet, registerFleet, runFleet } from './fleet';
 import { seededRandom } from './random';
 
 const MAX_LOGGERS = 5000;
@@ -60,7 +60,7 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     .option('--model <name-or-id>', 'model of the loggers to register (--register)')
     .option('--early-share <share>', 'share of registered loggers on the early track, 0–1 (--register)', number('--early-share', 0, 1), 0)
     .option('--keys <dir>', `folder of trusted public-key PEMs; private keys in it are skipped (default: ${path.join(dataDir, 'demo')}, where the demo seed writes its key)`)
-    .option('--firmware <spec>', 'version the loggers run at the start, per board or for all', 'A=2.1.4,B=2.2.0,C=2.2.0')
+    .option('--firmware <spec>', 'version the loggers run at the start, per board or for all; "console" reads each logger\'s recorded version (admin sign-in)', 'A=2.1.4,B=2.2.0,C=2.2.0')
     .option('--counter <n>', 'security counter the loggers start with', number('--counter', 0, Number.MAX_SAFE_INTEGER, true), 0)
     .option('--fail-rate <share>', 'share of installs that fail (reason integrity, storage or other), 0–1', number('--fail-rate', 0, 1), 0)
     .option('--interrupt-rate <share>', 'share of download attempts cut short, 0–1', number('--interrupt-rate', 0, 0.95), 0.1)
@@ -72,19 +72,28 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     });
 }
 
-async function identities(o: Options, random: () => number, firmware: (board: string) => string, say: (s: string) => void): Promise<LoggerIdentity[]> {
+async function adminSession(o: Options): Promise<ConsoleSession> {
+  const session = new ConsoleSession(o.url);
+  await session.signIn(o.email, o.password ?? process.env.HELIODOR_SIM_PASSWORD ?? process.env.HELIODOR_DEMO_PASSWORD ?? 'fernhollow-demo');
+  return session;
+}
+
+async function identities(o: Options, random: () => number, say: (s: string) => void): Promise<LoggerIdentity[]> {
+  const fromConsole = o.firmware.trim() === 'console';
+  const byBoard = firmwareByBoard(fromConsole ? 'A=2.1.4,B=2.2.0,C=2.2.0' : o.firmware);
+  const onRecord = fromConsole ? await firmwareOnRecord(await adminSession(o)) : new Map<string, string>();
+  const firmware = (serial: string, board: string) => onRecord.get(serial) ?? byBoard(board);
   if (o.register) {
-    const session = new ConsoleSession(o.url);
-    await session.signIn(o.email, o.password ?? process.env.HELIODOR_SIM_PASSWORD ?? process.env.HELIODOR_DEMO_PASSWORD ?? 'fernhollow-demo');
+    const session = await adminSession(o);
     say(`registering and enrolling ${o.loggers} loggers through the console API…`);
     const prefix = `SIM${Date.now().toString(36).toUpperCase()}`;
-    return registerFleet(session, { count: o.loggers, model: o.model, earlyShare: o.earlyShare, firmware, securityCounter: o.counter, random, serialPrefix: prefix });
+    return registerFleet(session, { count: o.loggers, model: o.model, earlyShare: o.earlyShare, firmware: byBoard, securityCounter: o.counter, random, serialPrefix: prefix });
   }
   const file = o.benchSheet ?? path.join(dataDir, 'demo', 'bench-sheet.csv');
   if (!fs.existsSync(file)) throw new SetupError(`no bench sheet at ${file}: pass --bench-sheet <file>, or --register`);
   const rows = readBenchSheet(fs.readFileSync(file, 'utf8'));
   if (rows.length < o.loggers) say(`the bench sheet has ${rows.length} loggers; simulating those`);
-  return rows.slice(0, o.loggers).map((r) => ({ serial: r.serial, token: r.token, board: r.board, firmware: firmware(r.board), securityCounter: o.counter }));
+  return rows.slice(0, o.loggers).map((r) => ({ serial: r.serial, token: r.token, board: r.board, firmware: firmware(r.serial, r.board), securityCounter: o.counter }));
 }
 
 async function simulate(o: Options): Promise<number> {
@@ -109,8 +118,7 @@ async function simulate(o: Options): Promise<number> {
     if (trustedKeys.length === 0) throw new SetupError(`no public-key PEM in ${keysDir}: every install would fail its signature check`);
 
     const random = seededRandom(o.seed);
-    const firmware = firmwareByBoard(o.firmware);
-    const who = await identities(o, random, firmware, say);
+    const who = await identities(o, random, say);
     const clock = acceleratedClock(start, o.speed);
     const tally = new FleetTally();
     const loggers = buildFleet(

@@ -8,7 +8,8 @@ import crypto from 'node:crypto';
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { startTestApp, type TestApp } from '../helpers/app';
+import { QueryTypes } from 'sequelize';
+import { startTestApp, testPassword, type TestApp } from '../helpers/app';
 
 let t: TestApp;
 let baseUrl: string;
@@ -59,6 +60,15 @@ describe('the fleet simulator command', () => {
     expect(run.stdout).toMatch(/errors\s+[1-9]\d*\n/);
     expect(run.stdout).toContain('FL2-GONE1: check-in answered 401');
     expect(run.code).toBe(1);
+  });
+
+  test('when told to take versions from the console, then each logger reports the version on record, not the per-board default', async () => {
+    const first = fs.readFileSync(path.join(t.dataDir, 'demo', 'bench-sheet.csv'), 'utf8').trim().split('\n')[2].split(',')[0];
+    await t.sequelize.query("UPDATE loggers SET firmware = '2.2.5' WHERE serial = :serial", { replacements: { serial: first } });
+    const run = await simulate(['--url', baseUrl, '--loggers', '3', '--minutes', '0.05', '--speed', '600', '--keys', keysDir, '--firmware', 'console', '--password', testPassword]);
+    expect(run.code).toBe(0);
+    const [row] = await t.sequelize.query<{ firmware: string }>('SELECT firmware FROM loggers WHERE serial = :serial', { type: QueryTypes.SELECT, replacements: { serial: first } });
+    expect(row.firmware).toBe('2.2.5');
   });
 
   test('when the options are out of bounds, then it refuses to start', async () => {
