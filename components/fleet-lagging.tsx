@@ -255,7 +255,7 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
         </Text>
         <ReasonBadges reasons={site.reasons} />
       </Card>
-      <View style={{ gap: space.sm }} role="list" aria-label="Loggers behind">
+      <View style={{ gap: space.sm, flexDirection: 'row', flexWrap: 'wrap' }} role="list" aria-label="Loggers behind">
         {site.loggers.map((l) => (
           <LaggingLoggerCard
             key={l.id}
@@ -284,7 +284,7 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
 
 function LaggingLoggerCard({ logger, onOpen, onRetry }: { logger: LaggingLogger; onOpen: (id: string) => void; onRetry?: () => void }) {
   return (
-    <Card style={{ gap: space.xs }} testID="lagging-logger">
+    <Card style={{ gap: space.xs, flexGrow: 1, flexBasis: 340 }} testID="lagging-logger">
       <Row wrap style={{ justifyContent: 'space-between' }}>
         <Pressable role="link" aria-label={`Logger ${logger.serial}`} onPress={() => onOpen(logger.id)} style={{ minHeight: touchTarget, justifyContent: 'center' }}>
           <Mono style={{ fontFamily: fonts.monoMedium, fontSize: 16, textDecorationLine: 'underline' }}>{logger.serial}</Mono>

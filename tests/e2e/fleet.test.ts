@@ -146,4 +146,56 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     expect(errors).toEqual([]);
     await context.close();
   });
+
+  test('when support opens the overview, versions, a live release and a low-supply logger, then each shows the API’s figures and a note joins the timeline', async () => {
+    const overview = (await support.get('/api/overview')).body as { fleet: { laggingSites: { count: number } } };
+    const releases = await apiList<{ id: string; version: string; state: string }>('/api/releases');
+    const live = releases.rows.find((r) => r.state === 'expanding') ?? releases.rows.find((r) => r.state === 'pilot');
+    expect(live).toBeDefined();
+    const release = (await support.get(`/api/releases/${live!.id}`)).body as { haltFailureRatio: number; counts: { installed: number; failed: number } };
+    const logger = (await apiList<FleetRow>('/api/loggers?flag=low_supply&pageSize=25')).rows[0];
+    const why = (await support.get(`/api/loggers/${logger.id}/why`)).body as { verdicts: { outcome: string; label: string }[] };
+
+    const context = await browser.newContext({ viewport });
+    const page = await context.newPage();
+    const errors: string[] = [];
+    page.on('pageerror', (e) => errors.push(e.message));
+    await signIn(page, base, 'lena@fernhollow.example', testPassword);
+    await page.getByRole('heading', { name: 'Fleet health' }).waitFor();
+    await page.getByLabel(`Lagging sites: ${overview.fleet.laggingSites.count}`).first().waitFor();
+    await screenshot(page, `overview-${size}`);
+
+    await page.goto(`${base}/fleet/versions`);
+    await page.getByRole('heading', { name: 'Versions' }).waitFor();
+    await page.getByTestId('model-versions').first().waitFor();
+    await screenshot(page, `versions-${size}`);
+    await page.getByText('Versions on each board').first().scrollIntoViewIfNeeded();
+    await page.getByRole('img', { name: /versions on each board/ }).first().waitFor();
+    await screenshot(page, `versions-chart-${size}`);
+    await page.getByText('Adoption over time', { exact: false }).first().scrollIntoViewIfNeeded();
+    await screenshot(page, `versions-adoption-${size}`);
+
+    // The halt rule's ratio (DEVICE_API.md): failed over finished installs, shown beside the threshold.
+    const finished = release.counts.installed + release.counts.failed;
+    const ratio = finished ? release.counts.failed / finished : 0;
+    const words = (x: number) => `${Number((x * 100).toFixed(1))} %`;
+    await page.goto(`${base}/releases/${live!.id}`);
+    await page.getByTestId('failure-ratio').waitFor();
+    expect(await page.getByTestId('failure-ratio').innerText()).toBe(`Failure ratio ${words(ratio)} of ${words(Number(release.haltFailureRatio))}`);
+    await page.getByTestId('adoption').scrollIntoViewIfNeeded();
+    await screenshot(page, `release-dashboard-${size}`);
+
+    await page.goto(`${base}/loggers/${logger.id}`);
+    await page.getByRole('heading', { name: 'Why no update?' }).waitFor();
+    const refused = why.verdicts.find((v) => v.outcome === 'not_offered');
+    if (refused) await page.getByText(refused.label, { exact: true }).first().waitFor();
+    const text = `Phoned the site about ${logger.serial} (${size}): the battery is being replaced this week.`;
+    await page.getByTestId('note-text').fill(text);
+    await page.getByTestId('note-add').click();
+    await page.getByTestId('timeline').getByText(text, { exact: true }).waitFor();
+    await screenshot(page, `logger-timeline-${size}`);
+
+    expect(errors).toEqual([]);
+    await context.close();
+  });
 });
