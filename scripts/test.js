@@ -29,7 +29,7 @@ async function main() {
   fs.chmodSync(dataDir, 0o755);
   const pgPort = Number(process.env.HELIODOR_TEST_PG_PORT || (await freePort()));
   const smtpPort = await freePort();
-  const cluster = b.pgCluster(dataDir, pgPort);
+  const cluster = b.pgCluster(dataDir, pgPort, { durable: false });
   let status = 1;
   try {
     cluster.start();

@@ -92,7 +92,7 @@ function secret(dataDir, name, bytes = 32) {
  * A private PostgreSQL cluster under <dataDir>/pg, listening on 127.0.0.1 only.
  * initdb refuses to run as root, so as root the cluster belongs to the postgres system user.
  */
-function pgCluster(dataDir, port) {
+function pgCluster(dataDir, port, { durable = true } = {}) {
   const bin = postgresBinDir();
   const pgDir = path.join(dataDir, 'pg');
   const clusterDir = path.join(pgDir, 'cluster');
@@ -150,7 +150,9 @@ function pgCluster(dataDir, port) {
       this.init();
       if (pgCtlStatus()) return;
       chownToPostgres(socketDir);
-      const opts = `-c listen_addresses=127.0.0.1 -p ${port} -k ${socketDir} -c max_connections=200 -c fsync=on`;
+      // A throwaway test cluster trades durability for speed; the real one keeps every safeguard.
+      const speed = durable ? '' : ' -c fsync=off -c synchronous_commit=off -c full_page_writes=off';
+      const opts = `-c listen_addresses=127.0.0.1 -p ${port} -k ${socketDir} -c max_connections=200${speed}`;
       asOwner('pg_ctl', ['start', '-w', '-t', '60', '-D', clusterDir, '-l', logFile, '-o', opts],
         { stdio: ['ignore', 'ignore', 'inherit'] });
       log(`PostgreSQL listening on 127.0.0.1:${port}`);
