@@ -3,6 +3,7 @@ import React from 'react';
 import { Text, View } from 'react-native';
 import { LineChart } from 'react-native-gifted-charts';
 import { Measured } from './width';
+import { niceMax } from './series';
 import { colors, fonts, space, type } from '../theme';
 
 export type Point = { label: string; value: number | null };
@@ -16,7 +17,7 @@ export function DayLineChart({ points, height = 160, color = colors.moss, label,
       <Measured>
         {(width) => {
           const yLabel = 40;
-          const room = width - yLabel - 16;
+          const room = width - yLabel - 32;
           const spacing = Math.max(2, room / Math.max(1, points.length - 1));
           return (
             <LineChart
@@ -31,6 +32,7 @@ export function DayLineChart({ points, height = 160, color = colors.moss, label,
               hideDataPoints={points.length > 20}
               dataPointsColor={color}
               noOfSections={4}
+              maxValue={niceMax(Math.max(...values.map((v) => v.value)))}
               yAxisLabelWidth={yLabel}
               yAxisLabelSuffix={unit}
               yAxisTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 11 }}

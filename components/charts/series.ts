@@ -2,6 +2,10 @@
 // beside every chart carries the words, so no series is told by colour alone.
 import { colors } from '../theme';
 
-export const seriesColors = [colors.moss, colors.slate, colors.heliodor, colors.ember, colors.amber, colors.ink, colors.inkFaint, colors.mossWash] as const;
+// Ember (failed, halted) comes last so a version is not read as a failure.
+export const seriesColors = [colors.moss, colors.slate, colors.heliodor, colors.ink, colors.amber, colors.inkFaint, colors.ember] as const;
+
+/** A round top for the y axis: four sections with whole-number steps. */
+export const niceMax = (max: number, sections = 4) => Math.max(sections, Math.ceil(max / sections) * sections);
 
 export const seriesColor = (i: number) => seriesColors[i % seriesColors.length];

@@ -5,7 +5,7 @@ import { View } from 'react-native';
 import { BarChart } from 'react-native-gifted-charts';
 import { Legend } from './legend';
 import { Measured } from './width';
-import { seriesColor } from './series';
+import { niceMax, seriesColor } from './series';
 import { colors, fonts, space } from '../theme';
 
 export type StackedBars = { groups: string[]; series: { label: string; values: number[] }[] };
@@ -15,15 +15,17 @@ export function StackedBarChart({ data, height = 180, label }: { data: StackedBa
     label: g,
     stacks: data.series.map((s, si) => ({ value: s.values[gi] ?? 0, color: seriesColor(si) })).filter((s) => s.value > 0),
   }));
-  const max = Math.max(1, ...stackData.map((b) => b.stacks.reduce((a, s) => a + s.value, 0)));
+  const max = niceMax(Math.max(1, ...stackData.map((b) => b.stacks.reduce((a, s) => a + s.value, 0))));
   return (
     <View style={{ gap: space.sm }} aria-label={label} role="img">
       <Measured>
         {(width) => {
           const yLabel = 36;
-          const room = width - yLabel - 24;
-          const barWidth = Math.max(18, Math.min(56, Math.floor(room / Math.max(1, data.groups.length) / 1.8)));
-          const spacing = Math.max(12, Math.floor((room - barWidth * data.groups.length) / Math.max(1, data.groups.length)));
+          // The plot gets what is left after the axis labels; bars and gaps share it evenly.
+          const room = width - yLabel - 40;
+          const n = Math.max(1, data.groups.length);
+          const barWidth = Math.max(18, Math.min(48, Math.floor(room / n / 2)));
+          const spacing = Math.max(12, Math.floor((room - barWidth * n) / (n + 1)));
           return (
             <BarChart
               stackData={stackData}
@@ -31,7 +33,8 @@ export function StackedBarChart({ data, height = 180, label }: { data: StackedBa
               height={height}
               barWidth={barWidth}
               spacing={spacing}
-              initialSpacing={spacing / 2}
+              initialSpacing={spacing}
+              endSpacing={0}
               maxValue={max}
               noOfSections={4}
               yAxisLabelWidth={yLabel}
