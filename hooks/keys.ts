@@ -2,21 +2,11 @@
 import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, STALE } from './api';
 import type { List } from '../schemas/common';
-import type { SignatureAlgorithm } from '../schemas/manifest';
+import type { SigningKeyView } from '../schemas/keys';
 
-export type KeyState = 'active' | 'retired' | 'revoked';
-export type SigningKey = {
-  id: string;
-  name: string;
-  keyId: string;
-  algorithm: SignatureAlgorithm;
-  state: KeyState;
-  publicKeyPem: string;
-  createdAt: string;
-  retiredAt: string | null;
-  revokedAt: string | null;
-  releaseCount: number;
-};
+// The shapes come from the shared schema module (one source of truth with the server).
+export type { KeyState } from '../schemas/keys';
+export type SigningKey = SigningKeyView;
 
 export const keyKeys = { all: ['keys'] as const, list: () => ['keys', 'list'] as const };
 

@@ -3,54 +3,14 @@
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, STALE, upload } from './api';
 import type { List } from '../schemas/common';
-import type { MeasurementProfile } from '../schemas/loggers';
+import type { LoggerDetail, LoggerRow, LoggerStatus, ProfileView } from '../schemas/loggers';
 import { siteKeys } from './sites';
 import { modelKeys } from './models';
 
-export type LoggerStatus = 'registered' | 'enrolled' | 'retired';
+// Response shapes are shared with the server (schemas/loggers.ts).
+export type { LoggerStatus, LoggerRow, LoggerDetail } from '../schemas/loggers';
+export type Profile = ProfileView;
 
-export type LoggerRow = {
-  id: string;
-  serial: string;
-  modelId: string;
-  modelName: string;
-  board: string;
-  track: string;
-  status: LoggerStatus;
-  siteId: string | null;
-  siteName: string | null;
-  customer: string | null;
-  firmware: string | null;
-  lastSeenAt: string | null;
-  supplyV: number | null;
-  online?: boolean;
-};
-
-export type Profile = MeasurementProfile & { panelWp: number | null; panelVocV: number | null; createdAt: string };
-
-export type LoggerDetail = {
-  id: string;
-  serial: string;
-  modelId: string;
-  modelName: string;
-  board: string;
-  track: string;
-  status: LoggerStatus;
-  online: boolean;
-  site: { id: string; name: string; customer: string } | null;
-  enrolledAt: string | null;
-  enrolledBy: { id: string; name: string } | null;
-  install: { panelWp: number; panelVocV: number; notes: string | null; photo: boolean } | null;
-  profile: Profile | null;
-  firmware: string | null;
-  lastSeenAt: string | null;
-  supplyV: number | null;
-  tokenIssuedAt: string | null;
-  retiredAt: string | null;
-  createdAt: string;
-};
-
-/** A token handed out once, with what its label and bench sheet row print beside it. */
 export type IssuedToken = { id?: string; serial: string; token: string; modelName: string; board: string; track?: string };
 
 export type LoggerFilter = { q?: string; siteId?: string; modelId?: string; status?: LoggerStatus; page?: number; pageSize?: 25 | 50 | 100 };
