@@ -33,7 +33,8 @@ export function StackedBarChart({ data, height = 180, label }: { data: StackedBa
               height={height}
               barWidth={barWidth}
               spacing={spacing}
-              initialSpacing={spacing}
+              // The chart puts one spacing before the first stack itself.
+              initialSpacing={0}
               endSpacing={0}
               maxValue={max}
               noOfSections={4}
