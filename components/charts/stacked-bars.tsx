@@ -25,7 +25,7 @@ export function StackedBarChart({ data, height = 180, label }: { data: StackedBa
           const room = width - yLabel - 40;
           const n = Math.max(1, data.groups.length);
           const barWidth = Math.max(18, Math.min(48, Math.floor(room / n / 2)));
-          const spacing = Math.max(12, Math.floor((room - barWidth * n) / (n + 1)));
+          const spacing = Math.max(12, Math.floor((room - barWidth * n) / n));
           return (
             <BarChart
               stackData={stackData}
@@ -33,8 +33,8 @@ export function StackedBarChart({ data, height = 180, label }: { data: StackedBa
               height={height}
               barWidth={barWidth}
               spacing={spacing}
-              // The chart puts one spacing before the first stack itself.
-              initialSpacing={0}
+              // Half a gap before the first stack: the bars sit centred in the plot.
+              initialSpacing={Math.floor(spacing / 2)}
               endSpacing={0}
               maxValue={max}
               noOfSections={4}
