@@ -2,21 +2,13 @@
 // decideOffer on their model's releases with their latest reported state, so "Why no update?" and the
 // lagging sites say exactly what the next check-in would decide (at the time `now`).
 import { QueryTypes, type Sequelize } from 'sequelize';
-import { decideOffer, type LastInstallReport, type LoggerStatus, type OfferDecision, type Track } from '../device-api/decision';
+import { decideOffer, type LastInstallReport, type LoggerAtCheckIn, type OfferDecision } from '../device-api/decision';
 import { loadReleasesOfModel, type CachedRelease } from '../device-api/release-cache';
 import { retriedSince, type StoredState } from '../device-api/reports';
 
-export type LoggerForDecision = {
-  id: string;
+/** The decision's view of a logger, read from its row: coordinates come as the site's two columns. */
+export type LoggerForDecision = Omit<LoggerAtCheckIn, 'siteCoordinates'> & {
   modelId: string;
-  status: LoggerStatus;
-  siteId: string | null;
-  board: string;
-  track: Track;
-  firmware: string | null;
-  securityCounter: number;
-  supplyV: number | null;
-  minUpdateSupplyV: number;
   latitude: number | null;
   longitude: number | null;
 };

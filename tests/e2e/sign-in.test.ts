@@ -1,35 +1,22 @@
-import type { Browser } from 'playwright-core';
-import { startTestApp, testPassword, type TestApp } from '../helpers/app';
-import { launchChromium, screenshot, signIn, viewports } from '../helpers/browser';
+import { testPassword } from '../helpers/app';
+import { browserApp, screenshot, signIn, viewports } from '../helpers/browser';
 
-let t: TestApp;
-let base: string;
-let browser: Browser;
-
-beforeAll(async () => {
-  t = await startTestApp({ seed: 'demo' });
-  base = await t.listen();
-  browser = await launchChromium();
-});
-afterAll(async () => {
-  await browser?.close();
-  await t?.close();
-});
+const session = browserApp({ seed: 'demo' });
 
 describe.each(Object.entries(viewports))('signed-in shell at %s size', (name, viewport) => {
   test('when the demo admin signs in, then the overview shows fleet numbers and sign-out returns to the sign-in screen', async () => {
-    const page = await browser.newPage({ viewport });
+    const page = await session.browser.newPage({ viewport });
     const errors: string[] = [];
     page.on('pageerror', (e) => errors.push(e.message));
-    await page.goto(base);
+    await page.goto(session.base);
     await page.waitForURL(/\/sign-in/);
     await screenshot(page, `sign-in-${name}`);
 
-    await signIn(page, base, 'morgan@fernhollow.example', testPassword);
+    await signIn(page, session.base, 'morgan@fernhollow.example', testPassword);
     await page.getByRole('heading', { name: 'Overview' }).waitFor();
     await page.getByTestId('figure-loggers').waitFor();
     const loggers = await page.getByTestId('figure-loggers').innerText();
-    const [[{ total }]] = (await t.sequelize.query('SELECT count(*)::int AS total FROM loggers')) as [{ total: number }[], unknown];
+    const [[{ total }]] = (await session.t.sequelize.query('SELECT count(*)::int AS total FROM loggers')) as [{ total: number }[], unknown];
     expect(loggers).toContain(String(total));
     await screenshot(page, `overview-${name}`);
 
@@ -49,8 +36,8 @@ describe.each(Object.entries(viewports))('signed-in shell at %s size', (name, vi
 });
 
 test('when the password is wrong, then the sign-in screen says so and stays', async () => {
-  const page = await browser.newPage({ viewport: viewports.phone });
-  await signIn(page, base, 'morgan@fernhollow.example', 'definitely-wrong');
+  const page = await session.browser.newPage({ viewport: viewports.phone });
+  await signIn(page, session.base, 'morgan@fernhollow.example', 'definitely-wrong');
   await page.getByText('The e-mail or password is not right.').waitFor();
   expect(page.url()).toContain('/sign-in');
   await screenshot(page, 'sign-in-wrong-password-phone');
@@ -58,8 +45,8 @@ test('when the password is wrong, then the sign-in screen says so and stays', as
 });
 
 test('when a signed-out person opens a console page, then they are sent to sign in and come back after', async () => {
-  const page = await browser.newPage({ viewport: viewports.wide });
-  await page.goto(`${base}/activity`);
+  const page = await session.browser.newPage({ viewport: viewports.wide });
+  await page.goto(`${session.base}/activity`);
   await page.waitForURL(/\/sign-in\?next=/);
   await page.getByTestId('email').fill('lena@fernhollow.example');
   await page.getByTestId('password').fill(testPassword);
@@ -70,8 +57,8 @@ test('when a signed-out person opens a console page, then they are sent to sign 
 });
 
 test('when an unknown page is opened, then the 404 screen offers a way back', async () => {
-  const page = await browser.newPage({ viewport: viewports.phone });
-  await page.goto(`${base}/no/such/page`);
+  const page = await session.browser.newPage({ viewport: viewports.phone });
+  await page.goto(`${session.base}/no/such/page`);
   await page.getByRole('heading', { name: 'Page not found' }).waitFor();
   await page.close();
 });

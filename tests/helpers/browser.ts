@@ -3,6 +3,7 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { chromium, type Browser, type Page } from 'playwright-core';
+import { startTestApp, type TestApp } from './app';
 
 export const viewports = { phone: { width: 390, height: 844 }, wide: { width: 1280, height: 800 } } as const;
 export const artifacts = path.resolve(__dirname, '../e2e/artifacts');
@@ -25,4 +26,19 @@ export async function signIn(page: Page, base: string, email: string, password: 
   await page.getByTestId('email').fill(email);
   await page.getByTestId('password').fill(password);
   await page.getByTestId('sign-in').click();
+}
+
+/** A listening test app and a Chromium for one browser test file, opened before and closed after its tests. */
+export function browserApp(options: Parameters<typeof startTestApp>[0] = { seed: 'demo' }) {
+  const session = {} as { t: TestApp; base: string; browser: Browser };
+  beforeAll(async () => {
+    session.t = await startTestApp(options);
+    session.base = await session.t.listen();
+    session.browser = await launchChromium();
+  });
+  afterAll(async () => {
+    await session.browser?.close();
+    await session.t?.close();
+  });
+  return session;
 }
