@@ -8,7 +8,7 @@ import { ConfirmDialog } from './confirm';
 import { DownloadLink, Pager, Select } from './fleet-controls';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, touchTarget, type, type Tone } from './theme';
-import { LAGGING_REASON_LABELS, laggingReasons, type LaggingLogger, type LaggingReason, type LaggingSite } from '../schemas/fleet';
+import { LAGGING_REASON_LABELS, laggingReasons, type LaggingLogger, type LaggingReason, type LaggingSite, type RetryOrder } from '../schemas/fleet';
 import type { List } from '../schemas/common';
 import type { LaggingFilter } from '../hooks/fleet';
 
@@ -207,19 +207,28 @@ function LaggingTable({ rows, onOpen }: { rows: LaggingSite[]; onOpen: (id: stri
 
 // ─── One lagging site ───────────────────────────────────────────────────────
 
-type RetryTarget = { loggerIds: string[]; siteId?: undefined; label: string } | { siteId: string; loggerIds?: undefined; label: string };
+/**
+ * The retries that clear every failed install at a site: the whole site when all of them are of one
+ * release, else one request per release with its loggers.
+ */
+export function siteRetryOrders(siteId: string, failed: Pick<LaggingLogger, 'id' | 'targetReleaseId'>[]): RetryOrder[] {
+  const byRelease = new Map<string, string[]>();
+  for (const l of failed) byRelease.set(l.targetReleaseId, [...(byRelease.get(l.targetReleaseId) ?? []), l.id]);
+  if (byRelease.size === 1) return [{ releaseId: [...byRelease.keys()][0], siteId }];
+  return [...byRelease].map(([releaseId, loggerIds]) => ({ releaseId, loggerIds }));
+}
 
 type SiteProps = {
   state: { data?: LaggingSite | null; isPending: boolean; error: Error | null; refetch: () => unknown };
   canRetry: boolean;
-  retry: { busy: boolean; error: Error | null; done: number | null; run: (target: { loggerIds: string[] } | { siteId: string }, version: string) => void };
+  retry: { busy: boolean; error: Error | null; done: number | null; run: (orders: RetryOrder[]) => void };
   onOpenLogger: (id: string) => void;
   onOpenSite: (id: string) => void;
   onBack: () => void;
 };
 
 export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpenSite, onBack }: SiteProps) {
-  const [asking, setAsking] = React.useState<(RetryTarget & { version: string }) | null>(null);
+  const [asking, setAsking] = React.useState<{ orders: RetryOrder[]; label: string } | null>(null);
   if (state.isPending) return <Skeleton rows={6} height={64} />;
   if (state.error) {
     return <Notice title={(state.error as { title?: string }).title ?? 'Could not load this site'} detail={(state.error as { detail?: string }).detail ?? state.error.message} />;
@@ -234,6 +243,7 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
   }
   const failed = site.loggers.filter((l) => l.reason === 'failed_awaiting_retry');
   const failedVersions = [...new Set(failed.map((l) => l.targetVersion))];
+  const failedOf = failedVersions.length === 1 ? failedVersions[0] : `${failedVersions.length} releases`;
   return (
     <Page
       title={site.siteName}
@@ -241,8 +251,12 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
       actions={
         <>
           <Button label="Site details" variant="secondary" onPress={() => onOpenSite(site.siteId)} />
-          {canRetry && failedVersions.length === 1 ? (
-            <Button label={`Retry failed installs here (${failed.length})`} onPress={() => setAsking({ siteId: site.siteId, label: `all ${failed.length} failed installs of ${failedVersions[0]} at ${site.siteName}`, version: failedVersions[0] })} testID="retry-site" />
+          {canRetry && failed.length ? (
+            <Button
+              label={`Retry failed installs here (${failed.length})`}
+              onPress={() => setAsking({ orders: siteRetryOrders(site.siteId, failed), label: `all ${failed.length} failed installs of ${failedOf} at ${site.siteName}` })}
+              testID="retry-site"
+            />
           ) : null}
         </>
       }
@@ -261,7 +275,7 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
             key={l.id}
             logger={l}
             onOpen={onOpenLogger}
-            onRetry={canRetry && l.reason === 'failed_awaiting_retry' ? () => setAsking({ loggerIds: [l.id], label: `the failed install of ${l.targetVersion} on ${l.serial}`, version: l.targetVersion }) : undefined}
+            onRetry={canRetry && l.reason === 'failed_awaiting_retry' ? () => setAsking({ orders: [{ releaseId: l.targetReleaseId, loggerIds: [l.id] }], label: `the failed install of ${l.targetVersion} on ${l.serial}` }) : undefined}
           />
         ))}
       </View>
@@ -274,7 +288,7 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
         onCancel={() => setAsking(null)}
         onConfirm={() => {
           if (!asking) return;
-          retry.run(asking.siteId ? { siteId: asking.siteId } : { loggerIds: asking.loggerIds ?? [] }, asking.version);
+          retry.run(asking.orders);
           setAsking(null);
         }}
       />

@@ -17,6 +17,7 @@ import {
   type FleetSortKey,
   type LaggingReason,
   type LaggingSite,
+  type RetryOrder,
   type Note,
   type Sparklines,
   type TimelineItem,
@@ -228,13 +229,19 @@ export function useLaggingSite(siteId: string | undefined) {
   });
 }
 
-/** Clears failed installs of a release for some loggers or a whole site, so the next check-in offers it again. */
+/**
+ * Clears failed installs so the next check-in offers the release again: each order names the release
+ * and some loggers or a whole site. Orders run one after another; the answer is the total cleared.
+ */
 export function useRetryInstall() {
   const qc = useQueryClient();
   return useMutation({
-    mutationFn: ({ releaseId, ...body }: { releaseId: string } & ({ loggerIds: string[] } | { siteId: string })) =>
-      api<{ retried: number }>(`/api/releases/${releaseId}/retry`, { body }),
-    onSuccess: () => Promise.all([qc.invalidateQueries({ queryKey: fleetKeys.all }), qc.invalidateQueries({ queryKey: loggerKeys.all }), qc.invalidateQueries({ queryKey: releaseKeys.all })]),
+    mutationFn: async (orders: RetryOrder[]) => {
+      let retried = 0;
+      for (const { releaseId, ...body } of orders) retried += (await api<{ retried: number }>(`/api/releases/${releaseId}/retry`, { body })).retried;
+      return { retried };
+    },
+    onSettled: () => Promise.all([qc.invalidateQueries({ queryKey: fleetKeys.all }), qc.invalidateQueries({ queryKey: loggerKeys.all }), qc.invalidateQueries({ queryKey: releaseKeys.all })]),
   });
 }
 

@@ -145,7 +145,17 @@ export const laggingQuery = z.object({
 });
 export type LaggingQuery = z.infer<typeof laggingQuery>;
 
-export type LaggingLogger = { id: string; serial: string; firmware: string | null; targetVersion: string; reason: LaggingReason; reasonLabel: string; detail: string };
+export type LaggingLogger = {
+  id: string;
+  serial: string;
+  firmware: string | null;
+  /** The current release of the logger's track, which the logger lacks (the one "retry" acts on). */
+  targetReleaseId: string;
+  targetVersion: string;
+  reason: LaggingReason;
+  reasonLabel: string;
+  detail: string;
+};
 
 export type LaggingSite = {
   siteId: string;
@@ -173,12 +183,21 @@ export const retryRequest = z.union(
   { message: 'send either loggerIds (a list) or siteId' },
 );
 export type RetryRequest = z.infer<typeof retryRequest>;
+/** A retry as the console sends it: the release whose failed installs are cleared, and for whom. */
+export type RetryOrder = { releaseId: string } & RetryRequest;
 
 export const noteRequest = z.object({
   text: z.string({ message: 'is required' }).trim().min(1, 'is required').max(1000, 'at most 1000 characters'),
 });
 
 export type Note = { id: string; targetType: 'logger' | 'site'; targetId: string; text: string; authorName: string; createdAt: string };
+
+/** A site's notes, newest first (GET /api/sites/:id/notes); cursor is the previous page's nextCursor. */
+export const siteNotesQuery = z.object({
+  cursor: z.string().trim().max(500, 'at most 500 characters').optional(),
+  limit: z.coerce.number({ message: 'must be a number' }).int('must be a whole number').min(1, 'at least 1').max(100, 'at most 100').default(20),
+});
+export type SiteNotesQuery = z.infer<typeof siteNotesQuery>;
 
 export const timelineQuery = z.object({
   cursor: z.string().trim().max(500, 'at most 500 characters').optional(),

@@ -92,7 +92,7 @@ async function withReasons(deps: FleetDeps, rows: BehindRow[], now: Date): Promi
   for (const r of rows) {
     const { reason, detail } = reasonOf(r, decisions.get(r.id));
     const list = bySite.get(r.siteId!) ?? [];
-    list.push({ id: r.id, serial: r.serial, firmware: r.firmware, targetVersion: r.currentVersion, reason, reasonLabel: LAGGING_REASON_LABELS[reason], detail });
+    list.push({ id: r.id, serial: r.serial, firmware: r.firmware, targetReleaseId: r.currentId, targetVersion: r.currentVersion, reason, reasonLabel: LAGGING_REASON_LABELS[reason], detail });
     bySite.set(r.siteId!, list);
   }
   return bySite;

@@ -7,6 +7,7 @@ import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity, Site } from '../../server/db/models';
 import { createFleet, checkInBody, bearer, type Fleet } from './device-fixtures';
 import { reached, setReported } from './fleet-fixtures';
+import type { LaggingSite } from '../../schemas/fleet';
 
 // 23:30 UTC at midsummer: night in the Vale (about 52° N, 2° W), so a daylight window is closed there.
 const now = new Date('2026-06-21T23:30:00Z');
@@ -98,8 +99,6 @@ beforeAll(async () => {
   support = await t.signedIn('support', 'Lena Support');
 });
 afterAll(() => t.close());
-
-type LaggingSite = { siteId: string; siteName: string; customer: string; behind: number; total: number; oldestVersion: string; laggingSince: string; lastContactAt: string | null; reasons: Record<string, number>; loggers: { id: string; serial: string; firmware: string; reason: string; reasonLabel: string }[] };
 
 async function lagging(query: Record<string, string | number> = {}): Promise<{ rows: LaggingSite[]; total: number }> {
   const res = await support.get('/api/fleet/lagging-sites').query({ pageSize: 100, ...query });
@@ -205,7 +204,10 @@ describe('retrying failed installs', () => {
 
   test('when a release engineer retries a site, then its failed install is cleared once, the site lags for "offered", and the next check-in is offered the release', async () => {
     const priya = await t.signedIn('release_engineer', 'Priya Engineer');
-    const first = await priya.post(`/api/releases/${release.r230}/retry`).set(csrf).send({ siteId: site.failed });
+    // The lagging logger names the release it lacks, so retry acts on that release and no other of the same version.
+    const failedLogger = (await lagging({ siteId: site.failed })).rows[0].loggers[0];
+    expect(failedLogger).toMatchObject({ id: logger.failed.id, targetReleaseId: release.r230, targetVersion: '2.3.0' });
+    const first = await priya.post(`/api/releases/${failedLogger.targetReleaseId}/retry`).set(csrf).send({ siteId: site.failed });
     expect(first.status).toBe(200);
     expect(first.body).toEqual({ retried: 1 });
     const again = await priya.post(`/api/releases/${release.r230}/retry`).set(csrf).send({ loggerIds: [logger.failed.id] });
