@@ -11,11 +11,11 @@ import { parse } from '../http/validate';
 import { contextOf } from '../http/context';
 import { idParams } from '../../schemas/common';
 import { loggersQuery } from '../../schemas/loggers';
-import { laggingQuery, noteRequest, retryRequest, sparklineQuery, timelineQuery } from '../../schemas/fleet';
+import { laggingQuery, noteRequest, retryRequest, siteNotesQuery, sparklineQuery, timelineQuery } from '../../schemas/fleet';
 import { exportFleet } from './table';
 import { exportLagging, laggingSites } from './lagging';
 import { versionMatrix } from './versions';
-import { addLoggerNote, addSiteNote, retryFailed, sparklines, timeline, whyNoUpdate } from './service';
+import { addLoggerNote, addSiteNote, retryFailed, siteNotes, sparklines, timeline, whyNoUpdate } from './service';
 
 const readers = rules.everyone;
 const noteWriters = ['support', 'release_engineer', 'admin'] as const;
@@ -28,6 +28,7 @@ declareAccess({
   'POST /api/releases/:id/retry': rules.people(['admin', 'release_engineer']),
   'POST /api/loggers/:id/notes': rules.people(noteWriters),
   'POST /api/sites/:id/notes': rules.people(noteWriters),
+  'GET /api/sites/:id/notes': rules.people(readers, ['fleet:read']),
   'GET /api/loggers/:id/timeline': rules.people(readers, ['fleet:read']),
   'GET /api/loggers/:id/sparklines': rules.people(readers, ['fleet:read']),
   'GET /api/loggers/:id/why': rules.people(readers, ['fleet:read']),
@@ -100,6 +101,12 @@ export function registerFleetRoutes(api: Api, deps: FleetRouteDeps) {
     const { id } = parse(idParams, req.params, 'path');
     const { text } = parse(noteRequest, req.body);
     res.status(201).json(await addSiteNote(deps, contextOf(req), id, text));
+  });
+
+  api.get('/api/sites/:id/notes', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    const query = parse(siteNotesQuery, req.query, 'query');
+    res.json(await siteNotes(deps, contextOf(req).actor, id, query));
   });
 
   api.get('/api/loggers/:id/timeline', async (req, res) => {

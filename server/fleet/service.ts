@@ -5,8 +5,9 @@ import type { Actor, RequestContext } from '../auth/actor';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import { loggerFor } from '../loggers/service';
+import { refuseUnassignedIntegrator } from '../sites/service';
 import { REASON_LABELS, type ReleaseVerdict } from '../device-api/decision';
-import type { Note, RetryRequest, Sparklines, TimelineItem } from '../../schemas/fleet';
+import type { Note, RetryRequest, SiteNotesQuery, Sparklines, TimelineItem } from '../../schemas/fleet';
 import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C } from '../../schemas/fleet';
 import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
 import type { FleetDeps } from './table';
@@ -108,6 +109,62 @@ export async function addSiteNote(deps: FleetDeps, ctx: RequestContext, siteId: 
     await recordActivity(t, ctx, { action: 'site.note_added', targetType: 'site', targetId: site.id, summary: `Note on site ${site.name}`, details: { noteId: note.id } });
     return note;
   });
+}
+
+/** A page cursor for a site's notes: the last note's time (as PostgreSQL wrote it, microseconds kept) and id. */
+function encodeNoteCursor(at: string, id: string) {
+  return Buffer.from(JSON.stringify([at, id]), 'utf8').toString('base64url');
+}
+
+const UUID_TEXT = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+const TIMESTAMP_TEXT = /^(\d{4})-(\d{2})-(\d{2})[ T](\d{2}):(\d{2}):(\d{2})(\.\d{1,6})?(?:[+-](\d{2})(?::?(\d{2}))?|Z)?$/;
+
+/** A timestamp PostgreSQL accepts: a real calendar day and clock time, an offset within ±15:59 (a forged cursor must be a 400, not a database error). */
+function isTimestampText(at: string): boolean {
+  const m = TIMESTAMP_TEXT.exec(at);
+  if (!m) return false;
+  const [year, month, day, hour, minute, second, offsetHour, offsetMinute] = [m[1], m[2], m[3], m[4], m[5], m[6], m[8] ?? '0', m[9] ?? '0'].map(Number);
+  const date = new Date(Date.UTC(year, month - 1, day));
+  return year >= 1 && date.getUTCMonth() === month - 1 && date.getUTCDate() === day && hour < 24 && minute < 60 && second < 60 && offsetHour < 16 && offsetMinute < 60;
+}
+
+function decodeNoteCursor(text: string): { at: string; id: string } {
+  try {
+    const parsed = JSON.parse(Buffer.from(text, 'base64url').toString('utf8')) as unknown;
+    if (Array.isArray(parsed) && parsed.length === 2) {
+      const [at, id] = parsed as unknown[];
+      if (typeof at === 'string' && typeof id === 'string' && isTimestampText(at) && UUID_TEXT.test(id)) return { at, id };
+    }
+  } catch {
+    // fall through
+  }
+  throw problems.badRequest('Check the query: cursor.', [{ path: 'cursor', message: 'is not a cursor from this list of notes' }]);
+}
+
+/**
+ * A site's notes, newest first, for everyone who may see the site (integrators only their assigned
+ * sites, as GET /api/sites/:id). Keyset-paged on (created_at, id) through notes_target_idx, so a note
+ * added while someone pages neither repeats nor shifts a page.
+ */
+export async function siteNotes(deps: FleetDeps, actor: Actor, siteId: string, query: SiteNotesQuery): Promise<{ rows: Note[]; total: number; nextCursor?: string }> {
+  const after = query.cursor ? decodeNoteCursor(query.cursor) : null;
+  const [site] = await deps.sequelize.query<{ id: string }>('SELECT id FROM sites WHERE id = :siteId', { type: QueryTypes.SELECT, replacements: { siteId } });
+  if (!site) throw problems.notFound('site');
+  await refuseUnassignedIntegrator(actor, site.id);
+  const replacements = { siteId: site.id, limit: query.limit + 1, afterAt: after?.at ?? null, afterId: after?.id ?? null };
+  const [rows, [{ total }]] = await Promise.all([
+    deps.sequelize.query<Parameters<typeof presentNote>[0] & { at_text: string }>(
+      `SELECT n.*, n.created_at::text AS at_text FROM notes n
+        WHERE n.target_type = 'site' AND n.target_id = :siteId
+          ${after ? 'AND (n.created_at, n.id) < (CAST(:afterAt AS timestamptz), CAST(:afterId AS uuid))' : ''}
+        ORDER BY n.created_at DESC, n.id DESC LIMIT :limit`,
+      { type: QueryTypes.SELECT, replacements },
+    ),
+    deps.sequelize.query<{ total: number }>(`SELECT count(*) AS total FROM notes WHERE target_type = 'site' AND target_id = :siteId`, { type: QueryTypes.SELECT, replacements }),
+  ]);
+  const page = rows.slice(0, query.limit);
+  const last = page[page.length - 1];
+  return { rows: page.map(presentNote), total: Number(total), ...(rows.length > query.limit ? { nextCursor: encodeNoteCursor(last.at_text, last.id) } : {}) };
 }
 
 // ─── Timeline ───────────────────────────────────────────────────────────────
