@@ -128,6 +128,7 @@ export const fleetKeys = {
   lagging: (q: LaggingFilter) => [...fleetKeys.all, 'lagging', q] as const,
   laggingSite: (siteId: string) => [...fleetKeys.all, 'lagging-site', siteId] as const,
   timeline: (loggerId: string) => [...fleetKeys.all, 'timeline', loggerId] as const,
+  siteNotes: (siteId: string) => [...fleetKeys.all, 'site-notes', siteId] as const,
   sparklines: (loggerId: string, days: number) => [...fleetKeys.all, 'sparklines', loggerId, days] as const,
   why: (loggerId: string) => [...fleetKeys.all, 'why', loggerId] as const,
 };
@@ -253,7 +254,8 @@ export function useAddNote(target: 'loggers' | 'sites', id: string) {
     mutationFn: (text: string) => api<Note>(`/api/${target}/${id}/notes`, { body: { text } }),
     onSuccess: () =>
       Promise.all([
-        qc.invalidateQueries({ queryKey: target === 'loggers' ? fleetKeys.timeline(id) : ['sites'] }),
+        qc.invalidateQueries({ queryKey: target === 'loggers' ? fleetKeys.timeline(id) : fleetKeys.siteNotes(id) }),
+        ...(target === 'sites' ? [qc.invalidateQueries({ queryKey: ['sites'] })] : []),
         qc.invalidateQueries({ queryKey: ['activity'] }),
       ]),
   });
@@ -266,6 +268,18 @@ export function useTimeline(loggerId: string | undefined) {
     staleTime: STALE.SECONDS.THIRTY,
     initialPageParam: undefined as string | undefined,
     queryFn: ({ pageParam }) => api<List<TimelineItem>>(`/api/loggers/${loggerId}/timeline${query({ cursor: pageParam, limit: 25 })}`),
+    getNextPageParam: (last) => last.nextCursor ?? undefined,
+  });
+}
+
+/** A site's notes, newest first; older pages on request. */
+export function useSiteNotes(siteId: string | undefined) {
+  return useInfiniteQuery({
+    queryKey: fleetKeys.siteNotes(siteId ?? ''),
+    enabled: Boolean(siteId),
+    staleTime: STALE.SECONDS.THIRTY,
+    initialPageParam: undefined as string | undefined,
+    queryFn: ({ pageParam }) => api<List<Note>>(`/api/sites/${siteId}/notes${query({ cursor: pageParam, limit: 20 })}`),
     getNextPageParam: (last) => last.nextCursor ?? undefined,
   });
 }
