@@ -68,3 +68,55 @@ export const estimateQuery = z.object({
 
 export const installReasons = ['integrity', 'signature', 'storage', 'connection', 'unsupported', 'low_supply', 'other'] as const;
 export const installStates = ['offered', 'downloading', 'downloaded', 'installing', 'installed', 'failed'] as const;
+
+// ─── Release dashboard (issue 6 §4) ─────────────────────────────────────────
+
+export const releaseSitesQuery = z.object({
+  page: z.coerce.number({ message: 'must be a number' }).int('must be a whole number').min(1, 'at least 1').max(100_000, 'at most 100 000').default(1),
+  pageSize: z.coerce.number({ message: 'must be a number' }).int('must be a whole number').min(1, 'at least 1').max(100, 'at most 100').default(10),
+});
+export type ReleaseSitesQuery = z.infer<typeof releaseSitesQuery>;
+
+/** Install reports of one release within a group of loggers (a board revision or a site). */
+export type InstallTally = {
+  /** Enrolled loggers of the release's model and track in the group. */
+  loggers: number;
+  /** Of those, running this release or newer. */
+  onRelease: number;
+  /** Loggers with an install report: offered at least once. */
+  reached: number;
+  /** Reports between offered and installing. */
+  inProgress: number;
+  installed: number;
+  failed: number;
+  /** Median seconds from the first offer to the confirmed install; null before any install. */
+  medianInstallS: number | null;
+};
+
+export type ReleaseBoardRow = InstallTally & { board: string; targeted: boolean };
+export type ReleaseSiteRow = InstallTally & { siteId: string; siteName: string; customer: string };
+
+export type ReleaseDashboard = {
+  releaseId: string;
+  generatedAt: string;
+  timeToInstall: { installs: number; medianS: number | null; p90S: number | null };
+  halt: {
+    failureRatio: { installed: number; failed: number; finished: number; ratio: number; threshold: number; minReports: number; judged: boolean; over: boolean };
+    resetRate: {
+      loggers: number;
+      minLoggers: number;
+      minHours: number;
+      after: number;
+      before: number;
+      beforeJudged: number;
+      factor: number;
+      threshold: number;
+      judged: boolean;
+      over: boolean;
+    };
+  };
+  byBoard: ReleaseBoardRow[];
+  /** Sites the release reached, failures first (the first page; the rest from GET /api/releases/:id/sites). */
+  bySite: { rows: ReleaseSiteRow[]; total: number };
+  adoption: { day: string; installed: number; cumulative: number }[];
+};

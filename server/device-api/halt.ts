@@ -77,6 +77,44 @@ export function resetRateVerdict(t: HaltThresholds, r: ResetFigures): HaltVerdic
   };
 }
 
+/**
+ * The halt thresholds beside their current values, as the release dashboard shows them ("failure ratio
+ * 1.8 % of 5 %"). `over` is exactly what the verdicts above decide, so the dashboard and the automatic
+ * halt never disagree.
+ */
+export function haltGauges(t: HaltThresholds, f: FailureFigures, r: ResetFigures) {
+  const finished = f.installed + f.failed;
+  const measuredBefore = r.loggerDaysBefore > 0 ? r.resetsBefore / r.loggerDaysBefore : 0;
+  const before = Math.max(measuredBefore, RESET_RATE_FLOOR);
+  const after = r.loggerDaysAfter > 0 ? r.resetsAfter / r.loggerDaysAfter : 0;
+  return {
+    failureRatio: {
+      ...f,
+      finished,
+      ratio: finished ? f.failed / finished : 0,
+      threshold: t.haltFailureRatio,
+      minReports: t.haltMinReports,
+      judged: finished >= t.haltMinReports && finished > 0,
+      over: failureRatioVerdict(t, f).halt,
+    },
+    resetRate: {
+      ...r,
+      minLoggers: RESET_MIN_LOGGERS,
+      minHours: RESET_MIN_HOURS,
+      /** Resets per logger-day on the new version, and before it (measured, and as judged with the floor). */
+      after,
+      before: measuredBefore,
+      beforeJudged: before,
+      /** The new rate as a multiple of the old one (with the floor), against haltResetFactor. */
+      factor: after / before,
+      threshold: t.haltResetFactor,
+      judged: r.loggers >= RESET_MIN_LOGGERS && r.loggerDaysAfter > 0,
+      over: resetRateVerdict(t, r).halt,
+    },
+  };
+}
+export type HaltGauges = ReturnType<typeof haltGauges>;
+
 export function evaluateHalt(t: HaltThresholds, f: FailureFigures, r: ResetFigures | null): HaltVerdict {
   const byFailures = failureRatioVerdict(t, f);
   if (byFailures.halt) return byFailures;
@@ -106,7 +144,7 @@ export async function lockRelease(sequelize: Sequelize, t: Transaction, releaseI
   return rows[0] ?? null;
 }
 
-export async function failureFigures(sequelize: Sequelize, t: Transaction, releaseId: string): Promise<FailureFigures> {
+export async function failureFigures(sequelize: Sequelize, t: Transaction | undefined, releaseId: string): Promise<FailureFigures> {
   const [row] = await sequelize.query<{ installed: number; failed: number }>(
     `SELECT count(*) FILTER (WHERE state = 'installed')::int AS installed,
             count(*) FILTER (WHERE state = 'failed' AND COALESCE(reason, 'other') NOT IN ('connection', 'low_supply'))::int AS failed
@@ -118,7 +156,7 @@ export async function failureFigures(sequelize: Sequelize, t: Transaction, relea
 
 const RESETS = `(COALESCE((c.resets->>'watchdog')::int, 0) + COALESCE((c.resets->>'brownout')::int, 0))`;
 
-export async function resetFigures(sequelize: Sequelize, t: Transaction, release: LockedRelease, now: Date, retentionDays: number): Promise<ResetFigures> {
+export async function resetFigures(sequelize: Sequelize, t: Transaction | undefined, release: Pick<LockedRelease, 'id' | 'version'>, now: Date, retentionDays: number): Promise<ResetFigures> {
   const [row] = await sequelize.query<ResetFigures>(
     `WITH confirmed AS (
        SELECT logger_id, confirmed_at FROM install_reports WHERE release_id = :id AND confirmed_at IS NOT NULL AND confirmed_at <= :now

@@ -3,11 +3,12 @@ import { parse } from '../http/validate';
 import { contextOf } from '../http/context';
 import { declareAccess, rules } from '../auth/access';
 import { idParams } from '../../schemas/common';
-import { estimateQuery, patchReleaseRequest, releaseListQuery, transitionRequest } from '../../schemas/releases';
+import { estimateQuery, patchReleaseRequest, releaseListQuery, releaseSitesQuery, transitionRequest } from '../../schemas/releases';
 import type { AppServices } from '../app';
 import { LocalImageStore, type ImageStore } from '../images/store';
 import { releaseUploadMiddleware, uploadPartsOf } from '../images/upload';
 import { listReleaseRows } from './presenter';
+import { releaseDashboard, releaseSites } from './dashboard';
 import { createRelease, deleteRelease, estimateShare, getRelease, patchRelease, transitionRelease, type ReleaseDeps } from './service';
 
 const engineers = ['admin', 'release_engineer'] as const;
@@ -16,6 +17,8 @@ declareAccess({
   'GET /api/releases': rules.people(rules.everyone, ['fleet:read']),
   'GET /api/releases/:id': rules.people(rules.everyone, ['fleet:read']),
   'GET /api/releases/:id/estimate': rules.people(rules.everyone, ['fleet:read']),
+  'GET /api/releases/:id/dashboard': rules.people(rules.everyone, ['fleet:read']),
+  'GET /api/releases/:id/sites': rules.people(rules.everyone, ['fleet:read']),
   'PATCH /api/releases/:id': rules.people(engineers, ['releases:write']),
   'DELETE /api/releases/:id': rules.people(engineers),
   'POST /api/releases/:id/transitions': rules.people(engineers, ['releases:write']),
@@ -49,6 +52,16 @@ export function registerReleaseRoutes(api: Api, services: AppServices, store: Im
     const { id } = parse(idParams, req.params, 'path');
     const { share } = parse(estimateQuery, req.query, 'query');
     res.json(await estimateShare(deps, id, share));
+  });
+
+  api.get('/api/releases/:id/dashboard', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    res.json(await releaseDashboard(deps, contextOf(req).actor, id));
+  });
+
+  api.get('/api/releases/:id/sites', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    res.json(await releaseSites(deps, contextOf(req).actor, id, parse(releaseSitesQuery, req.query, 'query')));
   });
 
   api.patch('/api/releases/:id', async (req, res) => {

@@ -3,7 +3,7 @@
 // issue 5 §4–§6, and semantic-version precedence as the semver package (npm) computes it.
 import semver from 'semver';
 import { afterInstalled, applyReport, isFinished, type StoredReport } from '../../server/device-api/reports';
-import { evaluateHalt, failureRatioVerdict, resetRateVerdict } from '../../server/device-api/halt';
+import { evaluateHalt, failureRatioVerdict, haltGauges, resetRateVerdict } from '../../server/device-api/halt';
 import { busyness, nextCheckInSeconds, stretchFor } from '../../server/device-api/load';
 import { dayOfPartition, partitionName, retentionDays, utcDay } from '../../server/device-api/partitions';
 
@@ -94,6 +94,28 @@ describe('halt thresholds', () => {
     // floor 0.01 a day × factor 2 × 20 logger-days = 0.4 resets: 1 reset crosses it, 0 does not.
     expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 0 }).halt).toBe(false);
     expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 1 }).halt).toBe(true);
+  });
+  test('when the dashboard reads the gauges, then they show the figures the verdicts judge, and agree with them at and around each threshold', () => {
+    // 1 of 20 finished = 5 % of 5 %: judged, not over (the threshold is "above", strictly).
+    expect(haltGauges(release, { installed: 19, failed: 1 }, resets).failureRatio).toMatchObject({ finished: 20, ratio: 0.05, judged: true, over: false });
+    // before 0.1 a day; after 4 / 20 = 0.2 a day, factor 2 of 2.
+    expect(haltGauges(release, { installed: 0, failed: 0 }, { ...resets, resetsAfter: 4 }).resetRate).toMatchObject({ after: 0.2, before: 0.1, factor: 2, judged: true, over: false });
+    // No resets before: judged against the floor (0.01 a day), the measured rate still shows 0.
+    expect(haltGauges(release, { installed: 0, failed: 0 }, { ...resets, resetsBefore: 0, resetsAfter: 1 }).resetRate).toMatchObject({ before: 0, beforeJudged: 0.01, over: true });
+    for (const failed of [0, 1, 2, 19, 20]) {
+      for (const installed of [0, 1, 18, 19, 40]) {
+        const f = { installed, failed };
+        expect(haltGauges(release, f, resets).failureRatio.over).toBe(failureRatioVerdict(release, f).halt);
+      }
+    }
+    for (const loggers of [19, 20]) {
+      for (const resetsAfter of [0, 3, 4, 5, 50]) {
+        for (const resetsBefore of [0, 10]) {
+          const r = { ...resets, loggers, resetsAfter, resetsBefore };
+          expect(haltGauges(release, { installed: 0, failed: 0 }, r).resetRate.over).toBe(resetRateVerdict(release, r).halt);
+        }
+      }
+    }
   });
   test('the failure ratio is judged first', () => {
     expect(evaluateHalt(release, { installed: 0, failed: 20 }, { ...resets, resetsAfter: 100 })).toMatchObject({ rule: 'failure_ratio' });
