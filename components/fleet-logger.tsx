@@ -7,7 +7,7 @@ import { Badge, Button, Card, Field, Mono, Notice, Row, Skeleton } from './ui';
 import { Sparkline } from './charts/line';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, type } from './theme';
-import type { Sparklines, TimelineItem } from '../schemas/fleet';
+import type { Note, Sparklines, TimelineItem } from '../schemas/fleet';
 import type { WhyAnswer } from '../hooks/fleet';
 
 type Q<T> = { data?: T; isPending: boolean; error: Error | null };
@@ -193,24 +193,66 @@ export function NoteForm({ busy, error, onAdd, done }: { busy: boolean; error: E
   );
 }
 
-/** Notes on a site: the form, and the notes added from this page (each is also in the activity log). */
-export function SiteNotes({ busy, error, added, onAdd }: { busy: boolean; error: Error | null; added: { id: string; text: string; authorName: string; createdAt: string }[]; onAdd: (text: string, clear: () => void) => void }) {
+export type SiteNotesState = {
+  pages: { rows: Note[]; total: number }[];
+  isPending: boolean;
+  error: Error | null;
+  refetch: () => unknown;
+  hasNextPage: boolean;
+  isFetchingNextPage: boolean;
+  fetchNextPage: () => unknown;
+};
+
+export type NoteWriting = { busy: boolean; error: Error | null; done: boolean; onAdd: (text: string, clear: () => void) => void };
+
+/**
+ * Notes on a site, newest first, with older pages on request; the form above them for the roles that
+ * may write (`write` given), the list alone for everyone else who may see the site.
+ */
+export function SiteNotes({ state, write }: { state: SiteNotesState; write?: NoteWriting }) {
+  const notes = state.pages.flatMap((p) => p.rows);
+  const total = state.pages[0]?.total;
+  const failure = problem(state.error);
   return (
     <View style={{ gap: space.md }} testID="site-notes">
-      <NoteForm busy={busy} error={error} onAdd={onAdd} done={false} />
-      {added.length ? (
-        <Card>
-          <Text style={type.label}>Notes added now</Text>
-          {added.map((n) => (
-            <View key={n.id} style={{ borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm, gap: 2 }}>
-              <Text style={type.body}>{n.text}</Text>
-              <Text style={type.small}>
-                {n.authorName} · {absoluteTime(n.createdAt)}
-              </Text>
+      {write ? <NoteForm busy={write.busy} error={write.error} onAdd={write.onAdd} done={write.done} /> : null}
+      <Card testID="site-notes-list">
+        <Row wrap style={{ justifyContent: 'space-between' }}>
+          <Text role="heading" aria-level={2} style={type.heading}>
+            Notes
+          </Text>
+          {total ? <Text style={type.small}>{`${notes.length} of ${total}, newest first`}</Text> : null}
+        </Row>
+        {state.isPending ? (
+          <Skeleton rows={3} height={40} />
+        ) : failure && !notes.length ? (
+          <View style={{ gap: space.sm }}>
+            <Notice title={failure.title ?? 'Could not load the notes'} detail={failure.detail ?? failure.message} />
+            <View style={{ alignSelf: 'flex-start' }}>
+              <Button label="Try again" variant="secondary" onPress={() => state.refetch()} />
             </View>
-          ))}
-        </Card>
-      ) : null}
+          </View>
+        ) : !notes.length ? (
+          <Text style={type.body}>No notes on this site yet.</Text>
+        ) : (
+          <View role="list">
+            {notes.map((n, i) => (
+              <View role="listitem" key={n.id} style={{ borderTopColor: colors.line, borderTopWidth: i ? 1 : 0, paddingVertical: space.sm, gap: 2 }}>
+                <Text style={type.body}>{n.text}</Text>
+                <Text style={type.small}>
+                  {n.authorName} · {absoluteTime(n.createdAt)}
+                </Text>
+              </View>
+            ))}
+          </View>
+        )}
+        {failure && notes.length ? <Notice title={failure.title ?? 'Could not load older notes'} detail={failure.detail ?? failure.message} /> : null}
+        {state.hasNextPage && notes.length ? (
+          <View style={{ alignSelf: 'flex-start' }}>
+            <Button label="Show older notes" variant="secondary" busy={state.isFetchingNextPage} onPress={() => state.fetchNextPage()} testID="site-notes-older" />
+          </View>
+        ) : null}
+      </Card>
     </View>
   );
 }

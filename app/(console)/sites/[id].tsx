@@ -7,8 +7,7 @@ import { useMe } from '../../../hooks/session';
 import { useModels } from '../../../hooks/models';
 import { View } from 'react-native';
 import { SiteNotes } from '../../../components/fleet-logger';
-import { useAddNote } from '../../../hooks/fleet';
-import type { Note } from '../../../schemas/fleet';
+import { useAddNote, useSiteNotes } from '../../../hooks/fleet';
 
 export default function SitePage() {
   const { id } = useLocalSearchParams<{ id: string }>();
@@ -22,7 +21,8 @@ export default function SitePage() {
   const models = useModels();
   const intervals = React.useMemo(() => Object.fromEntries((models.data?.rows ?? []).map((m) => [m.id, m.checkInIntervalS])), [models.data]);
   const note = useAddNote('sites', id);
-  const [added, setAdded] = React.useState<Note[]>([]);
+  const notes = useSiteNotes(site.data ? id : undefined);
+  const [saved, setSaved] = React.useState(false);
   const canNote = role === 'support' || role === 'release_engineer' || role === 'admin';
   return (
     <View style={{ gap: 24 }}>
@@ -35,18 +35,34 @@ export default function SitePage() {
         intervals={intervals}
         onOpenLogger={(loggerId) => router.push(`/loggers/${loggerId}` as never)}
       />
-      {canNote && site.data ? (
+      {site.data ? (
         <SiteNotes
-          busy={note.isPending}
-          error={note.error}
-          added={added}
-          onAdd={(text, clear) =>
-            note.mutate(text, {
-              onSuccess: (n) => {
-                clear();
-                setAdded((list) => [n, ...list]);
-              },
-            })
+          state={{
+            pages: notes.data?.pages ?? [],
+            isPending: notes.isPending,
+            error: notes.error,
+            refetch: () => notes.refetch(),
+            hasNextPage: notes.hasNextPage,
+            isFetchingNextPage: notes.isFetchingNextPage,
+            fetchNextPage: () => notes.fetchNextPage(),
+          }}
+          write={
+            canNote
+              ? {
+                  busy: note.isPending,
+                  error: note.error,
+                  done: saved,
+                  onAdd: (text, clear) => {
+                    setSaved(false);
+                    note.mutate(text, {
+                      onSuccess: () => {
+                        clear();
+                        setSaved(true);
+                      },
+                    });
+                  },
+                }
+              : undefined
           }
         />
       ) : null}
