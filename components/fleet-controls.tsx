@@ -128,7 +128,7 @@ export function SeenAt({ at, relative, absolute }: { at: string | null; relative
   );
 }
 
-export function Pager({ total, page, pageSize, onPage, onPageSize, wide }: { total: number; page: number; pageSize: number; onPage: (p: number) => void; onPageSize: (n: 25 | 50 | 100) => void; wide: boolean }) {
+export function Pager({ total, page, pageSize, onPage, onPageSize, wide }: { total: number; page: number; pageSize: number; onPage: (p: number) => void; onPageSize?: (n: 25 | 50 | 100) => void; wide: boolean }) {
   const pages = Math.max(1, Math.ceil(total / pageSize));
   const from = total === 0 ? 0 : (page - 1) * pageSize + 1;
   const to = Math.min(total, page * pageSize);
@@ -138,7 +138,7 @@ export function Pager({ total, page, pageSize, onPage, onPageSize, wide }: { tot
         {from}–{to} of {total}
       </Text>
       <Row wrap gap={space.sm}>
-        {wide ? <Choices label={undefined} choices={[25, 50, 100].map((n) => ({ value: n, label: `${n} per page` }))} value={pageSize} onChange={(n) => onPageSize(n as 25 | 50 | 100)} /> : null}
+        {wide && onPageSize ? <Choices label={undefined} choices={[25, 50, 100].map((n) => ({ value: n, label: `${n} per page` }))} value={pageSize} onChange={(n) => onPageSize(n as 25 | 50 | 100)} /> : null}
         <Button label="Previous" variant="secondary" disabled={page <= 1} onPress={() => onPage(page - 1)} />
         <Text style={[type.small, { fontVariant: ['tabular-nums'] }]}>
           {page} / {pages}

@@ -14,3 +14,16 @@ export function absoluteTime(iso: string | Date): string {
   const t = typeof iso === 'string' ? new Date(iso) : iso;
   return t.toISOString().replace('T', ' ').slice(0, 16) + ' UTC';
 }
+
+/** A duration in the largest two units that matter: "40 s", "25 min", "3 h 10 min", "2 d 4 h" (no break inside a figure). */
+export function duration(seconds: number): string {
+  const nb = '\u00a0';
+  const s = Math.max(0, Math.round(seconds));
+  if (s < 60) return `${s}${nb}s`;
+  const m = Math.round(s / 60);
+  if (m < 60) return `${m}${nb}min`;
+  const h = Math.floor(m / 60);
+  if (h < 24) return m % 60 ? `${h}${nb}h ${m % 60}${nb}min` : `${h}${nb}h`;
+  const d = Math.floor(h / 24);
+  return h % 24 ? `${d}${nb}d ${h % 24}${nb}h` : `${d}${nb}d`;
+}

@@ -1,73 +1,224 @@
 // The rollout dashboard on a release's page (issue 6 §4): the halt thresholds beside their current
-// values ("failure ratio 1.8 % of 5 %"), finished installs against the minimum, and the adoption chart
-// (installs per day, running total). The page refreshes itself while the release is live.
+// values ("failure ratio 1.8 % of 5 %") as the automatic halt judges them, the time to install, the
+// breakdown per board revision and per site (failures first), and the adoption chart. The page
+// refreshes itself every 15 s while the release is live.
 import React from 'react';
-import { Text, View } from 'react-native';
-import { Badge, Card, ProgressBar, Row } from './ui';
+import { Pressable, StyleSheet, Text, View } from 'react-native';
+import { Badge, Card, ProgressBar, Row, Skeleton } from './ui';
+import { QueryView, type QueryState } from './query-state';
+import { Pager } from './fleet-controls';
 import { DayLineChart } from './charts/line';
-import { colors, space, type } from './theme';
-import type { Release } from '../hooks/releases';
-import type { VersionMatrix } from '../schemas/fleet';
-
-type Adoption = VersionMatrix['models'][number]['releases'][number]['adoption'];
+import { duration } from './format';
+import { colors, fonts, space, touchTarget, type } from './theme';
+import type { InstallTally, ReleaseDashboard as Dashboard, ReleaseSiteRow } from '../schemas/releases';
+import type { List } from '../schemas/common';
 
 const pct = (x: number) => `${Number((x * 100).toFixed(1))} %`;
+const rate = (x: number) => Number(x.toFixed(3)).toString();
 
-/**
- * The failure ratio as the automatic halt reads it: failed over finished (installed + failed) installs,
- * judged only once the release's minimum number of finished installs is in.
- */
-export function failureRatioNow(counts: { installed: number; failed: number }, t: { haltFailureRatio: number; haltMinReports: number }) {
-  const finished = counts.installed + counts.failed;
-  const ratio = finished ? counts.failed / finished : 0;
-  return { finished, ratio, judged: finished >= t.haltMinReports && finished > 0, over: finished >= t.haltMinReports && finished > 0 && ratio > t.haltFailureRatio };
+export const SITE_PAGE_SIZE = 10;
+
+type Props = {
+  version: string;
+  state: QueryState<Dashboard>;
+  /** Sites beyond the first page (the first comes with the dashboard). */
+  sitePage: number;
+  sites: { data?: List<ReleaseSiteRow>; isFetching: boolean };
+  onSitePage: (page: number) => void;
+  onOpenSite: (siteId: string) => void;
+  refreshing: boolean;
+  wide: boolean;
+};
+
+export function ReleaseDashboard(props: Props) {
+  return (
+    <QueryView state={props.state} rows={5}>
+      {(d) => <DashboardView {...props} d={d} />}
+    </QueryView>
+  );
 }
 
-export function ReleaseDashboard({ r, adoption, refreshing }: { r: Release; adoption: Adoption | null; refreshing: boolean }) {
-  const threshold = Number(r.haltFailureRatio);
-  const now = failureRatioNow(r.counts, { haltFailureRatio: threshold, haltMinReports: r.haltMinReports });
-  const used = threshold > 0 ? now.ratio / threshold : 0;
-  const tone = now.over ? 'ember' : used >= 0.5 ? 'amber' : 'moss';
-  const last = adoption?.[adoption.length - 1];
+function DashboardView({ d, version, sitePage, sites, onSitePage, onOpenSite, refreshing, wide }: Props & { d: Dashboard }) {
+  const siteList = sitePage > 1 && sites.data ? sites.data : d.bySite;
   return (
-    <View style={{ gap: space.lg }}>
-      <Card testID="halt-thresholds">
-        <Row wrap style={{ justifyContent: 'space-between' }}>
-          <Text role="heading" aria-level={2} style={type.heading}>
-            Halt thresholds now
-          </Text>
-          {refreshing ? <Badge label="Live · refreshes every 15 s" tone="slate" /> : null}
-        </Row>
-        <View style={{ gap: space.xs }}>
-          <Text style={type.body} testID="failure-ratio">
-            Failure ratio {pct(now.ratio)} of {pct(threshold)}
-          </Text>
-          <ProgressBar value={Math.min(100, used * 100)} tone={tone} />
-          <Text style={type.small}>
-            {r.counts.failed} failed of {now.finished} finished installs.{' '}
-            {now.judged ? (now.over ? 'Above the threshold: the release halts at the next install report.' : 'Judged: below the threshold.') : `Judged from ${r.haltMinReports} finished installs (${Math.max(0, r.haltMinReports - now.finished)} to go).`}
-          </Text>
+    <View style={{ gap: space.lg }} testID="release-dashboard">
+      <View style={wide ? styles.columns : { gap: space.lg }}>
+        <View style={wide ? styles.column : undefined}>
+          <HaltGauges d={d} refreshing={refreshing} />
         </View>
-        <View style={{ gap: space.xs, borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm }}>
-          <Text style={type.body}>Watchdog and brown-out resets: halt above {r.haltResetFactor} × the rate before the release</Text>
-          <Text style={type.small}>Judged at check-ins that bring resets on this release, over loggers observed a full day.</Text>
+        <View style={wide ? styles.column : undefined}>
+          <TimeToInstall d={d} />
         </View>
+      </View>
+      <Boards d={d} wide={wide} />
+      <Card testID="by-site">
+        <Text role="heading" aria-level={2} style={type.heading}>
+          By site
+        </Text>
+        <Text style={type.small}>Failures first, then installs under way. Each bar is the share of the site’s loggers on {version} or newer.</Text>
+        {siteList.total === 0 ? <Text style={type.small}>No enrolled logger of this model and track at any site yet.</Text> : null}
+        {sites.isFetching && sitePage > 1 && !sites.data ? <Skeleton rows={3} /> : null}
+        {siteList.rows.map((s) => (
+          <SiteRow key={s.siteId} s={s} onOpen={onOpenSite} wide={wide} />
+        ))}
+        {siteList.total > SITE_PAGE_SIZE ? <Pager total={siteList.total} page={sitePage} pageSize={SITE_PAGE_SIZE} onPage={onSitePage} wide={wide} /> : null}
       </Card>
       <Card testID="adoption">
         <Text role="heading" aria-level={2} style={type.heading}>
           Adoption
         </Text>
-        {adoption && adoption.length ? (
-          <>
-            <DayLineChart label={`Installs of ${r.version} per day, running total`} points={adoption.map((d) => ({ label: d.day.slice(5), value: d.cumulative }))} color={colors.moss} />
-            <Text style={type.small}>
-              {last?.cumulative ?? 0} installed since {adoption[0].day}; {last?.installed ?? 0} on {last?.day}.
-            </Text>
-          </>
-        ) : (
-          <Text style={type.small}>No installs confirmed yet.</Text>
-        )}
+        <Adoption d={d} version={version} />
       </Card>
     </View>
   );
 }
+
+function HaltGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
+  const f = d.halt.failureRatio;
+  const r = d.halt.resetRate;
+  const used = f.threshold > 0 ? f.ratio / f.threshold : 0;
+  const tone = f.over ? 'ember' : used >= 0.5 ? 'amber' : 'moss';
+  const resetUsed = r.threshold > 0 ? r.factor / r.threshold : 0;
+  const resetTone = r.over ? 'ember' : resetUsed >= 0.5 ? 'amber' : 'moss';
+  return (
+    <Card testID="halt-thresholds">
+      <Row wrap style={{ justifyContent: 'space-between' }}>
+        <Text role="heading" aria-level={2} style={type.heading}>
+          Halt thresholds now
+        </Text>
+        {refreshing ? <Badge label="Live · refreshes every 15 s" tone="slate" /> : null}
+      </Row>
+      <View style={{ gap: space.xs }}>
+        <Text style={type.body} testID="failure-ratio">
+          Failure ratio {pct(f.ratio)} of {pct(f.threshold)}
+        </Text>
+        <ProgressBar value={Math.min(100, used * 100)} tone={tone} />
+        <Text style={type.small}>
+          {f.failed} failed of {f.finished} finished installs (connection and low-supply failures are retried, not counted).{' '}
+          {f.judged ? (f.over ? 'Above the threshold: the release halts at the next install report.' : 'Judged: below the threshold.') : `Judged from ${f.minReports} finished installs (${Math.max(0, f.minReports - f.finished)} to go).`}
+        </Text>
+      </View>
+      <View style={{ gap: space.xs, borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm }}>
+        <Text style={type.body} testID="reset-rate">
+          {r.judged ? `Resets ${Number(r.factor.toFixed(2))} × the rate before, of ${r.threshold} ×` : `Watchdog and brown-out resets: halt above ${r.threshold} × the rate before`}
+        </Text>
+        {r.judged ? <ProgressBar value={Math.min(100, resetUsed * 100)} tone={resetTone} /> : null}
+        <Text style={type.small}>
+          {r.judged
+            ? `${rate(r.after)} resets per logger-day on this release over ${r.loggers} loggers, against ${rate(r.before)} before it${r.before < r.beforeJudged ? ` (judged against at least ${rate(r.beforeJudged)})` : ''}.`
+            : `Judged once ${r.minLoggers} loggers have run it a full day (${r.minHours} h); ${r.loggers} so far.`}
+        </Text>
+      </View>
+    </Card>
+  );
+}
+
+function TimeToInstall({ d }: { d: Dashboard }) {
+  const t = d.timeToInstall;
+  return (
+    <Card testID="time-to-install">
+      <Text role="heading" aria-level={2} style={type.heading}>
+        Time to install
+      </Text>
+      {t.medianS === null ? (
+        <Text style={type.small}>No install confirmed yet.</Text>
+      ) : (
+        <>
+          <Text style={type.figure} testID="median-install">
+            {duration(t.medianS)}
+          </Text>
+          <Text style={type.small}>
+            Median over {t.installs} {t.installs === 1 ? 'install' : 'installs'}, from the first offer to the logger checking in on the new version
+            {t.p90S !== null ? `; 9 in 10 within ${duration(t.p90S)}` : ''}.
+          </Text>
+        </>
+      )}
+    </Card>
+  );
+}
+
+/** Counts of one group as words and numbers; failures in ember when there are any. */
+function Counts({ g }: { g: InstallTally }) {
+  return (
+    <Text style={[type.small, styles.num]}>
+      {g.reached} offered · {g.inProgress} under way · {g.installed} installed ·{' '}
+      <Text style={g.failed ? { color: colors.ember, fontFamily: fonts.semibold } : undefined}>{g.failed} failed</Text>
+      {g.medianInstallS !== null ? ` · median ${duration(g.medianInstallS)}` : ''}
+    </Text>
+  );
+}
+
+const share = (g: InstallTally) => (g.loggers ? (g.onRelease / g.loggers) * 100 : 0);
+
+function Boards({ d, wide }: { d: Dashboard; wide: boolean }) {
+  return (
+    <Card testID="by-board">
+      <Text role="heading" aria-level={2} style={type.heading}>
+        By board revision
+      </Text>
+      <View style={wide ? styles.boardGrid : { gap: space.md }}>
+        {d.byBoard.map((b) => (
+          <View key={b.board} style={[styles.group, wide ? styles.boardCell : null]} testID={`board-${b.board}`}>
+            <Row wrap style={{ justifyContent: 'space-between' }}>
+              <Text style={type.heading}>Board {b.board}</Text>
+              {b.targeted ? null : <Badge label="Not targeted" tone="slate" />}
+            </Row>
+            <ProgressBar value={share(b)} tone={b.failed ? 'amber' : 'moss'} />
+            <Text style={[type.dense, styles.num]}>
+              {b.onRelease} of {b.loggers} on this release or newer
+            </Text>
+            <Counts g={b} />
+          </View>
+        ))}
+      </View>
+    </Card>
+  );
+}
+
+function SiteRow({ s, onOpen, wide }: { s: ReleaseSiteRow; onOpen: (id: string) => void; wide: boolean }) {
+  return (
+    <Pressable
+      onPress={() => onOpen(s.siteId)}
+      role="link"
+      aria-label={`${s.siteName}, ${s.customer}: ${s.onRelease} of ${s.loggers} on this release, ${s.failed} failed`}
+      style={(st) => [styles.group, styles.siteRow, wide ? styles.siteRowWide : null, (st as { hovered?: boolean }).hovered && { backgroundColor: colors.paper }]}
+      testID="release-site"
+    >
+      <View style={wide ? { flex: 2, gap: 2 } : { gap: 2 }}>
+        <Text style={[type.dense, { fontFamily: fonts.semibold }]}>{s.siteName}</Text>
+        <Text style={type.small}>{s.customer}</Text>
+      </View>
+      <View style={wide ? { flex: 3, gap: 2 } : { gap: 2 }}>
+        <ProgressBar value={share(s)} tone={s.failed ? 'amber' : 'moss'} />
+        <Text style={[type.small, styles.num]}>
+          {s.onRelease} of {s.loggers} on this release
+        </Text>
+        <Counts g={s} />
+      </View>
+    </Pressable>
+  );
+}
+
+function Adoption({ d, version }: { d: Dashboard; version: string }) {
+  const last = d.adoption[d.adoption.length - 1];
+  if (!last || last.cumulative === 0) return <Text style={type.small}>No installs confirmed yet.</Text>;
+  return (
+    <>
+      <DayLineChart label={`Installs of ${version} per day, running total`} points={d.adoption.map((p) => ({ label: p.day.slice(5), value: p.cumulative }))} color={colors.moss} />
+      <Text style={type.small}>
+        {last.cumulative} installed since {d.adoption[0].day}; {last.installed} on {last.day}.
+      </Text>
+    </>
+  );
+}
+
+const styles = StyleSheet.create({
+  columns: { flexDirection: 'row', gap: space.lg, alignItems: 'stretch' },
+  column: { flex: 1, minWidth: 0 },
+  num: { fontVariant: ['tabular-nums'] },
+  group: { gap: space.xs, paddingVertical: space.sm, borderTopColor: colors.line, borderTopWidth: 1 },
+  boardGrid: { flexDirection: 'row', flexWrap: 'wrap', columnGap: space.lg },
+  boardCell: { flexBasis: 260, flexGrow: 1 },
+  siteRow: { minHeight: touchTarget, borderRadius: 4, paddingHorizontal: space.xs },
+  siteRowWide: { flexDirection: 'row', gap: space.lg, alignItems: 'center' },
+});

@@ -5,7 +5,7 @@ import React from 'react';
 import { keepPreviousData, useInfiniteQuery, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, STALE } from './api';
 import { loggerKeys } from './loggers';
-import { releaseKeys, type Release } from './releases';
+import { LIVE_REFRESH_MS, releaseKeys, type Release } from './releases';
 import type { List } from '../schemas/common';
 import type { LoggerRow as FleetRow } from '../schemas/loggers';
 import {
@@ -137,35 +137,19 @@ export function useVersionMatrix() {
   return useQuery({ queryKey: fleetKeys.versions(), staleTime: STALE.MINUTES.ONE, queryFn: () => api<VersionMatrix>('/api/fleet/versions') });
 }
 
-/** A release's adoption per day, read from the version matrix (which carries every started release). */
-export function useReleaseAdoption(releaseId: string) {
-  const matrix = useVersionMatrix();
-  const release = matrix.data?.models.flatMap((m) => m.releases).find((r) => r.id === releaseId);
-  return release?.adoption ?? null;
-}
-
 /**
- * Keeps a release's page fresh while it is live (pilot, expanding): a second observer of the release's
- * query with a refetch interval. TanStack Query stops interval refetches while the tab is hidden (the
- * root layout wires focusManager to visibilitychange; refetchIntervalInBackground stays false).
+ * Keeps a live release's page fresh (pilot, expanding): a second observer of the release's query that
+ * refetches every 15 s, in step with its dashboard. TanStack Query stops interval refetches while the tab
+ * is hidden (the root layout wires focusManager to visibilitychange; refetchIntervalInBackground stays false).
  */
 export function useLiveRelease(releaseId: string, live: boolean) {
   useQuery({
     queryKey: releaseKeys.detail(releaseId),
     enabled: live && Boolean(releaseId),
-    refetchInterval: live ? 15_000 : false,
+    refetchInterval: live ? LIVE_REFRESH_MS : false,
     refetchIntervalInBackground: false,
     queryFn: () => api<Release>(`/api/releases/${encodeURIComponent(releaseId)}`),
   });
-  const qc = useQueryClient();
-  // The adoption chart follows the same rhythm.
-  React.useEffect(() => {
-    if (!live) return;
-    const t = setInterval(() => {
-      if (typeof document === 'undefined' || document.visibilityState === 'visible') qc.invalidateQueries({ queryKey: fleetKeys.versions() });
-    }, 60_000);
-    return () => clearInterval(t);
-  }, [live, qc]);
 }
 
 // ─── Lagging sites ──────────────────────────────────────────────────────────

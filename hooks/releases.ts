@@ -2,9 +2,10 @@
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, upload, STALE } from './api';
 import type { List } from '../schemas/common';
+import type { ReleaseDashboard, ReleaseSiteRow } from '../schemas/releases';
 import type { ReleaseAction, ReleaseState, ResumeState } from '../server/releases/lifecycle';
 
-export type { ReleaseAction, ReleaseState };
+export type { ReleaseAction, ReleaseState, ReleaseDashboard, ReleaseSiteRow };
 export type Track = 'stable' | 'early';
 export type FailureReason = 'integrity' | 'signature' | 'storage' | 'connection' | 'unsupported' | 'low_supply' | 'other';
 
@@ -91,7 +92,12 @@ export const releaseKeys = {
   detail: (id: string) => ['releases', 'detail', id] as const,
   estimate: (id: string, share: number) => ['releases', 'estimate', id, share] as const,
   siteChoices: () => ['releases', 'site-choices'] as const,
+  dashboard: (id: string) => ['releases', 'dashboard', id] as const,
+  sites: (id: string, page: number, pageSize: number) => ['releases', 'sites', id, page, pageSize] as const,
 };
+
+/** How often a live release's page refreshes (issue 6 §4); interval refetches stop while the tab is hidden. */
+export const LIVE_REFRESH_MS = 15_000;
 
 export function useReleases(filter: ReleaseFilter = {}) {
   return useQuery({
@@ -109,6 +115,33 @@ export function useRelease(id: string) {
     enabled: Boolean(id),
     // Install reports arrive as loggers check in; a live release refreshes on its own.
     refetchInterval: (q) => (q.state.data && ['pilot', 'expanding', 'complete'].includes(q.state.data.state) ? STALE.SECONDS.THIRTY : false),
+  });
+}
+
+/**
+ * The rollout dashboard: breakdowns, time to install, halt gauges, adoption. While the release is live
+ * it refreshes every 15 s; TanStack Query pauses interval refetches while the tab is hidden (the root
+ * layout wires focusManager to visibilitychange, refetchIntervalInBackground stays false).
+ */
+export function useReleaseDashboard(id: string, live: boolean) {
+  return useQuery({
+    queryKey: releaseKeys.dashboard(id),
+    queryFn: () => api<ReleaseDashboard>(`/api/releases/${encodeURIComponent(id)}/dashboard`),
+    enabled: Boolean(id),
+    refetchInterval: live ? LIVE_REFRESH_MS : false,
+    refetchIntervalInBackground: false,
+  });
+}
+
+/** One page of the sites a release reaches, failures first (page 1 comes with the dashboard). */
+export function useReleaseSites(id: string, page: number, pageSize: number, live: boolean) {
+  return useQuery({
+    queryKey: releaseKeys.sites(id, page, pageSize),
+    queryFn: () => api<List<ReleaseSiteRow>>(`/api/releases/${encodeURIComponent(id)}/sites${query({ page, pageSize })}`),
+    enabled: Boolean(id) && page > 1,
+    placeholderData: keepPreviousData,
+    refetchInterval: live ? LIVE_REFRESH_MS : false,
+    refetchIntervalInBackground: false,
   });
 }
 

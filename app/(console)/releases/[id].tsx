@@ -4,10 +4,20 @@ import { ReleaseDetailScreen, type PendingMove } from '../../../components/relea
 import { ReleaseTargetingForm } from '../../../components/release-targeting-form';
 import { useBreakpoints } from '../../../components/breakpoints';
 import { ApiError } from '../../../hooks/api';
-import { useDeleteRelease, useRelease, useReleaseEstimate, useReleaseTransition, useSiteChoices, useUpdateRelease, type ReleaseTargeting } from '../../../hooks/releases';
+import {
+  useDeleteRelease,
+  useRelease,
+  useReleaseDashboard,
+  useReleaseEstimate,
+  useReleaseSites,
+  useReleaseTransition,
+  useSiteChoices,
+  useUpdateRelease,
+  type ReleaseTargeting,
+} from '../../../hooks/releases';
 import { useMe } from '../../../hooks/session';
-import { ReleaseDashboard } from '../../../components/release-dashboard';
-import { useLiveRelease, useReleaseAdoption } from '../../../hooks/fleet';
+import { ReleaseDashboard, SITE_PAGE_SIZE } from '../../../components/release-dashboard';
+import { useLiveRelease } from '../../../hooks/fleet';
 
 export default function ReleaseDetail() {
   const { id = '' } = useLocalSearchParams<{ id: string }>();
@@ -17,7 +27,10 @@ export default function ReleaseDetail() {
   const release = useRelease(id);
   const live = release.data?.state === 'pilot' || release.data?.state === 'expanding';
   useLiveRelease(id, live);
-  const adoption = useReleaseAdoption(id);
+  const started = Boolean(release.data && release.data.state !== 'draft');
+  const dashboard = useReleaseDashboard(started ? id : '', live);
+  const [sitePage, setSitePage] = React.useState(1);
+  const siteRows = useReleaseSites(started ? id : '', sitePage, SITE_PAGE_SIZE, live);
   const [pending, setPending] = React.useState<PendingMove | null>(null);
   const estimateShare = pending && (pending.action === 'expand' || pending.action === 'complete') ? (pending.action === 'complete' ? 100 : (pending.share ?? null)) : null;
   const estimate = useReleaseEstimate(id, estimateShare);
@@ -59,7 +72,18 @@ export default function ReleaseDetail() {
       error={(pending?.action === 'delete' ? remove.error : transition.error) as ApiError | null}
       onTransition={(t) => transition.mutate(t, { onSuccess: () => setPending(null) })}
       onDelete={() => remove.mutate(undefined, { onSuccess: () => router.replace('/releases' as never) })}
-      dashboard={(r) => <ReleaseDashboard r={r} adoption={adoption} refreshing={live} />}
+      dashboard={(r) => (
+        <ReleaseDashboard
+          version={r.version}
+          state={dashboard}
+          sitePage={sitePage}
+          sites={siteRows}
+          onSitePage={setSitePage}
+          onOpenSite={(siteId) => router.push(`/sites/${siteId}` as never)}
+          refreshing={live}
+          wide={wide}
+        />
+      )}
       targeting={
         canManage && release.data && isDraft ? (
           <ReleaseTargetingForm
