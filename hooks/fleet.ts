@@ -268,6 +268,43 @@ export function useSiteNotes(siteId: string | undefined) {
   });
 }
 
+/**
+ * What the site notes panel shows and does: the stored notes, and the form for people who may write
+ * (`canWrite`). The site page and the lagging site's page both show it.
+ */
+export function useSiteNotesPanel(siteId: string | undefined, canWrite: boolean) {
+  const notes = useSiteNotes(siteId);
+  const add = useAddNote('sites', siteId ?? '');
+  const [saved, setSaved] = React.useState(false);
+  return {
+    state: {
+      pages: notes.data?.pages ?? [],
+      isPending: notes.isPending,
+      error: notes.error,
+      refetch: () => notes.refetch(),
+      hasNextPage: notes.hasNextPage,
+      isFetchingNextPage: notes.isFetchingNextPage,
+      fetchNextPage: () => notes.fetchNextPage(),
+    },
+    write: canWrite
+      ? {
+          busy: add.isPending,
+          error: add.error,
+          done: saved,
+          onAdd: (text: string, clear: () => void) => {
+            setSaved(false);
+            add.mutate(text, {
+              onSuccess: () => {
+                clear();
+                setSaved(true);
+              },
+            });
+          },
+        }
+      : undefined,
+  };
+}
+
 export function useSparklines(loggerId: string | undefined, days = 7) {
   return useQuery({
     queryKey: fleetKeys.sparklines(loggerId ?? '', days),

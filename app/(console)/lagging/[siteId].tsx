@@ -1,7 +1,9 @@
 import React from 'react';
 import { useLocalSearchParams, useRouter } from 'expo-router';
+import { View } from 'react-native';
 import { LaggingSiteScreen } from '../../../components/fleet-lagging';
-import { useLaggingSite, useRetryInstall } from '../../../hooks/fleet';
+import { SiteNotes } from '../../../components/fleet-logger';
+import { useLaggingSite, useRetryInstall, useSiteNotesPanel } from '../../../hooks/fleet';
 import { useMe } from '../../../hooks/session';
 
 export default function LaggingSitePage() {
@@ -11,19 +13,25 @@ export default function LaggingSitePage() {
   const site = useLaggingSite(siteId);
   const canRetry = me.data?.role === 'admin' || me.data?.role === 'release_engineer';
   const retry = useRetryInstall();
+  const role = me.data?.role;
+  // Support reads what colleagues noted about the site (a visit booked, shading) beside the reasons.
+  const notes = useSiteNotesPanel(site.data ? siteId : undefined, role === 'support' || role === 'release_engineer' || role === 'admin');
   return (
-    <LaggingSiteScreen
-      state={site}
-      canRetry={canRetry}
-      retry={{
-        busy: retry.isPending,
-        error: retry.error,
-        done: retry.data?.retried ?? null,
-        run: (orders) => retry.mutate(orders),
-      }}
-      onOpenLogger={(id) => router.push(`/loggers/${id}` as never)}
-      onOpenSite={(id) => router.push(`/sites/${id}` as never)}
-      onBack={() => router.push('/lagging' as never)}
-    />
+    <View style={{ gap: 24 }}>
+      <LaggingSiteScreen
+        state={site}
+        canRetry={canRetry}
+        retry={{
+          busy: retry.isPending,
+          error: retry.error,
+          done: retry.data?.retried ?? null,
+          run: (orders) => retry.mutate(orders),
+        }}
+        onOpenLogger={(id) => router.push(`/loggers/${id}` as never)}
+        onOpenSite={(id) => router.push(`/sites/${id}` as never)}
+        onBack={() => router.push('/lagging' as never)}
+      />
+      {site.data ? <SiteNotes {...notes} /> : null}
+    </View>
   );
 }

@@ -7,7 +7,7 @@ import { useMe } from '../../../hooks/session';
 import { useModels } from '../../../hooks/models';
 import { View } from 'react-native';
 import { SiteNotes } from '../../../components/fleet-logger';
-import { useAddNote, useSiteNotes } from '../../../hooks/fleet';
+import { useSiteNotesPanel } from '../../../hooks/fleet';
 
 export default function SitePage() {
   const { id } = useLocalSearchParams<{ id: string }>();
@@ -20,10 +20,8 @@ export default function SitePage() {
   const save = useUpdateSite(id);
   const models = useModels();
   const intervals = React.useMemo(() => Object.fromEntries((models.data?.rows ?? []).map((m) => [m.id, m.checkInIntervalS])), [models.data]);
-  const note = useAddNote('sites', id);
-  const notes = useSiteNotes(site.data ? id : undefined);
-  const [saved, setSaved] = React.useState(false);
   const canNote = role === 'support' || role === 'release_engineer' || role === 'admin';
+  const notes = useSiteNotesPanel(site.data ? id : undefined, canNote);
   return (
     <View style={{ gap: 24 }}>
       <SiteScreen
@@ -35,37 +33,7 @@ export default function SitePage() {
         intervals={intervals}
         onOpenLogger={(loggerId) => router.push(`/loggers/${loggerId}` as never)}
       />
-      {site.data ? (
-        <SiteNotes
-          state={{
-            pages: notes.data?.pages ?? [],
-            isPending: notes.isPending,
-            error: notes.error,
-            refetch: () => notes.refetch(),
-            hasNextPage: notes.hasNextPage,
-            isFetchingNextPage: notes.isFetchingNextPage,
-            fetchNextPage: () => notes.fetchNextPage(),
-          }}
-          write={
-            canNote
-              ? {
-                  busy: note.isPending,
-                  error: note.error,
-                  done: saved,
-                  onAdd: (text, clear) => {
-                    setSaved(false);
-                    note.mutate(text, {
-                      onSuccess: () => {
-                        clear();
-                        setSaved(true);
-                      },
-                    });
-                  },
-                }
-              : undefined
-          }
-        />
-      ) : null}
+      {site.data ? <SiteNotes {...notes} /> : null}
     </View>
   );
 }
