@@ -81,7 +81,7 @@ function HaltGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
   const resetUsed = r.threshold > 0 ? r.factor / r.threshold : 0;
   const resetTone = r.over ? 'ember' : resetUsed >= 0.5 ? 'amber' : 'moss';
   return (
-    <Card testID="halt-thresholds">
+    <Card testID="halt-thresholds" style={styles.fill}>
       <Row wrap style={{ justifyContent: 'space-between' }}>
         <Text role="heading" aria-level={2} style={type.heading}>
           Halt thresholds now
@@ -116,7 +116,7 @@ function HaltGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
 function TimeToInstall({ d }: { d: Dashboard }) {
   const t = d.timeToInstall;
   return (
-    <Card testID="time-to-install">
+    <Card testID="time-to-install" style={styles.fill}>
       <Text role="heading" aria-level={2} style={type.heading}>
         Time to install
       </Text>
@@ -143,7 +143,7 @@ function Counts({ g }: { g: InstallTally }) {
     <Text style={[type.small, styles.num]}>
       {g.reached} offered · {g.inProgress} under way · {g.installed} installed ·{' '}
       <Text style={g.failed ? { color: colors.ember, fontFamily: fonts.semibold } : undefined}>{g.failed} failed</Text>
-      {g.medianInstallS !== null ? ` · median ${duration(g.medianInstallS)}` : ''}
+      {g.medianInstallS !== null ? ` · median\u00a0${duration(g.medianInstallS)}` : ''}
     </Text>
   );
 }
@@ -215,6 +215,7 @@ function Adoption({ d, version }: { d: Dashboard; version: string }) {
 const styles = StyleSheet.create({
   columns: { flexDirection: 'row', gap: space.lg, alignItems: 'stretch' },
   column: { flex: 1, minWidth: 0 },
+  fill: { flexGrow: 1 },
   num: { fontVariant: ['tabular-nums'] },
   group: { gap: space.xs, paddingVertical: space.sm, borderTopColor: colors.line, borderTopWidth: 1 },
   boardGrid: { flexDirection: 'row', flexWrap: 'wrap', columnGap: space.lg },

@@ -1,12 +1,18 @@
 // A line chart over days (adoption, sparklines): react-native-gifted-charts fitted to the width it gets.
 import React from 'react';
-import { Text, View } from 'react-native';
+import { StyleSheet, Text, View } from 'react-native';
 import { LineChart } from 'react-native-gifted-charts';
 import { Measured } from './width';
 import { niceMax } from './series';
 import { colors, fonts, space, type } from '../theme';
 
 export type Point = { label: string; value: number | null };
+
+const DAY_LABEL_WIDTH = 44;
+const styles = StyleSheet.create({
+  dayLabel: { position: 'absolute', width: DAY_LABEL_WIDTH, alignItems: 'center' },
+  dayLabelText: { color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 10, lineHeight: 14 },
+});
 
 export function DayLineChart({ points, height = 160, color = colors.moss, label, unit = '' }: { points: Point[]; height?: number; color?: string; label: string; unit?: string }) {
   const values = points.filter((p) => p.value !== null) as { label: string; value: number }[];
@@ -17,16 +23,27 @@ export function DayLineChart({ points, height = 160, color = colors.moss, label,
       <Measured>
         {(width) => {
           const yLabel = 40;
-          const room = width - yLabel - 32;
+          // Room at both ends for half a day label, so the first and last labels are not cut.
+          const edge = DAY_LABEL_WIDTH / 2;
+          const room = width - yLabel - 32 - 2 * edge;
           const spacing = Math.max(2, room / Math.max(1, points.length - 1));
+          // The package gives each label a box one spacing wide starting half a spacing left of its point;
+          // a fixed-width label centred on the point reads right at any spacing.
+          const dayLabel = (text: string) => () => (
+            <View style={{ width: spacing, height: 18 }}>
+              <View style={[styles.dayLabel, { left: spacing / 2 - DAY_LABEL_WIDTH / 2 }]}>
+                <Text style={styles.dayLabelText}>{text}</Text>
+              </View>
+            </View>
+          );
           return (
             <LineChart
-              data={points.map((p, i) => ({ value: p.value ?? 0, label: i % every === 0 ? p.label : '', hideDataPoint: p.value === null }))}
-              width={room}
+              data={points.map((p, i) => ({ value: p.value ?? 0, labelComponent: i % every === 0 ? dayLabel(p.label) : undefined, hideDataPoint: p.value === null }))}
+              width={room + 2 * edge}
               height={height}
               spacing={spacing}
-              initialSpacing={0}
-              endSpacing={0}
+              initialSpacing={edge}
+              endSpacing={edge}
               color={color}
               thickness={2}
               hideDataPoints={points.length > 20}
@@ -36,7 +53,6 @@ export function DayLineChart({ points, height = 160, color = colors.moss, label,
               yAxisLabelWidth={yLabel}
               yAxisLabelSuffix={unit}
               yAxisTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 11 }}
-              xAxisLabelTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 10, width: 48 }}
               xAxisColor={colors.line}
               yAxisColor={colors.line}
               rulesColor={colors.line}
