@@ -52,6 +52,7 @@ export function DayLineChart({ points, height = 160, color = colors.moss, label,
               maxValue={niceMax(Math.max(...values.map((v) => v.value)))}
               yAxisLabelWidth={yLabel}
               yAxisLabelSuffix={unit}
+              formatYLabel={(l) => String(Number(Number(l).toFixed(2)))}
               yAxisTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 11 }}
               xAxisColor={colors.line}
               yAxisColor={colors.line}
