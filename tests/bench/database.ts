@@ -1,0 +1,70 @@
+// A throwaway PostgreSQL for the benchmark, the way `npm test` makes one (scripts/test.js): a cluster
+// in a temp folder on a free port, without fsync (nothing here needs to survive), one database
+// migrated by the app's own migrations. Everything is removed when the run ends.
+import fs from 'node:fs';
+import net from 'node:net';
+import os from 'node:os';
+import path from 'node:path';
+import type { Sequelize } from 'sequelize';
+import { createDatabase, migrate } from '../../server/db';
+
+type Cluster = {
+  port: number;
+  user: string;
+  password(): string;
+  url(database: string): string;
+  start(): void;
+  stop(): void;
+  psql(sql: string, database?: string): void;
+};
+type Bootstrap = { pgCluster(dataDir: string, port: number, options: { durable: boolean }): Cluster; log(message: string): void };
+
+// Plain CommonJS shared with the npm scripts (no type declarations of its own).
+const bootstrap = require('../../scripts/lib/bootstrap.js') as Bootstrap;
+
+export function freePort(): Promise<number> {
+  return new Promise((resolve, reject) => {
+    const srv = net.createServer();
+    srv.once('error', reject);
+    srv.listen(0, '127.0.0.1', () => {
+      const { port } = srv.address() as net.AddressInfo;
+      srv.close(() => resolve(port));
+    });
+  });
+}
+
+export type BenchDatabase = {
+  url: string;
+  dataDir: string;
+  sequelize: Sequelize;
+  /** Stops the cluster and removes its folder. */
+  close(): Promise<void>;
+};
+
+export const BENCH_DB = 'heliodor_bench';
+
+export async function startBenchDatabase(): Promise<BenchDatabase> {
+  const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-bench-'));
+  fs.chmodSync(dataDir, 0o755);
+  const cluster = bootstrap.pgCluster(dataDir, await freePort(), { durable: false });
+  let sequelize: Sequelize | null = null;
+  const close = async () => {
+    if (sequelize) await sequelize.close().catch(() => undefined);
+    try {
+      cluster.stop();
+    } finally {
+      fs.rmSync(dataDir, { recursive: true, force: true });
+    }
+  };
+  try {
+    cluster.start();
+    cluster.psql(`CREATE DATABASE ${BENCH_DB}`);
+    const url = cluster.url(BENCH_DB);
+    sequelize = createDatabase(url);
+    await migrate(sequelize);
+    return { url, dataDir, sequelize, close };
+  } catch (err) {
+    await close();
+    throw err;
+  }
+}
