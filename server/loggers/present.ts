@@ -41,13 +41,26 @@ export function isOnline(logger: Logger, model: LoggerModel, now: Date): boolean
   return now.getTime() - new Date(logger.lastSeenAt).getTime() <= 3 * model.checkInIntervalS * 1000;
 }
 
+type Settled<T extends readonly (() => unknown)[]> = { -readonly [K in keyof T]: T[K] extends () => infer R ? Awaited<R> : never };
+
+/**
+ * Runs the lookups one after another inside a transaction (one connection answers one query at a
+ * time) and side by side outside one (each takes its own pool connection).
+ */
+async function lookUp<T extends readonly (() => unknown)[]>(transaction: Transaction | undefined, lookups: T): Promise<Settled<T>> {
+  if (!transaction) return (await Promise.all(lookups.map((lookup) => lookup()))) as Settled<T>;
+  const results: unknown[] = [];
+  for (const lookup of lookups) results.push(await lookup());
+  return results as Settled<T>;
+}
+
 export async function presentDetail(logger: Logger, now: Date, transaction?: Transaction): Promise<LoggerDetail> {
-  const [model, site, enrolledBy, profile] = await Promise.all([
-    LoggerModel.findByPk(logger.modelId, { transaction }),
-    logger.siteId ? Site.findByPk(logger.siteId, { transaction }) : null,
-    logger.enrolledBy ? User.findByPk(logger.enrolledBy, { attributes: ['id', 'name'], transaction }) : null,
-    latestProfile(logger.id, transaction),
-  ]);
+  const [model, site, enrolledBy, profile] = await lookUp(transaction, [
+    () => LoggerModel.findByPk(logger.modelId, { transaction }),
+    () => (logger.siteId ? Site.findByPk(logger.siteId, { transaction }) : null),
+    () => (logger.enrolledBy ? User.findByPk(logger.enrolledBy, { attributes: ['id', 'name'], transaction }) : null),
+    () => latestProfile(logger.id, transaction),
+  ] as const);
   if (!model) throw new Error(`logger ${logger.id} names a missing model`);
   const install = logger.install as StoredInstall | null;
   return {
