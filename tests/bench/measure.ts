@@ -22,7 +22,7 @@ export type MeasureOptions = {
   warmup: number;
   requests: number;
   concurrency: number;
-  /** Stop timing after this many seconds once at least `minRequests` were timed. */
+  /** Stop timing after this many seconds once at least `minRequests` were timed (warm-up: a third of it). */
   budgetS: number;
   minRequests: number;
 };
@@ -52,17 +52,19 @@ export async function measure(base: string, build: (i: number) => Request, optio
       return { ms: performance.now() - started, bytes: 0 };
     }
   };
-  const run = async (count: number, offset: number, budgetMs: number, record: boolean) => {
+  const run = async (count: number, offset: number, budgetMs: number, minCount: number, record: boolean) => {
     const times: number[] = [];
     let bytes = 0;
     let next = 0;
+    let done = 0;
     const started = performance.now();
     const worker = async () => {
       for (;;) {
-        const over = performance.now() - started > budgetMs && times.length >= options.minRequests;
+        const over = performance.now() - started > budgetMs && done >= minCount;
         if (next >= count || over) return;
         const i = next++;
         const r = await one(offset + i);
+        done++;
         if (record) {
           times.push(r.ms);
           bytes += r.bytes;
@@ -72,8 +74,9 @@ export async function measure(base: string, build: (i: number) => Request, optio
     await Promise.all(Array.from({ length: Math.max(1, options.concurrency) }, worker));
     return { times, bytes, wallMs: performance.now() - started };
   };
-  await run(options.warmup, 0, Infinity, false);
-  const { times, bytes, wallMs } = await run(options.requests, options.warmup, options.budgetS * 1000, true);
+  // Warm-up gets a third of the time budget (at least one request), so a slow scenario does not spend minutes warming.
+  await run(options.warmup, 0, (options.budgetS * 1000) / 3, Math.min(1, options.warmup), false);
+  const { times, bytes, wallMs } = await run(options.requests, options.warmup, options.budgetS * 1000, options.minRequests, true);
   const sorted = [...times].sort((a, b) => a - b);
   return {
     n: sorted.length,
