@@ -1,89 +1,36 @@
 // Releases: signed images uploaded as drafts, their targeting, and the lifecycle (issue 4).
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, upload, STALE } from './api';
+import type { z } from 'zod';
 import type { List } from '../schemas/common';
-import type { ReleaseDashboard, ReleaseSiteRow } from '../schemas/releases';
-import type { ReleaseAction, ReleaseState, ResumeState } from '../server/releases/lifecycle';
+import type {
+  InstallReason,
+  patchReleaseRequest,
+  ReleaseAction,
+  ReleaseCounts,
+  ReleaseDashboard,
+  ReleaseEstimate,
+  ReleaseRow,
+  ReleaseSiteRow,
+  ReleaseState,
+  ReleaseTrack,
+  ReleaseTransitionView,
+  ReleaseView,
+  TransitionRequest,
+} from '../schemas/releases';
 
-export type { ReleaseAction, ReleaseState, ReleaseDashboard, ReleaseSiteRow };
-export type Track = 'stable' | 'early';
-export type FailureReason = 'integrity' | 'signature' | 'storage' | 'connection' | 'unsupported' | 'low_supply' | 'other';
-
-export type ReleaseRow = {
-  id: string;
-  modelId: string;
-  modelName: string;
-  version: string;
-  track: Track;
-  state: ReleaseState;
-  share: number;
-  installed: number;
-  failed: number;
-  createdAt: string;
-  flagged: boolean;
-};
-
-export type ReleaseCounts = {
-  offered: number;
-  downloading: number;
-  downloaded: number;
-  installing: number;
-  installed: number;
-  failed: number;
-  failedByReason: Record<FailureReason, number>;
-};
-
-export type ReleaseTransition = { at: string; action: string; fromState: ReleaseState | null; toState: ReleaseState; share: number | null; reason: string | null; actorName: string };
-
-export type Release = {
-  id: string;
-  modelId: string;
-  modelName: string;
-  version: string;
-  track: Track;
-  state: ReleaseState;
-  share: number;
-  resumeState: ResumeState | null;
-  boards: string[];
-  manifestBoards: string[];
-  upgradeFrom: string | null;
-  pilotSiteIds: string[];
-  pilotSites: { id: string; name: string }[];
-  daylightWindow: boolean;
-  haltFailureRatio: number;
-  haltMinReports: number;
-  haltResetFactor: number;
-  securityCounter: number;
-  notes: string | null;
-  notesHtml: string | null;
-  image: { sha256: string; size: number };
-  key: { id: string; keyId: string; name: string; state: 'active' | 'retired' | 'revoked' } | null;
-  flagged: boolean;
-  counts: ReleaseCounts;
-  history: ReleaseTransition[];
-  allowedActions: ReleaseAction[];
-  createdAt: string;
-  createdBy: { name: string } | null;
-};
+// The answers' shapes live in schemas/releases.ts (the server's presenter promises them); screens import them from here.
+export type { ReleaseAction, ReleaseState, ReleaseDashboard, ReleaseSiteRow, ReleaseRow, ReleaseCounts, TransitionRequest };
+export type Track = ReleaseTrack;
+export type FailureReason = InstallReason;
+export type ReleaseTransition = ReleaseTransitionView;
+export type Release = ReleaseView;
+export type Estimate = ReleaseEstimate;
 
 export type ReleaseFilter = { state?: ReleaseState; track?: Track; modelId?: string };
 
 /** What the targeting form sends while the release is a draft. */
-export type ReleaseTargeting = {
-  boards?: string[];
-  upgradeFrom?: string | null;
-  pilotSiteIds?: string[];
-  daylightWindow?: boolean;
-  haltFailureRatio?: number;
-  haltMinReports?: number;
-  haltResetFactor?: number;
-  notes?: string;
-  track?: Track;
-};
-
-export type Estimate = { share: number; eligibleNow: number; eligibleAtShare: number; more: number };
-
-export type TransitionRequest = { action: ReleaseAction; share?: number; reason?: string };
+export type ReleaseTargeting = z.input<typeof patchReleaseRequest>;
 
 export const releaseKeys = {
   all: ['releases'] as const,

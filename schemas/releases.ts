@@ -3,7 +3,20 @@ import { z } from 'zod';
 import semver from 'semver';
 import { uuid } from './common';
 import { boardLabel } from './manifest';
-import { RELEASE_ACTIONS, RELEASE_STATES } from '../server/releases/lifecycle';
+
+// The lifecycle's words (the table itself is server/releases/lifecycle.ts): shared with the console.
+export const RELEASE_STATES = ['draft', 'pilot', 'expanding', 'complete', 'paused', 'halted', 'withdrawn'] as const;
+export type ReleaseState = (typeof RELEASE_STATES)[number];
+
+/** States in which a release offers updates and serves its image. */
+export const LIVE_STATES = ['pilot', 'expanding', 'complete'] as const;
+export type LiveState = (typeof LIVE_STATES)[number];
+
+export const RELEASE_ACTIONS = ['start_pilot', 'expand', 'complete', 'pause', 'resume', 'halt', 'withdraw'] as const;
+export type ReleaseAction = (typeof RELEASE_ACTIONS)[number];
+
+/** The state a paused or halted release returns to on resume. A halt of a paused release returns to paused. */
+export type ResumeState = LiveState | 'paused';
 
 export const tracks = ['stable', 'early'] as const;
 export const trackSchema = z.enum(tracks, { error: 'must be stable or early' });
@@ -67,7 +80,77 @@ export const estimateQuery = z.object({
 });
 
 export const installReasons = ['integrity', 'signature', 'storage', 'connection', 'unsupported', 'low_supply', 'other'] as const;
+export type InstallReason = (typeof installReasons)[number];
 export const installStates = ['offered', 'downloading', 'downloaded', 'installing', 'installed', 'failed'] as const;
+export type InstallState = (typeof installStates)[number];
+
+// ─── Release answers (GET /api/releases, /api/releases/:id, /estimate) ─────
+
+/** One row of GET /api/releases. */
+export type ReleaseRow = {
+  id: string;
+  modelId: string;
+  modelName: string;
+  version: string;
+  track: ReleaseTrack;
+  state: ReleaseState;
+  share: number;
+  installed: number;
+  failed: number;
+  createdAt: string;
+  /** Signed with a key that has since been revoked. */
+  flagged: boolean;
+};
+
+/** Install reports by their current state; failures by reason (a missing or unknown reason counts as other). */
+export type ReleaseCounts = Record<InstallState, number> & { failedByReason: Record<InstallReason, number> };
+
+/** One step of a release's history: a lifecycle action, or "upload" for the row that created the draft. */
+export type ReleaseTransitionView = {
+  at: string;
+  action: ReleaseAction | 'upload';
+  fromState: ReleaseState | null;
+  toState: ReleaseState;
+  share: number | null;
+  reason: string | null;
+  actorName: string;
+};
+
+/** A release as GET /api/releases/:id, PATCH, transitions and the upload answer it. */
+export type ReleaseView = {
+  id: string;
+  modelId: string;
+  modelName: string;
+  version: string;
+  track: ReleaseTrack;
+  state: ReleaseState;
+  share: number;
+  resumeState: ResumeState | null;
+  boards: string[];
+  manifestBoards: string[];
+  upgradeFrom: string | null;
+  pilotSiteIds: string[];
+  pilotSites: { id: string; name: string }[];
+  daylightWindow: boolean;
+  haltFailureRatio: number;
+  haltMinReports: number;
+  haltResetFactor: number;
+  securityCounter: number;
+  notes: string;
+  /** The notes rendered to safe HTML (empty when there are none). */
+  notesHtml: string;
+  image: { sha256: string; size: number };
+  key: { id: string; keyId: string; name: string; state: 'active' | 'retired' | 'revoked' } | null;
+  flagged: boolean;
+  counts: ReleaseCounts;
+  history: ReleaseTransitionView[];
+  allowedActions: ReleaseAction[];
+  createdAt: string;
+  createdBy: { name: string };
+};
+
+/** GET /api/releases/:id/estimate: how many more loggers a share would make eligible. */
+export type ReleaseEstimate = { share: number; eligibleNow: number; eligibleAtShare: number; more: number };
 
 // ─── Release dashboard (issue 6 §4) ─────────────────────────────────────────
 

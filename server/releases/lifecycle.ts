@@ -11,18 +11,11 @@
 // Share: pilot 0 (only pilot sites), expanding 1–99, complete 100; paused and halted keep the share
 // they had, so resuming restores the same cohort.
 
-export const RELEASE_STATES = ['draft', 'pilot', 'expanding', 'complete', 'paused', 'halted', 'withdrawn'] as const;
-export type ReleaseState = (typeof RELEASE_STATES)[number];
+// The states and actions are named in schemas/releases.ts, which the console shares.
+import { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES, type LiveState, type ReleaseAction, type ReleaseState, type ResumeState } from '../../schemas/releases';
 
-/** States in which a release offers updates and serves its image. */
-export const LIVE_STATES = ['pilot', 'expanding', 'complete'] as const;
-export type LiveState = (typeof LIVE_STATES)[number];
-
-export const RELEASE_ACTIONS = ['start_pilot', 'expand', 'complete', 'pause', 'resume', 'halt', 'withdraw'] as const;
-export type ReleaseAction = (typeof RELEASE_ACTIONS)[number];
-
-/** The state a paused or halted release returns to on resume. A halt of a paused release returns to paused. */
-export type ResumeState = LiveState | 'paused';
+export { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES };
+export type { LiveState, ReleaseAction, ReleaseState, ResumeState };
 
 export type ReleaseLifecycle = {
   state: ReleaseState;

@@ -3,11 +3,10 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
 import { allowedActions } from './lifecycle';
 import { renderNotes } from './notes';
-import { installReasons, installStates } from '../../schemas/releases';
+import { installReasons, installStates, type ReleaseCounts, type ReleaseRow, type ReleaseView } from '../../schemas/releases';
 
-export type InstallCounts = Record<(typeof installStates)[number], number> & {
-  failedByReason: Record<(typeof installReasons)[number], number>;
-};
+export type InstallCounts = ReleaseCounts;
+export type { ReleaseRow, ReleaseView };
 
 /** Reports by their current state; failures by reason (a missing or unknown reason counts as other). */
 export async function installCounts(sequelize: Sequelize, releaseId: string): Promise<InstallCounts> {
@@ -27,7 +26,7 @@ export async function installCounts(sequelize: Sequelize, releaseId: string): Pr
   return counts;
 }
 
-export async function presentRelease(sequelize: Sequelize, release: Release) {
+export async function presentRelease(sequelize: Sequelize, release: Release): Promise<ReleaseView> {
   const [model, image, key, transitions, pilotSites, counts] = await Promise.all([
     LoggerModel.findByPk(release.modelId),
     Image.findByPk(release.imageSha256),
@@ -78,23 +77,8 @@ export async function presentRelease(sequelize: Sequelize, release: Release) {
     createdBy: { name: transitions[0]?.actorName ?? '' },
   };
 }
-export type ReleaseView = Awaited<ReturnType<typeof presentRelease>>;
 
-export type ReleaseRow = {
-  id: string;
-  modelId: string;
-  modelName: string;
-  version: string;
-  track: string;
-  state: string;
-  share: number;
-  installed: number;
-  failed: number;
-  createdAt: string;
-  flagged: boolean;
-};
-
-export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: string; state?: string; track?: string }) {
+export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: string; state?: string; track?: string }): Promise<{ rows: ReleaseRow[]; total: number }> {
   const where = ['TRUE'];
   if (filter.modelId) where.push('r.model_id = :modelId');
   if (filter.state) where.push('r.state = :state');

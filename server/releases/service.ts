@@ -13,7 +13,7 @@ import type { UploadParts } from '../images/upload';
 import { shareThreshold } from '../device-api/cohort';
 import { canDelete, transition, type ReleaseState } from './lifecycle';
 import { existingSiteIds, presentRelease } from './presenter';
-import { uploadFields, type PatchReleaseRequest, type TransitionRequest } from '../../schemas/releases';
+import { uploadFields, type PatchReleaseRequest, type ReleaseEstimate, type TransitionRequest } from '../../schemas/releases';
 
 export type ReleaseDeps = { sequelize: Sequelize; store: ImageStore; now: () => Date; logger?: { warn: (o: object, msg: string) => void } };
 
@@ -328,7 +328,7 @@ export async function getRelease(deps: ReleaseDeps, id: string) {
  * counted). Pilot-site loggers count at every share. The cohort bucket is computed in SQL with the
  * same definition as server/device-api/cohort.ts.
  */
-export async function estimateShare(deps: ReleaseDeps, id: string, share: number) {
+export async function estimateShare(deps: ReleaseDeps, id: string, share: number): Promise<ReleaseEstimate> {
   const release = await Release.findByPk(id);
   if (!release) throw problems.notFound('release');
   const rows = await deps.sequelize.query<{ id: string; firmware: string | null; bucket: number; pilot: boolean }>(
