@@ -18,6 +18,7 @@ import type {
   ReleaseView,
   TransitionRequest,
 } from '../schemas/releases';
+import type { SiteView } from '../schemas/sites';
 
 // The answers' shapes live in schemas/releases.ts (the server's presenter promises them); screens import them from here.
 export type { ReleaseAction, ReleaseState, ReleaseDashboard, ReleaseSiteRow, ReleaseRow, ReleaseCounts, TransitionRequest };
@@ -107,7 +108,7 @@ export function useSiteChoices(enabled = true) {
   return useQuery({
     queryKey: releaseKeys.siteChoices(),
     queryFn: async () => {
-      const list = await api<List<{ id: string; name: string; customer?: string }>>('/api/sites');
+      const list = await api<List<SiteView>>('/api/sites');
       return list.rows.map((s) => ({ id: s.id, name: s.name, customer: s.customer }));
     },
     enabled,

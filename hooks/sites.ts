@@ -1,33 +1,16 @@
 // Sites: where loggers are installed. Integrators see (and edit) the sites assigned to them.
 import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, STALE } from './api';
+import type { z } from 'zod';
 import type { List } from '../schemas/common';
+import type { Me } from '../schemas/auth';
+import type { createSiteRequest, SiteView } from '../schemas/sites';
 
-export type Site = {
-  id: string;
-  name: string;
-  customer: string;
-  address: string;
-  latitude: number | null;
-  longitude: number | null;
-  timeZone: string;
-  notes: string | null;
-  integratorIds: string[];
-  integrators: { id: string; name: string }[];
-  loggerCount: number;
-  createdAt: string;
-};
-export type SiteInput = {
-  name: string;
-  customer: string;
-  address: string;
-  latitude?: number | null;
-  longitude?: number | null;
-  timeZone: string;
-  notes?: string;
-  integratorIds?: string[];
-};
-export type Person = { id: string; email: string; name: string; role: string };
+// Shapes from schemas/ (the server promises the answers); screens import them from here.
+export type Site = SiteView;
+export type SiteInput = z.input<typeof createSiteRequest>;
+/** A person on the team as GET /api/users answers (used to assign integrators). */
+export type Person = Me;
 
 export const siteKeys = {
   all: ['sites'] as const,
