@@ -2,20 +2,12 @@
 import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, STALE } from './api';
 import type { List } from '../schemas/common';
+import type { BoardRevision, LoggerModelView } from '../schemas/models';
 
-export type Board = { label: string; note: string };
-export type Model = {
-  id: string;
-  name: string;
-  boards: Board[];
-  minUpdateSupplyV: number;
-  checkInIntervalS: number;
-  busVMax: number;
-  shuntFullScaleV: number;
-  tempResolutions: number[];
-  loggerCount: number;
-  createdAt: string;
-};
+// Shapes from schemas/models.ts (the server promises the answers); screens import them from here.
+export type Board = BoardRevision;
+export type Model = LoggerModelView;
+/** What the model form sends (the server checks it against createModelRequest). */
 export type ModelInput = Omit<Model, 'id' | 'loggerCount' | 'createdAt'>;
 
 export const modelKeys = {
