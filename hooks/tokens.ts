@@ -2,22 +2,13 @@
 import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, STALE } from './api';
 import type { List } from '../schemas/common';
+import type { CreateTokenRequest, CreatedToken, TokenScope, TokenView } from '../schemas/tokens';
 
-export const tokenScopes = ['images:write', 'releases:write', 'fleet:read'] as const;
-export type TokenScope = (typeof tokenScopes)[number];
-
-export type ApiToken = {
-  id: string;
-  name: string;
-  scopes: TokenScope[];
-  expiresAt: string;
-  lastUsedAt: string | null;
-  createdAt: string;
-  revokedAt: string | null;
-  createdBy: { id: string; name: string } | null;
-};
-
-export type NewToken = { id: string; token: string; name: string; scopes: TokenScope[]; expiresAt: string };
+// Shapes from schemas/tokens.ts (the server promises the answers); screens import them from here.
+export { tokenScopes } from '../schemas/tokens';
+export type { TokenScope };
+export type ApiToken = TokenView;
+export type NewToken = CreatedToken;
 
 export const tokenKeys = { all: ['tokens'] as const, list: () => ['tokens', 'list'] as const };
 
@@ -28,7 +19,7 @@ export function useTokens() {
 export function useCreateToken() {
   const qc = useQueryClient();
   return useMutation({
-    mutationFn: (body: { name: string; scopes: TokenScope[]; expiresAt: string }) => api<NewToken>('/api/tokens', { body }),
+    mutationFn: (body: CreateTokenRequest) => api<NewToken>('/api/tokens', { body }),
     onSuccess: () => qc.invalidateQueries({ queryKey: tokenKeys.all }),
   });
 }

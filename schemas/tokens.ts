@@ -3,6 +3,7 @@ import { z } from 'zod';
 import { text } from './common';
 
 export const tokenScopes = ['images:write', 'releases:write', 'fleet:read'] as const;
+export type TokenScope = (typeof tokenScopes)[number];
 export const tokenScopeSchema = z.enum(tokenScopes, { error: `must be one of ${tokenScopes.join(', ')}` });
 
 export const createTokenRequest = z.strictObject({
@@ -15,11 +16,13 @@ export const createTokenRequest = z.strictObject({
 });
 export type CreateTokenRequest = z.infer<typeof createTokenRequest>;
 
-export type CreatedToken = { id: string; token: string; name: string; scopes: string[]; expiresAt: string };
+/** The answer to POST /api/tokens: the only time the token text is shown. */
+export type CreatedToken = { id: string; token: string; name: string; scopes: TokenScope[]; expiresAt: string };
+/** One row of GET /api/tokens (never the token text). */
 export type TokenView = {
   id: string;
   name: string;
-  scopes: string[];
+  scopes: TokenScope[];
   expiresAt: string;
   lastUsedAt: string | null;
   createdAt: string;
