@@ -1,8 +1,10 @@
 import { useInfiniteQuery } from '@tanstack/react-query';
 import { api, query } from './api';
 import type { List } from '../schemas/common';
+import type { ActivityView } from '../schemas/activity';
 
-export type ActivityRow = { id: number; at: string; actorType: string; actorName: string; action: string; targetType: string; targetId: string | null; summary: string };
+// The row's shape lives in schemas/activity.ts (the server promises it); screens import it from here.
+export type ActivityRow = ActivityView;
 
 export const activityKeys = { list: (filter: { targetType?: string; targetId?: string }) => ['activity', filter] as const };
 

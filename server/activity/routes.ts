@@ -4,6 +4,7 @@ import { Op } from 'sequelize';
 import type { Api } from '../http/api';
 import { parse } from '../http/validate';
 import { Activity } from '../db/models';
+import type { ActivityView } from '../../schemas/activity';
 
 const activityQuery = z.object({
   targetType: z.string().max(40).optional(),
@@ -25,7 +26,7 @@ export function registerActivityRoutes(api: Api, _deps: { sequelize: Sequelize }
     ]);
     const last = rows[rows.length - 1];
     res.json({
-      rows: rows.map((r) => ({ ...r.toJSON(), at: r.at.toISOString() })),
+      rows: rows.map((r): ActivityView => ({ ...r.toJSON(), at: r.at.toISOString() })),
       total,
       ...(rows.length === q.pageSize && last ? { nextCursor: String(last.id) } : {}),
     });

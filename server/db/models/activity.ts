@@ -1,6 +1,8 @@
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 
-export type ActorType = 'person' | 'token' | 'logger' | 'system';
+import type { ActorType } from '../../../schemas/activity';
+
+export type { ActorType };
 
 export class Activity extends Model<InferAttributes<Activity>, InferCreationAttributes<Activity>> {
   declare id: CreationOptional<number>;
