@@ -1,6 +1,8 @@
 import { useQuery } from '@tanstack/react-query';
 import { api, STALE } from './api';
-import { overviewSchema } from '../schemas/overview';
+import { overviewSchema, type Overview } from '../schemas/overview';
+
+export type { Overview };
 
 export const overviewKeys = { all: ['overview'] as const };
 

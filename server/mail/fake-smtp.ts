@@ -5,7 +5,9 @@ import crypto from 'node:crypto';
 import { SMTPServer } from 'smtp-server';
 import { simpleParser } from 'mailparser';
 
-export type OutboxMessage = { to: string[]; subject: string; text: string; html: string; sentAt: string };
+import type { OutboxMessage } from '../../schemas/mail';
+
+export type { OutboxMessage };
 
 export function startFakeSmtp(port: number, outboxDir: string): Promise<SMTPServer> {
   fs.mkdirSync(outboxDir, { recursive: true });
