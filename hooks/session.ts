@@ -1,6 +1,8 @@
 import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, ApiError, STALE } from './api';
-import { meSchema, type Me, type SignInRequest } from '../schemas/auth';
+import { meSchema, type Me, type SignInRequest, type SignInResponse } from '../schemas/auth';
+
+export type { Me };
 
 export const sessionKeys = { me: ['session', 'me'] as const };
 
@@ -24,7 +26,7 @@ export function useMe() {
 export function useSignIn() {
   const qc = useQueryClient();
   return useMutation({
-    mutationFn: (body: SignInRequest) => api<{ user: Me }>('/api/auth/sign-in', { body }),
+    mutationFn: (body: SignInRequest) => api<SignInResponse>('/api/auth/sign-in', { body }),
     onSuccess: ({ user }) => {
       qc.clear();
       qc.setQueryData(sessionKeys.me, user);

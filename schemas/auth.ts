@@ -33,3 +33,4 @@ export const meSchema = z.object({ id: uuid, email: z.string(), name: z.string()
 export type Me = z.infer<typeof meSchema>;
 
 export const signInResponse = z.object({ user: meSchema });
+export type SignInResponse = z.infer<typeof signInResponse>;

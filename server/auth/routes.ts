@@ -1,6 +1,6 @@
 import type { Request, Response } from 'express';
 import type { Sequelize } from 'sequelize';
-import { signInRequest } from '../../schemas/auth';
+import { signInRequest, type Me, type SignInResponse } from '../../schemas/auth';
 import type { Api } from '../http/api';
 import { parse } from '../http/validate';
 import { problems } from '../http/problem';
@@ -18,7 +18,8 @@ export function registerAuthRoutes(api: Api, deps: { sequelize: Sequelize; jwtSe
       maxAge: sessionTtlSeconds * 1000,
       path: '/',
     });
-    res.json({ user: presentUser(user) });
+    const answer: SignInResponse = { user: presentUser(user) };
+    res.json(answer);
   });
 
   api.post('/api/auth/sign-out', (req: Request, res: Response) => {
@@ -29,6 +30,7 @@ export function registerAuthRoutes(api: Api, deps: { sequelize: Sequelize; jwtSe
   api.get('/api/auth/me', (req: Request, res: Response) => {
     const actor = req.actor;
     if (actor?.type !== 'person') throw problems.forbidden('Only people have a profile; tokens do not.');
-    res.json({ id: actor.id, email: actor.email, name: actor.name, role: actor.role });
+    const me: Me = { id: actor.id, email: actor.email, name: actor.name, role: actor.role };
+    res.json(me);
   });
 }
