@@ -3,15 +3,31 @@
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, STALE, upload } from './api';
 import type { List } from '../schemas/common';
-import type { LoggerDetail, LoggerRow, LoggerStatus, ProfileView } from '../schemas/loggers';
+import type { z } from 'zod';
+import type {
+  BatchRegistered,
+  Enrolled,
+  EnrollmentLookup,
+  enrollRequest,
+  IssuedLogger,
+  LoggerDetail,
+  LoggerRow,
+  LoggerStatus,
+  profileChangeRequest,
+  ProfileView,
+  registerLoggerRequest,
+  RotatedToken,
+} from '../schemas/loggers';
 import { siteKeys } from './sites';
 import { modelKeys } from './models';
 
 // Response shapes are shared with the server (schemas/loggers.ts).
 export type { LoggerStatus, LoggerRow, LoggerDetail } from '../schemas/loggers';
 export type Profile = ProfileView;
-
-export type IssuedToken = { id?: string; serial: string; token: string; modelName: string; board: string; track?: string };
+export type Registered = IssuedLogger;
+export type BatchResult = BatchRegistered;
+export type Rotated = RotatedToken;
+export type Lookup = EnrollmentLookup;
 
 export type LoggerFilter = { q?: string; siteId?: string; modelId?: string; status?: LoggerStatus; page?: number; pageSize?: 25 | 50 | 100 };
 
@@ -53,8 +69,7 @@ function useInvalidateRegistry() {
     ]);
 }
 
-export type RegisterInput = { serial: string; modelId: string; board: string; track: string };
-export type Registered = { id: string; serial: string; board: string; track: string; modelId: string; modelName: string; token: string; labelPng: string };
+export type RegisterInput = z.input<typeof registerLoggerRequest>;
 
 export function useRegisterLogger() {
   const invalidate = useInvalidateRegistry();
@@ -63,8 +78,6 @@ export function useRegisterLogger() {
     onSuccess: () => invalidate(),
   });
 }
-
-export type BatchResult = { rows: { id: string; serial: string; token: string; board: string; track: string; modelName: string }[]; total: number };
 
 /** CSV batch upload; `onProgress` receives the fraction of the file sent (0…1). */
 export function useRegisterBatch(onProgress: (fraction: number) => void) {
@@ -78,8 +91,6 @@ export function useRegisterBatch(onProgress: (fraction: number) => void) {
     onSuccess: () => invalidate(),
   });
 }
-
-export type Rotated = { token: string; labelPng: string; serial: string; modelName: string; board: string };
 
 export function useRotateToken(id: string) {
   const invalidate = useInvalidateRegistry();
@@ -113,7 +124,7 @@ export function useMoveLogger(id: string) {
   });
 }
 
-export type ProfileInput = { panelWp?: number; panelVocV?: number; shuntOhm: number; maxCurrentA: number; tempResolutionBits: number };
+export type ProfileInput = z.input<typeof profileChangeRequest>;
 
 export function useUpdateProfile(id: string) {
   const invalidate = useInvalidateRegistry();
@@ -139,31 +150,17 @@ export const photoUrl = (loggerId: string) => `${process.env.EXPO_PUBLIC_API_URL
 
 // ─── Enrollment ──────────────────────────────────────────────────────────────
 
-export type Lookup = {
-  logger: { id: string; serial: string; modelId: string; modelName: string; board: string; status: LoggerStatus; site: { id: string; name: string } | null };
-  limits: { busVMax: number; shuntFullScaleV: number; tempResolutions: number[] };
-};
-
 export function useEnrollmentLookup() {
   return useMutation({ mutationFn: (token: string) => api<Lookup>('/api/enrollments/lookup', { body: { token } }) });
 }
 
-export type EnrollInput = {
-  token: string;
-  siteId: string;
-  panelWp: number;
-  panelVocV: number;
-  shuntOhm: number;
-  maxCurrentA: number;
-  tempResolutionBits: number;
-  notes?: string;
-};
+export type EnrollInput = z.input<typeof enrollRequest>;
 
 export function useEnroll() {
   const qc = useQueryClient();
   const invalidate = useInvalidateRegistry();
   return useMutation({
-    mutationFn: (body: EnrollInput) => api<{ logger: LoggerDetail; profile: Profile }>('/api/enrollments', { body }),
+    mutationFn: (body: EnrollInput) => api<Enrolled>('/api/enrollments', { body }),
     onSuccess: ({ logger }) => {
       qc.setQueryData(loggerKeys.detail(logger.id), logger);
       return invalidate();

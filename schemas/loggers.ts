@@ -174,6 +174,8 @@ export type LoggerDetail = {
 export type IssuedLogger = { id: string; serial: string; board: string; track: Track; modelId: string; modelName: string; token: string; labelPng: string };
 export type RotatedToken = { token: string; labelPng: string; serial: string; modelName: string; board: string };
 export type BatchRegistered = { rows: { id: string; serial: string; token: string; board: string; track: Track; modelName: string }[]; total: number };
+/** The answer to POST /api/enrollments: the enrolled logger and its first measurement profile. */
+export type Enrolled = { logger: LoggerDetail; profile: ProfileView };
 export type EnrollmentLookup = {
   logger: { id: string; serial: string; modelId: string; modelName: string; board: string; status: LoggerStatus; site: { id: string; name: string } | null };
   limits: { busVMax: number; shuntFullScaleV: number; tempResolutions: number[] };

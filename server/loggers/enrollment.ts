@@ -11,7 +11,7 @@ import { refuseUnassignedIntegrator } from '../sites/service';
 import { measurementProfile, type ComputedProfile } from './calibration';
 import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
 import { loggerFor, type RegistryDeps } from './service';
-import type { EnrollmentLookup, EnrollRequest, LoggerDetail, ProfileChangeRequest, ProfileView } from '../../schemas/loggers';
+import type { Enrolled, EnrollmentLookup, EnrollRequest, LoggerDetail, ProfileChangeRequest, ProfileView } from '../../schemas/loggers';
 
 export const unknownLabel =
   'This label is not known: its token may have been rotated or the logger retired. Ask an admin for a new label.';
@@ -82,7 +82,7 @@ async function siteFor(siteId: string, transaction: Transaction): Promise<Site> 
   return site;
 }
 
-export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: EnrollRequest): Promise<{ logger: LoggerDetail; profile: ProfileView }> {
+export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: EnrollRequest): Promise<Enrolled> {
   return deps.sequelize.transaction(async (transaction) => {
     const logger = await loggerByToken(body.token, transaction);
     if (logger.status === 'enrolled') {
