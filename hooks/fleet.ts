@@ -17,12 +17,15 @@ import {
   type FleetSortKey,
   type LaggingReason,
   type LaggingSite,
+  type RetryAnswer,
   type RetryOrder,
   type Note,
   type Sparklines,
   type TimelineItem,
   type UpdateState,
   type VersionMatrix,
+  type WhyAnswer,
+  type WhyVerdict,
 } from '../schemas/fleet';
 
 export type { FleetRow };
@@ -223,7 +226,7 @@ export function useRetryInstall() {
   return useMutation({
     mutationFn: async (orders: RetryOrder[]) => {
       let retried = 0;
-      for (const { releaseId, ...body } of orders) retried += (await api<{ retried: number }>(`/api/releases/${releaseId}/retry`, { body })).retried;
+      for (const { releaseId, ...body } of orders) retried += (await api<RetryAnswer>(`/api/releases/${releaseId}/retry`, { body })).retried;
       return { retried };
     },
     onSettled: () => Promise.all([qc.invalidateQueries({ queryKey: fleetKeys.all }), qc.invalidateQueries({ queryKey: loggerKeys.all }), qc.invalidateQueries({ queryKey: releaseKeys.all })]),
@@ -315,8 +318,7 @@ export function useSparklines(loggerId: string | undefined, days = 7) {
 }
 
 /** One release's verdict for the logger (the device API's offer decision), with its reason in words. */
-export type WhyVerdict = { releaseId: string; version: string; outcome: 'offered' | 'not_offered'; reason: string; detail: string; label: string };
-export type WhyAnswer = { loggerId: string; at: string; offer: { releaseId: string; version: string } | null; verdicts: WhyVerdict[] };
+export type { WhyAnswer, WhyVerdict };
 
 export function useWhyNoUpdate(loggerId: string | undefined) {
   return useQuery({

@@ -97,6 +97,45 @@ export type VersionMatrix = {
   }[];
 };
 
+// ─── Why no update? ─────────────────────────────────────────────────────────
+
+/** Why the offer decision (server/device-api/decision.ts) offers a release to a logger or not. */
+export const REASON_CODES = [
+  'offered',
+  'stepping_stone',
+  'retired',
+  'not_enrolled',
+  'firmware_unknown',
+  'wrong_track',
+  'not_live',
+  'board_not_supported',
+  'not_newer',
+  'security_counter_too_low',
+  'failed_awaiting_retry',
+  'not_pilot_site',
+  'outside_share',
+  'needs_stepping_stone',
+  'superseded',
+  'low_supply',
+  'outside_daylight_window',
+] as const;
+export type ReasonCode = (typeof REASON_CODES)[number];
+
+/** One release's verdict for the logger, with its reason in words. */
+export type WhyVerdict = {
+  releaseId: string;
+  version: string;
+  outcome: 'offered' | 'not_offered';
+  reason: ReasonCode;
+  /** One sentence with the figures behind the reason, for support. */
+  detail: string;
+  /** The release the logger's next check-in would be offered. */
+  offer: boolean;
+  label: string;
+};
+/** GET /api/loggers/:id/why: the decision the logger's next check-in would get now. */
+export type WhyAnswer = { loggerId: string; at: string; offer: { releaseId: string; version: string } | null; verdicts: WhyVerdict[] };
+
 // ─── Lagging sites ──────────────────────────────────────────────────────────
 
 export const laggingReasons = [
@@ -185,6 +224,8 @@ export const retryRequest = z.union(
 export type RetryRequest = z.infer<typeof retryRequest>;
 /** A retry as the console sends it: the release whose failed installs are cleared, and for whom. */
 export type RetryOrder = { releaseId: string } & RetryRequest;
+/** POST /api/releases/:id/retry: how many failed installs were cleared for another offer. */
+export type RetryAnswer = { retried: number };
 
 export const noteRequest = z.object({
   text: z.string({ message: 'is required' }).trim().min(1, 'is required').max(1000, 'at most 1000 characters'),

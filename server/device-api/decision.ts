@@ -28,6 +28,11 @@ import semver from 'semver';
 import { isLive, type ReleaseState } from '../releases/lifecycle';
 import { bucketOf, inShare, shareThreshold } from './cohort';
 import { daylightWindowAt } from './daylight';
+import { REASON_CODES, type ReasonCode } from '../../schemas/fleet';
+
+// The reason codes are named in schemas/fleet.ts: "Why no update?" sends them to the console.
+export { REASON_CODES };
+export type { ReasonCode };
 
 export type Track = 'stable' | 'early';
 export type LoggerStatus = 'registered' | 'enrolled' | 'retired';
@@ -87,27 +92,6 @@ export type OfferInput<R extends ReleaseTargeting = ReleaseTargeting> = {
   lastReports: Readonly<Record<string, LastInstallReport | undefined>>;
   now: Date;
 };
-
-export const REASON_CODES = [
-  'offered',
-  'stepping_stone',
-  'retired',
-  'not_enrolled',
-  'firmware_unknown',
-  'wrong_track',
-  'not_live',
-  'board_not_supported',
-  'not_newer',
-  'security_counter_too_low',
-  'failed_awaiting_retry',
-  'not_pilot_site',
-  'outside_share',
-  'needs_stepping_stone',
-  'superseded',
-  'low_supply',
-  'outside_daylight_window',
-] as const;
-export type ReasonCode = (typeof REASON_CODES)[number];
 
 /** Short labels for the console ("Why no update?", lagging sites). */
 export const REASON_LABELS: Record<ReasonCode, string> = {

@@ -6,8 +6,8 @@ import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import { loggerFor } from '../loggers/service';
 import { refuseUnassignedIntegrator } from '../sites/service';
-import { REASON_LABELS, type ReleaseVerdict } from '../device-api/decision';
-import type { Note, RetryRequest, SiteNotesQuery, Sparklines, TimelineItem } from '../../schemas/fleet';
+import { REASON_LABELS } from '../device-api/decision';
+import type { Note, RetryAnswer, RetryRequest, SiteNotesQuery, Sparklines, TimelineItem, WhyAnswer } from '../../schemas/fleet';
 import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C } from '../../schemas/fleet';
 import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
 import type { FleetDeps } from './table';
@@ -22,7 +22,7 @@ const iso = (d: Date | string) => new Date(d).toISOString();
  * retriedSince), and the next check-in is offered the release again when the other rules allow.
  * Failures already retried and not failed again are not counted twice.
  */
-export async function retryFailed(deps: FleetDeps, ctx: RequestContext, releaseId: string, body: RetryRequest): Promise<{ retried: number }> {
+export async function retryFailed(deps: FleetDeps, ctx: RequestContext, releaseId: string, body: RetryRequest): Promise<RetryAnswer> {
   return deps.sequelize.transaction(async (transaction) => {
     const [release] = await deps.sequelize.query<{ id: string; version: string }>('SELECT id, version FROM releases WHERE id = :releaseId FOR SHARE', {
       type: QueryTypes.SELECT,
@@ -278,8 +278,6 @@ export async function sparklines(deps: FleetDeps, actor: Actor, loggerId: string
 }
 
 // ─── Why no update? ─────────────────────────────────────────────────────────
-
-export type WhyAnswer = { loggerId: string; at: string; offer: { releaseId: string; version: string } | null; verdicts: (ReleaseVerdict & { offer: boolean; label: string })[] };
 
 /** The decision the logger's next check-in would get now, from its latest reported state, for every release of its model. */
 export async function whyNoUpdate(deps: FleetDeps, actor: Actor, loggerId: string): Promise<WhyAnswer> {
