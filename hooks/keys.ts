@@ -2,7 +2,7 @@
 import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, STALE } from './api';
 import type { List } from '../schemas/common';
-import type { SigningKeyView } from '../schemas/keys';
+import type { RegisterKeyRequest, SigningKeyView } from '../schemas/keys';
 
 // The shapes come from the shared schema module (one source of truth with the server).
 export type { KeyState } from '../schemas/keys';
@@ -27,7 +27,7 @@ function useKeyMutation<V>(fn: (v: V) => Promise<SigningKey>) {
 }
 
 export function useRegisterKey() {
-  return useKeyMutation((body: { name: string; publicKeyPem: string }) => api<SigningKey>('/api/keys', { body }));
+  return useKeyMutation((body: RegisterKeyRequest) => api<SigningKey>('/api/keys', { body }));
 }
 
 export function useRetireKey() {

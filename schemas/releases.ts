@@ -3,6 +3,7 @@ import { z } from 'zod';
 import semver from 'semver';
 import { uuid } from './common';
 import { boardLabel } from './manifest';
+import type { KeyState } from './keys';
 
 // The lifecycle's words (the table itself is server/releases/lifecycle.ts): shared with the console.
 export const RELEASE_STATES = ['draft', 'pilot', 'expanding', 'complete', 'paused', 'halted', 'withdrawn'] as const;
@@ -140,7 +141,7 @@ export type ReleaseView = {
   /** The notes rendered to safe HTML (empty when there are none). */
   notesHtml: string;
   image: { sha256: string; size: number };
-  key: { id: string; keyId: string; name: string; state: 'active' | 'retired' | 'revoked' } | null;
+  key: { id: string; keyId: string; name: string; state: KeyState } | null;
   flagged: boolean;
   counts: ReleaseCounts;
   history: ReleaseTransitionView[];
