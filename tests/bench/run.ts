@@ -39,6 +39,7 @@ const { values: args } = parseArgs({
     with: { type: 'string' },
     out: { type: 'string' },
     explain: { type: 'string', default: '3' },
+    'explain-scope': { type: 'string', default: 'fleet' },
   },
   strict: true,
 });
@@ -162,6 +163,14 @@ function scenarios(base: string, fleet: SeededFleet, cookies: { support: string;
   return list;
 }
 
+/** The list's `total` (rows the filter matches), for the table's note; undefined for answers without one. */
+async function totalOf(base: string, req: Request): Promise<number | undefined> {
+  const res = await fetch(base + req.path, req.init);
+  if (!res.headers.get('content-type')?.includes('json')) return undefined;
+  const body = (await res.json()) as { total?: unknown };
+  return typeof body.total === 'number' ? body.total : undefined;
+}
+
 /** The SQL one request runs (as Sequelize logs it, replacements filled in), without the session's user lookup. */
 async function capturedSql(sequelize: Sequelize, base: string, req: Request): Promise<string[]> {
   const seen: string[] = [];
@@ -264,7 +273,7 @@ async function main() {
     const results: ScenarioResult[] = [];
     const builders = new Map<string, (i: number) => Request>();
     const all = scenarios(base, fleet, cookies).filter((s) => !only || only.test(s.name));
-    const timed: { s: Scenario; m: Awaited<ReturnType<typeof measure>>; concurrency: number }[] = [];
+    const timed: { s: Scenario; m: Awaited<ReturnType<typeof measure>>; concurrency: number; total?: number }[] = [];
     for (const [k, s] of all.entries()) {
       if (k > 0 && k % 10 === 0) await measureBaseline(10);
       const build = await s.prepare();
@@ -273,23 +282,30 @@ async function main() {
       if (s.who === 'device') opts.requests = Math.max(opts.requests, Math.min(4 * opts.requests, fleet.tokenLoggers.length));
       const m = await measure(base, build, opts);
       errors.push(...m.errors);
-      timed.push({ s, m, concurrency: opts.concurrency });
+      timed.push({ s, m, concurrency: opts.concurrency, total: s.who === 'device' || s.note ? undefined : await totalOf(base, build(0)) });
       log(`${s.name}: p50 ${m.p50.toFixed(1)} ms, p95 ${m.p95.toFixed(1)} ms${m.errors.length ? `, ${m.errors.length} errors` : ''}`);
     }
     await measureBaseline(10);
     const sortedBaselines = [...baselines].sort((a, b) => a - b);
     const baselineP50 = sortedBaselines[Math.floor((sortedBaselines.length - 1) / 2)];
-    for (const { s, m, concurrency } of timed) {
-      const extra = s.note?.(m);
+    for (const { s, m, concurrency, total } of timed) {
+      const extra = s.note?.(m) ?? (total === undefined ? undefined : { note: `${total} match`, mbPerS: undefined });
       results.push({
         name: s.name, group: s.group, n: m.n, concurrency, p50: m.p50, p95: m.p95, mean: m.mean, max: m.max,
-        ratio: m.p50 / baselineP50, errors: m.errors.length, ...(extra ? { note: extra.note, mbPerS: extra.mbPerS } : {}),
+        ratio: m.p50 / baselineP50, errors: m.errors.length, ...(extra ? { note: extra.note, ...(extra.mbPerS === undefined ? {} : { mbPerS: extra.mbPerS }) } : {}),
       });
     }
 
     // EXPLAIN (ANALYZE, BUFFERS) the SQL behind the slowest fleet-table scenarios.
     const explained: ExplainResult[] = [];
-    const slowest = results.filter((r) => all.find((s) => s.name === r.name)?.explain).sort((a, b) => b.p50 - a.p50).slice(0, int('explain', args.explain, 0));
+    // One per query shape: a sort key's directions and pages share their plan's shape, so the slowest of each family.
+    const family = (name: string) => name.replace(/ (asc|desc) .*$/, '');
+    const families = new Set<string>();
+    const slowest = results
+      .filter((r) => (args['explain-scope'] === 'all' ? r.group !== 'device API' && r.group !== 'export' : all.find((s) => s.name === r.name)?.explain))
+      .sort((a, b) => b.p50 - a.p50)
+      .filter((r) => !families.has(family(r.name)) && families.add(family(r.name)))
+      .slice(0, int('explain', args.explain, 0));
     for (const r of slowest) {
       const sqls = await capturedSql(db.sequelize, base, builders.get(r.name)!(0));
       for (const sql of sqls) {

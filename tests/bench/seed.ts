@@ -14,6 +14,7 @@
 // - Latest state on every logger row (firmware, last_seen_at, supply_v, readings.temp_c, recent_resets)
 //   with a few per cent silent, low-supply, unstable and probe-fault loggers.
 // - 72 hours of hourly check-in history for one logger in 20 and for every token-holding logger.
+// - Ids are derived from fixed text, values from hashes (no random numbers): every run seeds the same fleet.
 // - Tokens: derived from the serial (SHA-256 of a fixed text, base64url, as real tokens look), so the
 //   bench can rebuild the plain tokens of the loggers it checks in as; only digests are stored.
 import { createHash } from 'node:crypto';
@@ -49,6 +50,12 @@ export type SeededFleet = {
 /** The plain token of a bench logger, the same text the seed's SQL derives. */
 export function benchToken(serial: string): string {
   return 'hlt_' + createHash('sha256').update(`heliodor bench logger ${serial}`, 'utf8').digest('base64url');
+}
+
+/** A UUID-shaped id derived from text (the MD5 digest in UUID form, as PostgreSQL's md5(…)::uuid gives). */
+function fixedUuid(text: string): string {
+  const h = createHash('md5').update(`heliodor bench ${text}`, 'utf8').digest('hex');
+  return `${h.slice(0, 8)}-${h.slice(8, 12)}-${h.slice(12, 16)}-${h.slice(16, 20)}-${h.slice(20)}`;
 }
 
 /** Kinds of site in the Vale and who the customer usually is ({v}: the village). */
@@ -131,9 +138,11 @@ export async function seedBench(
     );
     const widenedAt = daysAgoAt(now, 2, 10, 40);
     const plans = modelIds.map(() => planReleases(now, widenedAt));
+    // Fixed ids (logger, site and release ids alike), so the share's cohort buckets, and so the fleet, are the same on every run.
+    plans.forEach((plan, m) => plan.all.forEach((r) => (r.id = fixedUuid(`release ${m} ${r.version}`))));
     const siteIds: string[] = [];
     // Site ids first: releases name their pilot sites.
-    const ids = await db.query<{ id: string }>('SELECT gen_random_uuid() AS id FROM generate_series(1, $1)', [siteCount]);
+    const ids = await db.query<{ id: string }>("SELECT CAST(md5('heliodor bench site ' || i) AS uuid) AS id FROM generate_series(1, $1) AS i ORDER BY i", [siteCount]);
     for (const r of ids.rows) siteIds.push(r.id);
     step('people, models, key');
 
@@ -226,7 +235,7 @@ export async function seedBench(
     const supply = (b: string) => boardSupplies[b];
     await db.query(
       `CREATE TEMP TABLE bench_loggers AS
-       SELECT g, gen_random_uuid() AS id, g / 4 AS site_idx,
+       SELECT g, CAST(md5('heliodor bench logger ' || g) AS uuid) AS id, g / 4 AS site_idx,
               pg_temp.bench_u(g || ':fw') AS u_fw, pg_temp.bench_u(g || ':board') AS u_board, pg_temp.bench_u(g || ':silent') AS u_silent,
               pg_temp.bench_u(g || ':low') AS u_low, pg_temp.bench_u(g || ':unstable') AS u_unstable, pg_temp.bench_u(g || ':probe') AS u_probe,
               pg_temp.bench_u(g || ':seen') AS u_seen, pg_temp.bench_u(g || ':g1') AS u_g1, pg_temp.bench_u(g || ':g2') AS u_g2,
