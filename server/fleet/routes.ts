@@ -45,8 +45,17 @@ function csvStream(res: Response, fileName: string) {
     new Promise<void>((resolve, reject) => {
       if (res.destroyed) return reject(new Error('client went away'));
       if (res.write(chunk)) return resolve();
-      res.once('drain', resolve);
-      res.once('close', () => reject(new Error('client went away')));
+      // Each wait removes the listener it did not need, so a long export does not pile them up.
+      const onDrain = () => {
+        res.off('close', onClose);
+        resolve();
+      };
+      const onClose = () => {
+        res.off('drain', onDrain);
+        reject(new Error('client went away'));
+      };
+      res.once('drain', onDrain);
+      res.once('close', onClose);
     });
 }
 
