@@ -64,8 +64,28 @@ function reasonOf(row: BehindRow, decision: OfferDecision | undefined): { reason
   return { reason: REASON_OF[verdict.reason] ?? 'other', detail: verdict.detail };
 }
 
-async function behindLoggers(deps: FleetDeps, siteIds: string[] | null, customer: string | undefined, now: Date): Promise<BehindRow[]> {
+/**
+ * A condition every logger lagging for the reason meets, so a reason filter runs the offer decision only
+ * for loggers that can have it (the decision still names the reason). Silent loggers lag for "silent"
+ * and nothing else; low supply needs a reading below the model's guard; the daylight window needs a
+ * site with coordinates; an unsupported board is not among the current release's boards; a failed
+ * install awaiting retry has a failed report of that release.
+ */
+const CAN_LAG_FOR: Partial<Record<LaggingReason, string>> = {
+  low_supply: 'l.supply_v IS NOT NULL AND l.supply_v < m.min_update_supply_v',
+  outside_daylight_window: 's.latitude IS NOT NULL AND s.longitude IS NOT NULL',
+  board_not_supported: 'NOT EXISTS (SELECT 1 FROM releases r WHERE r.id = cr.id AND COALESCE(l.reported_board, l.board) = ANY (r.boards))',
+  failed_awaiting_retry: `EXISTS (SELECT 1 FROM install_reports ir WHERE ir.logger_id = l.id AND ir.release_id = cr.id AND ir.state = 'failed')`,
+};
+
+function canLagFor(reason: LaggingReason): string {
+  if (reason === 'silent') return SILENT;
+  return [`NOT ${SILENT}`, CAN_LAG_FOR[reason]].filter(Boolean).join(' AND ');
+}
+
+async function behindLoggers(deps: FleetDeps, siteIds: string[] | null, customer: string | undefined, now: Date, reason?: LaggingReason): Promise<BehindRow[]> {
   const conditions: string[] = [];
+  if (reason) conditions.push(`(${canLagFor(reason)})`);
   const replacements: Record<string, unknown> = { now: now.toISOString() };
   if (siteIds) {
     if (siteIds.length === 0) return [];
@@ -163,14 +183,15 @@ function present(r: SiteRow, loggers: LaggingLogger[]): LaggingSite {
 export async function laggingSites(deps: FleetDeps, query: LaggingQuery, all = false): Promise<{ rows: LaggingSite[]; total: number; nextCursor?: string }> {
   const now = deps.now();
   let onlySites: string[] | null = null;
-  let reasonsBySite: Map<string, LaggingLogger[]> | null = null;
   if (query.reason) {
-    reasonsBySite = await withReasons(deps, await behindLoggers(deps, query.siteId ? [query.siteId] : null, query.customer, now), now);
-    onlySites = [...reasonsBySite].filter(([, list]) => list.some((l) => l.reason === query.reason)).map(([site]) => site);
+    // The sites where some logger lags for the reason: decisions only for the loggers that can.
+    const candidates = await withReasons(deps, await behindLoggers(deps, query.siteId ? [query.siteId] : null, query.customer, now, query.reason), now);
+    onlySites = [...candidates].filter(([, list]) => list.some((l) => l.reason === query.reason)).map(([site]) => site);
   }
   const { rows, total } = await siteRows(deps, query, now, onlySites, !all);
-  if (!reasonsBySite) reasonsBySite = await withReasons(deps, await behindLoggers(deps, rows.map((r) => r.site_id), undefined, now), now);
-  const presented = rows.map((r) => present(r, reasonsBySite!.get(r.site_id) ?? []));
+  // Every logger behind at the listed sites, each with its reason.
+  const reasonsBySite = await withReasons(deps, await behindLoggers(deps, rows.map((r) => r.site_id), undefined, now), now);
+  const presented = rows.map((r) => present(r, reasonsBySite.get(r.site_id) ?? []));
   const more = !all && query.page * query.pageSize < total;
   return { rows: presented, total, ...(more ? { nextCursor: String(query.page + 1) } : {}) };
 }

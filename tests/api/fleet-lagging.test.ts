@@ -146,6 +146,8 @@ describe('lagging sites', () => {
     for (const [key, reason] of Object.entries(expected)) {
       const { rows } = await lagging({ reason });
       expect(rows.map((r) => r.siteId)).toEqual([site[key]]);
+      // The filter picks sites; each listed site still shows every logger behind there, whatever its reason.
+      expect(rows[0].loggers).toHaveLength(rows[0].behind);
     }
     const parish = await lagging({ customer: 'parish council' }); // Aldmere Village Hall is the parish council's too
     expect(parish.rows.map((r) => r.siteId).sort()).toEqual([site.silent, site.offered, site.daylight].sort());
