@@ -8,6 +8,7 @@ import { parse } from 'csv-parse/sync';
 import type { Browser, Page } from 'playwright-core';
 import { startTestApp, testPassword, type TestApp } from '../helpers/app';
 import { launchChromium, screenshot, signIn, viewports } from '../helpers/browser';
+import type { ReleaseView } from '../../schemas/releases';
 
 type FleetRow = { id: string; serial: string; customer: string | null; flags: string[] };
 type LaggingSite = { siteId: string; siteName: string; customer: string; loggers: { serial: string; reasonLabel: string }[] };
@@ -152,7 +153,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     const releases = await apiList<{ id: string; version: string; state: string }>('/api/releases');
     const live = releases.rows.find((r) => r.state === 'expanding') ?? releases.rows.find((r) => r.state === 'pilot');
     expect(live).toBeDefined();
-    const release = (await support.get(`/api/releases/${live!.id}`)).body as { haltFailureRatio: number; counts: { installed: number; failed: number } };
+    const release = (await support.get(`/api/releases/${live!.id}`)).body as ReleaseView;
     const logger = (await apiList<FleetRow>('/api/loggers?flag=low_supply&pageSize=25')).rows[0];
     const why = (await support.get(`/api/loggers/${logger.id}/why`)).body as { verdicts: { outcome: string; label: string }[] };
 
@@ -175,9 +176,11 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     await page.getByText('Adoption over time', { exact: false }).first().scrollIntoViewIfNeeded();
     await screenshot(page, `versions-adoption-${size}`);
 
-    // The halt rule's ratio (DEVICE_API.md): failed over finished installs, shown beside the threshold.
-    const finished = release.counts.installed + release.counts.failed;
-    const ratio = finished ? release.counts.failed / finished : 0;
+    // The halt rule's ratio (DEVICE_API.md): failed over finished installs, shown beside the threshold;
+    // failures the logger retries by itself (connection, low supply) count on neither side.
+    const counted = release.counts.failed - release.counts.failedByReason.connection - release.counts.failedByReason.low_supply;
+    const finished = release.counts.installed + counted;
+    const ratio = finished ? counted / finished : 0;
     const words = (x: number) => `${Number((x * 100).toFixed(1))} %`;
     await page.goto(`${base}/releases/${live!.id}`);
     await page.getByTestId('failure-ratio').waitFor();
