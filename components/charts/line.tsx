@@ -2,6 +2,7 @@
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
 import { LineChart } from 'react-native-gifted-charts';
+import { AXES } from './axes';
 import { Measured } from './width';
 import { niceMax } from './series';
 import { colors, fonts, space, type } from '../theme';
@@ -52,13 +53,7 @@ export function DayLineChart({ points, height = 160, color = colors.moss, label,
               maxValue={niceMax(Math.max(...values.map((v) => v.value)))}
               yAxisLabelWidth={yLabel}
               yAxisLabelSuffix={unit}
-              formatYLabel={(l) => String(Number(Number(l).toFixed(2)))}
-              yAxisTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 11 }}
-              xAxisColor={colors.line}
-              yAxisColor={colors.line}
-              rulesColor={colors.line}
-              disableScroll
-              isAnimated={false}
+              {...AXES}
             />
           );
         }}

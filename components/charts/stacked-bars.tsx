@@ -4,6 +4,7 @@ import React from 'react';
 import { View } from 'react-native';
 import { BarChart } from 'react-native-gifted-charts';
 import { Legend } from './legend';
+import { AXES } from './axes';
 import { Measured } from './width';
 import { niceMax, seriesColor } from './series';
 import { colors, fonts, space } from '../theme';
@@ -39,13 +40,8 @@ export function StackedBarChart({ data, height = 180, label }: { data: StackedBa
               maxValue={max}
               noOfSections={4}
               yAxisLabelWidth={yLabel}
-              yAxisTextStyle={{ color: colors.inkSoft, fontFamily: fonts.regular, fontSize: 11 }}
+              {...AXES}
               xAxisLabelTextStyle={{ color: colors.ink, fontFamily: fonts.regular, fontSize: 12 }}
-              xAxisColor={colors.line}
-              yAxisColor={colors.line}
-              rulesColor={colors.line}
-              disableScroll
-              isAnimated={false}
             />
           );
         }}
