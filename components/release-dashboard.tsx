@@ -106,7 +106,9 @@ function HaltGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
         <Text style={type.small}>
           {r.judged
             ? `${rate(r.after)} resets per logger-day on this release over ${r.loggers} loggers, against ${rate(r.before)} before it${r.before < r.beforeJudged ? ` (judged against at least ${rate(r.beforeJudged)})` : ''}.`
-            : `Judged once ${r.minLoggers} loggers have run it a full day (${r.minHours} h); ${r.loggers} so far.`}
+            : r.loggers >= r.minLoggers && r.loggerDaysBefore < r.minLoggerDaysBefore
+              ? `Not judged: the check-ins kept hold only ${rate(r.loggerDaysBefore)} logger-days before this release (at least ${r.minLoggerDaysBefore} are needed to compare).`
+              : `Judged once ${r.minLoggers} loggers have run it a full day (${r.minHours} h); ${r.loggers} so far.`}
         </Text>
       </View>
     </Card>

@@ -188,7 +188,12 @@ export type ReleaseDashboard = {
     failureRatio: { installed: number; failed: number; finished: number; ratio: number; threshold: number; minReports: number; judged: boolean; over: boolean };
     resetRate: {
       loggers: number;
+      resetsAfter: number;
+      loggerDaysAfter: number;
+      resetsBefore: number;
+      loggerDaysBefore: number;
       minLoggers: number;
+      minLoggerDaysBefore: number;
       minHours: number;
       after: number;
       before: number;

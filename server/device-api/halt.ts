@@ -17,7 +17,9 @@
 //   since each logger's confirmation) against the same per logger-day on older versions in the
 //   retention window before it. It halts when the new rate is above haltResetFactor × the old rate. A
 //   fleet with no resets at all before would halt on the first one, so the old rate counts as at least
-//   one reset per 100 logger-days (a rule of thumb of ours, common practice for such floors).
+//   one reset per 100 logger-days (a rule of thumb of ours, common practice for such floors). Without
+//   at least 20 logger-days of history before the release (confirmed longer ago than the retention
+//   window, or loggers new to the fleet) there is nothing to compare, and the rate is not judged.
 import type { Sequelize, Transaction } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import { transition, type ReleaseLifecycle, type ReleaseState, type ResumeState } from '../releases/lifecycle';
@@ -26,6 +28,12 @@ import { systemContext } from '../auth/actor';
 import type { Mail } from '../mail/mailer';
 
 export const RESET_MIN_LOGGERS = 20;
+/**
+ * History needed before the release, in logger-days, to compare with: without it (a release older than
+ * the check-in history kept, or loggers new to the fleet) there is no rate before, and a floor alone
+ * would halt a healthy fleet whose boards reset now and then. As many logger-days as the cohort minimum.
+ */
+export const RESET_MIN_LOGGER_DAYS_BEFORE = RESET_MIN_LOGGERS;
 export const RESET_MIN_HOURS = 24;
 /** Floor of the old reset rate, resets per logger-day. */
 export const RESET_RATE_FLOOR = 0.01;
@@ -61,8 +69,13 @@ export function failureRatioVerdict(t: HaltThresholds, f: FailureFigures): HaltV
   };
 }
 
+/** Enough loggers a day on the release, and enough history before it, to compare the two rates. */
+export function resetRateJudged(r: ResetFigures): boolean {
+  return r.loggers >= RESET_MIN_LOGGERS && r.loggerDaysAfter > 0 && r.loggerDaysBefore >= RESET_MIN_LOGGER_DAYS_BEFORE;
+}
+
 export function resetRateVerdict(t: HaltThresholds, r: ResetFigures): HaltVerdict {
-  if (r.loggers < RESET_MIN_LOGGERS || r.loggerDaysAfter <= 0) return { halt: false };
+  if (!resetRateJudged(r)) return { halt: false };
   const after = r.resetsAfter / r.loggerDaysAfter;
   const measuredBefore = r.loggerDaysBefore > 0 ? r.resetsBefore / r.loggerDaysBefore : 0;
   const before = Math.max(measuredBefore, RESET_RATE_FLOOR);
@@ -100,6 +113,7 @@ export function haltGauges(t: HaltThresholds, f: FailureFigures, r: ResetFigures
     resetRate: {
       ...r,
       minLoggers: RESET_MIN_LOGGERS,
+      minLoggerDaysBefore: RESET_MIN_LOGGER_DAYS_BEFORE,
       minHours: RESET_MIN_HOURS,
       /** Resets per logger-day on the new version, and before it (measured, and as judged with the floor). */
       after,
@@ -108,7 +122,7 @@ export function haltGauges(t: HaltThresholds, f: FailureFigures, r: ResetFigures
       /** The new rate as a multiple of the old one (with the floor), against haltResetFactor. */
       factor: after / before,
       threshold: t.haltResetFactor,
-      judged: r.loggers >= RESET_MIN_LOGGERS && r.loggerDaysAfter > 0,
+      judged: resetRateJudged(r),
       over: resetRateVerdict(t, r).halt,
     },
   };

@@ -110,12 +110,19 @@ describe('halt thresholds', () => {
     }
     for (const loggers of [19, 20]) {
       for (const resetsAfter of [0, 3, 4, 5, 50]) {
-        for (const resetsBefore of [0, 10]) {
-          const r = { ...resets, loggers, resetsAfter, resetsBefore };
+        for (const [resetsBefore, loggerDaysBefore] of [[0, 100], [10, 100], [0, 0], [2, 19], [2, 20]]) {
+          const r = { ...resets, loggers, resetsAfter, resetsBefore, loggerDaysBefore };
           expect(haltGauges(release, { installed: 0, failed: 0 }, r).resetRate.over).toBe(resetRateVerdict(release, r).halt);
         }
       }
     }
+  });
+  test('when the check-ins kept hold less than 20 logger-days before the release, then the reset rate is not judged, however many resets', () => {
+    // A release confirmed longer ago than the retention window has no rate before to compare with.
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 0, resetsAfter: 500 }).halt).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 19.9, resetsAfter: 500 }).halt).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 20, resetsAfter: 500 }).halt).toBe(true);
+    expect(haltGauges(release, { installed: 0, failed: 0 }, { ...resets, loggerDaysBefore: 0, resetsAfter: 500 }).resetRate).toMatchObject({ judged: false, over: false, minLoggerDaysBefore: 20 });
   });
   test('the failure ratio is judged first', () => {
     expect(evaluateHalt(release, { installed: 0, failed: 20 }, { ...resets, resetsAfter: 100 })).toMatchObject({ rule: 'failure_ratio' });
