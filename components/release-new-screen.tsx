@@ -105,34 +105,22 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
               Signed image
             </Text>
             <FilePicker label="Image" hint="The firmware image the manifest describes." value={image} onChange={setImage} error={fieldError('image')} testID="file-image" />
-            <Segmented<Mode>
+            <FileOrText
               label="Manifest"
-              value={manifestMode}
-              onChange={setManifestMode}
-              options={[
-                { value: 'file', label: 'Choose file' },
-                { value: 'text', label: 'Paste text' },
-              ]}
+              mode={manifestMode}
+              onMode={setManifestMode}
+              error={fieldError('manifest')}
+              file={<FilePicker label="manifest.json" accept=".json,application/json" hint="Canonical JSON made by `heliodor manifest`." value={manifestFile} onChange={setManifestFile} error={fieldError('manifest')} testID="file-manifest" />}
+              text={{ label: 'Manifest (canonical JSON, exactly as signed)', value: manifestText, onChange: setManifestText, multiline: true, testID: 'text-manifest' }}
             />
-            {manifestMode === 'file' ? (
-              <FilePicker label="manifest.json" accept=".json,application/json" hint="Canonical JSON made by `heliodor manifest`." value={manifestFile} onChange={setManifestFile} error={fieldError('manifest')} testID="file-manifest" />
-            ) : (
-              <Field label="Manifest (canonical JSON, exactly as signed)" mono multiline value={manifestText} onChangeText={setManifestText} error={fieldError('manifest')} style={{ minHeight: 96, paddingVertical: space.sm }} autoCapitalize="none" autoCorrect={false} testID="text-manifest" />
-            )}
-            <Segmented<Mode>
+            <FileOrText
               label="Signature"
-              value={signatureMode}
-              onChange={setSignatureMode}
-              options={[
-                { value: 'file', label: 'Choose file' },
-                { value: 'text', label: 'Paste text' },
-              ]}
+              mode={signatureMode}
+              onMode={setSignatureMode}
+              error={fieldError('signature')}
+              file={<FilePicker label="Signature" accept=".sig,.txt,text/plain" hint="The base64 signature from `heliodor sign`." value={signatureFile} onChange={setSignatureFile} error={fieldError('signature')} testID="file-signature" />}
+              text={{ label: 'Signature (base64)', value: signatureText, onChange: setSignatureText, testID: 'text-signature' }}
             />
-            {signatureMode === 'file' ? (
-              <FilePicker label="Signature" accept=".sig,.txt,text/plain" hint="The base64 signature from `heliodor sign`." value={signatureFile} onChange={setSignatureFile} error={fieldError('signature')} testID="file-signature" />
-            ) : (
-              <Field label="Signature (base64)" mono value={signatureText} onChangeText={setSignatureText} error={fieldError('signature')} autoCapitalize="none" autoCorrect={false} testID="text-signature" />
-            )}
           </Card>
           <Card>
             <Field label="Release notes (Markdown, optional)" multiline value={notes} onChangeText={setNotes} style={{ minHeight: 96, paddingVertical: space.sm, textAlignVertical: 'top' }} testID="notes" />
@@ -229,5 +217,45 @@ function CheckSummary({ release }: { release: Release }) {
       {release.key?.state === 'retired' ? <Notice tone="amber" title="Signed with a retired key" detail="Retired keys sign nothing new; register and use an active key." /> : null}
       <Text style={[type.small, { color: colors.inkSoft }]}>Nobody is offered a draft. Set who gets it below, then start the pilot.</Text>
     </Card>
+  );
+}
+
+/** A signed part given either as a file or pasted as text (manifest, signature), with the choice above it. */
+function FileOrText({ label, mode, onMode, error, file, text }: {
+  label: string;
+  mode: Mode;
+  onMode: (m: Mode) => void;
+  error?: string;
+  file: React.ReactNode;
+  text: { label: string; value: string; onChange: (v: string) => void; multiline?: boolean; testID: string };
+}) {
+  return (
+    <>
+      <Segmented<Mode>
+        label={label}
+        value={mode}
+        onChange={onMode}
+        options={[
+          { value: 'file', label: 'Choose file' },
+          { value: 'text', label: 'Paste text' },
+        ]}
+      />
+      {mode === 'file' ? (
+        file
+      ) : (
+        <Field
+          label={text.label}
+          mono
+          multiline={text.multiline}
+          value={text.value}
+          onChangeText={text.onChange}
+          error={error}
+          style={text.multiline ? { minHeight: 96, paddingVertical: space.sm } : undefined}
+          autoCapitalize="none"
+          autoCorrect={false}
+          testID={text.testID}
+        />
+      )}
+    </>
   );
 }
