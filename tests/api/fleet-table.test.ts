@@ -44,7 +44,7 @@ beforeAll(async () => {
   // Low supply: below the model's update minimum (4.6 V); exactly the minimum is not below it.
   await add('lowSupply', { ...healthy, supplyV: 4.5 });
   await add('supplyEdge', { ...healthy, supplyV: 4.6 });
-  // Probe fault (Maxim DS18B20 data sheet, Table 1 and its footnote: +85 °C is the power-on reset value;
+  // Probe fault (DS18B20 data sheet, Table 1 and its footnote: +85 °C is the power-on reset value;
   // the measuring range is −55 to +125 °C). The range ends themselves are valid readings.
   await add('probe85', { ...healthy, tempC: 85 });
   await add('probeHot', { ...healthy, tempC: 125.5 });

@@ -18,7 +18,7 @@ beforeAll(async () => {
   const l = await fleet.logger();
   loggerId = l.id;
   await setReported(t, l.id, clock, { firmware: '2.1.4', lastSeenAgoS: 600, supplyV: 5.0, tempC: 22 });
-  // Two days of check-ins every 3 h; the probe's power-on value once (Maxim DS18B20 data sheet: +85 °C).
+  // Two days of check-ins every 3 h; the probe's power-on value once (DS18B20 data sheet: +85 °C).
   for (let h = 48; h >= 3; h -= 3) {
     await addCheckIn(t, l.id, hoursBefore(clock, h), { firmware: '2.1.4', supplyV: 4.8 + (h % 6) / 10, tempC: h === 24 ? 85 : 15 + (h % 9), resets: h === 12 ? { brownout: 1 } : undefined, resetReason: h === 12 ? 'brownout' : undefined });
   }

@@ -11,7 +11,7 @@ import {
 } from '../../server/loggers/calibration';
 import { installDetails, measurementProfile as measurementProfileSchema, registerLoggerRequest } from '../../schemas/loggers';
 
-// Check values: TI INA226 data sheet SBOS547 (REFERENCE.md §8): shunt full scale 81.92 mV, bus range 0–36 V,
+// Check values: INA226 data sheet SBOS547 (REFERENCE.md §8): shunt full scale 81.92 mV, bus range 0–36 V,
 // Eq. 1 CAL = 0.00512 / (Current_LSB × R_SHUNT), Eq. 2 Current_LSB = max / 2^15, Eq. 3 Current = Shunt × CAL / 2048,
 // Eq. 4 Power = Current × Bus / 20 000, Power_LSB = 25 × Current_LSB, Table 1 worked example,
 // calibration register top bit unused (1 ≤ CAL ≤ 32767).
@@ -37,7 +37,7 @@ function errorsOf(over: Partial<InstallForProfile>, limits: ModelLimits = chipLi
   return result.errors;
 }
 
-// Source of this block: TI INA226 data sheet SBOS547, Table 1 and Eq. 1–4.
+// Source of this block: INA226 data sheet SBOS547, Table 1 and Eq. 1–4.
 describe('the power-monitor datasheet worked example (Table 1)', () => {
   test('when R_SHUNT is 2 mΩ and the current LSB 1 mA, then the calibration register is 2560 = A00h (Eq. 1)', () => {
     const cal = calibrationFor(0.001, 0.002);
@@ -191,7 +191,7 @@ describe('measurement profile', () => {
     const limits = { ...chipLimits, tempResolutions: [11, 12] };
     const errors = errorsOf({ tempResolutionBits: 9 }, limits);
     expect(errors).toEqual([{ path: 'tempResolutionBits', message: expect.stringContaining('choose 11 or 12 bits') }]);
-    // A model listing a resolution the probe family does not have (Maxim DS18B20 data sheet: 9 to 12 bits) still refuses it.
+    // A model listing a resolution the probe family does not have (DS18B20 data sheet: 9 to 12 bits) still refuses it.
     expect(errorsOf({ tempResolutionBits: 13 }, { ...chipLimits, tempResolutions: [12, 13] })[0].path).toBe('tempResolutionBits');
   });
 
@@ -215,7 +215,7 @@ describe('measurement profile', () => {
   });
 });
 
-// Source of the conversion times: Maxim DS18B20 data sheet, resolution table (REFERENCE.md §9).
+// Source of the conversion times: DS18B20 data sheet, resolution table (REFERENCE.md §9).
 describe('sample interval (from the temperature probe datasheet conversion times)', () => {
   test('when the probe resolution is 9, 10, 11 or 12 bits, then the interval is whole seconds, at least 1 s and at least 4× the conversion time', () => {
     // Max conversion time: 9-bit 93.75 ms, 10-bit 187.5 ms, 11-bit 375 ms, 12-bit 750 ms (REFERENCE.md §9).
@@ -235,7 +235,7 @@ describe('shared install and registration schemas', () => {
   const typical = { panelWp: 400, panelVocV: 22.4, shuntOhm: 0.002, maxCurrentA: 15, tempResolutionBits: 12 };
 
   test('when install details are typed, then the form schema takes the probe family\'s 9–12 bits and refuses zero or out-of-range values', () => {
-    // Probe resolutions 9 to 12 bits: Maxim DS18B20 data sheet (REFERENCE.md §9).
+    // Probe resolutions 9 to 12 bits: DS18B20 data sheet (REFERENCE.md §9).
     expect(installDetails.safeParse(typical).success).toBe(true);
     expect(installDetails.safeParse({ ...typical, tempResolutionBits: 9 }).success).toBe(true);
     expect(installDetails.safeParse({ ...typical, tempResolutionBits: 8 }).success).toBe(false);

@@ -1,6 +1,6 @@
 import { decodeProbeRaw, probeReadingFault } from '../../server/loggers/calibration';
 
-// Source: Maxim DS18B20 data sheet, Table 1 "Temperature/Data Relationship" (REFERENCE.md §9).
+// Source: DS18B20 data sheet, Table 1 "Temperature/Data Relationship" (REFERENCE.md §9).
 const table1: Array<[number, number]> = [
   [0x07d0, 125],
   [0x0550, 85],
@@ -16,13 +16,13 @@ const table1: Array<[number, number]> = [
 
 describe('temperature probe readings', () => {
   const rows = table1.map(([raw, celsius]) => [`${raw.toString(16).toUpperCase().padStart(4, '0')}h`, celsius, raw] as const);
-  // Maxim DS18B20 data sheet, Table 1.
+  // DS18B20 data sheet, Table 1.
   test.each(rows)('when the temperature register reads %s, then it decodes to %s °C (probe datasheet, Table 1)', (_hex, celsius, raw) => {
     expect(decodeProbeRaw(raw)).toBe(celsius);
   });
 
   test('when the register reads FFFFh (an open 1-Wire bus), then it decodes to −0.0625 °C as 16-bit two\'s complement / 16', () => {
-    // REFERENCE.md §9 [D]: derived from the register format of the Maxim DS18B20 data sheet.
+    // REFERENCE.md §9 [D]: derived from the register format of the DS18B20 data sheet.
     expect(decodeProbeRaw(0xffff)).toBe(-0.0625);
   });
 
@@ -32,7 +32,7 @@ describe('temperature probe readings', () => {
     expect(() => decodeProbeRaw(1.5)).toThrow(RangeError);
   });
 
-  // Maxim DS18B20 data sheet, Table 1 footnote: "The power-on reset value of the temperature register is +85°C."
+  // DS18B20 data sheet, Table 1 footnote: "The power-on reset value of the temperature register is +85°C."
   test('when a reading is exactly +85 °C, then it is flagged as the power-on value (probe datasheet, Table 1 footnote)', () => {
     expect(probeReadingFault(decodeProbeRaw(0x0550))).toBe('power_on_value');
     // One count either side is a real temperature.
@@ -40,7 +40,7 @@ describe('temperature probe readings', () => {
     expect(probeReadingFault(decodeProbeRaw(0x054f))).toBeNull();
   });
 
-  // Maxim DS18B20 data sheet: measuring range −55 °C to +125 °C.
+  // DS18B20 data sheet: measuring range −55 °C to +125 °C.
   test('when a reading is outside −55…+125 °C, then it is flagged out of range; the limits themselves are valid (probe datasheet)', () => {
     expect(probeReadingFault(decodeProbeRaw(0xfc90))).toBeNull(); // −55 °C
     expect(probeReadingFault(decodeProbeRaw(0x07d0))).toBeNull(); // +125 °C

@@ -142,8 +142,8 @@ describe('a logger’s panel meter', () => {
   test('when the logger has a measurement profile, then readings are in its steps and power is bus voltage × current to one power step', () => {
     const start = new Date('2026-06-21T11:00:00Z');
     const meter = new PanelMeter({ panel, spot: VALE, random: seededRandom(3), at: start, clearness: 0.9 });
-    // Steps of the power-monitor's registers (TI INA226 data sheet SBOS547: bus LSB 1.25 mV; power LSB = 25 × current LSB)
-    // and the probe's 12-bit resolution (Maxim DS18B20 data sheet: 0.0625 °C).
+    // Steps of the power-monitor's registers (INA226 data sheet SBOS547: bus LSB 1.25 mV; power LSB = 25 × current LSB)
+    // and the probe's 12-bit resolution (DS18B20 data sheet: 0.0625 °C).
     const profile = { max_current_a: 8, current_lsb_a: 0.00025, power_lsb_w: 0.00625, bus_v_max: 36, temp_resolution_bits: 12 };
     const r = meter.readings(profile);
     expect(r.bus_v).toBeGreaterThan(0);
