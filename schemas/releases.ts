@@ -87,8 +87,8 @@ export type InstallState = (typeof installStates)[number];
 
 // ─── Release answers (GET /api/releases, /api/releases/:id, /estimate) ─────
 
-/** One row of GET /api/releases. */
-export type ReleaseRow = {
+/** What names a release and where its rollout stands, in the list and on its page alike. */
+type ReleaseHeading = {
   id: string;
   modelId: string;
   modelName: string;
@@ -96,6 +96,10 @@ export type ReleaseRow = {
   track: ReleaseTrack;
   state: ReleaseState;
   share: number;
+};
+
+/** One row of GET /api/releases. */
+export type ReleaseRow = ReleaseHeading & {
   installed: number;
   failed: number;
   createdAt: string;
@@ -118,14 +122,7 @@ export type ReleaseTransitionView = {
 };
 
 /** A release as GET /api/releases/:id, PATCH, transitions and the upload answer it. */
-export type ReleaseView = {
-  id: string;
-  modelId: string;
-  modelName: string;
-  version: string;
-  track: ReleaseTrack;
-  state: ReleaseState;
-  share: number;
+export type ReleaseView = ReleaseHeading & {
   resumeState: ResumeState | null;
   boards: string[];
   manifestBoards: string[];

@@ -87,25 +87,18 @@ async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: D
     conditions.push('(l.serial ILIKE :q OR s.name ILIKE :q OR s.customer ILIKE :q)');
     replacements.q = likePattern(query.q);
   }
-  if (query.siteId) {
-    conditions.push('l.site_id = :siteId');
-    replacements.siteId = query.siteId;
-  }
-  if (query.modelId) {
-    conditions.push('l.model_id = :modelId');
-    replacements.modelId = query.modelId;
-  }
-  if (query.status) {
-    conditions.push('l.status = :status');
-    replacements.status = query.status;
-  }
-  if (query.board) {
-    conditions.push('lower(l.board) = lower(:board)');
-    replacements.board = query.board;
-  }
-  if (query.track) {
-    conditions.push('l.track = :track');
-    replacements.track = query.track;
+  // Plain equality filters: the query key, and the column it is compared with (board regardless of case).
+  const equals: [keyof FleetFilter & ('siteId' | 'modelId' | 'status' | 'board' | 'track'), string][] = [
+    ['siteId', 'l.site_id = :siteId'],
+    ['modelId', 'l.model_id = :modelId'],
+    ['status', 'l.status = :status'],
+    ['board', 'lower(l.board) = lower(:board)'],
+    ['track', 'l.track = :track'],
+  ];
+  for (const [key, condition] of equals) {
+    if (!query[key]) continue;
+    conditions.push(condition);
+    replacements[key] = query[key];
   }
   if (query.version) {
     const versions = await versionsMatching(deps, query.version);

@@ -1,26 +1,18 @@
 // POST /api/device/v1/check-in: authentication, validation, latest state, history and config
 // (DEVICE_API.md is the source of every status and field checked here).
 import { QueryTypes } from 'sequelize';
-import { startTestApp, type TestApp } from '../helpers/app';
-import { bearer, checkInBody, createFleet, type Fleet } from './device-fixtures';
+import { bearer, CHECK_IN, checkInBody, fleetApp } from './device-fixtures';
 import { Logger } from '../../server/db/models';
 
-let t: TestApp;
-let fleet: Fleet;
-beforeAll(async () => {
-  t = await startTestApp();
-  fleet = await createFleet(t);
-});
-afterAll(() => t.close());
+const app = fleetApp();
 
-const CHECK_IN = '/api/device/v1/check-in';
 
 describe('check-in', () => {
   test('when an enrolled logger checks in without config_version, then it gets the time, a jittered interval and its measurement profile', async () => {
-    const lg = await fleet.logger();
+    const lg = await app.fleet.logger();
     const body = checkInBody('2.3.1');
     delete (body as Record<string, unknown>).config_version;
-    const res = await t.request().post(CHECK_IN).set(bearer(lg.token)).send(body);
+    const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(body);
     expect(res.status).toBe(200);
     expect(res.body.server_time).toMatch(/^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}Z$/);
     // DEVICE_API.md: the model interval (900 s) jittered ±10 %; an idle test server does not stretch it.
@@ -41,15 +33,15 @@ describe('check-in', () => {
   });
 
   test('when the logger already runs the current profile version, then config is null', async () => {
-    const lg = await fleet.logger();
-    const res = await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('2.3.1', { config_version: 1 }));
+    const lg = await app.fleet.logger();
+    const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('2.3.1', { config_version: 1 }));
     expect(res.status).toBe(200);
     expect(res.body.config).toBeNull();
   });
 
   test('when a logger checks in, then its row holds the latest state and one history row is appended with the resets by reason', async () => {
-    const lg = await fleet.logger();
-    const res = await t
+    const lg = await app.fleet.logger();
+    const res = await app.t
       .request()
       .post(CHECK_IN)
       .set(bearer(lg.token))
@@ -59,14 +51,14 @@ describe('check-in', () => {
     expect(row?.firmware).toBe('2.3.1');
     expect(Number(row?.supplyV)).toBeCloseTo(4.9, 6);
     expect(row?.lastSeenAt).not.toBeNull();
-    const [state] = await t.sequelize.query<Record<string, unknown>>(
+    const [state] = await app.t.sequelize.query<Record<string, unknown>>(
       'SELECT reported_board, security_counter, rssi_dbm, last_ip, last_reset_reason, readings FROM loggers WHERE id = :id',
       { type: QueryTypes.SELECT, replacements: { id: lg.id } },
     );
     expect(state).toMatchObject({ reported_board: 'B', security_counter: 1, rssi_dbm: -80, last_reset_reason: 'brownout' });
     expect(String(state.last_ip)).toMatch(/127\.0\.0\.1|::1/);
     expect(state.readings).toEqual({ bus_v: 18.4, current_a: 2.1, power_w: 38.6, energy_wh: 122.5, temp_c: 24.5 });
-    const history = await t.sequelize.query<{ resets: unknown; firmware: string }>('SELECT firmware, resets FROM check_ins WHERE logger_id = :id', {
+    const history = await app.t.sequelize.query<{ resets: unknown; firmware: string }>('SELECT firmware, resets FROM check_ins WHERE logger_id = :id', {
       type: QueryTypes.SELECT,
       replacements: { id: lg.id },
     });
@@ -75,16 +67,16 @@ describe('check-in', () => {
   });
 
   test('when reset_counts is sent, then the history keeps the counts by reason and ignores unknown reasons', async () => {
-    const lg = await fleet.logger();
-    await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('2.3.1', { reset_counts: { watchdog: 2, brownout: 1, cosmic_ray: 9 } })).expect(200);
-    const [h] = await t.sequelize.query<{ resets: unknown }>('SELECT resets FROM check_ins WHERE logger_id = :id', { type: QueryTypes.SELECT, replacements: { id: lg.id } });
+    const lg = await app.fleet.logger();
+    await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('2.3.1', { reset_counts: { watchdog: 2, brownout: 1, cosmic_ray: 9 } })).expect(200);
+    const [h] = await app.t.sequelize.query<{ resets: unknown }>('SELECT resets FROM check_ins WHERE logger_id = :id', { type: QueryTypes.SELECT, replacements: { id: lg.id } });
     expect(h.resets).toEqual({ watchdog: 2, brownout: 1 });
   });
 });
 
 describe('check-in errors', () => {
   test('when the token is missing, unknown, malformed or the logger is retired, then 401 problem+json', async () => {
-    const retired = await fleet.logger({ status: 'retired' });
+    const retired = await app.fleet.logger({ status: 'retired' });
     const cases: Record<string, string>[] = [
       {},
       bearer('hlt_' + 'A'.repeat(43)),
@@ -93,7 +85,7 @@ describe('check-in errors', () => {
       { Authorization: 'Basic Zm9vOmJhcg==' },
     ];
     for (const headers of cases) {
-      const res = await t.request().post(CHECK_IN).set(headers).send(checkInBody('2.3.1'));
+      const res = await app.t.request().post(CHECK_IN).set(headers).send(checkInBody('2.3.1'));
       expect(res.status).toBe(401);
       expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
       expect(res.body).toMatchObject({ status: 401, title: expect.any(String), detail: expect.any(String), type: expect.any(String) });
@@ -101,7 +93,7 @@ describe('check-in errors', () => {
   });
 
   test('when fields have wrong types or are out of range, then 400 names each field', async () => {
-    const lg = await fleet.logger();
+    const lg = await app.fleet.logger();
     const cases: [Record<string, unknown>, string][] = [
       // semver.org 2.0.0: no leading v, no leading zeros, no spaces.
       [{ firmware: 'v2.4.0' }, 'firmware'],
@@ -120,22 +112,22 @@ describe('check-in errors', () => {
       [{ report: { release: 'ABC', state: 'installed' } }, 'report.release'],
     ];
     for (const [patch, field] of cases) {
-      const res = await t.request().post(CHECK_IN).set(bearer(lg.token)).send({ ...checkInBody('2.3.1'), ...patch });
+      const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send({ ...checkInBody('2.3.1'), ...patch });
       expect(res.status).toBe(400);
       expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
       expect(res.body.errors.map((e: { path: string }) => e.path)).toContain(field);
     }
-    const missing = await t.request().post(CHECK_IN).set(bearer(lg.token)).send({});
+    const missing = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send({});
     expect(missing.status).toBe(400);
     expect(missing.body.errors.map((e: { path: string }) => e.path).sort()).toEqual(['board', 'firmware', 'security_counter']);
   });
 
   test('when the body is not JSON, then 400; when it is over 16 KiB, then 413', async () => {
-    const lg = await fleet.logger();
-    const bad = await t.request().post(CHECK_IN).set(bearer(lg.token)).set('Content-Type', 'application/json').send('{"firmware": ');
+    const lg = await app.fleet.logger();
+    const bad = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).set('Content-Type', 'application/json').send('{"firmware": ');
     expect(bad.status).toBe(400);
     const big = { ...checkInBody('2.3.1'), padding: 'x'.repeat(16 * 1024) };
-    const res = await t.request().post(CHECK_IN).set(bearer(lg.token)).send(big);
+    const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(big);
     expect(res.status).toBe(413);
     expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
   });

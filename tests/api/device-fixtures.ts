@@ -7,9 +7,23 @@ import { Image, Logger, LoggerModel, MeasurementProfile, Release, ReleasePilotSi
 import { newToken } from '../../server/auth/tokens';
 import { canonicalManifest, publicKeyOfPrivatePem, signManifest } from '../../server/images/manifest';
 import type { ReleaseState } from '../../server/releases/lifecycle';
-import type { TestApp } from '../helpers/app';
+import { startTestApp, type TestApp } from '../helpers/app';
 
 export type Fleet = Awaited<ReturnType<typeof createFleet>>;
+
+/** The device API's check-in path (DEVICE_API.md). */
+export const CHECK_IN = '/api/device/v1/check-in';
+
+/** A test app with one hand-built fleet for a test file: opened before its tests and closed after them. */
+export function fleetApp(options?: Parameters<typeof startTestApp>[0]) {
+  const app = {} as { t: TestApp; fleet: Fleet };
+  beforeAll(async () => {
+    app.t = await startTestApp(options);
+    app.fleet = await createFleet(app.t);
+  });
+  afterAll(() => app.t?.close());
+  return app;
+}
 
 let serialSeq = 0;
 

@@ -2,38 +2,30 @@
 // release halts exactly once, one e-mail goes out, every report is counted. Threshold figures: the
 // release's own haltFailureRatio (5 %) and haltMinReports (20), as DEVICE_API.md's releases carry them.
 import { QueryTypes } from 'sequelize';
-import { startTestApp, type TestApp } from '../helpers/app';
-import { bearer, checkInBody, createFleet, type Fleet } from './device-fixtures';
+import { bearer, CHECK_IN, checkInBody, fleetApp } from './device-fixtures';
 
-let t: TestApp;
-let fleet: Fleet;
-beforeAll(async () => {
-  t = await startTestApp();
-  fleet = await createFleet(t);
-});
-afterAll(() => t.close());
+const app = fleetApp();
 
-const CHECK_IN = '/api/device/v1/check-in';
 
 async function one<T extends object>(sql: string, replacements: Record<string, unknown>): Promise<T> {
-  const [row] = await t.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements });
+  const [row] = await app.t.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements });
   return row!;
 }
 
 describe('automatic halt', () => {
   test('when 50 loggers report a failed install at the same moment, then the release halts once, one e-mail is sent and all 50 failures are counted', async () => {
-    await t.signedIn('admin', 'Morgan Halt Admin');
-    await t.signedIn('release_engineer', 'Priya Halt Engineer');
-    const release = await fleet.release({ version: '7.0.0', haltFailureRatio: 0.05, haltMinReports: 20 });
-    const loggers = await Promise.all(Array.from({ length: 50 }, () => fleet.logger()));
+    await app.t.signedIn('admin', 'Morgan Halt Admin');
+    await app.t.signedIn('release_engineer', 'Priya Halt Engineer');
+    const release = await app.fleet.release({ version: '7.0.0', haltFailureRatio: 0.05, haltMinReports: 20 });
+    const loggers = await Promise.all(Array.from({ length: 50 }, () => app.fleet.logger()));
     for (const lg of loggers) {
-      const res = await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('6.9.0'));
+      const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('6.9.0'));
       expect(res.body.offer?.release).toBe(release.id);
     }
 
     const replies = await Promise.all(
       loggers.map((lg) =>
-        t
+        app.t
           .request()
           .post(CHECK_IN)
           .set(bearer(lg.token))
@@ -52,7 +44,7 @@ describe('automatic halt', () => {
       { id: release.id },
     );
     expect(counts).toEqual({ failed: 50, total: 50 });
-    const transitions = await t.sequelize.query<{ action: string; actor_type: string; actor_name: string; from_state: string; to_state: string; reason: string }>(
+    const transitions = await app.t.sequelize.query<{ action: string; actor_type: string; actor_name: string; from_state: string; to_state: string; reason: string }>(
       'SELECT action, actor_type, actor_name, from_state, to_state, reason FROM release_transitions WHERE release_id = :id',
       { type: QueryTypes.SELECT, replacements: { id: release.id } },
     );
@@ -60,15 +52,15 @@ describe('automatic halt', () => {
     expect(transitions[0]).toMatchObject({ action: 'halt', actor_type: 'system', actor_name: 'system', from_state: 'complete', to_state: 'halted' });
     // The halt happened at the 20th finished install: 20 of 20 failed, 100 % > 5 %.
     expect(transitions[0].reason).toContain('20 of 20 finished installs failed (100 %)');
-    const activity = await t.sequelize.query<{ actor_type: string; summary: string }>(
+    const activity = await app.t.sequelize.query<{ actor_type: string; summary: string }>(
       `SELECT actor_type, summary FROM activity WHERE action = 'release.halted' AND target_id = :id`,
       { type: QueryTypes.SELECT, replacements: { id: release.id } },
     );
     expect(activity).toHaveLength(1);
     expect(activity[0].actor_type).toBe('system');
 
-    const admin = await t.signedIn('admin', 'Morgan Halt Admin');
-    const subject = `Release 7.0.0 of ${fleet.model.name} halted automatically`;
+    const admin = await app.t.signedIn('admin', 'Morgan Halt Admin');
+    const subject = `Release 7.0.0 of ${app.fleet.model.name} halted automatically`;
     let mails: { to: string[]; subject: string; text: string }[] = [];
     for (let i = 0; i < 50; i++) {
       const res = await admin.get('/api/dev/outbox');
@@ -84,14 +76,14 @@ describe('automatic halt', () => {
   });
 
   test('when installs fail only for transient reasons, then the release keeps going', async () => {
-    const release = await fleet.release({ version: '8.0.0', boards: ['C'], haltFailureRatio: 0.05, haltMinReports: 5 });
-    const loggers = await Promise.all(Array.from({ length: 10 }, () => fleet.logger({ board: 'C' })));
+    const release = await app.fleet.release({ version: '8.0.0', boards: ['C'], haltFailureRatio: 0.05, haltMinReports: 5 });
+    const loggers = await Promise.all(Array.from({ length: 10 }, () => app.fleet.logger({ board: 'C' })));
     for (const lg of loggers) {
-      await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('7.9.0', { board: 'C' })).expect(200);
+      await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('7.9.0', { board: 'C' })).expect(200);
     }
     const replies = await Promise.all(
       loggers.map((lg, i) =>
-        t
+        app.t
           .request()
           .post(CHECK_IN)
           .set(bearer(lg.token))
@@ -104,11 +96,11 @@ describe('automatic halt', () => {
 
   test('when failures stay at the threshold over the minimum, then no halt; one more failure crosses it', async () => {
     // 1 failure in 20 finished installs is exactly 5 %: not above the threshold.
-    const release = await fleet.release({ version: '9.0.0', boards: ['A'], haltFailureRatio: 0.05, haltMinReports: 20 });
-    const loggers = await Promise.all(Array.from({ length: 21 }, () => fleet.logger({ board: 'A' })));
+    const release = await app.fleet.release({ version: '9.0.0', boards: ['A'], haltFailureRatio: 0.05, haltMinReports: 20 });
+    const loggers = await Promise.all(Array.from({ length: 21 }, () => app.fleet.logger({ board: 'A' })));
     const report = (lg: { token: string }, state: string, reason?: string) =>
-      t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('8.9.0', { board: 'A', report: { release: release.id, state, ...(reason ? { reason } : {}) } }));
-    for (const lg of loggers) await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('8.9.0', { board: 'A' })).expect(200);
+      app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('8.9.0', { board: 'A', report: { release: release.id, state, ...(reason ? { reason } : {}) } }));
+    for (const lg of loggers) await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('8.9.0', { board: 'A' })).expect(200);
     await report(loggers[0], 'failed', 'storage');
     for (const lg of loggers.slice(1, 20)) await report(lg, 'installed');
     expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('complete');

@@ -5,7 +5,7 @@ import crypto from 'node:crypto';
 import path from 'node:path';
 import { QueryTypes } from 'sequelize';
 import { startTestApp, type TestApp } from '../helpers/app';
-import { bearer, checkInBody, createFleet, type Fleet } from './device-fixtures';
+import { bearer, CHECK_IN, checkInBody, createFleet, type Fleet } from './device-fixtures';
 import { createApp } from '../../server/app';
 import { createDatabase } from '../../server/db';
 import request from 'supertest';
@@ -20,7 +20,6 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-const CHECK_IN = '/api/device/v1/check-in';
 
 describe('rate limit', () => {
   test('when a logger checks in more than 60 times in a minute, then 429 with Retry-After, and other loggers are not affected', async () => {

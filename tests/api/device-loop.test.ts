@@ -5,7 +5,7 @@
 import crypto from 'node:crypto';
 import { QueryTypes } from 'sequelize';
 import { startTestApp, type TestApp } from '../helpers/app';
-import { bearer, checkInBody, createFleet, type Fleet } from './device-fixtures';
+import { bearer, CHECK_IN, checkInBody, createFleet, type Fleet } from './device-fixtures';
 import { VirtualLogger, type LoggerEvent } from '../../scripts/simulator/logger';
 import { seededRandom } from '../../scripts/simulator/random';
 import { parsePublicKeyPem } from '../../server/images/manifest';
@@ -20,7 +20,6 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-const CHECK_IN = '/api/device/v1/check-in';
 
 async function reportOf(loggerId: string, releaseId: string) {
   const rows = await t.sequelize.query<{ state: string; reason: string | null; detail: string | null; confirmed_at: Date | null; finished_at: Date | null }>(

@@ -2,29 +2,21 @@
 // version against the same loggers before it (default: more than double, over at least 20 loggers and
 // 24 h)"), read from the check-in history. The clock is injected so that a day can pass.
 import { QueryTypes } from 'sequelize';
-import { startTestApp, type TestApp } from '../helpers/app';
-import { bearer, checkInBody, createFleet, type Fleet } from './device-fixtures';
+import { bearer, CHECK_IN, checkInBody, fleetApp } from './device-fixtures';
 
 const DAY = 86_400_000;
 const T0 = new Date(Date.UTC(2026, 11, 1, 11, 0, 0));
 let clock = T0;
-let t: TestApp;
-let fleet: Fleet;
-beforeAll(async () => {
-  t = await startTestApp({ now: () => clock });
-  fleet = await createFleet(t);
-});
-afterAll(() => t.close());
+const app = fleetApp({ now: () => clock });
 
-const CHECK_IN = '/api/device/v1/check-in';
 const stateOf = async (id: string) =>
-  (await t.sequelize.query<{ state: string }>('SELECT state FROM releases WHERE id = :id', { type: QueryTypes.SELECT, replacements: { id } }))[0].state;
+  (await app.t.sequelize.query<{ state: string }>('SELECT state FROM releases WHERE id = :id', { type: QueryTypes.SELECT, replacements: { id } }))[0].state;
 
 test('when 20 loggers reset far more often on the new version than on the old one over a day, then the release halts at the 20th, not before', async () => {
-  const release = await fleet.release({ version: '2.0.0', boards: ['A'], haltMinReports: 1000 });
-  const loggers = await Promise.all(Array.from({ length: 20 }, () => fleet.logger({ board: 'A' })));
+  const release = await app.fleet.release({ version: '2.0.0', boards: ['A'], haltMinReports: 1000 });
+  const loggers = await Promise.all(Array.from({ length: 20 }, () => app.fleet.logger({ board: 'A' })));
   // Ten days on 1.0.0 before the update, one brown-out per logger: 20 resets over 200 logger-days = 0.1 a day.
-  await t.sequelize.query(
+  await app.t.sequelize.query(
     `INSERT INTO check_ins (logger_id, at, firmware, board, security_counter, resets)
      SELECT l.id, CAST(:t0 AS timestamptz) - make_interval(days => d), '1.0.0', 'A', 1,
             CASE WHEN d = 5 THEN '{"brownout": 1}'::jsonb ELSE '{}'::jsonb END
@@ -32,14 +24,14 @@ test('when 20 loggers reset far more often on the new version than on the old on
     { replacements: { t0: T0.toISOString(), ids: `{${loggers.map((l) => l.id).join(',')}}` } },
   );
   const send = (token: string, firmware: string, extra: Record<string, unknown> = {}) =>
-    t.request().post(CHECK_IN).set(bearer(token)).send(checkInBody(firmware, { board: 'A', ...extra }));
+    app.t.request().post(CHECK_IN).set(bearer(token)).send(checkInBody(firmware, { board: 'A', ...extra }));
   for (const lg of loggers) {
     expect((await send(lg.token, '1.0.0')).body.offer?.release).toBe(release.id);
     await send(lg.token, '1.0.0', { report: { release: release.id, state: 'installed' } }).expect(200);
   }
   clock = new Date(T0.getTime() + 60_000);
   for (const lg of loggers) await send(lg.token, '2.0.0').expect(200); // confirmed
-  const confirmed = await t.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM install_reports WHERE release_id = :id AND confirmed_at IS NOT NULL', {
+  const confirmed = await app.t.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM install_reports WHERE release_id = :id AND confirmed_at IS NOT NULL', {
     type: QueryTypes.SELECT,
     replacements: { id: release.id },
   });
@@ -52,7 +44,7 @@ test('when 20 loggers reset far more often on the new version than on the old on
     await send(lg.token, '2.0.0', { reset_counts: { watchdog: 1 }, reset_reason: 'watchdog' }).expect(200);
     expect(await stateOf(release.id)).toBe(i < 19 ? 'complete' : 'halted');
   }
-  const [transition] = await t.sequelize.query<{ reason: string; actor_type: string }>(
+  const [transition] = await app.t.sequelize.query<{ reason: string; actor_type: string }>(
     `SELECT reason, actor_type FROM release_transitions WHERE release_id = :id AND action = 'halt'`,
     { type: QueryTypes.SELECT, replacements: { id: release.id } },
   );

@@ -5,23 +5,17 @@
 import crypto from 'node:crypto';
 import fs from 'node:fs';
 import path from 'node:path';
-import { startTestApp, testPassword, type TestApp } from '../helpers/app';
+import { listeningApp, testPassword } from '../helpers/app';
 import { buildFleet, ConsoleSession, FleetTally, firmwareByBoard, readBenchSheet, registerFleet, runFleet } from '../../scripts/simulator/fleet';
 import { seededRandom } from '../../scripts/simulator/random';
 import { canonicalManifest, parsePublicKeyPem, signManifest } from '../../server/images/manifest';
 
 let clock = new Date('2026-06-21T08:00:00Z');
-let t: TestApp;
-let baseUrl: string;
-beforeAll(async () => {
-  t = await startTestApp({ seed: 'demo', now: () => clock });
-  baseUrl = await t.listen();
-});
-afterAll(() => t.close());
+const app = listeningApp({ seed: 'demo', now: () => clock });
 
 describe('a simulated fleet with failing installs', () => {
   test('when half the installs fail, then the release halts itself once the failure ratio passes its threshold, and nobody is offered it afterwards', async () => {
-    const morgan = new ConsoleSession(baseUrl);
+    const morgan = new ConsoleSession(app.base);
     await morgan.signIn('morgan@fernhollow.example', testPassword);
     const pair = crypto.generateKeyPairSync('ed25519');
     const publicPem = String(pair.publicKey.export({ type: 'spki', format: 'pem' }));
@@ -30,7 +24,7 @@ describe('a simulated fleet with failing installs', () => {
 
     const random = seededRandom(5);
     const firmware = firmwareByBoard('A=2.1.4,B=2.2.0,C=2.2.0');
-    const bench = readBenchSheet(fs.readFileSync(path.join(t.dataDir, 'demo', 'bench-sheet.csv'), 'utf8'));
+    const bench = readBenchSheet(fs.readFileSync(path.join(app.t.dataDir, 'demo', 'bench-sheet.csv'), 'utf8'));
     const registered = await registerFleet(morgan, { count: 28, firmware, random, serialPrefix: 'FL2-FAIL' });
     const identities = [...bench.map((r) => ({ serial: r.serial, token: r.token, board: r.board, firmware: firmware(r.board) })), ...registered];
 
@@ -50,7 +44,7 @@ describe('a simulated fleet with failing installs', () => {
     await morgan.request('POST', `/api/releases/${release.id}/transitions`, { action: 'complete' });
 
     const tally = new FleetTally();
-    const loggers = buildFleet(identities, { baseUrl, clock: () => clock, random, trustedKeys: [parsePublicKeyPem(publicPem)], failRate: 0.5, spreadS: 900 }, tally);
+    const loggers = buildFleet(identities, { baseUrl: app.base, clock: () => clock, random, trustedKeys: [parsePublicKeyPem(publicPem)], failRate: 0.5, spreadS: 900 }, tally);
     const state = async () => (await morgan.request<{ state: string }>('GET', `/api/releases/${release.id}`)).state;
     for (let step = 0; step < 12 && (await state()) !== 'halted'; step++) {
       await runFleet(loggers, {

@@ -11,7 +11,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { QueryTypes } from 'sequelize';
 import semver from 'semver';
-import { csrf, startTestApp, testPassword, type TestApp } from '../helpers/app';
+import { csrf, listeningApp, testPassword } from '../helpers/app';
 import { buildFleet, ConsoleSession, FleetTally, firmwareByBoard, readBenchSheet, registerFleet, runFleet } from '../../scripts/simulator/fleet';
 import type { VirtualLogger } from '../../scripts/simulator/logger';
 import { seededRandom } from '../../scripts/simulator/random';
@@ -24,14 +24,7 @@ const REGISTERED_THROUGH_API = 36;
 const VERSION = '2.3.0';
 const UPGRADE_FROM = '>=2.1.0';
 let clock = new Date('2026-06-21T08:00:00Z');
-let t: TestApp;
-let baseUrl: string;
-
-beforeAll(async () => {
-  t = await startTestApp({ seed: 'demo', now: () => clock });
-  baseUrl = await t.listen();
-});
-afterAll(() => t.close());
+const app = listeningApp({ seed: 'demo', now: () => clock });
 
 /** The contract's bucket: first 4 bytes of SHA-256("<logger id>:<release id>"), unsigned big-endian, mod 10 000. */
 function bucket(loggerId: string, releaseId: string): number {
@@ -43,9 +36,9 @@ type Row = { id: string; serial: string; board: string; track: string; status: s
 describe('a simulated fleet through a staged rollout', () => {
   test('when 200 loggers go through pilot → 25 % → 100 %, then each stage reaches exactly its cohort, every eligible logger ends on the new version, and no ineligible logger gets it', async () => {
     // Morgan (admin) registers the signing key and loggers; Priya (release engineer) ships.
-    const morgan = new ConsoleSession(baseUrl);
+    const morgan = new ConsoleSession(app.base);
     await morgan.signIn('morgan@fernhollow.example', testPassword);
-    const priya = t.agent();
+    const priya = app.t.agent();
     expect((await priya.post('/api/auth/sign-in').send({ email: 'priya@fernhollow.example', password: testPassword })).status).toBe(200);
     const pair = crypto.generateKeyPairSync('ed25519');
     const privatePem = String(pair.privateKey.export({ type: 'pkcs8', format: 'pem' }));
@@ -57,7 +50,7 @@ describe('a simulated fleet through a staged rollout', () => {
     // The fleet. Demo bench sheet: 14 loggers (12 enrolled, 2 on the shelf).
     const random = seededRandom(20261201);
     const firmware = firmwareByBoard('A=2.1.4,B=2.2.0,C=2.2.0');
-    const demoBench = readBenchSheet(fs.readFileSync(path.join(t.dataDir, 'demo', 'bench-sheet.csv'), 'utf8'));
+    const demoBench = readBenchSheet(fs.readFileSync(path.join(app.t.dataDir, 'demo', 'bench-sheet.csv'), 'utf8'));
     // Registered and enrolled through the console API, some on the early track.
     const registered = await registerFleet(morgan, { count: REGISTERED_THROUGH_API, earlyShare: 0.2, firmware, random, serialPrefix: 'FL2-SIM' });
     // Flashed earlier: enrolled across the sites, a few early-track ones among them; their bench sheet is read back as the simulator reads it.
@@ -101,7 +94,7 @@ describe('a simulated fleet through a staged rollout', () => {
     const move = async (body: Record<string, unknown>) => expect((await priya.post(`/api/releases/${releaseId}/transitions`).set(csrf).send(body)).status).toBe(200);
 
     // Who is eligible, from the database's view of each logger and the contract's rules.
-    const rows = await t.sequelize.query<Row>('SELECT id, serial, board, track, status, site_id FROM loggers', { type: QueryTypes.SELECT });
+    const rows = await app.t.sequelize.query<Row>('SELECT id, serial, board, track, status, site_id FROM loggers', { type: QueryTypes.SELECT });
     const bySerial = new Map(rows.map((r) => [r.serial, r]));
     const runningAtStart = new Map(identities.map((i) => [i.serial, i.firmware]));
     const eligible = (r: Row) =>
@@ -119,7 +112,7 @@ describe('a simulated fleet through a staged rollout', () => {
     const tally = new FleetTally();
     const loggers = buildFleet(
       identities,
-      { baseUrl, clock: () => clock, random, trustedKeys: [parsePublicKeyPem(publicPem)], interruptRate: 0.3, spreadS: 900 },
+      { baseUrl: app.base, clock: () => clock, random, trustedKeys: [parsePublicKeyPem(publicPem)], interruptRate: 0.3, spreadS: 900 },
       tally,
     );
     const onNewVersion = () => loggers.filter((l: VirtualLogger) => l.firmware === VERSION).map((l) => l.serial).sort();
@@ -163,7 +156,7 @@ describe('a simulated fleet through a staged rollout', () => {
     await stage(everyone);
 
     // The server agrees: versions on record, confirmed installs, nothing for anyone else.
-    const after = await t.sequelize.query<{ serial: string; firmware: string | null; state: string | null; confirmed: boolean }>(
+    const after = await app.t.sequelize.query<{ serial: string; firmware: string | null; state: string | null; confirmed: boolean }>(
       `SELECT l.serial, l.firmware, ir.state, ir.confirmed_at IS NOT NULL AS confirmed
          FROM loggers l LEFT JOIN install_reports ir ON ir.logger_id = l.id AND ir.release_id = :releaseId`,
       { type: QueryTypes.SELECT, replacements: { releaseId } },

@@ -118,3 +118,14 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
 
 /** Header every cookie-authenticated write must carry (CSRF guard). */
 export const csrf = { 'X-Requested-With': 'heliodor' } as const;
+
+/** A test app listening on 127.0.0.1 for one test file (the simulator and the browser talk HTTP): opened before its tests, closed after. */
+export function listeningApp(options: Parameters<typeof startTestApp>[0] = { seed: 'demo' }) {
+  const app = {} as { t: TestApp; base: string };
+  beforeAll(async () => {
+    app.t = await startTestApp(options);
+    app.base = await app.t.listen();
+  });
+  afterAll(() => app.t?.close());
+  return app;
+}

@@ -3,7 +3,7 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { chromium, type Browser, type Page } from 'playwright-core';
-import { startTestApp, type TestApp } from './app';
+import { listeningApp, startTestApp, type TestApp } from './app';
 
 export const viewports = { phone: { width: 390, height: 844 }, wide: { width: 1280, height: 800 } } as const;
 export const artifacts = path.resolve(__dirname, '../e2e/artifacts');
@@ -30,15 +30,13 @@ export async function signIn(page: Page, base: string, email: string, password: 
 
 /** A listening test app and a Chromium for one browser test file, opened before and closed after its tests. */
 export function browserApp(options: Parameters<typeof startTestApp>[0] = { seed: 'demo' }) {
+  const app = listeningApp(options);
   const session = {} as { t: TestApp; base: string; browser: Browser };
   beforeAll(async () => {
-    session.t = await startTestApp(options);
-    session.base = await session.t.listen();
+    session.t = app.t;
+    session.base = app.base;
     session.browser = await launchChromium();
   });
-  afterAll(async () => {
-    await session.browser?.close();
-    await session.t?.close();
-  });
+  afterAll(() => session.browser?.close());
   return session;
 }
