@@ -1,9 +1,9 @@
 // Load manners of the device API (issue 5 §6; DEVICE_API.md "Errors": 429 and 503 carry Retry-After):
 // the per-logger rate limit, the in-flight cap, and a database that goes away and comes back.
 import net from 'node:net';
-import crypto from 'node:crypto';
 import path from 'node:path';
 import { QueryTypes } from 'sequelize';
+import { appConfig } from '../helpers/config';
 import { startTestApp, type TestApp } from '../helpers/app';
 import { bearer, CHECK_IN, checkInBody, createFleet, type Fleet } from './device-fixtures';
 import { createApp } from '../../server/app';
@@ -105,18 +105,7 @@ describe('database down', () => {
     const url = `postgres://${encodeURIComponent(c.username)}:${encodeURIComponent(c.password ?? '')}@127.0.0.1:${port}/${c.database}`;
     const sequelize = createDatabase(url, { poolMax: 2 });
     const app = createApp({
-      config: {
-        jwtSecret: crypto.randomBytes(32).toString('base64url'),
-        demo: false,
-        devMailbox: false,
-        production: false,
-        outboxDir: path.join(t.dataDir, 'outbox'),
-        storeDir: t.storeDir,
-        webDir: t.dataDir,
-        publicUrl: undefined,
-        imageLimitBytes: 1024 * 1024,
-        deviceRatePerMinute: 600,
-      },
+      config: appConfig({ outboxDir: path.join(t.dataDir, 'outbox'), storeDir: t.storeDir, webDir: t.dataDir, imageLimitBytes: 1024 * 1024, deviceRatePerMinute: 600 }),
       sequelize,
       mailer: { send: async () => undefined },
       readiness: { migrated: true, seeded: 'skipped' },

@@ -8,7 +8,6 @@
 //   npm run bench -- --only 'fleet sort'       scenarios whose name matches
 //   npm run bench -- --compare results/a.json  this run's ratio changes against an earlier one
 //   npm run bench -- --compare a.json --with b.json   compare two runs, no benchmark
-import crypto from 'node:crypto';
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
@@ -18,6 +17,7 @@ import { Client } from 'pg';
 import type { Sequelize } from 'sequelize';
 import { createApp } from '../../server/app';
 import { createMailer } from '../../server/mail/mailer';
+import { appConfig } from '../helpers/config';
 import { sessionCookie } from '../../server/auth/session';
 import { fleetSortKeys } from '../../schemas/fleet';
 import { startBenchDatabase } from './database';
@@ -229,19 +229,13 @@ async function main() {
     log(`seeded ${fleet.loggers} loggers at ${fleet.sites} sites, ${fleet.installReports} install reports, ${fleet.checkIns} check-ins in ${seedSeconds.toFixed(1)} s`);
 
     const app = createApp({
-      config: {
-        jwtSecret: crypto.randomBytes(32).toString('base64url'),
-        demo: false,
-        devMailbox: false,
-        production: false,
+      config: appConfig({
         outboxDir: path.join(db.dataDir, 'outbox'),
         storeDir,
         webDir: path.join(db.dataDir, 'no-web-app'),
-        publicUrl: undefined,
-        imageLimitBytes: 16 * 1024 * 1024,
         // Each token-holding logger checks in several times a minute here; the limit guards real fleets.
         deviceRatePerMinute: 100_000,
-      },
+      }),
       sequelize: db.sequelize,
       // Nothing listens there: a halt e-mail would fail quietly in the background, never during a timed request.
       mailer: createMailer({ host: '127.0.0.1', port: 9, secure: false, from: 'Heliodor <heliodor@localhost>' }),

@@ -8,6 +8,7 @@ import type { Server } from 'node:http';
 import { Sequelize } from 'sequelize';
 import request from 'supertest';
 import { createApp } from '../../server/app';
+import { appConfig } from './config';
 import { createDatabase } from '../../server/db';
 import { createMailer } from '../../server/mail/mailer';
 import { seedDemo } from '../../server/db/seed/demo';
@@ -57,18 +58,13 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
     await seedDemo(sequelize, { password: testPassword, dataDir, storeDir, now: options.now?.() ?? new Date(), bcryptCost: 10, size: options.seedSize ?? 'small' });
   }
   const app = createApp({
-    config: {
-      jwtSecret: crypto.randomBytes(32).toString('base64url'),
+    config: appConfig({
       demo: true,
       devMailbox: true,
-      production: false,
       outboxDir: env.outboxDir,
       storeDir,
       webDir: options.webDir ?? path.resolve(__dirname, '../../dist'),
-      publicUrl: undefined,
-      imageLimitBytes: 16 * 1024 * 1024,
-      deviceRatePerMinute: 60,
-    },
+    }),
     sequelize,
     mailer: createMailer({ host: '127.0.0.1', port: env.smtpPort, secure: false, from: 'Heliodor <heliodor@localhost>' }),
     readiness: { migrated: true, seeded: options.seed === 'demo' ? 'complete' : 'skipped' },
