@@ -1,4 +1,4 @@
-// A row of choices (status filters, tracks, board revisions, probe resolutions): 44 px targets,
+// A row of choices (status filters, channels, board revisions, probe resolutions): 44 px targets,
 // the chosen one marked by weight, colour and aria-checked.
 import React from 'react';
 import { Pressable, StyleSheet, Text, View } from 'react-native';

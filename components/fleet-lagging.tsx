@@ -1,5 +1,5 @@
 // Lagging sites (issue 6 §3), support's screen: sites with loggers behind the current release of their
-// track, how long and why; one site's loggers with each reason in plain words, and "Retry failed install".
+// channel, how long and why; one site's loggers with each reason in plain words, and "Retry failed install".
 import React from 'react';
 import { Pressable, StyleSheet, Text, View } from 'react-native';
 import { Page } from './shell';
@@ -20,7 +20,7 @@ export const REASON_SHORT: Record<LaggingReason, string> = {
   outside_daylight_window: 'Outside daylight window',
   outside_share: 'Not yet in share',
   not_pilot_site: 'Not a pilot site',
-  release_not_live: 'Release halted or paused',
+  release_not_live: 'Release stopped or paused',
   failed_awaiting_retry: 'Failed, awaiting retry',
   needs_stepping_stone: 'Needs stepping stone',
   security_counter_too_low: 'Security counter',
@@ -80,7 +80,7 @@ export function LaggingSitesScreen({ state, filter, onFilter, exportHref, wide, 
   return (
     <Page
       title="Lagging sites"
-      subtitle={total === undefined ? 'Sites with loggers behind their track’s current release' : `${total} ${total === 1 ? 'site' : 'sites'} lagging`}
+      subtitle={total === undefined ? 'Sites with loggers behind their channel’s current release' : `${total} ${total === 1 ? 'site' : 'sites'} lagging`}
       actions={<DownloadLink href={exportHref} label="Export CSV" testID="lagging-export" />}
     >
       <Card style={{ gap: space.md }}>
@@ -127,7 +127,7 @@ export function LaggingSitesScreen({ state, filter, onFilter, exportHref, wide, 
         filter.reason || filter.customer ? (
           <EmptyState title="No lagging sites match" detail="Try another reason or customer." />
         ) : (
-          <EmptyState title="No site is lagging" detail="Every enrolled logger runs its track’s current release or newer." />
+          <EmptyState title="No site is lagging" detail="Every enrolled logger runs its channel’s current release or newer." />
         )
       ) : state.data ? (
         <View style={{ gap: space.md, opacity: state.isFetching ? 0.7 : 1 }}>
@@ -236,8 +236,8 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
   const site = state.data;
   if (!site) {
     return (
-      <Page title="Not lagging" subtitle="This site has no logger behind its track’s current release">
-        <EmptyState title="Nothing to catch up" detail="Every enrolled logger here runs its track’s current release or newer." action={<Button label="Back to lagging sites" variant="secondary" onPress={onBack} />} />
+      <Page title="Not lagging" subtitle="This site has no logger behind its channel’s current release">
+        <EmptyState title="Nothing to catch up" detail="Every enrolled logger here runs its channel’s current release or newer." action={<Button label="Back to lagging sites" variant="secondary" onPress={onBack} />} />
       </Page>
     );
   }

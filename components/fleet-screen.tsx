@@ -27,7 +27,7 @@ type Props = {
   onOpen: (id: string) => void;
 };
 
-const filterKeys = ['q', 'siteId', 'modelId', 'board', 'track', 'version', 'flag', 'updateState', 'status'] as const;
+const filterKeys = ['q', 'siteId', 'modelId', 'board', 'channel', 'version', 'flag', 'updateState', 'status'] as const;
 
 export function FleetScreen({ state, filter, onFilter, wide, sites, models, boards, exportHref, canRegister, onRegister, onOpen }: Props) {
   const [q, setQ] = React.useState(filter.q ?? '');
@@ -60,15 +60,15 @@ export function FleetScreen({ state, filter, onFilter, wide, sites, models, boar
         <Select label="Model" value={filter.modelId} options={models} onChange={(v) => set({ modelId: v })} anyLabel="Any model" testID="filter-model" />
         <Select label="Board" value={filter.board} options={boards} onChange={(v) => set({ board: v })} anyLabel="Any board" testID="filter-board" />
         <Select
-          label="Track"
-          value={filter.track}
+          label="Channel"
+          value={filter.channel}
           options={[
             { value: 'stable', label: 'stable' },
             { value: 'early', label: 'early' },
           ]}
-          onChange={(v) => set({ track: v as FleetQuery['track'] })}
-          anyLabel="Any track"
-          testID="filter-track"
+          onChange={(v) => set({ channel: v as FleetQuery['channel'] })}
+          anyLabel="Any channel"
+          testID="filter-channel"
         />
         <Select label="Flag" value={filter.flag} options={fleetFlags.map((f) => ({ value: f, label: FLAG_LABELS[f] }))} onChange={(v) => set({ flag: v as FleetQuery['flag'] })} anyLabel="Any flag" testID="filter-flag" />
         <Select
@@ -108,7 +108,7 @@ export function FleetScreen({ state, filter, onFilter, wide, sites, models, boar
       </Row>
       {active ? (
         <View style={{ alignSelf: 'flex-start' }}>
-          <Button label="Clear filters" variant="quiet" onPress={() => onFilter({ ...filter, q: undefined, siteId: undefined, modelId: undefined, board: undefined, track: undefined, version: undefined, flag: undefined, updateState: undefined, status: undefined, page: 1 })} />
+          <Button label="Clear filters" variant="quiet" onPress={() => onFilter({ ...filter, q: undefined, siteId: undefined, modelId: undefined, board: undefined, channel: undefined, version: undefined, flag: undefined, updateState: undefined, status: undefined, page: 1 })} />
         </View>
       ) : null}
     </Card>

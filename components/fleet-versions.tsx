@@ -1,5 +1,5 @@
 // Versions (issue 6 §2): per model, loggers per firmware × board as a matrix and a stacked bar chart,
-// each track's share on its current release, and the adoption of each release over time.
+// each channel's share on its current release, and the adoption of each release over time.
 import React from 'react';
 import { ScrollView, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
@@ -18,7 +18,7 @@ const pct = (share: number) => `${(share * 100).toFixed(share > 0 && share < 0.1
 
 export function VersionsScreen({ state, versionHref, onOpenRelease }: { state: QueryState<VersionMatrix>; versionHref: (modelId: string, firmware: string | null, board?: string) => string; onOpenRelease: (id: string) => void }) {
   return (
-    <Page title="Versions" subtitle="What the fleet runs, per model, board and track">
+    <Page title="Versions" subtitle="What the fleet runs, per model, board and channel">
       <QueryView state={state} rows={6}>
         {(data) =>
           data.models.length ? (
@@ -47,10 +47,10 @@ function ModelSection({ model, versionHref, onOpenRelease }: { model: ModelVersi
       </Text>
 
       <Row wrap gap={space.md} style={{ alignItems: 'stretch' }}>
-        {model.tracks.map((t) => (
-          <Card key={t.track} style={{ flexGrow: 1, flexBasis: 260 }}>
+        {model.channels.map((t) => (
+          <Card key={t.channel} style={{ flexGrow: 1, flexBasis: 260 }}>
             <Row style={{ justifyContent: 'space-between' }}>
-              <Text style={[type.body, { fontFamily: fonts.semibold }]}>Track {t.track}</Text>
+              <Text style={[type.body, { fontFamily: fonts.semibold }]}>Channel {t.channel}</Text>
               {t.currentRelease ? <Mono>{t.currentRelease.version}</Mono> : <Badge label="No current release" tone="ink" />}
             </Row>
             <ProgressBar value={t.share * 100} tone={t.share >= 0.9 ? 'moss' : t.share >= 0.5 ? 'slate' : 'amber'} />
@@ -119,7 +119,7 @@ function ModelSection({ model, versionHref, onOpenRelease }: { model: ModelVersi
         <Text style={type.label}>Adoption over time (installs confirmed, running total per day)</Text>
         {release ? (
           <>
-            <Choices choices={withAdoption.map((r) => ({ value: r.id, label: `${r.version} · ${r.track}` }))} value={release.id} onChange={setReleaseId} />
+            <Choices choices={withAdoption.map((r) => ({ value: r.id, label: `${r.version} · ${r.channel}` }))} value={release.id} onChange={setReleaseId} />
             <DayLineChart
               label={`Adoption of ${release.version}`}
               points={release.adoption.map((d) => ({ label: d.day.slice(5), value: d.cumulative }))}

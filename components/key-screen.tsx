@@ -148,7 +148,7 @@ function KeyDialog({ move, onCancel, onConfirm, busy, error }: { move: KeyMove; 
   return (
     <ConfirmDialog visible title={`Revoke ${k.name}`} confirmLabel="Revoke key" tone="danger" busy={busy} error={error} onCancel={onCancel} onConfirm={onConfirm} testID="confirm-key">
       <Text style={type.body}>
-        Revoke when the private key may be known to someone else. Unpublished uploads signed with it are refused, and the {k.releaseCount} {k.releaseCount === 1 ? 'release' : 'releases'} it signed {k.releaseCount === 1 ? 'is' : 'are'} flagged for you to halt or withdraw.
+        Revoke when the private key may be known to someone else. Unpublished uploads signed with it are refused, and the {k.releaseCount} {k.releaseCount === 1 ? 'release' : 'releases'} it signed {k.releaseCount === 1 ? 'is' : 'are'} flagged for you to stop or withdraw.
       </Text>
       <Text style={[type.small, { color: colors.ember }]}>This is final: a revoked key never becomes active again.</Text>
     </ConfirmDialog>

@@ -10,7 +10,7 @@ import { qrDataUrl } from './qr-art';
 import { benchSheetCsv, benchSheetName, type BenchRow } from './bench-sheet';
 import { downloadText, isWeb, useGlobalStyle } from './web';
 
-export type SheetToken = BenchRow & { id?: string; track?: string };
+export type SheetToken = BenchRow & { id?: string; channel?: string };
 
 const PRINT_ROOT = 'heliodor-print';
 const printCss = `

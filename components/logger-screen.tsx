@@ -76,7 +76,7 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
   return (
     <Page
       title={logger.serial}
-      subtitle={`${logger.modelName} · board ${logger.board} · ${logger.track} track`}
+      subtitle={`${logger.modelName} · board ${logger.board} · ${logger.channel} channel`}
       actions={<Badge label={status.label} tone={status.tone} testID="logger-status" />}
     >
       {retired ? <Notice title="Retired" detail={`Retired ${logger.retiredAt ? absoluteTime(logger.retiredAt) : ''}. Its token no longer works.`} tone="slate" /> : null}
@@ -89,7 +89,7 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
             </Item>
             <Item label="Model">{logger.modelName}</Item>
             <Item label="Board revision">{logger.board}</Item>
-            <Item label="Track">{logger.track}</Item>
+            <Item label="Channel">{logger.channel}</Item>
             <Item label="Firmware" mono>
               {logger.firmware ?? '—'}
             </Item>

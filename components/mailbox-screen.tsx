@@ -14,7 +14,7 @@ export function MailboxScreen({ state }: { state: QueryState<OutboxMessage[]> })
       <QueryView state={state}>
         {(messages) =>
           messages.length === 0 ? (
-            <EmptyState title="No mail yet" detail="Release halts and invitations will appear here." />
+            <EmptyState title="No mail yet" detail="Release stops and invitations will appear here." />
           ) : (
             <View style={{ gap: space.md }}>
               {messages.map((m, i) => (

@@ -118,15 +118,15 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
         ) : (
           fleet.liveReleases.map((r) => (
             <Link key={r.id} href={r.href as never} asChild>
-              <Pressable role="link" style={styles.releaseRow} aria-label={`Release ${r.version} ${r.track}`}>
+              <Pressable role="link" style={styles.releaseRow} aria-label={`Release ${r.version} ${r.channel}`}>
                 <View style={{ gap: space.xs, width: '100%' }}>
                   <Row wrap style={{ justifyContent: 'space-between' }}>
                     <Text style={type.body}>
-                      {r.modelName} <Text style={type.mono}>{r.version}</Text> · {r.track}
+                      {r.modelName} <Text style={type.mono}>{r.version}</Text> · {r.channel}
                     </Text>
-                    <Badge label={`${r.state} · ${r.share} %`} tone={r.state === 'halted' ? 'ember' : r.state === 'paused' ? 'amber' : 'slate'} />
+                    <Badge label={`${r.state} · ${r.share} %`} tone={r.state === 'stopped' ? 'ember' : r.state === 'paused' ? 'amber' : 'slate'} />
                   </Row>
-                  <ProgressBar value={r.share} tone={r.state === 'halted' ? 'ember' : 'moss'} />
+                  <ProgressBar value={r.share} tone={r.state === 'stopped' ? 'ember' : 'moss'} />
                   <Text style={type.small}>
                     {r.installed} installed · {r.failed} failed
                   </Text>

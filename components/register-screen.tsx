@@ -42,7 +42,7 @@ function SingleForm({ models, single }: Pick<Props, 'models' | 'single'>) {
   const [serial, setSerial] = React.useState('');
   const [modelId, setModelId] = React.useState<string | undefined>();
   const [board, setBoard] = React.useState<string | undefined>();
-  const [track, setTrack] = React.useState<'stable' | 'early'>('stable');
+  const [channel, setChannel] = React.useState<'stable' | 'early'>('stable');
   const [local, setLocal] = React.useState<Record<string, string>>({});
   const model = models.rows.find((m) => m.id === modelId) ?? (models.rows.length === 1 ? models.rows[0] : undefined);
   const error = asApi(single.error);
@@ -55,7 +55,7 @@ function SingleForm({ models, single }: Pick<Props, 'models' | 'single'>) {
     if (!board || !model?.boards.some((b) => b.label === board)) problems.board = 'choose the board revision';
     setLocal(problems);
     if (Object.keys(problems).length || !model || !board) return;
-    single.run({ serial: serial.trim(), modelId: model.id, board, track });
+    single.run({ serial: serial.trim(), modelId: model.id, board, channel });
   };
 
   if (models.loading) return <Skeleton rows={4} height={44} />;
@@ -86,13 +86,13 @@ function SingleForm({ models, single }: Pick<Props, 'models' | 'single'>) {
         />
       ) : null}
       <Choices
-        label="Track"
+        label="Channel"
         choices={[
           { value: 'stable', label: 'Stable', hint: 'tested releases' },
           { value: 'early', label: 'Early', hint: 'gets releases first' },
         ]}
-        value={track}
-        onChange={setTrack}
+        value={channel}
+        onChange={setChannel}
       />
       {error && !error.fieldErrors?.length ? <Notice title={error.title} detail={error.detail} /> : null}
       <View style={{ alignSelf: 'flex-start' }}>
@@ -115,11 +115,11 @@ function BatchForm({ batch, models }: { batch: Props['batch']; models: Model[] }
     <Card>
       <Text style={type.heading}>Upload a CSV file</Text>
       <Text style={type.body}>
-        A header row, then one logger per line. Columns: <Mono>serial,model,board</Mono> and optionally <Mono>track</Mono> (stable or early; blank means
+        A header row, then one logger per line. Columns: <Mono>serial,model,board</Mono> and optionally <Mono>channel</Mono> (stable or early; blank means
         stable). Up to 5 000 loggers per file; the file is checked whole and nothing is stored if any line has a problem.
       </Text>
       <View style={{ backgroundColor: colors.paperDeep, padding: space.md, borderRadius: 6 }}>
-        <Mono>{`serial,model,board,track\nFL2-00121,${models[0]?.name ?? 'FL-2 field logger'},B,stable\nFL2-00122,${models[0]?.name ?? 'FL-2 field logger'},C,early`}</Mono>
+        <Mono>{`serial,model,board,channel\nFL2-00121,${models[0]?.name ?? 'FL-2 field logger'},B,stable\nFL2-00122,${models[0]?.name ?? 'FL-2 field logger'},C,early`}</Mono>
       </View>
       <Row wrap gap={space.sm}>
         <Button label={file ? 'Choose another file' : 'Choose CSV file'} variant="secondary" onPress={choose} disabled={batch.busy} testID="choose-csv" />

@@ -3,15 +3,15 @@ import React from 'react';
 import { Text, View } from 'react-native';
 import { Badge, ProgressBar } from './ui';
 import { space, type, type Tone } from './theme';
-import type { ReleaseState, Track } from '../hooks/releases';
+import type { ReleaseState, Channel } from '../hooks/releases';
 
 export const stateWords: Record<ReleaseState, string> = {
   draft: 'Draft',
   pilot: 'Pilot',
-  expanding: 'Expanding',
+  widening: 'Widening',
   complete: 'Complete',
   paused: 'Paused',
-  halted: 'Halted',
+  stopped: 'Stopped',
   withdrawn: 'Withdrawn',
 };
 
@@ -20,10 +20,10 @@ export const stateWords: Record<ReleaseState, string> = {
 export const stateTones: Record<ReleaseState, Tone> = {
   draft: 'slate',
   pilot: 'slate',
-  expanding: 'moss',
+  widening: 'moss',
   complete: 'moss',
   paused: 'amber',
-  halted: 'ember',
+  stopped: 'ember',
   withdrawn: 'ink',
 };
 
@@ -31,8 +31,8 @@ export function StateBadge({ state, testID }: { state: ReleaseState; testID?: st
   return <Badge label={stateWords[state] ?? state} tone={stateTones[state] ?? 'slate'} testID={testID} />;
 }
 
-export function TrackBadge({ track }: { track: Track }) {
-  return <Badge label={track === 'early' ? 'Early track' : 'Stable track'} tone={track === 'early' ? 'amber' : 'ink'} />;
+export function ChannelBadge({ channel }: { channel: Channel }) {
+  return <Badge label={channel === 'early' ? 'Early channel' : 'Stable channel'} tone={channel === 'early' ? 'amber' : 'ink'} />;
 }
 
 /** A share in percent as people say it: "25 %", "12.5 %" (numeric columns may arrive as text). */

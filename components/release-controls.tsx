@@ -114,7 +114,7 @@ export function ChoiceChip({ label, checked, onToggle, mono, testID, disabled }:
   );
 }
 
-/** One choice of a few (track, filters): a radio group drawn as segments. */
+/** One choice of a few (channel, filters): a radio group drawn as segments. */
 export function Segmented<T extends string>({ label, value, options, onChange, testID }: { label: string; value: T; options: { value: T; label: string }[]; onChange: (v: T) => void; testID?: string }) {
   return (
     <View style={{ gap: space.xs }}>

@@ -1,5 +1,5 @@
-// The rollout dashboard on a release's page (issue 6 §4): the halt thresholds beside their current
-// values ("failure ratio 1.8 % of 5 %") as the automatic halt judges them, the time to install, the
+// The rollout dashboard on a release's page (issue 6 §4): the trip points beside their current
+// values ("failure ratio 1.8 % of 5 %") as the trip judges them, the time to install, the
 // breakdown per board revision and per site (failures first), and the adoption chart. The page
 // refreshes itself every 15 s while the release is live.
 import React from 'react';
@@ -44,7 +44,7 @@ function DashboardView({ d, version, sitePage, sites, onSitePage, onOpenSite, re
     <View style={{ gap: space.lg }} testID="release-dashboard">
       <View style={wide ? styles.columns : { gap: space.lg }}>
         <View style={wide ? styles.column : undefined}>
-          <HaltGauges d={d} refreshing={refreshing} />
+          <TripGauges d={d} refreshing={refreshing} />
         </View>
         <View style={wide ? styles.column : undefined}>
           <TimeToInstall d={d} />
@@ -56,7 +56,7 @@ function DashboardView({ d, version, sitePage, sites, onSitePage, onOpenSite, re
           By site
         </Text>
         <Text style={type.small}>Failures first, then installs under way. Each bar is the share of the site’s loggers on {version} or newer.</Text>
-        {siteList.total === 0 ? <Text style={type.small}>No enrolled logger of this model and track at any site yet.</Text> : null}
+        {siteList.total === 0 ? <Text style={type.small}>No enrolled logger of this model and channel at any site yet.</Text> : null}
         {sites.isFetching && sitePage > 1 && !sites.data ? <Skeleton rows={3} /> : null}
         {siteList.rows.map((s) => (
           <SiteRow key={s.siteId} s={s} onOpen={onOpenSite} wide={wide} />
@@ -73,18 +73,18 @@ function DashboardView({ d, version, sitePage, sites, onSitePage, onOpenSite, re
   );
 }
 
-function HaltGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
-  const f = d.halt.failureRatio;
-  const r = d.halt.resetRate;
+function TripGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
+  const f = d.trip.failureRatio;
+  const r = d.trip.resetRate;
   const used = f.threshold > 0 ? f.ratio / f.threshold : 0;
   const tone = f.over ? 'ember' : used >= 0.5 ? 'amber' : 'moss';
   const resetUsed = r.threshold > 0 ? r.factor / r.threshold : 0;
   const resetTone = r.over ? 'ember' : resetUsed >= 0.5 ? 'amber' : 'moss';
   return (
-    <Card testID="halt-thresholds" style={styles.fill}>
+    <Card testID="trip-points" style={styles.fill}>
       <Row wrap style={{ justifyContent: 'space-between' }}>
         <Text role="heading" aria-level={2} style={type.heading}>
-          Halt thresholds now
+          Trip points now
         </Text>
         {refreshing ? <Badge label="Live · refreshes every 15 s" tone="slate" /> : null}
       </Row>
@@ -95,12 +95,12 @@ function HaltGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
         <ProgressBar value={Math.min(100, used * 100)} tone={tone} />
         <Text style={type.small}>
           {f.failed} failed of {f.finished} finished installs (connection and low-supply failures are retried, not counted).{' '}
-          {f.judged ? (f.over ? 'Above the threshold: the release halts at the next install report.' : 'Judged: below the threshold.') : `Judged from ${f.minReports} finished installs (${Math.max(0, f.minReports - f.finished)} to go).`}
+          {f.judged ? (f.over ? 'Above the threshold: the release trips at the next install report.' : 'Judged: below the threshold.') : `Judged from ${f.minReports} finished installs (${Math.max(0, f.minReports - f.finished)} to go).`}
         </Text>
       </View>
       <View style={{ gap: space.xs, borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm }}>
         <Text style={type.body} testID="reset-rate">
-          {r.judged ? `Resets ${Number(r.factor.toFixed(2))} × the rate before, of ${r.threshold} ×` : `Watchdog and brown-out resets: halt above ${r.threshold} × the rate before`}
+          {r.judged ? `Resets ${Number(r.factor.toFixed(2))} × the rate before, of ${r.threshold} ×` : `Watchdog and brown-out resets: trips above ${r.threshold} × the rate before`}
         </Text>
         {r.judged ? <ProgressBar value={Math.min(100, resetUsed * 100)} tone={resetTone} /> : null}
         <Text style={type.small}>

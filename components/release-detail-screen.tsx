@@ -7,7 +7,7 @@ import { Badge, Button, Card, Field, Mono, Notice, ProgressBar, Row } from './ui
 import { ConfirmDialog, type ProblemLike } from './release-controls';
 import { QueryView, type QueryState } from './query-state';
 import { ReleaseNotes } from './release-notes';
-import { ShareBar, StateBadge, TrackBadge, bytes, formatShare, stateWords } from './release-badges';
+import { ShareBar, StateBadge, ChannelBadge, bytes, formatShare, stateWords } from './release-badges';
 import { colors, fonts, space, type } from './theme';
 import { absoluteTime, relativeTime } from './format';
 import type { Estimate, FailureReason, Release, ReleaseAction, TransitionRequest } from '../hooks/releases';
@@ -28,7 +28,7 @@ type Props = {
   error: ProblemLike;
   /** The draft's targeting form (drafts only). */
   targeting?: React.ReactNode;
-  /** The rollout dashboard (halt thresholds now, adoption), given the release as loaded. */
+  /** The rollout dashboard (trip points now, adoption), given the release as loaded. */
   dashboard?: (r: Release) => React.ReactNode;
 };
 
@@ -48,13 +48,13 @@ const actionWords: Record<string, string> = {
   create: 'Uploaded',
   upload: 'Uploaded',
   start_pilot: 'Started the pilot',
-  expand: 'Widened',
+  widen: 'Widened',
   complete: 'Completed',
   pause: 'Paused',
   resume: 'Resumed',
-  halt: 'Halted',
+  stop: 'Stopped',
   withdraw: 'Withdrew',
-  auto_halt: 'Halted automatically',
+  trip: 'Tripped',
 };
 
 export function ReleaseDetailScreen(props: Props) {
@@ -71,14 +71,14 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
     <Page title={`Release ${r.version}`} subtitle={`${r.modelName} · uploaded ${r.createdBy ? `by ${r.createdBy.name} ` : ''}${relativeTime(r.createdAt)}`}>
       <Row wrap>
         <StateBadge state={r.state} testID="release-state" />
-        <TrackBadge track={r.track} />
+        <ChannelBadge channel={r.channel} />
         <Mono>{r.version}</Mono>
       </Row>
 
       {r.flagged ? (
         <Notice
           title="Signed by a revoked key"
-          detail={`${r.key ? `${r.key.name} (${r.key.keyId})` : 'The signing key'} was revoked. Treat this image as untrusted: halt or withdraw the release and sign a new image with an active key.`}
+          detail={`${r.key ? `${r.key.name} (${r.key.keyId})` : 'The signing key'} was revoked. Treat this image as untrusted: stop or withdraw the release and sign a new image with an active key.`}
         />
       ) : null}
 
@@ -87,7 +87,7 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
           Rollout
         </Text>
         <ShareBar state={r.state} share={r.share} testID="release-share" />
-        {r.state === 'paused' || r.state === 'halted' ? (
+        {r.state === 'paused' || r.state === 'stopped' ? (
           <Text style={type.small}>
             {stateWords[r.state]} at {formatShare(r.share)}; resume returns to {r.resumeState ? stateWords[r.resumeState].toLowerCase() : 'where it was'}.
           </Text>
@@ -100,7 +100,7 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
             <Button label="Delete draft" variant="secondary" onPress={() => onPending({ action: 'delete' })} testID="delete-draft" />
           </Row>
         ) : null}
-        {canManage && ['draft', 'pilot', 'expanding'].includes(r.state) ? (
+        {canManage && ['draft', 'pilot', 'widening'].includes(r.state) ? (
           <Notice
             tone="amber"
             title="Widen in small steps"
@@ -135,12 +135,12 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
   );
 }
 
-/** Why a release is paused, halted or withdrawn: the reason of the transition that put it there. */
+/** Why a release is paused, stopped or withdrawn: the reason of the transition that put it there. */
 function WhyStopped({ r }: { r: Release }) {
-  if (!['paused', 'halted', 'withdrawn'].includes(r.state)) return null;
+  if (!['paused', 'stopped', 'withdrawn'].includes(r.state)) return null;
   const last = [...(r.history ?? [])].reverse().find((h) => h.toState === r.state);
   if (!last) return null;
-  const tone = r.state === 'halted' ? 'ember' : r.state === 'paused' ? 'amber' : 'ink';
+  const tone = r.state === 'stopped' ? 'ember' : r.state === 'paused' ? 'amber' : 'ink';
   return (
     <Notice tone={tone} title={`${stateWords[r.state]} by ${last.actorName} ${relativeTime(last.at)}`} detail={last.reason ? `“${last.reason}”` : 'No reason was given.'} />
   );
@@ -149,24 +149,24 @@ function WhyStopped({ r }: { r: Release }) {
 function Moves({ r, onPending }: { r: Release; onPending: (p: PendingMove) => void }) {
   const can = (a: ReleaseAction) => r.allowedActions.includes(a);
   const current = Number(r.share);
-  const shortcuts = can('expand') ? SHORTCUTS.filter((s) => r.state === 'pilot' || s > current) : [];
+  const shortcuts = can('widen') ? SHORTCUTS.filter((s) => r.state === 'pilot' || s > current) : [];
   const [custom, setCustom] = React.useState('');
   const [customError, setCustomError] = React.useState<string | undefined>();
   const widenTo = (text: string) => {
     const n = Number(text.replace(',', '.'));
-    const floor = r.state === 'expanding' ? current : 0;
+    const floor = r.state === 'widening' ? current : 0;
     if (!Number.isFinite(n) || n < 1 || n > 99) return setCustomError('A share from 1 to 99 %; use Complete for 100 %.');
     if (n <= floor) return setCustomError(`The share can only grow: more than ${formatShare(floor)}.`);
     setCustomError(undefined);
-    onPending({ action: 'expand', share: n });
+    onPending({ action: 'widen', share: n });
   };
   return (
     <View style={{ gap: space.md }} testID="lifecycle-moves">
-      {can('expand') ? (
+      {can('widen') ? (
         <View style={{ gap: space.sm }}>
           <Row wrap>
             {shortcuts.map((s) => (
-              <Button key={s} label={`Widen to ${s} %`} onPress={() => onPending({ action: 'expand', share: s })} testID={`widen-${s}`} />
+              <Button key={s} label={`Widen to ${s} %`} onPress={() => onPending({ action: 'widen', share: s })} testID={`widen-${s}`} />
             ))}
             {can('complete') ? <Button label="Complete (100 %)" variant="secondary" onPress={() => onPending({ action: 'complete', share: 100 })} testID="complete" /> : null}
           </Row>
@@ -185,7 +185,7 @@ function Moves({ r, onPending }: { r: Release; onPending: (p: PendingMove) => vo
       <Row wrap>
         {can('resume') ? <Button label="Resume" onPress={() => onPending({ action: 'resume' })} testID="resume" /> : null}
         {can('pause') ? <Button label="Pause" variant="secondary" onPress={() => onPending({ action: 'pause' })} testID="pause" /> : null}
-        {can('halt') ? <Button label="Halt release" variant="danger" onPress={() => onPending({ action: 'halt' })} testID="halt" /> : null}
+        {can('stop') ? <Button label="Stop release" variant="danger" onPress={() => onPending({ action: 'stop' })} testID="stop" /> : null}
         {can('withdraw') ? <Button label="Withdraw" variant="danger" onPress={() => onPending({ action: 'withdraw' })} testID="withdraw" /> : null}
       </Row>
       {r.allowedActions.length === 0 ? <Text style={type.small}>No moves are possible from here.</Text> : null}
@@ -205,14 +205,14 @@ function MoveDialog({ r, pending, onPending, estimate, onTransition, onDelete, b
     );
   }
   const a = pending.action;
-  if (a === 'expand' || a === 'complete') {
+  if (a === 'widen' || a === 'complete') {
     const share = a === 'complete' ? 100 : pending.share!;
     return (
       <ConfirmDialog
         {...common}
         title={a === 'complete' ? 'Complete the rollout (100 %)' : `Widen to ${formatShare(share)}`}
         confirmLabel={a === 'complete' ? 'Complete' : `Widen to ${formatShare(share)}`}
-        onConfirm={() => onTransition(a === 'complete' ? { action: 'complete' } : { action: 'expand', share })}
+        onConfirm={() => onTransition(a === 'complete' ? { action: 'complete' } : { action: 'widen', share })}
       >
         <EstimateText estimate={estimate} share={share} lead={a === 'complete' ? 'Complete (100 %)' : `Widen to ${formatShare(share)}`} />
         <Text style={type.small}>Eligible loggers are offered {r.version} at their next check-in. A failed install can leave a logger offline until someone visits.</Text>
@@ -227,25 +227,25 @@ function MoveDialog({ r, pending, onPending, estimate, onTransition, onDelete, b
     );
   }
   if (a === 'resume') {
-    const halted = r.state === 'halted';
+    const stopped = r.state === 'stopped';
     return (
       <ConfirmDialog
         {...common}
         title="Resume the rollout"
         confirmLabel="Resume"
-        reasonLabel={halted ? 'Why is it safe to resume? (required)' : undefined}
+        reasonLabel={stopped ? 'Why is it safe to resume? (required)' : undefined}
         onConfirm={(reason) => onTransition({ action: 'resume', reason: reason || undefined })}
       >
         <Text style={type.body}>
           Offers start again{r.resumeState ? ` as ${stateWords[r.resumeState].toLowerCase()}` : ''} at {formatShare(r.share)}.
-          {halted ? ' It was halted: say what was found and fixed.' : ''}
+          {stopped ? ' It was stopped: say what was found and fixed.' : ''}
         </Text>
       </ConfirmDialog>
     );
   }
-  if (a === 'halt') {
+  if (a === 'stop') {
     return (
-      <ConfirmDialog {...common} title={`Halt ${r.version}`} confirmLabel="Halt release" tone="danger" reasonLabel="Reason (required)" onConfirm={(reason) => onTransition({ action: 'halt', reason })}>
+      <ConfirmDialog {...common} title={`Stop ${r.version}`} confirmLabel="Stop release" tone="danger" reasonLabel="Reason (required)" onConfirm={(reason) => onTransition({ action: 'stop', reason })}>
         <Text style={type.body}>All offers stop at once. Loggers mid-download stop at their next check-in. Resuming later needs a reason too.</Text>
       </ConfirmDialog>
     );
@@ -343,7 +343,7 @@ function Targeting({ r }: { r: Release }) {
       <Item label="Upgrade from">{r.upgradeFrom ? <Mono>{r.upgradeFrom}</Mono> : 'Any older version'}</Item>
       <Item label="Pilot sites">{r.pilotSites?.length ? r.pilotSites.map((s) => s.name).join(', ') : 'None'}</Item>
       <Item label="Daylight window">{r.daylightWindow ? 'On: offered between sunrise and sunset' : 'Off'}</Item>
-      <Item label="Halt thresholds">{`More than ${formatShare(Number((Number(r.haltFailureRatio) * 100).toFixed(2)))} failed once ${r.haltMinReports} reports are in; watchdog resets × ${r.haltResetFactor}`}</Item>
+      <Item label="Trip points">{`More than ${formatShare(Number((Number(r.tripFailureRatio) * 100).toFixed(2)))} failed once ${r.tripMinReports} reports are in; watchdog resets × ${r.tripResetFactor}`}</Item>
       <ImageFacts r={r} />
     </Card>
   );
@@ -395,7 +395,7 @@ function History({ r }: { r: Release }) {
           <Row wrap>
             <Text style={[type.body, { fontFamily: fonts.semibold }]}>
               {actionWords[h.action] ?? h.action}
-              {h.action === 'expand' && h.share !== null ? ` to ${formatShare(h.share)}` : ''}
+              {h.action === 'widen' && h.share !== null ? ` to ${formatShare(h.share)}` : ''}
             </Text>
             {h.fromState ? (
               <Text style={type.small}>

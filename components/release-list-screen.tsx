@@ -5,11 +5,11 @@ import { Link } from 'expo-router';
 import { Page } from './shell';
 import { Badge, Button, Card, EmptyState, Mono, Row } from './ui';
 import { QueryView, type QueryState } from './query-state';
-import { ShareBar, StateBadge, TrackBadge, stateWords } from './release-badges';
+import { ShareBar, StateBadge, ChannelBadge, stateWords } from './release-badges';
 import { colors, fonts, radii, space, touchTarget, type } from './theme';
 import { absoluteTime, relativeTime } from './format';
 import type { List } from '../schemas/common';
-import type { ReleaseFilter, ReleaseRow, ReleaseState, Track } from '../hooks/releases';
+import type { ReleaseFilter, ReleaseRow, ReleaseState, Channel } from '../hooks/releases';
 
 type Props = {
   state: QueryState<List<ReleaseRow>>;
@@ -20,11 +20,11 @@ type Props = {
   wide: boolean;
 };
 
-const stateOptions: (ReleaseState | 'all')[] = ['all', 'draft', 'pilot', 'expanding', 'complete', 'paused', 'halted', 'withdrawn'];
-const trackOptions: (Track | 'all')[] = ['all', 'stable', 'early'];
+const stateOptions: (ReleaseState | 'all')[] = ['all', 'draft', 'pilot', 'widening', 'complete', 'paused', 'stopped', 'withdrawn'];
+const channelOptions: (Channel | 'all')[] = ['all', 'stable', 'early'];
 
 export function ReleaseListScreen({ state, filter, onFilterChange, canCreate, onNew, wide }: Props) {
-  const filtered = Boolean(filter.state || filter.track);
+  const filtered = Boolean(filter.state || filter.channel);
   return (
     <Page
       title="Images & releases"
@@ -40,10 +40,10 @@ export function ReleaseListScreen({ state, filter, onFilterChange, canCreate, on
           scroll={!wide}
         />
         <FilterChips
-          label="Track"
-          value={filter.track ?? 'all'}
-          options={trackOptions.map((t) => ({ value: t, label: t === 'all' ? 'All tracks' : t === 'stable' ? 'Stable' : 'Early' }))}
-          onChange={(v) => onFilterChange({ ...filter, track: v === 'all' ? undefined : v })}
+          label="Channel"
+          value={filter.channel ?? 'all'}
+          options={channelOptions.map((t) => ({ value: t, label: t === 'all' ? 'All channels' : t === 'stable' ? 'Stable' : 'Early' }))}
+          onChange={(v) => onFilterChange({ ...filter, channel: v === 'all' ? undefined : v })}
           scroll={!wide}
         />
       </View>
@@ -53,7 +53,7 @@ export function ReleaseListScreen({ state, filter, onFilterChange, canCreate, on
             return filtered ? (
               <EmptyState
                 title="No releases match these filters"
-                detail="Choose another state or track, or show all releases."
+                detail="Choose another state or channel, or show all releases."
                 action={<Button label="Show all releases" variant="secondary" onPress={() => onFilterChange({})} />}
               />
             ) : (
@@ -122,7 +122,7 @@ function ReleaseCard({ r }: { r: ReleaseRow }) {
           </Row>
           <Row wrap>
             <Text style={type.body}>{r.modelName}</Text>
-            <TrackBadge track={r.track} />
+            <ChannelBadge channel={r.channel} />
             {r.flagged ? <Badge label="Revoked key" tone="ember" /> : null}
           </Row>
           <ShareBar state={r.state} share={r.share} />
@@ -137,7 +137,7 @@ function ReleaseTable({ rows }: { rows: ReleaseRow[] }) {
   return (
     <Card style={{ padding: 0, gap: 0 }} testID="release-table">
       <View role="row" style={[styles.tr, styles.thead]}>
-        {['Version', 'Model', 'Track', 'State', 'Share', 'Installed', 'Failed', 'Uploaded'].map((h, i) => (
+        {['Version', 'Model', 'Channel', 'State', 'Share', 'Installed', 'Failed', 'Uploaded'].map((h, i) => (
           <Text key={h} role="columnheader" style={[type.label, styles.cell, cols[i]]}>
             {h}
           </Text>
@@ -152,7 +152,7 @@ function ReleaseTable({ rows }: { rows: ReleaseRow[] }) {
             </View>
             <Text style={[type.dense, styles.cell, cols[1]]}>{r.modelName}</Text>
             <View style={[styles.cell, cols[2]]}>
-              <TrackBadge track={r.track} />
+              <ChannelBadge channel={r.channel} />
             </View>
             <View style={[styles.cell, cols[3]]}>
               <StateBadge state={r.state} />

@@ -6,9 +6,9 @@ import { Page } from './shell';
 import { Badge, Button, Card, Field, Mono, Notice, ProgressBar, Row } from './ui';
 import { ProblemNotice, Segmented, type ProblemLike } from './release-controls';
 import { FilePicker, type PickedFile } from './release-file-picker';
-import { StateBadge, TrackBadge, bytes } from './release-badges';
+import { StateBadge, ChannelBadge, bytes } from './release-badges';
 import { colors, fonts, space, type } from './theme';
-import type { Release, ReleaseUpload, Track, UploadPart } from '../hooks/releases';
+import type { Release, ReleaseUpload, Channel, UploadPart } from '../hooks/releases';
 
 type Problem = (ProblemLike & { status?: number; field?: (path: string) => string | undefined }) | null;
 
@@ -31,7 +31,7 @@ const uploadFieldNames: Record<string, string> = {
   manifest: 'Manifest',
   signature: 'Signature',
   notes: 'Notes',
-  track: 'Track',
+  channel: 'Channel',
   'manifest.version': 'Manifest version',
   'manifest.model': 'Manifest model',
   'manifest.board_revisions': 'Manifest board revisions',
@@ -64,7 +64,7 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
   const [signatureFile, setSignatureFile] = React.useState<PickedFile | null>(null);
   const [signatureText, setSignatureText] = React.useState('');
   const [notes, setNotes] = React.useState('');
-  const [track, setTrack] = React.useState<Track | 'auto'>('auto');
+  const [channel, setChannel] = React.useState<Channel | 'auto'>('auto');
   const [missing, setMissing] = React.useState<Record<string, string>>({});
 
   const filePart = (f: PickedFile): UploadPart & { kind: 'file' } => ({ kind: 'file', name: f.name, blob: f.blob, uri: f.uri, mimeType: f.mimeType });
@@ -82,7 +82,7 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
       manifest: manifestMode === 'file' ? filePart(manifestFile!) : { kind: 'text', text: manifestText },
       signature: signatureMode === 'file' ? filePart(signatureFile!) : { kind: 'text', text: signatureText.trim() },
       notes,
-      track: track === 'auto' ? undefined : track,
+      channel: channel === 'auto' ? undefined : channel,
     });
   }
 
@@ -124,17 +124,17 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
           </Card>
           <Card>
             <Field label="Release notes (Markdown, optional)" multiline value={notes} onChangeText={setNotes} style={{ minHeight: 96, paddingVertical: space.sm, textAlignVertical: 'top' }} testID="notes" />
-            <Segmented<Track | 'auto'>
-              label="Track"
-              value={track}
-              onChange={setTrack}
+            <Segmented<Channel | 'auto'>
+              label="Channel"
+              value={channel}
+              onChange={setChannel}
               options={[
                 { value: 'auto', label: 'From the version' },
                 { value: 'stable', label: 'Stable' },
                 { value: 'early', label: 'Early' },
               ]}
             />
-            <Text style={type.small}>From the version: pre-release versions such as 2.5.0-rc.1 go to the early track, others to stable.</Text>
+            <Text style={type.small}>From the version: pre-release versions such as 2.5.0-rc.1 go to the early channel, others to stable.</Text>
           </Card>
         </>
       ) : null}
@@ -202,7 +202,7 @@ function CheckSummary({ release }: { release: Release }) {
         </Text>
         <Row>
           <StateBadge state={release.state} testID="created-state" />
-          <TrackBadge track={release.track} />
+          <ChannelBadge channel={release.channel} />
         </Row>
       </Row>
       {lines.map(([k, v]) => (

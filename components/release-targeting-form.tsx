@@ -1,12 +1,12 @@
 // A draft's targeting: which boards, which versions it upgrades, pilot sites, daylight window and
-// the halt thresholds. Saved with PATCH while the release is a draft; "Start pilot" saves first.
+// the trip points. Saved with PATCH while the release is a draft; "Start pilot" saves first.
 import React from 'react';
 import { Text, View } from 'react-native';
 import { Button, Card, Field, Notice, Row } from './ui';
 import { ChoiceChip, ConfirmDialog, ProblemNotice, Segmented, SwitchRow, type ProblemLike } from './release-controls';
 import { QueryView, type QueryState } from './query-state';
 import { colors, space, type } from './theme';
-import type { Release, ReleaseTargeting, Track } from '../hooks/releases';
+import type { Release, ReleaseTargeting, Channel } from '../hooks/releases';
 
 type SiteChoice = { id: string; name: string; customer?: string };
 
@@ -29,11 +29,11 @@ const fieldNames: Record<string, string> = {
   boards: 'Board revisions',
   upgradeFrom: 'Upgrade from',
   pilotSiteIds: 'Pilot sites',
-  haltFailureRatio: 'Failure ratio',
-  haltMinReports: 'Minimum reports',
-  haltResetFactor: 'Watchdog-reset jump factor',
+  tripFailureRatio: 'Failure ratio',
+  tripMinReports: 'Minimum reports',
+  tripResetFactor: 'Watchdog-reset jump factor',
   notes: 'Notes',
-  track: 'Track',
+  channel: 'Channel',
 };
 
 function percentText(ratio: number): string {
@@ -45,11 +45,11 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
   const [upgradeFrom, setUpgradeFrom] = React.useState(release.upgradeFrom ?? '');
   const [pilotSiteIds, setPilotSiteIds] = React.useState<string[]>(release.pilotSiteIds ?? []);
   const [daylight, setDaylight] = React.useState(Boolean(release.daylightWindow));
-  const [ratio, setRatio] = React.useState(percentText(release.haltFailureRatio ?? 0.05));
-  const [minReports, setMinReports] = React.useState(String(release.haltMinReports ?? 20));
-  const [resetFactor, setResetFactor] = React.useState(String(release.haltResetFactor ?? 2));
+  const [ratio, setRatio] = React.useState(percentText(release.tripFailureRatio ?? 0.05));
+  const [minReports, setMinReports] = React.useState(String(release.tripMinReports ?? 20));
+  const [resetFactor, setResetFactor] = React.useState(String(release.tripResetFactor ?? 2));
   const [notes, setNotes] = React.useState(release.notes ?? '');
-  const [track, setTrack] = React.useState<Track>(release.track);
+  const [channel, setChannel] = React.useState<Channel>(release.channel);
   const [local, setLocal] = React.useState<Record<string, string>>({});
 
   const toggle = (list: string[], v: string) => (list.includes(v) ? list.filter((x) => x !== v) : [...list, v]);
@@ -61,9 +61,9 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
     const n = Number(minReports);
     const f = Number(resetFactor.replace(',', '.'));
     if (!boards.length) problems.boards = 'Choose at least one board revision.';
-    if (ratio.trim() === '' || !Number.isFinite(r) || r < 0 || r > 100) problems.haltFailureRatio = 'A percentage from 0 to 100.';
-    if (minReports.trim() === '' || !Number.isInteger(n) || n < 1) problems.haltMinReports = 'A whole number of reports, 1 or more.';
-    if (resetFactor.trim() === '' || !Number.isFinite(f) || f < 1) problems.haltResetFactor = 'A factor of 1 or more, e.g. 2 (twice the usual resets).';
+    if (ratio.trim() === '' || !Number.isFinite(r) || r < 0 || r > 100) problems.tripFailureRatio = 'A percentage from 0 to 100.';
+    if (minReports.trim() === '' || !Number.isInteger(n) || n < 1) problems.tripMinReports = 'A whole number of reports, 1 or more.';
+    if (resetFactor.trim() === '' || !Number.isFinite(f) || f < 1) problems.tripResetFactor = 'A factor of 1 or more, e.g. 2 (twice the usual resets).';
     setLocal(problems);
     if (Object.keys(problems).length) return null;
     return {
@@ -71,11 +71,11 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
       upgradeFrom: upgradeFrom.trim() === '' ? null : upgradeFrom.trim(),
       pilotSiteIds,
       daylightWindow: daylight,
-      haltFailureRatio: Number((r / 100).toFixed(4)),
-      haltMinReports: n,
-      haltResetFactor: f,
+      tripFailureRatio: Number((r / 100).toFixed(4)),
+      tripMinReports: n,
+      tripResetFactor: f,
       notes,
-      track,
+      channel,
     };
   }
 
@@ -109,10 +109,10 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
           hint="Empty: any older version. Use a range to route old loggers through a stepping-stone release first."
           testID="upgrade-from"
         />
-        <Segmented<Track>
-          label="Track"
-          value={track}
-          onChange={setTrack}
+        <Segmented<Channel>
+          label="Channel"
+          value={channel}
+          onChange={setChannel}
           options={[
             { value: 'stable', label: 'Stable' },
             { value: 'early', label: 'Early' },
@@ -153,16 +153,16 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
           onChange={setDaylight}
           testID="daylight-window"
         />
-        <Field label="Halt when failures exceed (%)" keyboardType="decimal-pad" value={ratio} onChangeText={setRatio} error={err('haltFailureRatio')} hint="Of the install reports received; default 5 %." testID="halt-ratio" />
-        <Field label="…once at least this many reports are in" keyboardType="number-pad" value={minReports} onChangeText={setMinReports} error={err('haltMinReports')} hint="Default 20, so one early failure does not halt a rollout." testID="halt-min-reports" />
+        <Field label="Trip when more than this share of installs fail (%)" keyboardType="decimal-pad" value={ratio} onChangeText={setRatio} error={err('tripFailureRatio')} hint="Of the install reports received; default 5 %." testID="stop-ratio" />
+        <Field label="…once at least this many reports are in" keyboardType="number-pad" value={minReports} onChangeText={setMinReports} error={err('tripMinReports')} hint="Default 20, so one early failure does not stop a rollout." testID="stop-min-reports" />
         <Field
           label="Watchdog-reset jump factor"
           keyboardType="decimal-pad"
           value={resetFactor}
           onChangeText={setResetFactor}
-          error={err('haltResetFactor')}
-          hint="Halt when loggers on this release reset this many times more often than before; default 2."
-          testID="halt-reset-factor"
+          error={err('tripResetFactor')}
+          hint="Trip when loggers on this release reset this many times more often than before; default 2."
+          testID="trip-reset-factor"
         />
       </Card>
 

@@ -39,7 +39,7 @@ export type FleetQuery = {
   siteId?: string;
   modelId?: string;
   board?: string;
-  track?: 'stable' | 'early';
+  channel?: 'stable' | 'early';
   version?: string;
   flag?: FleetFlag;
   updateState?: UpdateState;
@@ -66,7 +66,7 @@ export function fleetQueryFromParams(params: Record<string, string | string[] | 
     siteId: one(params.siteId),
     modelId: one(params.modelId),
     board: one(params.board),
-    track: member(['stable', 'early'] as const, one(params.track)),
+    channel: member(['stable', 'early'] as const, one(params.channel)),
     version: one(params.version),
     flag: member(fleetFlags, one(params.flag)),
     updateState: member(updateStates, one(params.updateState)),
@@ -86,7 +86,7 @@ export function fleetQueryToParams(f: FleetQuery): Record<string, string | undef
     siteId: f.siteId,
     modelId: f.modelId,
     board: f.board,
-    track: f.track,
+    channel: f.channel,
     version: f.version,
     flag: f.flag,
     updateState: f.updateState,
@@ -141,7 +141,7 @@ export function useVersionMatrix() {
 }
 
 /**
- * Keeps a live release's page fresh (pilot, expanding): a second observer of the release's query that
+ * Keeps a live release's page fresh (pilot, widening): a second observer of the release's query that
  * refetches every 15 s, in step with its dashboard. TanStack Query stops interval refetches while the tab
  * is hidden (the root layout wires focusManager to visibilitychange; refetchIntervalInBackground stays false).
  */

@@ -13,7 +13,7 @@ import type {
   ReleaseRow,
   ReleaseSiteRow,
   ReleaseState,
-  ReleaseTrack,
+  ReleaseChannel,
   ReleaseTransitionView,
   ReleaseView,
   TransitionRequest,
@@ -22,13 +22,13 @@ import type { SiteView } from '../schemas/sites';
 
 // The answers' shapes live in schemas/releases.ts (the server's presenter promises them); screens import them from here.
 export type { ReleaseAction, ReleaseState, ReleaseDashboard, ReleaseSiteRow, ReleaseRow, ReleaseCounts, TransitionRequest };
-export type Track = ReleaseTrack;
+export type Channel = ReleaseChannel;
 export type FailureReason = InstallReason;
 export type ReleaseTransition = ReleaseTransitionView;
 export type Release = ReleaseView;
 export type Estimate = ReleaseEstimate;
 
-export type ReleaseFilter = { state?: ReleaseState; track?: Track; modelId?: string };
+export type ReleaseFilter = { state?: ReleaseState; channel?: Channel; modelId?: string };
 
 /** What the targeting form sends while the release is a draft. */
 export type ReleaseTargeting = z.input<typeof patchReleaseRequest>;
@@ -62,12 +62,12 @@ export function useRelease(id: string) {
     queryFn: () => api<Release>(`/api/releases/${encodeURIComponent(id)}`),
     enabled: Boolean(id),
     // Install reports arrive as loggers check in; a live release refreshes on its own.
-    refetchInterval: (q) => (q.state.data && ['pilot', 'expanding', 'complete'].includes(q.state.data.state) ? STALE.SECONDS.THIRTY : false),
+    refetchInterval: (q) => (q.state.data && ['pilot', 'widening', 'complete'].includes(q.state.data.state) ? STALE.SECONDS.THIRTY : false),
   });
 }
 
 /**
- * The rollout dashboard: breakdowns, time to install, halt gauges, adoption. While the release is live
+ * The rollout dashboard: breakdowns, time to install, trip gauges, adoption. While the release is live
  * it refreshes every 15 s; TanStack Query pauses interval refetches while the tab is hidden (the root
  * layout wires focusManager to visibilitychange, refetchIntervalInBackground stays false).
  */
@@ -118,7 +118,7 @@ export function useSiteChoices(enabled = true) {
 
 /** The upload's parts. On the web a file is a Blob; on a phone a picked document's uri. */
 export type UploadPart = { kind: 'file'; name: string; blob?: Blob; uri?: string; mimeType?: string } | { kind: 'text'; text: string };
-export type ReleaseUpload = { image: UploadPart & { kind: 'file' }; manifest: UploadPart; signature: UploadPart; notes?: string; track?: Track };
+export type ReleaseUpload = { image: UploadPart & { kind: 'file' }; manifest: UploadPart; signature: UploadPart; notes?: string; channel?: Channel };
 
 function appendPart(form: FormData, field: string, part: UploadPart) {
   if (part.kind === 'text') form.append(field, part.text);
@@ -136,7 +136,7 @@ export function useUploadRelease() {
       appendPart(form, 'manifest', body.manifest);
       appendPart(form, 'signature', body.signature);
       if (body.notes?.trim()) form.append('notes', body.notes);
-      if (body.track) form.append('track', body.track);
+      if (body.channel) form.append('channel', body.channel);
       return upload<Release>('/api/releases', form, onProgress);
     },
     onSuccess: (release) => {

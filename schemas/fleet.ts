@@ -29,15 +29,15 @@ export const PROBE_MIN_C = -55;
 export const PROBE_MAX_C = 125;
 
 /**
- * Where a logger stands with the current release of its track (the highest release of its model and
- * track that reached expanding or complete and was not withdrawn):
+ * Where a logger stands with the current release of its channel (the highest release of its model and
+ * channel that reached widening or complete and was not withdrawn):
  * up_to_date — runs it or newer; offered … failed — its install report for that release;
  * none — behind with no report yet, or there is no current release, or no version reported.
  */
 export const updateStates = ['up_to_date', 'offered', 'downloading', 'downloaded', 'installing', 'installed', 'failed', 'none'] as const;
 export type UpdateState = (typeof updateStates)[number];
 
-export const fleetSortKeys = ['serial', 'site', 'customer', 'model', 'board', 'track', 'firmware', 'updateState', 'lastSeen', 'supplyV', 'resets24h'] as const;
+export const fleetSortKeys = ['serial', 'site', 'customer', 'model', 'board', 'channel', 'firmware', 'updateState', 'lastSeen', 'supplyV', 'resets24h'] as const;
 export type FleetSortKey = (typeof fleetSortKeys)[number];
 
 const oneOf = (values: readonly string[]) => `must be one of ${values.join(', ')}`;
@@ -56,7 +56,7 @@ export const fleetFilterFields = {
   siteId: uuid.optional(),
   modelId: uuid.optional(),
   board: z.string().trim().min(1, 'is required').max(20, 'at most 20 characters').optional(),
-  track: z.enum(['stable', 'early'], { message: 'must be stable or early' }).optional(),
+  channel: z.enum(['stable', 'early'], { message: 'must be stable or early' }).optional(),
   version: versionFilter.optional(),
   flag: z.enum(fleetFlags, { message: oneOf(fleetFlags) }).optional(),
   updateState: z.enum(updateStates, { message: oneOf(updateStates) }).optional(),
@@ -75,10 +75,10 @@ export type VersionMatrix = {
     boards: string[];
     /** Loggers (not retired) per running version × board; versions newest first. */
     versions: { firmware: string | null; total: number; byBoard: Record<string, number> }[];
-    tracks: {
-      track: 'stable' | 'early';
+    channels: {
+      channel: 'stable' | 'early';
       currentRelease: { id: string; version: string; state: string; share: number; since: string | null } | null;
-      /** Enrolled loggers on the track. */
+      /** Enrolled loggers on the channel. */
       loggers: number;
       /** Of them, running the current release or newer. */
       onCurrent: number;
@@ -88,7 +88,7 @@ export type VersionMatrix = {
     releases: {
       id: string;
       version: string;
-      track: 'stable' | 'early';
+      channel: 'stable' | 'early';
       state: string;
       startedAt: string | null;
       /** Installs per UTC day since the release started, with the running total. */
@@ -106,7 +106,7 @@ export const REASON_CODES = [
   'retired',
   'not_enrolled',
   'firmware_unknown',
-  'wrong_track',
+  'wrong_channel',
   'not_live',
   'board_not_supported',
   'not_newer',
@@ -161,7 +161,7 @@ export const LAGGING_REASON_LABELS: Record<LaggingReason, string> = {
   outside_daylight_window: 'Outside the daylight window',
   outside_share: 'Not yet in the rollout share',
   not_pilot_site: 'Not a pilot site',
-  release_not_live: 'Release halted or paused',
+  release_not_live: 'Release stopped or paused',
   failed_awaiting_retry: 'Install failed, awaiting retry',
   needs_stepping_stone: 'Needs a stepping-stone release first',
   security_counter_too_low: 'Security counter below the logger’s',
@@ -188,7 +188,7 @@ export type LaggingLogger = {
   id: string;
   serial: string;
   firmware: string | null;
-  /** The current release of the logger's track, which the logger lacks (the one "retry" acts on). */
+  /** The current release of the logger's channel, which the logger lacks (the one "retry" acts on). */
   targetReleaseId: string;
   targetVersion: string;
   reason: LaggingReason;
@@ -200,12 +200,12 @@ export type LaggingSite = {
   siteId: string;
   siteName: string;
   customer: string;
-  /** Enrolled loggers below the current release of their track. */
+  /** Enrolled loggers below the current release of their channel. */
   behind: number;
   /** Enrolled loggers at the site. */
   total: number;
   oldestVersion: string | null;
-  /** When the earliest release the site lacks reached expanding or complete. */
+  /** When the earliest release the site lacks reached widening or complete. */
   laggingSince: string;
   lastContactAt: string | null;
   reasons: Partial<Record<LaggingReason, number>>;

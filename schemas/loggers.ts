@@ -14,9 +14,9 @@ export const serial = z.string().trim().regex(serialPattern, serialRule);
 /** Board revision label as the model lists it, e.g. "B". */
 export const boardLabel = text(20);
 
-export const tracks = ['stable', 'early'] as const;
-export const track = z.enum(tracks, { message: 'must be stable or early' });
-export type Track = z.infer<typeof track>;
+export const channels = ['stable', 'early'] as const;
+export const channel = z.enum(channels, { message: 'must be stable or early' });
+export type Channel = z.infer<typeof channel>;
 
 // ─── Registration ────────────────────────────────────────────────────────────
 
@@ -24,7 +24,7 @@ export const registerLoggerRequest = z.object({
   serial,
   modelId: uuid,
   board: boardLabel,
-  track: track.default('stable'),
+  channel: channel.default('stable'),
 });
 export type RegisterLoggerRequest = z.infer<typeof registerLoggerRequest>;
 
@@ -128,7 +128,7 @@ export type LoggerRow = {
   modelId: string;
   modelName: string;
   board: string;
-  track: Track;
+  channel: Channel;
   status: LoggerStatus;
   siteId: string | null;
   siteName: string | null;
@@ -138,7 +138,7 @@ export type LoggerRow = {
   supplyV: number | null;
   /** Latest probe reading (°C), or null. */
   tempC: number | null;
-  /** Where the logger stands with the current release of its track. */
+  /** Where the logger stands with the current release of its channel. */
   updateState: UpdateState;
   /** Watchdog and brown-out resets in the last 24 h. */
   resets24h: number;
@@ -153,7 +153,7 @@ export type LoggerDetail = {
   modelId: string;
   modelName: string;
   board: string;
-  track: Track;
+  channel: Channel;
   status: LoggerStatus;
   /** Enrolled and seen within three check-in intervals. */
   online: boolean;
@@ -171,9 +171,9 @@ export type LoggerDetail = {
 };
 
 /** Issued once, at registration or rotation: the token in clear and its label. */
-export type IssuedLogger = { id: string; serial: string; board: string; track: Track; modelId: string; modelName: string; token: string; labelPng: string };
+export type IssuedLogger = { id: string; serial: string; board: string; channel: Channel; modelId: string; modelName: string; token: string; labelPng: string };
 export type RotatedToken = { token: string; labelPng: string; serial: string; modelName: string; board: string };
-export type BatchRegistered = { rows: { id: string; serial: string; token: string; board: string; track: Track; modelName: string }[]; total: number };
+export type BatchRegistered = { rows: { id: string; serial: string; token: string; board: string; channel: Channel; modelName: string }[]; total: number };
 /** The answer to POST /api/enrollments: the enrolled logger and its first measurement profile. */
 export type Enrolled = { logger: LoggerDetail; profile: ProfileView };
 export type EnrollmentLookup = {

@@ -22,7 +22,7 @@ export const overviewSchema = z.object({
         id: z.string(),
         modelName: z.string(),
         version: z.string(),
-        track: z.enum(['stable', 'early']),
+        channel: z.enum(['stable', 'early']),
         state: z.string(),
         share: z.number(),
         installed: z.number().int(),

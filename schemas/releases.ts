@@ -6,29 +6,29 @@ import { boardLabel } from './manifest';
 import type { KeyState } from './keys';
 
 // The lifecycle's words (the table itself is server/releases/lifecycle.ts): shared with the console.
-export const RELEASE_STATES = ['draft', 'pilot', 'expanding', 'complete', 'paused', 'halted', 'withdrawn'] as const;
+export const RELEASE_STATES = ['draft', 'pilot', 'widening', 'complete', 'paused', 'stopped', 'withdrawn'] as const;
 export type ReleaseState = (typeof RELEASE_STATES)[number];
 
 /** States in which a release offers updates and serves its image. */
-export const LIVE_STATES = ['pilot', 'expanding', 'complete'] as const;
+export const LIVE_STATES = ['pilot', 'widening', 'complete'] as const;
 export type LiveState = (typeof LIVE_STATES)[number];
 
-export const RELEASE_ACTIONS = ['start_pilot', 'expand', 'complete', 'pause', 'resume', 'halt', 'withdraw'] as const;
+export const RELEASE_ACTIONS = ['start_pilot', 'widen', 'complete', 'pause', 'resume', 'stop', 'withdraw'] as const;
 export type ReleaseAction = (typeof RELEASE_ACTIONS)[number];
 
-/** The state a paused or halted release returns to on resume. A halt of a paused release returns to paused. */
+/** The state a paused or stopped release returns to on resume. A stop of a paused release returns to paused. */
 export type ResumeState = LiveState | 'paused';
 
-export const tracks = ['stable', 'early'] as const;
-export const trackSchema = z.enum(tracks, { error: 'must be stable or early' });
-export type ReleaseTrack = z.infer<typeof trackSchema>;
+export const channels = ['stable', 'early'] as const;
+export const channelSchema = z.enum(channels, { error: 'must be stable or early' });
+export type ReleaseChannel = z.infer<typeof channelSchema>;
 
 export const notesSchema = z.string({ error: 'must be text' }).max(20_000, 'at most 20 000 characters');
 
 /** The text fields of the multipart upload besides image, manifest and signature. */
 export const uploadFields = z.strictObject({
   notes: notesSchema.optional(),
-  track: trackSchema.optional(),
+  channel: channelSchema.optional(),
 });
 
 /** An upgrade-from range in the `semver` package's range syntax; blank means "from any version". */
@@ -55,11 +55,11 @@ export const patchReleaseRequest = z.strictObject({
     .refine((ids) => new Set(ids).size === ids.length, 'must not name a site twice')
     .optional(),
   daylightWindow: z.boolean({ error: 'must be true or false' }).optional(),
-  haltFailureRatio: z.number({ error: 'must be a fraction from 0 to 1' }).min(0, 'must be 0 or more').max(1, 'must be at most 1 (a fraction, not a percentage)').optional(),
-  haltMinReports: z.number({ error: 'must be a whole number' }).int('must be a whole number').min(1, 'must be at least 1').max(1_000_000, 'is too large').optional(),
-  haltResetFactor: z.number({ error: 'must be a number' }).min(1, 'must be 1 or more').max(100, 'must be at most 100').optional(),
+  tripFailureRatio: z.number({ error: 'must be a fraction from 0 to 1' }).min(0, 'must be 0 or more').max(1, 'must be at most 1 (a fraction, not a percentage)').optional(),
+  tripMinReports: z.number({ error: 'must be a whole number' }).int('must be a whole number').min(1, 'must be at least 1').max(1_000_000, 'is too large').optional(),
+  tripResetFactor: z.number({ error: 'must be a number' }).min(1, 'must be 1 or more').max(100, 'must be at most 100').optional(),
   notes: notesSchema.optional(),
-  track: trackSchema.optional(),
+  channel: channelSchema.optional(),
 });
 export type PatchReleaseRequest = z.infer<typeof patchReleaseRequest>;
 
@@ -73,7 +73,7 @@ export type TransitionRequest = z.infer<typeof transitionRequest>;
 export const releaseListQuery = z.object({
   modelId: uuid.optional(),
   state: z.enum(RELEASE_STATES, { error: `must be one of ${RELEASE_STATES.join(', ')}` }).optional(),
-  track: trackSchema.optional(),
+  channel: channelSchema.optional(),
 });
 
 export const estimateQuery = z.object({
@@ -93,7 +93,7 @@ type ReleaseHeading = {
   modelId: string;
   modelName: string;
   version: string;
-  track: ReleaseTrack;
+  channel: ReleaseChannel;
   state: ReleaseState;
   share: number;
 };
@@ -130,9 +130,9 @@ export type ReleaseView = ReleaseHeading & {
   pilotSiteIds: string[];
   pilotSites: { id: string; name: string }[];
   daylightWindow: boolean;
-  haltFailureRatio: number;
-  haltMinReports: number;
-  haltResetFactor: number;
+  tripFailureRatio: number;
+  tripMinReports: number;
+  tripResetFactor: number;
   securityCounter: number;
   notes: string;
   /** The notes rendered to safe HTML (empty when there are none). */
@@ -160,7 +160,7 @@ export type ReleaseSitesQuery = z.infer<typeof releaseSitesQuery>;
 
 /** Install reports of one release within a group of loggers (a board revision or a site). */
 export type InstallTally = {
-  /** Enrolled loggers of the release's model and track in the group. */
+  /** Enrolled loggers of the release's model and channel in the group. */
   loggers: number;
   /** Of those, running this release or newer. */
   onRelease: number;
@@ -181,7 +181,7 @@ export type ReleaseDashboard = {
   releaseId: string;
   generatedAt: string;
   timeToInstall: { installs: number; medianS: number | null; p90S: number | null };
-  halt: {
+  trip: {
     failureRatio: { installed: number; failed: number; finished: number; ratio: number; threshold: number; minReports: number; judged: boolean; over: boolean };
     resetRate: {
       loggers: number;

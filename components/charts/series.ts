@@ -2,7 +2,7 @@
 // beside every chart carries the words, so no series is told by colour alone.
 import { colors } from '../theme';
 
-// Ember (failed, halted) comes last so a version is not read as a failure.
+// Ember (failed, stopped) comes last so a version is not read as a failure.
 export const seriesColors = [colors.moss, colors.slate, colors.heliodor, colors.ink, colors.amber, colors.inkFaint, colors.ember] as const;
 
 /** A round top for the y axis: four sections with whole-number steps. */

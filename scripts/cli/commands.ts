@@ -256,7 +256,7 @@ export type PushOptions = {
   manifest: string;
   signature: string;
   notes?: string;
-  track?: 'stable' | 'early';
+  channel?: 'stable' | 'early';
   /** For tests and proxies; defaults to Node's global fetch. */
   fetch?: typeof fetch;
 };
@@ -277,7 +277,7 @@ async function readNotes(notes: string): Promise<string> {
 
 /**
  * Uploads a signed image as a draft release (POST <url>/api/releases, multipart: image, manifest,
- * signature, notes, track) with an API token. Checks locally first what can be checked without the
+ * signature, notes, channel) with an API token. Checks locally first what can be checked without the
  * console, so a mismatch is found before a large upload.
  */
 export async function pushRelease(options: PushOptions): Promise<string> {
@@ -304,7 +304,7 @@ export async function pushRelease(options: PushOptions): Promise<string> {
   form.append('manifest', new Blob([manifestBytes], { type: 'application/json' }), path.basename(options.manifest));
   form.append('signature', signature);
   if (options.notes !== undefined) form.append('notes', await readNotes(options.notes));
-  if (options.track !== undefined) form.append('track', options.track);
+  if (options.channel !== undefined) form.append('channel', options.channel);
 
   const send = options.fetch ?? fetch;
   let response: Response;

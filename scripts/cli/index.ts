@@ -102,9 +102,9 @@ function buildProgram(): Command {
     .requiredOption('--manifest <file>', 'the canonical manifest')
     .requiredOption('--signature <file>', 'the signature file (base64)')
     .option('--notes <file or text>', 'release notes (plain text or Markdown)')
-    .addOption(new Option('--track <track>', 'release track').choices(['stable', 'early'] as const))
+    .addOption(new Option('--channel <channel>', 'release channel').choices(['stable', 'early'] as const))
     .action(
-      async (options: { url: string; token?: string; image: string; manifest: string; signature: string; notes?: string; track?: 'stable' | 'early' }) => {
+      async (options: { url: string; token?: string; image: string; manifest: string; signature: string; notes?: string; channel?: 'stable' | 'early' }) => {
         try {
           process.stdout.write(await pushRelease(options));
         } catch (error) {

@@ -103,9 +103,9 @@ async function problemText(res: Response): Promise<string> {
 
 type ModelView = { id: string; name: string; boards: { label: string }[] };
 type SiteView = { id: string; name: string; latitude: number | null; longitude: number | null };
-type BatchAnswer = { rows: { id: string; serial: string; token: string; board: string; track: string }[] };
+type BatchAnswer = { rows: { id: string; serial: string; token: string; board: string; channel: string }[] };
 
-export type RegisteredLogger = LoggerIdentity & { id: string; track: 'stable' | 'early'; siteId: string };
+export type RegisteredLogger = LoggerIdentity & { id: string; channel: 'stable' | 'early'; siteId: string };
 
 export type RegistrationOptions = {
   count: number;
@@ -115,7 +115,7 @@ export type RegistrationOptions = {
   siteIds?: string[];
   /** Boards to register, in turn (default: every board of the model). */
   boards?: string[];
-  /** Share of loggers on the early track (0–1). */
+  /** Share of loggers on the early channel (0–1). */
   earlyShare?: number;
   firmware: (board: string) => string;
   securityCounter?: number;
@@ -162,12 +162,12 @@ export async function registerFleet(session: ConsoleSession, options: Registrati
   const planned = Array.from({ length: options.count }, (_, i) => ({
     serial: `${options.serialPrefix}-${String(i + 1).padStart(5, '0')}`,
     board: boards[i % boards.length],
-    track: options.random() < (options.earlyShare ?? 0) ? ('early' as const) : ('stable' as const),
+    channel: options.random() < (options.earlyShare ?? 0) ? ('early' as const) : ('stable' as const),
   }));
   const registered: BatchAnswer['rows'] = [];
   for (let at = 0; at < planned.length; at += 5000) {
     const part = planned.slice(at, at + 5000);
-    const csv = ['serial,model,board,track', ...part.map((p) => `${p.serial},${model.id},${p.board},${p.track}`)].join('\n') + '\n';
+    const csv = ['serial,model,board,channel', ...part.map((p) => `${p.serial},${model.id},${p.board},${p.channel}`)].join('\n') + '\n';
     const form = new FormData();
     form.append('file', new Blob([csv], { type: 'text/csv' }), 'simulated-loggers.csv');
     registered.push(...(await session.request<BatchAnswer>('POST', '/api/loggers/batch', form)).rows);
@@ -183,7 +183,7 @@ export async function registerFleet(session: ConsoleSession, options: Registrati
       serial: row.serial,
       token: row.token,
       board: row.board,
-      track: row.track === 'early' ? 'early' : 'stable',
+      channel: row.channel === 'early' ? 'early' : 'stable',
       siteId: site.id,
       modelId: model.id,
       firmware: options.firmware(row.board),

@@ -58,7 +58,7 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     .option('--email <email>', 'admin e-mail for --register', process.env.HELIODOR_SIM_EMAIL ?? 'morgan@fernhollow.example')
     .option('--password <password>', 'admin password for --register (default: $HELIODOR_SIM_PASSWORD, else the demo password)')
     .option('--model <name-or-id>', 'model of the loggers to register (--register)')
-    .option('--early-share <share>', 'share of registered loggers on the early track, 0–1 (--register)', number('--early-share', 0, 1), 0)
+    .option('--early-share <share>', 'share of registered loggers on the early channel, 0–1 (--register)', number('--early-share', 0, 1), 0)
     .option('--keys <dir>', `folder of trusted public-key PEMs; private keys in it are skipped (default: ${path.join(dataDir, 'demo')}, where the demo seed writes its key)`)
     .option('--firmware <spec>', 'version the loggers run at the start, per board or for all; "console" reads each logger\'s recorded version (admin sign-in)', 'A=2.1.4,B=2.2.0,C=2.2.0')
     .option('--counter <n>', 'security counter the loggers start with', number('--counter', 0, Number.MAX_SAFE_INTEGER, true), 0)

@@ -5,7 +5,7 @@ import { Activity } from '../db/models';
 import type { RequestContext } from '../auth/actor';
 
 export type ActivityEntry = {
-  action: string; // e.g. "logger.registered", "release.halted"
+  action: string; // e.g. "logger.registered", "release.stopped"
   targetType: string; // e.g. "logger", "site", "release"
   targetId?: string | null;
   summary: string; // one plain sentence a support person can read

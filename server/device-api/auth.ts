@@ -7,7 +7,7 @@ import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import { digestToken, sameDigest, tokenPattern } from '../auth/tokens';
 import { problems } from '../http/problem';
-import type { LoggerStatus, Track } from './decision';
+import type { LoggerStatus, Channel } from './decision';
 
 /** The logger behind a device request, with what its model and site contribute to a check-in. */
 export type DeviceLogger = {
@@ -17,7 +17,7 @@ export type DeviceLogger = {
   modelId: string;
   siteId: string | null;
   board: string;
-  track: Track;
+  channel: Channel;
   supplyV: number | null;
   minUpdateSupplyV: number;
   checkInIntervalS: number;
@@ -49,7 +49,7 @@ export async function authenticateLogger(sequelize: Sequelize, req: Request): Pr
   if (!LOGGER_TOKEN.test(token)) throw unknownToken();
   const digest = digestToken(token);
   const rows = await sequelize.query<DeviceLogger & { tokenDigest: string }>(
-    `SELECT l.id, l.serial, l.status, l.model_id AS "modelId", l.site_id AS "siteId", l.board, l.track, l.supply_v AS "supplyV",
+    `SELECT l.id, l.serial, l.status, l.model_id AS "modelId", l.site_id AS "siteId", l.board, l.channel, l.supply_v AS "supplyV",
             l.token_digest AS "tokenDigest", m.min_update_supply_v AS "minUpdateSupplyV", m.check_in_interval_s AS "checkInIntervalS",
             s.latitude, s.longitude
        FROM loggers l JOIN models m ON m.id = l.model_id LEFT JOIN sites s ON s.id = l.site_id

@@ -2,12 +2,12 @@
 //   1. the logger's latest state on its row, and one history row in check_ins;
 //   2. the install report, if any, applied forward-only, with the release row locked first
 //      (SELECT … FOR UPDATE) whenever the report can change the release's figures, so concurrent
-//      check-ins serialise on that release and the halt evaluation sees every count exactly once;
+//      check-ins serialise on that release and the stop evaluation sees every count exactly once;
 //   3. confirmation or rollback of earlier installed reports from the version now running;
-//   4. the automatic halt when a threshold is crossed (halt.ts);
+//   4. the trip when a threshold is crossed (stop.ts);
 //   5. the offer decision (decision.ts) on the cached releases, and 'offered' recorded;
 //   6. the measurement profile when the logger's config_version is behind or absent.
-// The halt e-mail is sent and the release cache dropped only after the transaction commits.
+// The stop e-mail is sent and the release cache dropped only after the transaction commits.
 import type { Sequelize, Transaction } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import type pino from 'pino';
@@ -15,7 +15,7 @@ import type { CheckInRequest, CheckInResponse, DeviceConfig, Offer, ResetCounts 
 import type { Mailer } from '../mail/mailer';
 import type { DeviceLogger } from './auth';
 import { decideOffer, type LastInstallReport } from './decision';
-import { haltIfCrossed, lockRelease, type HaltOutcome } from './halt';
+import { tripIfCrossed, lockRelease, type TripOutcome } from './trip';
 import { nextCheckInSeconds } from './load';
 import { retentionDays } from './partitions';
 import type { CachedRelease, ReleaseCache } from './release-cache';
@@ -104,7 +104,7 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
   const now = deps.now();
   const releases = await deps.releases.get(logger.modelId);
   const byId = new Map(releases.map((r) => [r.id, r]));
-  const halts: HaltOutcome[] = [];
+  const stops: TripOutcome[] = [];
 
   const result = await sequelize.transaction(async (t) => {
     // 1. Latest state and history.
@@ -160,7 +160,7 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
       },
     );
 
-    // 2–4. Reports, confirmation, rollback, halt. Each release whose figures may change is locked first.
+    // 2–4. Reports, confirmation, rollback, stop. Each release whose figures may change is locked first.
     let rows = await reportsOf(sequelize, t, logger.id);
     const report = body.report;
     const reportRelease = report ? byId.get(report.release) : undefined;
@@ -237,8 +237,8 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
       }
 
       for (const id of finished) {
-        const halt = await haltIfCrossed(sequelize, t, locked.get(id)!, { now, retentionDays: retentionDays(), requestId: ctx.requestId });
-        if (halt) halts.push(halt);
+        const stop = await tripIfCrossed(sequelize, t, locked.get(id)!, { now, retentionDays: retentionDays(), requestId: ctx.requestId });
+        if (stop) stops.push(stop);
       }
       rows = await reportsOf(sequelize, t, logger.id);
     }
@@ -247,22 +247,22 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
     const resetsNow = (resets?.watchdog ?? 0) + (resets?.brownout ?? 0);
     if (resetsNow > 0 && deps.resetChecks) {
       const running = releases.find(
-        (r) => r.version === body.firmware && ['pilot', 'expanding', 'complete'].includes(r.state) && rows.some((x) => x.releaseId === r.id && x.confirmedAt !== null),
+        (r) => r.version === body.firmware && ['pilot', 'widening', 'complete'].includes(r.state) && rows.some((x) => x.releaseId === r.id && x.confirmedAt !== null),
       );
       const last = running ? deps.resetChecks.get(running.id) : undefined;
-      if (running && !halts.some((h) => h.release.id === running.id) && (last === undefined || now.getTime() - last >= RESET_CHECK_EVERY_MS)) {
+      if (running && !stops.some((h) => h.release.id === running.id) && (last === undefined || now.getTime() - last >= RESET_CHECK_EVERY_MS)) {
         deps.resetChecks.set(running.id, now.getTime());
         // SKIP LOCKED: another check-in holding the release is judging it already, and waiting here in
         // another lock order could deadlock with it.
         const locked = await lockRelease(sequelize, t, running.id, { skipLocked: true });
-        const halt = locked ? await haltIfCrossed(sequelize, t, locked, { now, retentionDays: retentionDays(), requestId: ctx.requestId }) : null;
-        if (halt) halts.push(halt);
+        const stop = locked ? await tripIfCrossed(sequelize, t, locked, { now, retentionDays: retentionDays(), requestId: ctx.requestId }) : null;
+        if (stop) stops.push(stop);
       }
     }
 
-    // 5. The offer, on the releases as this transaction left them (a halt just made applies now).
+    // 5. The offer, on the releases as this transaction left them (a stop just made applies now).
     const current = releases.map((r) => {
-      const h = halts.find((x) => x.release.id === r.id);
+      const h = stops.find((x) => x.release.id === r.id);
       return h ? { ...r, state: h.release.state, share: h.release.share, resumeState: h.release.resumeState } : r;
     });
     const lastReports: Record<string, LastInstallReport | undefined> = {};
@@ -276,7 +276,7 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
         status: logger.status,
         siteId: logger.siteId,
         board: body.board,
-        track: logger.track,
+        channel: logger.channel,
         firmware: body.firmware,
         securityCounter: body.security_counter,
         supplyV: updated?.supplyV === null || updated?.supplyV === undefined ? null : Number(updated.supplyV),
@@ -303,10 +303,10 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
     return { offer: decision.offer ? offerOf(decision.offer) : null, config };
   });
 
-  for (const h of halts) {
+  for (const h of stops) {
     deps.releases.invalidate(h.release.modelId);
-    deps.mailer.send(h.mail).catch((err) => deps.logger.error({ err, releaseId: h.release.id }, 'halt e-mail not sent'));
-    deps.logger.warn({ releaseId: h.release.id, reason: h.reason }, 'release halted automatically');
+    deps.mailer.send(h.mail).catch((err) => deps.logger.error({ err, releaseId: h.release.id }, 'stop e-mail not sent'));
+    deps.logger.warn({ releaseId: h.release.id, reason: h.reason }, 'release tripped');
   }
 
   return {

@@ -1,6 +1,6 @@
 // Rollout share cohorts (DEVICE_API.md "Who gets an offer", rule 3). Pure: no I/O.
 //
-// Each (logger, release) pair lands in a fixed bucket 0–9 999. A release in the expanding state offers
+// Each (logger, release) pair lands in a fixed bucket 0–9 999. A release in the widening state offers
 // to a logger when its bucket is below share × 100, so widening the share only ever adds loggers, and
 // the bucket depends on the release too, so the same loggers are not always the first to take a new
 // release.

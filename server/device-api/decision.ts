@@ -34,7 +34,7 @@ import { REASON_CODES, type ReasonCode } from '../../schemas/fleet';
 export { REASON_CODES };
 export type { ReasonCode };
 
-export type Track = 'stable' | 'early';
+export type Channel = 'stable' | 'early';
 export type LoggerStatus = 'registered' | 'enrolled' | 'retired';
 export type InstallState = 'downloading' | 'downloaded' | 'installing' | 'installed' | 'failed';
 export type InstallFailureReason = 'integrity' | 'signature' | 'storage' | 'connection' | 'unsupported' | 'low_supply' | 'other';
@@ -51,7 +51,7 @@ export type LoggerAtCheckIn = {
   siteId: string | null;
   /** Board revision label, e.g. "B". */
   board: string;
-  track: Track;
+  channel: Channel;
   /** Version now running (this check-in's `firmware`); null when it has never checked in (console view). */
   firmware: string | null;
   /** Highest manifest security counter the logger has accepted, as sent in this check-in. */
@@ -68,9 +68,9 @@ export type LoggerAtCheckIn = {
 export type ReleaseTargeting = {
   id: string;
   version: string;
-  track: Track;
+  channel: Channel;
   state: ReleaseState;
-  /** Rollout share in percent, 0–100; used in the expanding state. */
+  /** Rollout share in percent, 0–100; used in the widening state. */
   share: number;
   /** Board revisions the release is for. */
   boards: readonly string[];
@@ -86,7 +86,7 @@ export type LastInstallReport = { state: InstallState; reason?: InstallFailureRe
 
 export type OfferInput<R extends ReleaseTargeting = ReleaseTargeting> = {
   logger: LoggerAtCheckIn;
-  /** Every release of the logger's model, in any state and on any track. */
+  /** Every release of the logger's model, in any state and on any channel. */
   releases: readonly R[];
   /** The logger's last install report per release id (only reports since an operator's latest retry). */
   lastReports: Readonly<Record<string, LastInstallReport | undefined>>;
@@ -100,7 +100,7 @@ export const REASON_LABELS: Record<ReasonCode, string> = {
   retired: 'Logger retired',
   not_enrolled: 'Not enrolled at a site',
   firmware_unknown: 'Running version unknown',
-  wrong_track: 'Other track',
+  wrong_channel: 'Other channel',
   not_live: 'Release not live',
   board_not_supported: 'Board revision not supported',
   not_newer: 'Not newer than the running version',
@@ -135,10 +135,10 @@ export type OfferDecision<R extends ReleaseTargeting = ReleaseTargeting> = {
 const STATE_PHRASE: Record<ReleaseState, string> = {
   draft: 'is still a draft',
   pilot: 'is in pilot',
-  expanding: 'is expanding',
+  widening: 'is widening',
   complete: 'is complete',
   paused: 'is paused',
-  halted: 'is halted',
+  stopped: 'is stopped',
   withdrawn: 'was withdrawn',
 };
 
@@ -208,14 +208,14 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
     );
   }
 
-  // Rule 2 (with rule 6): candidates by track, live state, board, version, security counter, and no
+  // Rule 2 (with rule 6): candidates by channel, live state, board, version, security counter, and no
   // unresolved failure.
   const candidates: R[] = [];
   for (const r of releases) {
     const version = semver.valid(r.version);
     const failure = failedAwaitingRetry(lastReports[r.id]);
-    if (r.track !== logger.track) {
-      refuse(r, 'wrong_track', `The release is on the ${r.track} track; the logger follows ${logger.track}.`);
+    if (r.channel !== logger.channel) {
+      refuse(r, 'wrong_channel', `The release is on the ${r.channel} channel; the logger follows ${logger.channel}.`);
     } else if (!isLive(r.state)) {
       refuse(r, 'not_live', `The release ${STATE_PHRASE[r.state]}.`);
     } else if (!r.boards.includes(logger.board)) {
@@ -243,7 +243,7 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
       } else {
         refuse(r, 'not_pilot_site', r.pilotSiteIds.length === 0 ? 'The release is in pilot and has no pilot sites yet.' : 'The release is in pilot and the logger’s site is not one of its pilot sites.');
       }
-    } else if (r.state === 'expanding') {
+    } else if (r.state === 'widening') {
       const bucket = bucketOf(logger.id, r.id);
       if (pilotSite) {
         eligible.push(r);
@@ -270,7 +270,7 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
     if (r === pick) continue;
     const check = upgradeFromAdmits(r, running);
     if (!check.admits) {
-      const next = pick ? `${pick.version} goes first as a stepping stone` : 'no release on the track admits it yet';
+      const next = pick ? `${pick.version} goes first as a stepping stone` : 'no release on the channel admits it yet';
       refuse(r, 'needs_stepping_stone', `It cannot be installed directly: ${check.why}; ${next}.`);
     } else {
       refuse(r, 'superseded', `${pick!.version} comes first; ${r.version} is not needed on the way.`);

@@ -22,7 +22,7 @@ const notFound = () => problems.notFound('image', 'No such image for this logger
 export async function mayDownload(sequelize: Sequelize, loggerId: string, sha256: string): Promise<{ size: number } | null> {
   const rows = await sequelize.query<{ size: number }>(
     `SELECT i.size FROM install_reports ir JOIN releases r ON r.id = ir.release_id JOIN images i ON i.sha256 = r.image_sha256
-      WHERE ir.logger_id = :loggerId AND r.image_sha256 = :sha256 AND r.state IN ('pilot', 'expanding', 'complete') LIMIT 1`,
+      WHERE ir.logger_id = :loggerId AND r.image_sha256 = :sha256 AND r.state IN ('pilot', 'widening', 'complete') LIMIT 1`,
     { type: QueryTypes.SELECT, replacements: { loggerId, sha256 } },
   );
   return rows[0] ? { size: Number(rows[0].size) } : null;

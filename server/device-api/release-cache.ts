@@ -5,7 +5,7 @@
 // Invalidation, fastest first:
 // 1. In-process: a change this process makes is dropped from its cache as soon as its transaction
 //    commits — the Release model's hooks (any service that saves a release through the model) and the
-//    automatic halt call `invalidate` — so a transition takes effect at the very next check-in this
+//    trip call `invalidate` — so a transition takes effect at the very next check-in this
 //    process serves.
 // 2. Other processes: triggers from migration 0004 NOTIFY `heliodor_releases` with the model id on
 //    every change to releases, pilot sites or signing keys; each process LISTENs on a connection of
@@ -16,7 +16,7 @@ import pg from 'pg';
 import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import { Release } from '../db/models';
-import type { ReleaseTargeting, Track } from './decision';
+import type { ReleaseTargeting, Channel } from './decision';
 import type { ReleaseState, ResumeState } from '../releases/lifecycle';
 import type { SignatureAlgorithm } from '../../schemas/manifest';
 
@@ -32,9 +32,9 @@ export type CachedRelease = ReleaseTargeting & {
   signature: Buffer;
   keyId: string;
   algorithm: SignatureAlgorithm;
-  haltFailureRatio: number;
-  haltMinReports: number;
-  haltResetFactor: number;
+  tripFailureRatio: number;
+  tripMinReports: number;
+  tripResetFactor: number;
 };
 
 type Row = Omit<CachedRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boards' | 'keyId'> & {
@@ -47,10 +47,10 @@ type Row = Omit<CachedRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boards'
 
 export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string): Promise<CachedRelease[]> {
   const rows = await sequelize.query<Row>(
-    `SELECT r.id, r.model_id AS "modelId", r.version, r.track, r.state, r.share, r.resume_state AS "resumeState", r.boards,
+    `SELECT r.id, r.model_id AS "modelId", r.version, r.channel, r.state, r.share, r.resume_state AS "resumeState", r.boards,
             r.upgrade_from AS "upgradeFrom", r.security_counter AS "securityCounter", r.daylight_window AS "daylightWindow",
             r.image_sha256 AS "imageSha256", i.size AS "imageSize", r.manifest, r.signature, k.key_id AS "keyId", k.algorithm,
-            r.halt_failure_ratio AS "haltFailureRatio", r.halt_min_reports AS "haltMinReports", r.halt_reset_factor AS "haltResetFactor",
+            r.trip_failure_ratio AS "tripFailureRatio", r.trip_min_reports AS "tripMinReports", r.trip_reset_factor AS "tripResetFactor",
             (SELECT array_agg(ps.site_id::text ORDER BY ps.site_id) FROM release_pilot_sites ps WHERE ps.release_id = r.id) AS "pilotSiteIds"
        FROM releases r JOIN images i ON i.sha256 = r.image_sha256 JOIN signing_keys k ON k.id = r.signing_key_id
       WHERE r.model_id = :modelId AND r.state <> 'draft'`,
@@ -58,13 +58,13 @@ export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string)
   );
   return rows.map((r) => ({
     ...r,
-    track: r.track as Track,
+    channel: r.channel as Channel,
     state: r.state as ReleaseState,
     share: Number(r.share),
     imageSize: Number(r.imageSize),
-    haltFailureRatio: Number(r.haltFailureRatio),
-    haltMinReports: Number(r.haltMinReports),
-    haltResetFactor: Number(r.haltResetFactor),
+    tripFailureRatio: Number(r.tripFailureRatio),
+    tripMinReports: Number(r.tripMinReports),
+    tripResetFactor: Number(r.tripResetFactor),
     keyId: r.keyId.trim(),
     imageSha256: r.imageSha256.trim(),
     pilotSiteIds: r.pilotSiteIds ?? [],

@@ -1,5 +1,5 @@
 // Lagging sites (issue 6 §3): sites with at least one enrolled logger below the current release of its
-// track (semantic-version precedence, in SQL on firmware_key), and for each such logger the reason from
+// channel (semantic-version precedence, in SQL on firmware_key), and for each such logger the reason from
 // the offer decision for that release — or "silent" when it has not checked in for 3 intervals, since
 // nothing can reach it until it does.
 //
@@ -15,12 +15,12 @@ import { CURRENT_RELEASES, SILENT } from './sql';
 import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
 import type { FleetDeps } from './table';
 
-/** Enrolled loggers below the current release of their track (firmware reported). */
+/** Enrolled loggers below the current release of their channel (firmware reported). */
 const BEHIND_FROM = `
   FROM loggers l
   JOIN models m ON m.id = l.model_id
   JOIN sites s ON s.id = l.site_id
-  JOIN current_releases cr ON cr.model_id = l.model_id AND cr.track = l.track
+  JOIN current_releases cr ON cr.model_id = l.model_id AND cr.channel = l.channel
   WHERE l.status = 'enrolled' AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`;
 
 const REASON_OF: Partial<Record<ReasonCode, LaggingReason>> = {

@@ -16,17 +16,17 @@ export async function fleetOverview(sequelize: Sequelize, now: Date): Promise<Ov
     sequelize.query<{ count: number }>(
       `WITH current_releases AS (${CURRENT_RELEASES})
        SELECT count(DISTINCT l.site_id)::int AS count FROM loggers l
-         JOIN current_releases cr ON cr.model_id = l.model_id AND cr.track = l.track
+         JOIN current_releases cr ON cr.model_id = l.model_id AND cr.channel = l.channel
         WHERE l.status = 'enrolled' AND l.site_id IS NOT NULL AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`,
       { type: QueryTypes.SELECT },
     ),
-    sequelize.query<{ id: string; model_name: string; version: string; track: 'stable' | 'early'; state: string; share: string; installed: number; failed: number }>(
-      `SELECT r.id, m.name AS model_name, r.version, r.track, r.state, r.share,
+    sequelize.query<{ id: string; model_name: string; version: string; channel: 'stable' | 'early'; state: string; share: string; installed: number; failed: number }>(
+      `SELECT r.id, m.name AS model_name, r.version, r.channel, r.state, r.share,
               (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = 'installed') AS installed,
               (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = 'failed') AS failed
          FROM releases r JOIN models m ON m.id = r.model_id
-        WHERE r.state IN ('pilot', 'expanding', 'complete')
-        ORDER BY lower(m.name), r.track DESC, heliodor_semver_key(r.version) COLLATE "C" DESC`,
+        WHERE r.state IN ('pilot', 'widening', 'complete')
+        ORDER BY lower(m.name), r.channel DESC, heliodor_semver_key(r.version) COLLATE "C" DESC`,
       { type: QueryTypes.SELECT },
     ),
   ]);
@@ -38,7 +38,7 @@ export async function fleetOverview(sequelize: Sequelize, now: Date): Promise<Ov
       id: r.id,
       modelName: r.model_name,
       version: r.version,
-      track: r.track,
+      channel: r.channel,
       state: r.state,
       share: Number(r.share),
       installed: r.installed,

@@ -25,7 +25,7 @@ export const SORTS: Record<FleetSortKey, { expr: string; type: string }> = {
   customer: { expr: "COALESCE(lower(s.customer), '')", type: 'text' },
   model: { expr: 'lower(m.name)', type: 'text' },
   board: { expr: 'l.board', type: 'text' },
-  track: { expr: 'l.track', type: 'text' },
+  channel: { expr: 'l.channel', type: 'text' },
   firmware: { expr: 'l.firmware_key', type: 'text[]' },
   updateState: { expr: UPDATE_STATE_RANK, type: 'integer' },
   lastSeen: { expr: "COALESCE(l.last_seen_at, '-infinity'::timestamptz)", type: 'timestamptz' },
@@ -88,12 +88,12 @@ async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: D
     replacements.q = likePattern(query.q);
   }
   // Plain equality filters: the query key, and the column it is compared with (board regardless of case).
-  const equals: [keyof FleetFilter & ('siteId' | 'modelId' | 'status' | 'board' | 'track'), string][] = [
+  const equals: [keyof FleetFilter & ('siteId' | 'modelId' | 'status' | 'board' | 'channel'), string][] = [
     ['siteId', 'l.site_id = :siteId'],
     ['modelId', 'l.model_id = :modelId'],
     ['status', 'l.status = :status'],
     ['board', 'lower(l.board) = lower(:board)'],
-    ['track', 'l.track = :track'],
+    ['channel', 'l.channel = :channel'],
   ];
   for (const [key, condition] of equals) {
     if (!query[key]) continue;
@@ -126,7 +126,7 @@ type RowRecord = {
   model_id: string;
   model_name: string;
   board: string;
-  track: LoggerRow['track'];
+  channel: LoggerRow['channel'];
   status: LoggerRow['status'];
   site_id: string | null;
   site_name: string | null;
@@ -148,7 +148,7 @@ function presentRow(r: RowRecord): LoggerRow {
     modelId: r.model_id,
     modelName: r.model_name,
     board: r.board,
-    track: r.track,
+    channel: r.channel,
     status: r.status,
     siteId: r.site_id,
     siteName: r.site_name,
@@ -182,7 +182,7 @@ async function readRows(
   const flagColumns = fleetFlags.map((f) => `${FLAG_SQL[f]} AS f_${f}`).join(', ');
   return deps.sequelize.query<RowRecord>(
     `WITH current_releases AS (${CURRENT_RELEASES})
-     SELECT l.id, l.serial, l.model_id, m.name AS model_name, l.board, l.track, l.status, l.site_id, s.name AS site_name,
+     SELECT l.id, l.serial, l.model_id, m.name AS model_name, l.board, l.channel, l.status, l.site_id, s.name AS site_name,
             s.customer, l.firmware, l.last_seen_at, l.supply_v, ${TEMP_C} AS temp_c, ${RESETS_24H} AS resets_24h,
             ${UPDATE_STATE} AS update_state, ${flagColumns}, (${sort.expr})::text AS sort_value
        ${FLEET_FROM}
@@ -229,7 +229,7 @@ export const FLEET_CSV_HEADER = [
   'customer',
   'model',
   'board',
-  'track',
+  'channel',
   'status',
   'firmware',
   'update_state',
@@ -247,7 +247,7 @@ function csvOf(r: LoggerRow): string {
     safeText(r.customer),
     safeText(r.modelName),
     safeText(r.board),
-    r.track,
+    r.channel,
     r.status,
     safeText(r.firmware),
     r.updateState,

@@ -15,7 +15,7 @@ export type LoggerForDecision = Omit<LoggerAtCheckIn, 'siteCoordinates'> & {
 
 /** The columns a LoggerForDecision is read from (alias l = loggers, m = models, s = sites). */
 export const DECISION_COLUMNS = `l.id, l.model_id AS "modelId", l.status, l.site_id AS "siteId", COALESCE(l.reported_board, l.board) AS board,
-  l.track, l.firmware, l.security_counter AS "securityCounter", l.supply_v::float8 AS "supplyV",
+  l.channel, l.firmware, l.security_counter AS "securityCounter", l.supply_v::float8 AS "supplyV",
   m.min_update_supply_v::float8 AS "minUpdateSupplyV", s.latitude::float8 AS latitude, s.longitude::float8 AS longitude`;
 
 type ReportRow = { loggerId: string; releaseId: string; state: StoredState; reason: string | null; updatedAt: Date; retriedAt: Date | null };
@@ -60,7 +60,7 @@ export async function decisionsFor(sequelize: Sequelize, loggers: LoggerForDecis
           status: l.status,
           siteId: l.siteId,
           board: l.board,
-          track: l.track,
+          channel: l.channel,
           firmware: l.firmware,
           securityCounter: Number(l.securityCounter),
           supplyV: l.supplyV === null ? null : Number(l.supplyV),

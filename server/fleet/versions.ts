@@ -1,5 +1,5 @@
-// The version matrix (issue 6 §2): per model, loggers per running version × board; per track the share
-// running the track's current release (see CURRENT_RELEASES) or newer; per release, installs per day
+// The version matrix (issue 6 §2): per model, loggers per running version × board; per channel the share
+// running the channel's current release (see CURRENT_RELEASES) or newer; per release, installs per day
 // since it started (confirmed_at, else finished_at, of installed reports; UTC days).
 import { QueryTypes } from 'sequelize';
 import type { VersionMatrix } from '../../schemas/fleet';
@@ -8,9 +8,9 @@ import type { FleetDeps } from './table';
 
 type ModelRow = { id: string; name: string; boards: { label: string }[] };
 type CountRow = { model_id: string; firmware: string | null; board: string; n: number };
-type TrackRow = {
+type ChannelRow = {
   model_id: string;
-  track: 'stable' | 'early';
+  channel: 'stable' | 'early';
   loggers: number;
   on_current: number;
   release_id: string | null;
@@ -19,7 +19,7 @@ type TrackRow = {
   share: string | null;
   since: Date | null;
 };
-type ReleaseRow = { id: string; model_id: string; version: string; track: 'stable' | 'early'; state: string; started_at: Date | null };
+type ReleaseRow = { id: string; model_id: string; version: string; channel: 'stable' | 'early'; state: string; started_at: Date | null };
 type AdoptionRow = { release_id: string; day: string; n: number };
 
 const DAY_MS = 86_400_000;
@@ -44,25 +44,25 @@ export function adoptionDays(startedAt: Date | null, installs: { day: string; n:
 
 export async function versionMatrix(deps: FleetDeps): Promise<VersionMatrix> {
   const q = <T extends object>(sql: string) => deps.sequelize.query<T>(sql, { type: QueryTypes.SELECT });
-  const [models, counts, tracks, releases, adoption] = await Promise.all([
+  const [models, counts, channels, releases, adoption] = await Promise.all([
     q<ModelRow>('SELECT id, name, boards FROM models ORDER BY lower(name), id'),
     q<CountRow>(
       `SELECT model_id, firmware, board, count(*)::int AS n FROM loggers WHERE status <> 'retired'
         GROUP BY model_id, firmware, firmware_key, board ORDER BY model_id, firmware_key DESC, board`,
     ),
-    q<TrackRow>(
+    q<ChannelRow>(
       `WITH current_releases AS (${CURRENT_RELEASES}),
-       tracks AS (SELECT m.id AS model_id, t.track FROM models m CROSS JOIN (VALUES ('stable'), ('early')) t(track))
-       SELECT t.model_id, t.track,
-              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.track = t.track AND l.status = 'enrolled') AS loggers,
-              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.track = t.track AND l.status = 'enrolled'
+       channels AS (SELECT m.id AS model_id, t.channel FROM models m CROSS JOIN (VALUES ('stable'), ('early')) t(channel))
+       SELECT t.model_id, t.channel,
+              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = 'enrolled') AS loggers,
+              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = 'enrolled'
                   AND cr.id IS NOT NULL AND l.firmware_key >= cr.version_key) AS on_current,
               cr.id AS release_id, cr.version, cr.state, cr.share, cr.since
-         FROM tracks t LEFT JOIN current_releases cr ON cr.model_id = t.model_id AND cr.track = t.track
-        ORDER BY t.model_id, t.track DESC`,
+         FROM channels t LEFT JOIN current_releases cr ON cr.model_id = t.model_id AND cr.channel = t.channel
+        ORDER BY t.model_id, t.channel DESC`,
     ),
     q<ReleaseRow>(
-      `SELECT id, model_id, version, track, state, LEAST(piloted_at, expanded_at, completed_at) AS started_at
+      `SELECT id, model_id, version, channel, state, LEAST(piloted_at, widened_at, completed_at) AS started_at
          FROM releases WHERE state <> 'draft' ORDER BY model_id, heliodor_semver_key(version) COLLATE "C" DESC`,
     ),
     q<AdoptionRow>(
@@ -90,10 +90,10 @@ export async function versionMatrix(deps: FleetDeps): Promise<VersionMatrix> {
         modelName: m.name,
         boards: m.boards.map((b) => b.label),
         versions: [...versions.values()],
-        tracks: tracks
+        channels: channels
           .filter((t) => t.model_id === m.id)
           .map((t) => ({
-            track: t.track,
+            channel: t.channel,
             currentRelease: t.release_id
               ? { id: t.release_id, version: t.version!, state: t.state!, share: Number(t.share), since: t.since ? new Date(t.since).toISOString() : null }
               : null,
@@ -105,7 +105,7 @@ export async function versionMatrix(deps: FleetDeps): Promise<VersionMatrix> {
           .filter((r) => r.model_id === m.id)
           .map((r) => {
             const days = adoptionDays(r.started_at, adoptionOf.get(r.id) ?? [], deps.now());
-            return { id: r.id, version: r.version, track: r.track, state: r.state, startedAt: r.started_at ? new Date(r.started_at).toISOString() : null, adoption: days };
+            return { id: r.id, version: r.version, channel: r.channel, state: r.state, startedAt: r.started_at ? new Date(r.started_at).toISOString() : null, adoption: days };
           }),
       };
     }),

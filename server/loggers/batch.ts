@@ -1,18 +1,18 @@
 // Batch registration: reads and checks a whole CSV upload before anything is stored.
 // Pure: bytes in, rows or every problem (with the file's line number, header = line 1) out.
 import { parse, type InfoRecord } from 'csv-parse/sync';
-import { serialPattern, serialRule, tracks, type Track } from '../../schemas/loggers';
+import { serialPattern, serialRule, channels, type Channel } from '../../schemas/loggers';
 
 export const MAX_BATCH_ROWS = 5000;
 /** Longest row we read; a logger row is well under 200 bytes, so anything near this is not a logger list. */
 const MAX_ROW_BYTES = 4096;
 
-export const batchColumns = ['serial', 'model', 'board', 'track'] as const;
+export const batchColumns = ['serial', 'model', 'board', 'channel'] as const;
 export type BatchColumn = (typeof batchColumns)[number];
 const requiredColumns: readonly BatchColumn[] = ['serial', 'model', 'board'];
 
 export type BatchModel = { id: string; name: string; boards: readonly string[] };
-export type BatchRow = { line: number; serial: string; modelId: string; board: string; track: Track };
+export type BatchRow = { line: number; serial: string; modelId: string; board: string; channel: Channel };
 /** `path` is the column name, or "(file)", "(header)", "(row)" for problems that belong to no one column. */
 export type BatchError = { line: number; path: string; message: string };
 export type BatchRefusal = { ok: false; errors: BatchError[] };
@@ -30,8 +30,8 @@ const fileError = (line: number, message: string): BatchRefusal => ({ ok: false,
 const saveAsUtf8 = 'save it as "CSV UTF-8" and upload it again';
 
 /**
- * Reads a batch upload: header `serial,model,board[,track]` (any order, any case), the model by name or id,
- * track stable or early (blank means stable). Blank lines, and rows whose cells are all blank, are skipped.
+ * Reads a batch upload: header `serial,model,board[,channel]` (any order, any case), the model by name or id,
+ * channel stable or early (blank means stable). Blank lines, and rows whose cells are all blank, are skipped.
  * `existingSerials` are the serials already registered (any case; compared by serialKey).
  */
 export function parseLoggerBatch(buffer: Uint8Array, models: readonly BatchModel[], existingSerials: ReadonlySet<string>): BatchResult {
@@ -39,12 +39,12 @@ export function parseLoggerBatch(buffer: Uint8Array, models: readonly BatchModel
   if (!decoded.ok) return decoded;
   // One line ending, so csv-parse's line count is the line number an editor shows (it counts CRLF inside quotes twice).
   const text = decoded.text.replace(/\r\n?/g, '\n');
-  if (text.trim() === '') return fileError(1, 'the file is empty; it needs a header row (serial,model,board[,track]) and one row per logger');
+  if (text.trim() === '') return fileError(1, 'the file is empty; it needs a header row (serial,model,board[,channel]) and one row per logger');
 
   const records = readRecords(text);
   if (!records.ok) return records;
   const [header, ...dataRows] = records.rows;
-  if (!header) return fileError(1, 'the file is empty; it needs a header row (serial,model,board[,track]) and one row per logger');
+  if (!header) return fileError(1, 'the file is empty; it needs a header row (serial,model,board[,channel]) and one row per logger');
 
   const columns = readHeader(header);
   if (!columns.ok) return columns;
@@ -115,12 +115,12 @@ export function parseLoggerBatch(buffer: Uint8Array, models: readonly BatchModel
       }
     }
 
-    const trackText = cell('track').toLowerCase();
-    const track = (trackText === '' ? 'stable' : trackText) as Track;
-    if (!tracks.includes(track)) fail('track', `track "${cell('track')}" must be stable or early (blank means stable)`);
+    const channelText = cell('channel').toLowerCase();
+    const channel = (channelText === '' ? 'stable' : channelText) as Channel;
+    if (!channels.includes(channel)) fail('channel', `channel "${cell('channel')}" must be stable or early (blank means stable)`);
 
     if (rowErrors.length > 0 || !model || board === undefined) errors.push(...rowErrors);
-    else rows.push({ line, serial, modelId: model.id, board, track });
+    else rows.push({ line, serial, modelId: model.id, board, channel });
   }
   return errors.length > 0 ? { ok: false, errors } : { ok: true, rows };
 }
@@ -235,19 +235,19 @@ function readHeader(header: CsvRecord): Columns | BatchRefusal {
   const { line, fields } = header;
   const errors: BatchError[] = [];
   if (fields.length === 1 && /[;\t]/.test(fields[0])) {
-    return fileError(line, 'the header is separated by semicolons or tabs; separate the columns with commas (serial,model,board[,track])');
+    return fileError(line, 'the header is separated by semicolons or tabs; separate the columns with commas (serial,model,board[,channel])');
   }
   const names = fields.map((f) => f.trim().toLowerCase());
   if (!names.some((name) => (batchColumns as readonly string[]).includes(name))) {
-    return fileError(line, 'the first row must be the header serial,model,board[,track]; this one names none of those columns');
+    return fileError(line, 'the first row must be the header serial,model,board[,channel]; this one names none of those columns');
   }
   const index: Partial<Record<BatchColumn, number>> = {};
   fields.forEach((raw, i) => {
     const name = raw.trim().toLowerCase();
     if (name === '') {
-      errors.push({ line, path: '(header)', message: `column ${i + 1} has no name; the header names serial, model, board and optionally track` });
+      errors.push({ line, path: '(header)', message: `column ${i + 1} has no name; the header names serial, model, board and optionally channel` });
     } else if (!(batchColumns as readonly string[]).includes(name)) {
-      errors.push({ line, path: raw.trim(), message: `unknown column "${raw.trim()}"; the header names serial, model, board and optionally track` });
+      errors.push({ line, path: raw.trim(), message: `unknown column "${raw.trim()}"; the header names serial, model, board and optionally channel` });
     } else if (index[name as BatchColumn] !== undefined) {
       errors.push({ line, path: name, message: `column "${name}" appears twice` });
     } else {
@@ -256,7 +256,7 @@ function readHeader(header: CsvRecord): Columns | BatchRefusal {
   });
   for (const column of requiredColumns) {
     if (index[column] === undefined) {
-      errors.push({ line, path: column, message: `the header has no "${column}" column; it names serial, model, board and optionally track` });
+      errors.push({ line, path: column, message: `the header has no "${column}" column; it names serial, model, board and optionally channel` });
     }
   }
   return errors.length > 0 ? { ok: false, errors } : { ok: true, index, count: fields.length };

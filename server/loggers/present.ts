@@ -69,7 +69,7 @@ export async function presentDetail(logger: Logger, now: Date, transaction?: Tra
     modelId: logger.modelId,
     modelName: model.name,
     board: logger.board,
-    track: logger.track,
+    channel: logger.channel,
     status: logger.status,
     online: isOnline(logger, model, now),
     site: site ? { id: site.id, name: site.name, customer: site.customer } : null,

@@ -73,7 +73,7 @@ export async function registerLogger(deps: RegistryDeps, ctx: RequestContext, bo
         serial: body.serial,
         modelId: model.id,
         board: board.label,
-        track: body.track,
+        channel: body.channel,
         tokenDigest: digest,
         tokenIssuedAt: deps.now(),
         registeredBy: personId(ctx.actor),
@@ -84,7 +84,7 @@ export async function registerLogger(deps: RegistryDeps, ctx: RequestContext, bo
       action: 'logger.registered',
       targetType: 'logger',
       targetId: created.id,
-      summary: `Logger ${created.serial} registered (${model.name}, board ${board.label}, ${body.track} track)`,
+      summary: `Logger ${created.serial} registered (${model.name}, board ${board.label}, ${body.channel} channel)`,
     });
     return created;
   });
@@ -92,7 +92,7 @@ export async function registerLogger(deps: RegistryDeps, ctx: RequestContext, bo
     id: logger.id,
     serial: logger.serial,
     board: logger.board,
-    track: logger.track,
+    channel: logger.channel,
     modelId: model.id,
     modelName: model.name,
     token,
@@ -123,7 +123,7 @@ export async function registerBatch(deps: RegistryDeps, ctx: RequestContext, fil
         serial: row.serial,
         modelId: row.modelId,
         board: row.board,
-        track: row.track,
+        channel: row.channel,
         tokenDigest: digest,
         tokenIssuedAt: issuedAt,
         registeredBy: personId(ctx.actor),
@@ -145,7 +145,7 @@ export async function registerBatch(deps: RegistryDeps, ctx: RequestContext, fil
     serial: row.serial,
     token,
     board: row.board,
-    track: row.track,
+    channel: row.channel,
     modelName: modelName.get(row.modelId) ?? '',
   }));
   return { rows, total: rows.length };

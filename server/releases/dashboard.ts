@@ -5,16 +5,16 @@
 //   new version (confirmed_at), or to the installed report while the confirmation is still due. A retry
 //   keeps the first offer, so a retried install counts its whole wait. Median and 90th percentile by
 //   PostgreSQL's percentile_cont (linear interpolation between the middle values).
-// - Per board and per site: the enrolled loggers of the release's model and track (the release's
+// - Per board and per site: the enrolled loggers of the release's model and channel (the release's
 //   audience), how many run it or newer, and the install reports in each group. Sites list failures
 //   first, then installs in progress, so support reads the trouble at the top; paged in PostgreSQL.
-// - The halt thresholds with their current values, read by the same queries and rules as the
-//   automatic halt (device-api/halt.ts), so the dashboard shows what the halt will decide.
+// - The trip points with their current values, read by the same queries and rules as the
+//   trip (device-api/stop.ts), so the dashboard shows what the stop will decide.
 // - Adoption: confirmed installs per UTC day since the release started.
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { problems } from '../http/problem';
-import { failureFigures, haltGauges, resetFigures } from '../device-api/halt';
+import { failureFigures, tripGauges, resetFigures } from '../device-api/trip';
 import { retentionDays } from '../device-api/partitions';
 import { adoptionDays } from '../fleet/versions';
 import type { ReleaseBoardRow, ReleaseDashboard, ReleaseSiteRow, ReleaseSitesQuery } from '../../schemas/releases';
@@ -25,12 +25,12 @@ type ReleaseRow = {
   id: string;
   model_id: string;
   version: string;
-  track: string;
+  channel: string;
   boards: string[];
   model_boards: { label: string }[];
-  halt_failure_ratio: string;
-  halt_min_reports: number;
-  halt_reset_factor: string;
+  trip_failure_ratio: string;
+  trip_min_reports: number;
+  trip_reset_factor: string;
   started_at: Date | null;
 };
 
@@ -41,13 +41,13 @@ const DONE_AT = 'COALESCE(ir.confirmed_at, ir.finished_at)';
 const INSTALL_S = `EXTRACT(EPOCH FROM (${DONE_AT} - ir.offered_at))`;
 
 /**
- * Enrolled loggers of the release's model and track, each with its report of this release (if any).
+ * Enrolled loggers of the release's model and channel, each with its report of this release (if any).
  * Integrators see only loggers they registered or at their sites, as in the fleet table.
  */
 const AUDIENCE = `
   FROM loggers l
   LEFT JOIN install_reports ir ON ir.logger_id = l.id AND ir.release_id = :releaseId
- WHERE l.model_id = :modelId AND l.track = :track AND l.status = 'enrolled'`;
+ WHERE l.model_id = :modelId AND l.channel = :channel AND l.status = 'enrolled'`;
 const INTEGRATOR_SCOPE = ` AND (l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))`;
 
 const TALLY = `
@@ -71,8 +71,8 @@ const tally = (r: TallyRow) => ({
 
 async function releaseOf(sequelize: Sequelize, id: string): Promise<ReleaseRow> {
   const [row] = await sequelize.query<ReleaseRow>(
-    `SELECT r.id, r.model_id, r.version, r.track, r.boards, m.boards AS model_boards, r.halt_failure_ratio, r.halt_min_reports,
-            r.halt_reset_factor, LEAST(r.piloted_at, r.expanded_at, r.completed_at) AS started_at
+    `SELECT r.id, r.model_id, r.version, r.channel, r.boards, m.boards AS model_boards, r.trip_failure_ratio, r.trip_min_reports,
+            r.trip_reset_factor, LEAST(r.piloted_at, r.widened_at, r.completed_at) AS started_at
        FROM releases r JOIN models m ON m.id = r.model_id WHERE r.id = :id`,
     { type: QueryTypes.SELECT, replacements: { id } },
   );
@@ -84,7 +84,7 @@ function scopeOf(actor: Actor, release: ReleaseRow) {
   const integrator = actor.type === 'person' && actor.role === 'integrator';
   return {
     scope: integrator ? INTEGRATOR_SCOPE : '',
-    replacements: { releaseId: release.id, modelId: release.model_id, track: release.track, version: release.version, actorId: integrator ? actor.id : null },
+    replacements: { releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, actorId: integrator ? actor.id : null },
   };
 }
 
@@ -155,14 +155,14 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
   const empty: TallyRow = { loggers: 0, on_release: 0, reached: 0, in_progress: 0, installed: 0, failed: 0, median_install_s: null };
   const byBoard: ReleaseBoardRow[] = labels.map((board) => ({ board, targeted: release.boards.includes(board), ...tally(found.get(board) ?? empty) }));
 
-  const thresholds = { haltFailureRatio: Number(release.halt_failure_ratio), haltMinReports: release.halt_min_reports, haltResetFactor: Number(release.halt_reset_factor) };
+  const thresholds = { tripFailureRatio: Number(release.trip_failure_ratio), tripMinReports: release.trip_min_reports, tripResetFactor: Number(release.trip_reset_factor) };
   const t = times[0];
   const seconds = (x: number | null) => (x === null ? null : Math.round(Number(x)));
   return {
     releaseId: release.id,
     generatedAt: now.toISOString(),
     timeToInstall: { installs: Number(t?.installs ?? 0), medianS: seconds(t?.median_s ?? null), p90S: seconds(t?.p90_s ?? null) },
-    halt: haltGauges(thresholds, failures, resets),
+    trip: tripGauges(thresholds, failures, resets),
     byBoard,
     bySite: sites,
     adoption: adoptionDays(release.started_at, installsPerDay, now),

@@ -1,14 +1,14 @@
 // The release lifecycle (issue 4 §5, "Lifecycle, the complete table"). Pure: no I/O.
 //
 //   draft     → pilot (start_pilot); or deleted (a DELETE, not a transition: see canDelete)
-//   pilot     → expanding (expand, share 1–99 %), complete, paused, halted, withdrawn
-//   expanding → expanding (expand to a larger share only), complete (= 100 %), paused, halted, withdrawn
-//   complete  → paused, halted, withdrawn
-//   paused    → resume (back to the state it was paused from), halted, withdrawn
-//   halted    → resume (back to the state before the halt; reason required), withdrawn
+//   pilot     → widening (widen, share 1–99 %), complete, paused, stopped, withdrawn
+//   widening → widening (widen to a larger share only), complete (= 100 %), paused, stopped, withdrawn
+//   complete  → paused, stopped, withdrawn
+//   paused    → resume (back to the state it was paused from), stopped, withdrawn
+//   stopped    → resume (back to the state before the stop; reason required), withdrawn
 //   withdrawn is final (loggers that installed it keep it)
 //
-// Share: pilot 0 (only pilot sites), expanding 1–99, complete 100; paused and halted keep the share
+// Share: pilot 0 (only pilot sites), widening 1–99, complete 100; paused and stopped keep the share
 // they had, so resuming restores the same cohort.
 
 // The states and actions are named in schemas/releases.ts, which the console shares.
@@ -21,7 +21,7 @@ export type ReleaseLifecycle = {
   state: ReleaseState;
   /** Rollout share in percent (0–100). */
   share: number;
-  /** Set while paused or halted: where resume leads. Null in every other state. */
+  /** Set while paused or stopped: where resume leads. Null in every other state. */
   resumeState: ResumeState | null;
 };
 
@@ -30,25 +30,25 @@ export type TransitionOptions = { share?: number | null; reason?: string | null 
 export type TransitionRefusal =
   /** The action is not legal in this state (answer 409, naming the allowed actions). */
   | { ok: false; code: 'illegal'; detail: string; allowedActions: ReleaseAction[] }
-  /** Halt, withdraw and resume from halted need a reason (answer 400). */
+  /** Stop, withdraw and resume from stopped need a reason (answer 400). */
   | { ok: false; code: 'reason_required'; detail: string; allowedActions: ReleaseAction[] }
-  /** Expand needs a share of 1–99 %, larger than the current one when already expanding (answer 400). */
+  /** Widen needs a share of 1–99 %, larger than the current one when already widening (answer 400). */
   | { ok: false; code: 'invalid_share'; detail: string; allowedActions: ReleaseAction[] };
 
 export type TransitionResult = { ok: true; release: ReleaseLifecycle } | TransitionRefusal;
 
 const TABLE: Record<ReleaseState, readonly ReleaseAction[]> = {
   draft: ['start_pilot'],
-  pilot: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
-  expanding: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
-  complete: ['pause', 'halt', 'withdraw'],
-  paused: ['resume', 'halt', 'withdraw'],
-  halted: ['resume', 'withdraw'],
+  pilot: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
+  widening: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
+  complete: ['pause', 'stop', 'withdraw'],
+  paused: ['resume', 'stop', 'withdraw'],
+  stopped: ['resume', 'withdraw'],
   withdrawn: [],
 };
 
-export const MIN_EXPAND_SHARE = 1;
-export const MAX_EXPAND_SHARE = 99;
+export const MIN_WIDEN_SHARE = 1;
+export const MAX_WIDEN_SHARE = 99;
 
 export function isLive(state: ReleaseState): state is LiveState {
   return (LIVE_STATES as readonly string[]).includes(state);
@@ -65,14 +65,14 @@ export function canDelete(state: ReleaseState): boolean {
 
 /** Whether the action needs a reason when taken from this state. */
 export function reasonRequired(state: ReleaseState, action: ReleaseAction): boolean {
-  return action === 'halt' || action === 'withdraw' || (action === 'resume' && state === 'halted');
+  return action === 'stop' || action === 'withdraw' || (action === 'resume' && state === 'stopped');
 }
 
-/** The live state a share stands for: 0 pilot, 100 complete, anything between expanding. */
+/** The live state a share stands for: 0 pilot, 100 complete, anything between widening. */
 function liveStateForShare(share: number): LiveState {
   if (share <= 0) return 'pilot';
   if (share >= 100) return 'complete';
-  return 'expanding';
+  return 'widening';
 }
 
 export function transition(release: ReleaseLifecycle, action: ReleaseAction, options: TransitionOptions = {}): TransitionResult {
@@ -87,32 +87,32 @@ export function transition(release: ReleaseLifecycle, action: ReleaseAction, opt
 
   const reason = options.reason?.trim() ?? '';
   if (reasonRequired(release.state, action) && reason === '') {
-    const what = action === 'resume' ? 'Resuming a halted release' : action === 'halt' ? 'A halt' : 'A withdrawal';
+    const what = action === 'resume' ? 'Resuming a stopped release' : action === 'stop' ? 'A stop' : 'A withdrawal';
     return { ok: false, code: 'reason_required', detail: `${what} needs a reason.`, allowedActions: allowed };
   }
 
   switch (action) {
     case 'start_pilot':
       return ok({ state: 'pilot', share: 0, resumeState: null });
-    case 'expand': {
+    case 'widen': {
       const share = options.share;
-      if (typeof share !== 'number' || !Number.isFinite(share) || share < MIN_EXPAND_SHARE || share > MAX_EXPAND_SHARE) {
-        return refuseShare(`Expand needs a share from ${MIN_EXPAND_SHARE} to ${MAX_EXPAND_SHARE} %; use complete for 100 %.`, allowed);
+      if (typeof share !== 'number' || !Number.isFinite(share) || share < MIN_WIDEN_SHARE || share > MAX_WIDEN_SHARE) {
+        return refuseShare(`Widen needs a share from ${MIN_WIDEN_SHARE} to ${MAX_WIDEN_SHARE} %; use complete for 100 %.`, allowed);
       }
-      if (release.state === 'expanding' && share <= release.share) {
-        return refuseShare(`The share can only grow: it is ${release.share} % now, so expand needs more than that.`, allowed);
+      if (release.state === 'widening' && share <= release.share) {
+        return refuseShare(`The share can only grow: it is ${release.share} % now, so widen needs more than that.`, allowed);
       }
-      return ok({ state: 'expanding', share, resumeState: null });
+      return ok({ state: 'widening', share, resumeState: null });
     }
     case 'complete':
       return ok({ state: 'complete', share: 100, resumeState: null });
     case 'pause':
       // Only live states may pause (the table), so the state paused from is a live state.
       return ok({ state: 'paused', share: release.share, resumeState: release.state as LiveState });
-    case 'halt':
-      return ok({ state: 'halted', share: release.share, resumeState: release.state as LiveState | 'paused' });
+    case 'stop':
+      return ok({ state: 'stopped', share: release.share, resumeState: release.state as LiveState | 'paused' });
     case 'resume': {
-      // A halt of a paused release resumes to paused; that pause then resumes to the live state its share stands for.
+      // A stop of a paused release resumes to paused; that pause then resumes to the live state its share stands for.
       const back: ResumeState = release.resumeState ?? liveStateForShare(release.share);
       if (back === 'paused') return ok({ state: 'paused', share: release.share, resumeState: liveStateForShare(release.share) });
       return ok({ state: back, share: release.share, resumeState: null });

@@ -43,7 +43,7 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     modelId: release.modelId,
     modelName: model?.name ?? '',
     version: release.version,
-    track: release.track,
+    channel: release.channel,
     state: release.state,
     share: release.share,
     resumeState: release.resumeState,
@@ -53,9 +53,9 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     pilotSiteIds: pilotSites.map((s) => s.id),
     pilotSites,
     daylightWindow: release.daylightWindow,
-    haltFailureRatio: release.haltFailureRatio,
-    haltMinReports: release.haltMinReports,
-    haltResetFactor: release.haltResetFactor,
+    tripFailureRatio: release.tripFailureRatio,
+    tripMinReports: release.tripMinReports,
+    tripResetFactor: release.tripResetFactor,
     securityCounter: release.securityCounter,
     notes: release.notes,
     notesHtml: renderNotes(release.notes),
@@ -78,13 +78,13 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
   };
 }
 
-export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: string; state?: string; track?: string }): Promise<{ rows: ReleaseRow[]; total: number }> {
+export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: string; state?: string; channel?: string }): Promise<{ rows: ReleaseRow[]; total: number }> {
   const where = ['TRUE'];
   if (filter.modelId) where.push('r.model_id = :modelId');
   if (filter.state) where.push('r.state = :state');
-  if (filter.track) where.push('r.track = :track');
+  if (filter.channel) where.push('r.channel = :channel');
   const rows = await sequelize.query<Omit<ReleaseRow, 'createdAt'> & { createdAt: Date }>(
-    `SELECT r.id, r.model_id AS "modelId", m.name AS "modelName", r.version, r.track, r.state, r.share,
+    `SELECT r.id, r.model_id AS "modelId", m.name AS "modelName", r.version, r.channel, r.state, r.share,
             coalesce(c.installed, 0)::int AS installed, coalesce(c.failed, 0)::int AS failed,
             r.created_at AS "createdAt", (k.state = 'revoked') AS flagged
        FROM releases r

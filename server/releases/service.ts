@@ -105,7 +105,7 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
   const fields = parse(uploadFields, parts.fields);
   const { manifest, key, model, image } = await checkUpload(parts);
   const now = deps.now();
-  const track = fields.track ?? (semver.prerelease(manifest.version) ? 'early' : 'stable');
+  const channel = fields.channel ?? (semver.prerelease(manifest.version) ? 'early' : 'stable');
   let createdFile = false;
   try {
     const release = await deps.sequelize.transaction(async (t) => {
@@ -119,7 +119,7 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
         {
           modelId: model.id,
           version: manifest.version,
-          track,
+          channel,
           boards: manifest.board_revisions,
           manifestBoards: manifest.board_revisions,
           securityCounter: manifest.security_counter,
@@ -142,7 +142,7 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
         action: 'release.uploaded',
         targetType: 'release',
         targetId: created.id,
-        summary: `${ctx.actor.name} uploaded ${label(created, model.name)} (draft, ${track}, signed by key ${key.keyId})`,
+        summary: `${ctx.actor.name} uploaded ${label(created, model.name)} (draft, ${channel}, signed by key ${key.keyId})`,
         details: { sha256: image.sha256, size: image.size, keyId: key.keyId },
       });
       // Last step before commit: the image takes its final name only when every row is written.
@@ -194,11 +194,11 @@ export async function patchRelease(deps: ReleaseDeps, ctx: RequestContext, id: s
     set('boards', input.boards);
     set('upgradeFrom', input.upgradeFrom);
     set('daylightWindow', input.daylightWindow);
-    set('haltFailureRatio', input.haltFailureRatio);
-    set('haltMinReports', input.haltMinReports);
-    set('haltResetFactor', input.haltResetFactor);
+    set('tripFailureRatio', input.tripFailureRatio);
+    set('tripMinReports', input.tripMinReports);
+    set('tripResetFactor', input.tripResetFactor);
     set('notes', input.notes);
-    set('track', input.track);
+    set('channel', input.channel);
     if (input.pilotSiteIds) {
       const before = (await ReleasePilotSite.findAll({ where: { releaseId: id }, transaction: t })).map((p) => p.siteId).sort();
       if (JSON.stringify(before) !== JSON.stringify([...input.pilotSiteIds].sort())) changed.push('pilotSiteIds');
@@ -248,20 +248,20 @@ export async function deleteRelease(deps: ReleaseDeps, ctx: RequestContext, id: 
   });
 }
 
-const firstEntered: Partial<Record<ReleaseState, 'pilotedAt' | 'expandedAt' | 'completedAt' | 'haltedAt'>> = {
+const firstEntered: Partial<Record<ReleaseState, 'pilotedAt' | 'widenedAt' | 'completedAt' | 'stoppedAt'>> = {
   pilot: 'pilotedAt',
-  expanding: 'expandedAt',
+  widening: 'widenedAt',
   complete: 'completedAt',
-  halted: 'haltedAt',
+  stopped: 'stoppedAt',
 };
 
 const actionWords: Record<string, (share: number) => string> = {
   start_pilot: () => 'started the pilot of',
-  expand: (share) => `widened to ${share} %`,
+  widen: (share) => `widened to ${share} %`,
   complete: () => 'completed the rollout of',
   pause: () => 'paused',
   resume: () => 'resumed',
-  halt: () => 'halted',
+  stop: () => 'stopped',
   withdraw: () => 'withdrew',
 };
 
@@ -306,7 +306,7 @@ export async function transitionRelease(deps: ReleaseDeps, ctx: RequestContext, 
       targetType: 'release',
       targetId: id,
       summary:
-        input.action === 'expand'
+        input.action === 'widen'
           ? `${ctx.actor.name} widened ${name} to ${found.share} %${reason ? `: ${reason}` : ''}`
           : `${ctx.actor.name} ${words} ${name}${reason ? `: ${reason}` : ''}`,
       details: { fromState: from, toState: found.state, share: found.share, reason },
@@ -323,7 +323,7 @@ export async function getRelease(deps: ReleaseDeps, id: string) {
 }
 
 /**
- * How many loggers a share would reach: of the release's model, track and boards, enrolled and not
+ * How many loggers a share would reach: of the release's model, channel and boards, enrolled and not
  * retired, running an older version (by semver precedence; an unknown running version is not
  * counted). Pilot-site loggers count at every share. The cohort bucket is computed in SQL with the
  * same definition as server/device-api/cohort.ts.
@@ -336,9 +336,9 @@ export async function estimateShare(deps: ReleaseDeps, id: string, share: number
             (('x' || substr(encode(sha256((l.id::text || ':' || :releaseId)::bytea), 'hex'), 1, 8))::bit(32)::bigint % 10000)::int AS bucket,
             (l.site_id IS NOT NULL AND l.site_id IN (SELECT site_id FROM release_pilot_sites WHERE release_id = :releaseId)) AS pilot
        FROM loggers l
-      WHERE l.model_id = :modelId AND l.track = :track AND l.board IN (:boards)
+      WHERE l.model_id = :modelId AND l.channel = :channel AND l.board IN (:boards)
         AND l.status = 'enrolled' AND l.retired_at IS NULL`,
-    { type: QueryTypes.SELECT, replacements: { releaseId: release.id, modelId: release.modelId, track: release.track, boards: release.boards } },
+    { type: QueryTypes.SELECT, replacements: { releaseId: release.id, modelId: release.modelId, channel: release.channel, boards: release.boards } },
   );
   const older = rows.filter((r) => r.firmware !== null && semver.valid(r.firmware) !== null && semver.lt(r.firmware, release.version));
   const reached = (percent: number) => older.filter((r) => r.pilot || r.bucket < shareThreshold(percent)).length;

@@ -3,11 +3,11 @@
 // token in clear anywhere, and every blocking reason of the lagging-sites screen present in the fleet
 // by the device API's own offer decision.
 //
-// "Lagging" as issue 6 §3 defines it: an enrolled logger behind the current release of its track by
-// semver precedence. The current release of a track is taken here as the newest release (by semver
-// precedence) that has reached expanding or complete at some time — "how long the site has lagged
-// (since the release it lacks reached complete or expanding)" — whatever state it is in now, so a
-// release halted after it expanded still counts and its laggards show "release halted/paused".
+// "Lagging" as issue 6 §3 defines it: an enrolled logger behind the current release of its channel by
+// semver precedence. The current release of a channel is taken here as the newest release (by semver
+// precedence) that has reached widening or complete at some time — "how long the site has lagged
+// (since the release it lacks reached complete or widening)" — whatever state it is in now, so a
+// release stopped after it widened still counts and its laggards show "release stopped/paused".
 import crypto from 'node:crypto';
 import fs from 'node:fs';
 import path from 'node:path';
@@ -54,12 +54,12 @@ describe('size and shape', () => {
     expect(counts.retired).toBeGreaterThan(0);
     const boards = await q<{ board: string; n: number }>("SELECT board, count(*)::int AS n FROM loggers WHERE status = 'enrolled' GROUP BY board ORDER BY board");
     expect(boards.map((b) => b.board)).toEqual(['A', 'B', 'C']);
-    const tracks = await q<{ track: string; sites: number }>(
-      "SELECT track, count(DISTINCT site_id)::int AS sites FROM loggers WHERE status = 'enrolled' GROUP BY track ORDER BY track",
+    const channels = await q<{ channel: string; sites: number }>(
+      "SELECT channel, count(DISTINCT site_id)::int AS sites FROM loggers WHERE status = 'enrolled' GROUP BY channel ORDER BY channel",
     );
-    // Most sites follow stable, a few the early track.
-    const early = tracks.find((r) => r.track === 'early')!.sites;
-    const stable = tracks.find((r) => r.track === 'stable')!.sites;
+    // Most sites follow stable, a few the early channel.
+    const early = channels.find((r) => r.channel === 'early')!.sites;
+    const stable = channels.find((r) => r.channel === 'stable')!.sites;
     expect(early).toBeGreaterThan(0);
     expect(early).toBeLessThan(stable / 5);
   });
@@ -119,20 +119,20 @@ describe('signed releases', () => {
     }
   });
 
-  test('when the releases are read, then their states tell the story: older complete, 2.3.0 expanding at 25 % with pilots, rc.1 in pilot, beta.1 halted with a reason', async () => {
-    const rows = await q<{ version: string; track: string; state: string; share: string; upgrade_from: string | null; pilots: number; transitions: number; reason: string | null }>(
-      `SELECT r.version, r.track, r.state, r.share, r.upgrade_from,
+  test('when the releases are read, then their states tell the story: older complete, 2.3.0 widening at 25 % with pilots, rc.1 in pilot, beta.1 stopped with a reason', async () => {
+    const rows = await q<{ version: string; channel: string; state: string; share: string; upgrade_from: string | null; pilots: number; transitions: number; reason: string | null }>(
+      `SELECT r.version, r.channel, r.state, r.share, r.upgrade_from,
               (SELECT count(*) FROM release_pilot_sites p WHERE p.release_id = r.id)::int AS pilots,
               (SELECT count(*) FROM release_transitions x WHERE x.release_id = r.id)::int AS transitions,
-              (SELECT reason FROM release_transitions x WHERE x.release_id = r.id AND x.action = 'halt') AS reason
+              (SELECT reason FROM release_transitions x WHERE x.release_id = r.id AND x.action = 'stop') AS reason
          FROM releases r`,
     );
     const by = Object.fromEntries(rows.map((r) => [r.version, r]));
-    for (const v of ['2.0.3', '2.1.4', '2.2.0']) expect(by[v]).toMatchObject({ track: 'stable', state: 'complete', share: '100.00' });
-    expect(by['2.3.0']).toMatchObject({ track: 'stable', state: 'expanding', share: '25.00', upgrade_from: '>=2.1.0' });
+    for (const v of ['2.0.3', '2.1.4', '2.2.0']) expect(by[v]).toMatchObject({ channel: 'stable', state: 'complete', share: '100.00' });
+    expect(by['2.3.0']).toMatchObject({ channel: 'stable', state: 'widening', share: '25.00', upgrade_from: '>=2.1.0' });
     expect(by['2.3.0'].pilots).toBeGreaterThan(0);
-    expect(by['3.0.0-rc.1']).toMatchObject({ track: 'early', state: 'pilot' });
-    expect(by['3.0.0-beta.1']).toMatchObject({ track: 'early', state: 'halted' });
+    expect(by['3.0.0-rc.1']).toMatchObject({ channel: 'early', state: 'pilot' });
+    expect(by['3.0.0-beta.1']).toMatchObject({ channel: 'early', state: 'stopped' });
     expect(by['3.0.0-beta.1'].reason).toMatch(/\w+/);
     // semver.org via the semver package: 2.0.x is outside 2.3.0's range and must step through 2.1.4.
     expect(semver.satisfies('2.0.3', by['2.3.0'].upgrade_from!)).toBe(false);
@@ -143,11 +143,11 @@ describe('signed releases', () => {
     expect(rows.every((r) => r.transitions >= 2)).toBe(true);
   });
 
-  test('when 2.3.0 is weighed against its halt threshold, then the seeded failures stay below it (the demo does not halt on its first check-in)', async () => {
+  test('when 2.3.0 is weighed against its trip point, then the seeded failures stay below it (the demo does not stop on its first check-in)', async () => {
     const [f] = await q<{ installed: number; failed: number; ratio: string; min: number }>(
       `SELECT count(*) FILTER (WHERE ir.state = 'installed')::int AS installed,
               count(*) FILTER (WHERE ir.state = 'failed' AND COALESCE(ir.reason, 'other') NOT IN ('connection', 'low_supply'))::int AS failed,
-              max(r.halt_failure_ratio) AS ratio, max(r.halt_min_reports) AS min
+              max(r.trip_failure_ratio) AS ratio, max(r.trip_min_reports) AS min
          FROM install_reports ir JOIN releases r ON r.id = ir.release_id WHERE r.version = '2.3.0'`,
     );
     expect(f.failed).toBeGreaterThan(0);
@@ -247,11 +247,11 @@ describe('the console on the full scenario', () => {
 });
 
 describe('notes and activity', () => {
-  test('when the activity log is read, then it tells the story: key registered, releases moved, beta.1 halted, loggers retired and enrolled', async () => {
+  test('when the activity log is read, then it tells the story: key registered, releases moved, beta.1 stopped, loggers retired and enrolled', async () => {
     // Up to the seed's clock (sign-ins by this file's tests come later).
     const rows = await q<{ action: string; summary: string }>('SELECT action, summary FROM activity WHERE at <= :now ORDER BY at, id', { now: now.toISOString() });
     const actions = new Set(rows.map((r) => r.action));
-    for (const a of ['key.registered', 'release.uploaded', 'release.start_pilot', 'release.expand', 'release.complete', 'release.halt', 'logger.retired', 'logger.enrolled', 'demo.seeded']) {
+    for (const a of ['key.registered', 'release.uploaded', 'release.start_pilot', 'release.widen', 'release.complete', 'release.stop', 'logger.retired', 'logger.enrolled', 'demo.seeded']) {
       expect(actions).toContain(a);
     }
     expect(rows[rows.length - 1].action).toBe('demo.seeded');
@@ -294,22 +294,22 @@ describe('tokens', () => {
 
 describe('lagging sites', () => {
   test('when the offer decision is asked for every lagging logger, then each blocking reason of issue 6 §3 occurs at some site', async () => {
-    const releases = await q<ReleaseTargeting & { expandedAt: Date | null; completedAt: Date | null }>(
-      `SELECT r.id, r.version, r.track, r.state, r.share::float8 AS share, r.boards, r.upgrade_from AS "upgradeFrom",
+    const releases = await q<ReleaseTargeting & { widenedAt: Date | null; completedAt: Date | null }>(
+      `SELECT r.id, r.version, r.channel, r.state, r.share::float8 AS share, r.boards, r.upgrade_from AS "upgradeFrom",
               r.security_counter AS "securityCounter", r.daylight_window AS "daylightWindow",
-              r.expanded_at AS "expandedAt", r.completed_at AS "completedAt",
+              r.widened_at AS "widenedAt", r.completed_at AS "completedAt",
               COALESCE((SELECT array_agg(p.site_id) FROM release_pilot_sites p WHERE p.release_id = r.id), '{}') AS "pilotSiteIds"
          FROM releases r`,
     );
-    const current = (track: string) =>
+    const current = (channel: string) =>
       releases
-        .filter((r) => r.track === track && (r.expandedAt || r.completedAt))
+        .filter((r) => r.channel === channel && (r.widenedAt || r.completedAt))
         .sort((a, b) => semver.rcompare(a.version, b.version))[0];
     const loggers = await q<{
-      id: string; status: 'enrolled'; site_id: string; site: string; board: string; track: 'stable' | 'early'; firmware: string; security_counter: number;
+      id: string; status: 'enrolled'; site_id: string; site: string; board: string; channel: 'stable' | 'early'; firmware: string; security_counter: number;
       supply_v: string | null; last_seen_at: Date; min_v: string; interval_s: number; latitude: string; longitude: string;
     }>(
-      `SELECT l.id, l.status, l.site_id, s.name AS site, l.board, l.track, l.firmware, l.security_counter, l.supply_v, l.last_seen_at,
+      `SELECT l.id, l.status, l.site_id, s.name AS site, l.board, l.channel, l.firmware, l.security_counter, l.supply_v, l.last_seen_at,
               m.min_update_supply_v AS min_v, m.check_in_interval_s AS interval_s, s.latitude, s.longitude
          FROM loggers l JOIN sites s ON s.id = l.site_id JOIN models m ON m.id = l.model_id WHERE l.status = 'enrolled'`,
     );
@@ -318,7 +318,7 @@ describe('lagging sites', () => {
     );
     const reasons = new Map<string, Set<string>>();
     for (const l of loggers) {
-      const target = current(l.track);
+      const target = current(l.channel);
       if (!target || semver.gte(l.firmware, target.version)) continue;
       let reason: string;
       if (now.getTime() - new Date(l.last_seen_at).getTime() > 3 * l.interval_s * 1000) {
@@ -331,7 +331,7 @@ describe('lagging sites', () => {
         }
         const decision = decideOffer({
           logger: {
-            id: l.id, status: l.status, siteId: l.site_id, board: l.board, track: l.track, firmware: l.firmware, securityCounter: l.security_counter,
+            id: l.id, status: l.status, siteId: l.site_id, board: l.board, channel: l.channel, firmware: l.firmware, securityCounter: l.security_counter,
             supplyV: l.supply_v === null ? null : Number(l.supply_v), minUpdateSupplyV: Number(l.min_v),
             siteCoordinates: { latitude: Number(l.latitude), longitude: Number(l.longitude) },
           },

@@ -48,14 +48,14 @@ export async function createFleet(t: TestApp, options: { modelName?: string; che
   const pub = publicKeyOfPrivatePem(privateKeyPem);
   const key = await SigningKey.create({ name: 'Fernhollow release key', keyId: pub.keyId, algorithm: pub.algorithm, publicKeyPem: pub.pem, createdBy: null });
 
-  async function logger(opts: { board?: string; siteId?: string | null; status?: 'registered' | 'enrolled' | 'retired'; track?: 'stable' | 'early'; profile?: boolean } = {}) {
+  async function logger(opts: { board?: string; siteId?: string | null; status?: 'registered' | 'enrolled' | 'retired'; channel?: 'stable' | 'early'; profile?: boolean } = {}) {
     const { token, digest } = newToken('hlt_');
     const status = opts.status ?? 'enrolled';
     const row = await Logger.create({
       serial: `FL2-T${String(++serialSeq).padStart(5, '0')}-${crypto.randomBytes(2).toString('hex')}`,
       modelId: model.id,
       board: opts.board ?? 'B',
-      track: opts.track ?? 'stable',
+      channel: opts.channel ?? 'stable',
       status,
       tokenDigest: digest,
       tokenIssuedAt: new Date(),
@@ -92,8 +92,8 @@ export async function createFleet(t: TestApp, options: { modelName?: string; che
     securityCounter?: number;
     upgradeFrom?: string | null;
     pilotSiteIds?: string[];
-    haltFailureRatio?: number;
-    haltMinReports?: number;
+    tripFailureRatio?: number;
+    tripMinReports?: number;
     imageBytes?: Buffer;
   }) {
     const image = opts.imageBytes ?? crypto.randomBytes(64 * 1024 + 123);
@@ -119,7 +119,7 @@ export async function createFleet(t: TestApp, options: { modelName?: string; che
     const row = await Release.create({
       modelId: model.id,
       version: opts.version,
-      track: 'stable',
+      channel: 'stable',
       state,
       share: opts.share ?? (state === 'complete' ? 100 : 0),
       boards,
@@ -130,8 +130,8 @@ export async function createFleet(t: TestApp, options: { modelName?: string; che
       manifest,
       signature,
       signingKeyId: key.id,
-      haltFailureRatio: opts.haltFailureRatio ?? 0.05,
-      haltMinReports: opts.haltMinReports ?? 20,
+      tripFailureRatio: opts.tripFailureRatio ?? 0.05,
+      tripMinReports: opts.tripMinReports ?? 20,
       createdBy: null,
     });
     for (const siteId of opts.pilotSiteIds ?? []) await ReleasePilotSite.create({ releaseId: row.id, siteId });

@@ -109,13 +109,13 @@ describe('image download', () => {
     expect((await t.request().get(`/api/device/v1/images/${'a'.repeat(64)}`).set(bearer(lg.token))).status).toBe(404);
     expect((await t.request().get(url())).status).toBe(401);
 
-    const halted = await fleet.release({ version: '2.5.0', boards: ['A'] });
+    const stopped = await fleet.release({ version: '2.5.0', boards: ['A'] });
     const onA = await fleet.logger({ board: 'A' });
     const offered = await t.request().post('/api/device/v1/check-in').set(bearer(onA.token)).send(checkInBody('2.3.1', { board: 'A' }));
-    expect(offered.body.offer?.release).toBe(halted.id);
-    const img = `/api/device/v1/images/${halted.sha256}`;
+    expect(offered.body.offer?.release).toBe(stopped.id);
+    const img = `/api/device/v1/images/${stopped.sha256}`;
     expect((await t.request().get(img).set(bearer(onA.token))).status).toBe(200);
-    await Release.update({ state: 'halted', resumeState: 'complete' }, { where: { id: halted.id } });
+    await Release.update({ state: 'stopped', resumeState: 'complete' }, { where: { id: stopped.id } });
     expect((await t.request().get(img).set(bearer(onA.token))).status).toBe(404);
   });
 

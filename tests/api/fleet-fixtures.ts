@@ -10,7 +10,7 @@ export type ReportedState = {
   supplyV?: number | null;
   tempC?: number | null;
   board?: string;
-  track?: 'stable' | 'early';
+  channel?: 'stable' | 'early';
 };
 
 export async function setReported(t: TestApp, loggerId: string, now: Date, s: ReportedState) {
@@ -18,7 +18,7 @@ export async function setReported(t: TestApp, loggerId: string, now: Date, s: Re
   await t.sequelize.query(
     `UPDATE loggers SET firmware = :firmware, last_seen_at = :lastSeen, last_check_in_at = :lastSeen, supply_v = :supplyV,
             readings = CAST(:readings AS jsonb), board = COALESCE(:board, board), reported_board = COALESCE(:board, board),
-            track = COALESCE(:track, track)
+            channel = COALESCE(:channel, channel)
       WHERE id = :id`,
     {
       replacements: {
@@ -28,7 +28,7 @@ export async function setReported(t: TestApp, loggerId: string, now: Date, s: Re
         supplyV: s.supplyV ?? null,
         readings: s.tempC === undefined || s.tempC === null ? null : JSON.stringify({ temp_c: s.tempC }),
         board: s.board ?? null,
-        track: s.track ?? null,
+        channel: s.channel ?? null,
       },
     },
   );
@@ -53,13 +53,13 @@ export async function addCheckIn(t: TestApp, loggerId: string, at: Date, o: { fi
   );
 }
 
-/** Marks a release as having reached expanding (or complete) at a time, as the lifecycle would. */
-export async function reached(t: TestApp, releaseId: string, state: 'expanding' | 'complete' | 'halted' | 'paused', at: Date, extra: { track?: 'stable' | 'early'; share?: number; daylightWindow?: boolean } = {}) {
+/** Marks a release as having reached widening (or complete) at a time, as the lifecycle would. */
+export async function reached(t: TestApp, releaseId: string, state: 'widening' | 'complete' | 'stopped' | 'paused', at: Date, extra: { channel?: 'stable' | 'early'; share?: number; daylightWindow?: boolean } = {}) {
   await t.sequelize.query(
-    `UPDATE releases SET state = :state, expanded_at = :at, completed_at = CASE WHEN :state = 'complete' THEN CAST(:at AS timestamptz) END,
-            track = COALESCE(:track, track), share = COALESCE(:share, share), daylight_window = COALESCE(:daylight, daylight_window)
+    `UPDATE releases SET state = :state, widened_at = :at, completed_at = CASE WHEN :state = 'complete' THEN CAST(:at AS timestamptz) END,
+            channel = COALESCE(:channel, channel), share = COALESCE(:share, share), daylight_window = COALESCE(:daylight, daylight_window)
       WHERE id = :id`,
-    { replacements: { id: releaseId, state, at, track: extra.track ?? null, share: extra.share ?? null, daylight: extra.daylightWindow ?? null } },
+    { replacements: { id: releaseId, state, at, channel: extra.channel ?? null, share: extra.share ?? null, daylight: extra.daylightWindow ?? null } },
   );
 }
 

@@ -30,8 +30,8 @@ const expected: Record<string, string> = {
   failed: 'failed_awaiting_retry', // its 2.3.0 install failed with integrity (rule 6)
   steppingStone: 'needs_stepping_stone', // 2.0.3 is outside 2.3.0's upgrade-from >=2.1.0; 2.1.4 goes first (rule 4)
   offered: 'offered', // nothing holds it back: the next check-in is offered 2.3.0
-  early: 'outside_share', // early track, 3.0.0-beta.2 expanding at 0 % (rule 3)
-  halted: 'release_not_live', // model B's 1.1.0 reached expanding, then was halted (rule 6)
+  early: 'outside_share', // early channel, 3.0.0-beta.2 widening at 0 % (rule 3)
+  stopped: 'release_not_live', // model B's 1.1.0 reached widening, then was stopped (rule 6)
 };
 
 beforeAll(async () => {
@@ -50,23 +50,23 @@ beforeAll(async () => {
   await newSite('steppingStone', 'Marsh Lane Pump House', 'Vale Irrigation Group');
   await newSite('offered', 'Upper Aldmere Hall', 'Aldmere Parish Council');
   await newSite('early', 'Fernhollow Workshop', 'Fernhollow Energy Co-op');
-  await newSite('halted', 'Brackenford Mill', 'Vale Irrigation Group');
+  await newSite('stopped', 'Brackenford Mill', 'Vale Irrigation Group');
   await newSite('current', 'Kettle Green Pump House', 'Vale Irrigation Group');
 
   release.r214 = (await a.release({ version: '2.1.4', state: 'complete' })).id;
-  release.r230 = (await a.release({ version: '2.3.0', state: 'expanding', share: 100, boards: ['B', 'C'], upgradeFrom: '>=2.1.0' })).id;
-  release.r300 = (await a.release({ version: '3.0.0-beta.2', state: 'expanding', share: 0 })).id;
-  release.r110 = (await b.release({ version: '1.1.0', state: 'halted' })).id;
+  release.r230 = (await a.release({ version: '2.3.0', state: 'widening', share: 100, boards: ['B', 'C'], upgradeFrom: '>=2.1.0' })).id;
+  release.r300 = (await a.release({ version: '3.0.0-beta.2', state: 'widening', share: 0 })).id;
+  release.r110 = (await b.release({ version: '1.1.0', state: 'stopped' })).id;
   await reached(t, release.r214, 'complete', daysBefore(20));
-  await reached(t, release.r230, 'expanding', daysBefore(5), { share: 100, daylightWindow: true });
-  await reached(t, release.r300, 'expanding', daysBefore(2), { track: 'early', share: 0 });
-  await reached(t, release.r110, 'halted', daysBefore(8));
+  await reached(t, release.r230, 'widening', daysBefore(5), { share: 100, daylightWindow: true });
+  await reached(t, release.r300, 'widening', daysBefore(2), { channel: 'early', share: 0 });
+  await reached(t, release.r110, 'stopped', daysBefore(8));
 
   const healthy = { firmware: '2.1.4', lastSeenAgoS: 300, supplyV: 5.1, tempC: 21 };
-  const add = async (key: string, fleet: Fleet, siteKey: string, state: Parameters<typeof setReported>[3], track: 'stable' | 'early' = 'stable') => {
-    const l = await fleet.logger({ siteId: site[siteKey], board: state.board ?? 'B', track });
+  const add = async (key: string, fleet: Fleet, siteKey: string, state: Parameters<typeof setReported>[3], channel: 'stable' | 'early' = 'stable') => {
+    const l = await fleet.logger({ siteId: site[siteKey], board: state.board ?? 'B', channel });
     logger[key] = l;
-    await setReported(t, l.id, now, { ...state, track });
+    await setReported(t, l.id, now, { ...state, channel });
   };
   await add('silent', a, 'silent', { ...healthy, lastSeenAgoS: 3 * 86_400 });
   await add('lowSupply', a, 'lowSupply', { ...healthy, supplyV: 4.0 });
@@ -76,7 +76,7 @@ beforeAll(async () => {
   await add('steppingStone', a, 'steppingStone', { ...healthy, firmware: '2.0.3' });
   await add('offered', a, 'offered', healthy);
   await add('early', a, 'early', { ...healthy, firmware: '3.0.0-beta.1' }, 'early');
-  await add('halted', b, 'halted', { ...healthy, firmware: '1.0.0' });
+  await add('stopped', b, 'stopped', { ...healthy, firmware: '1.0.0' });
   // Up to date: at the "offered" site (so it counts 1 behind of 2), and a site with nobody behind.
   await add('current1', a, 'offered', { ...healthy, firmware: '2.3.0' });
   await add('current2', a, 'current', { ...healthy, firmware: '2.3.0' });
@@ -124,7 +124,7 @@ describe('lagging sites', () => {
     const offered = rows.find((r) => r.siteId === site.offered)!;
     expect(offered).toMatchObject({ behind: 1, total: 2, oldestVersion: '2.1.4', laggingSince: daysBefore(5).toISOString() });
     expect(offered.lastContactAt).toBe(new Date(now.getTime() - 300_000).toISOString());
-    expect(rows.find((r) => r.siteId === site.halted)!.laggingSince).toBe(daysBefore(8).toISOString());
+    expect(rows.find((r) => r.siteId === site.stopped)!.laggingSince).toBe(daysBefore(8).toISOString());
     expect(rows.find((r) => r.siteId === site.early)!.laggingSince).toBe(daysBefore(2).toISOString());
     expect(rows.find((r) => r.siteId === site.steppingStone)!.oldestVersion).toBe('2.0.3');
   });
@@ -132,7 +132,7 @@ describe('lagging sites', () => {
   test('when sorted by how long lagging or by count, both ways, then the order follows those values', async () => {
     const bySince = (await lagging({ sort: 'lagging_since' })).rows.map((r) => Date.parse(r.laggingSince));
     expect(bySince).toEqual([...bySince].sort((x, y) => x - y));
-    expect(bySince[0]).toBe(daysBefore(8).getTime()); // the halted release has waited longest
+    expect(bySince[0]).toBe(daysBefore(8).getTime()); // the stopped release has waited longest
     const bySinceDesc = (await lagging({ sort: 'lagging_since', dir: 'desc' })).rows.map((r) => Date.parse(r.laggingSince));
     expect(bySinceDesc).toEqual([...bySinceDesc].sort((x, y) => y - x));
     const byBehind = (await lagging({ sort: 'behind' })).rows.map((r) => r.behind);
@@ -183,7 +183,7 @@ describe('why no update', () => {
     const verdict = (id: string) => res.body.verdicts.find((v: { releaseId: string }) => v.releaseId === id);
     expect(verdict(release.r230).reason).toBe('needs_stepping_stone');
     expect(verdict(release.r214).reason).toBe('stepping_stone');
-    expect(verdict(release.r300).reason).toBe('wrong_track');
+    expect(verdict(release.r300).reason).toBe('wrong_channel');
     expect(res.body.offer).toEqual({ releaseId: release.r214, version: '2.1.4' });
   });
 
@@ -237,11 +237,11 @@ describe('version matrix', () => {
     const listed = model.versions.map((x: { firmware: string }) => x.firmware);
     expect(listed).toEqual(semver.rsort([...listed]));
 
-    const stable = model.tracks.find((x: { track: string }) => x.track === 'stable');
+    const stable = model.channels.find((x: { channel: string }) => x.channel === 'stable');
     expect(stable.currentRelease).toMatchObject({ id: release.r230, version: '2.3.0' });
     expect(stable).toMatchObject({ loggers: 10, onCurrent: 3 });
     expect(stable.share).toBeCloseTo(3 / 10, 10);
-    const early = model.tracks.find((x: { track: string }) => x.track === 'early');
+    const early = model.channels.find((x: { channel: string }) => x.channel === 'early');
     expect(early).toMatchObject({ loggers: 1, onCurrent: 0, share: 0 });
 
     const adoption = model.releases.find((r: { id: string }) => r.id === release.r230).adoption;

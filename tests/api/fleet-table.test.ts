@@ -62,7 +62,7 @@ beforeAll(async () => {
   await addCheckIn(t, ids.unstable, hoursBefore(now, 2), { resets: { brownout: 1, power_on: 1 }, resetReason: 'brownout' });
   await addCheckIn(t, ids.almostUnstable, hoursBefore(now, 3), { resets: { watchdog: 1, brownout: 1, power_on: 3 }, resetReason: 'power_on' });
 
-  // The current release of the stable track: 2.3.0, complete. Update states come from install reports.
+  // The current release of the stable channel: 2.3.0, complete. Update states come from install reports.
   const current = await fleet.release({ version: '2.3.0', state: 'complete' });
   await reached(t, current.id, 'complete', hoursBefore(now, 72));
   const report = (logger: string, state: string, reason: string | null = null) =>
@@ -78,7 +78,7 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-type Row = { id: string; serial: string; siteName: string | null; customer: string | null; modelName: string; board: string; track: string; firmware: string | null; updateState: string; lastSeenAt: string | null; supplyV: number | null; resets24h: number; flags: string[]; worstFlag: string | null };
+type Row = { id: string; serial: string; siteName: string | null; customer: string | null; modelName: string; board: string; channel: string; firmware: string | null; updateState: string; lastSeenAt: string | null; supplyV: number | null; resets24h: number; flags: string[]; worstFlag: string | null };
 
 async function all(query: Record<string, string | number> = {}): Promise<{ rows: Row[]; total: number }> {
   const res = await support.get('/api/loggers').query({ pageSize: 100, ...query });
@@ -115,7 +115,7 @@ describe('flags', () => {
 });
 
 describe('filters', () => {
-  test('when filtered by text, site, model, board, track and status, then every row matches and the total counts them', async () => {
+  test('when filtered by text, site, model, board, channel and status, then every row matches and the total counts them', async () => {
     const hall = await all({ q: '"north"' });
     expect(names(hall.rows)).toEqual(['hallA', 'hallC']);
     expect(hall.total).toBe(2);
@@ -127,7 +127,7 @@ describe('filters', () => {
     expect(pilot.total).toBe(fillVersions.length);
     expect((await all({ modelId: fleet.model.id })).total).toBe((await all()).total);
     expect(names((await all({ board: 'a' })).rows)).toEqual(['hallA']);
-    expect((await all({ track: 'early' })).total).toBe(0);
+    expect((await all({ channel: 'early' })).total).toBe(0);
     expect(names((await all({ status: 'registered' })).rows)).toEqual(['registered']);
   });
 
@@ -146,7 +146,7 @@ describe('filters', () => {
     expect(bad.body.errors[0].path).toBe('version');
   });
 
-  test('when filtered by update state, then it reads against the current release 2.3.0 of the stable track', async () => {
+  test('when filtered by update state, then it reads against the current release 2.3.0 of the stable channel', async () => {
     expect(names((await all({ updateState: 'downloading' })).rows)).toEqual(['hallA']);
     expect(names((await all({ updateState: 'failed' })).rows)).toEqual(['hallC']);
     expect(names((await all({ updateState: 'installed' })).rows)).toEqual(['fill5']);
@@ -163,7 +163,7 @@ describe('sorting', () => {
   const compare: Record<string, (a: Row, b: Row) => number> = {
     serial: (a, b) => cmp(a.serial.toLowerCase(), b.serial.toLowerCase()),
     board: (a, b) => cmp(a.board, b.board),
-    track: (a, b) => cmp(a.track, b.track),
+    channel: (a, b) => cmp(a.channel, b.channel),
     // Reference: the semver package's precedence (semver.org §11); no version sorts first.
     firmware: (a, b) => (a.firmware === b.firmware ? 0 : a.firmware === null ? -1 : b.firmware === null ? 1 : semver.compare(a.firmware, b.firmware)),
     lastSeen: (a, b) => cmp(a.lastSeenAt ? Date.parse(a.lastSeenAt) : -Infinity, b.lastSeenAt ? Date.parse(b.lastSeenAt) : -Infinity),
@@ -242,7 +242,7 @@ describe('indexes', () => {
   test.each([
     ['serial', 'loggers_sort_serial_idx'],
     ['board', 'loggers_sort_board_idx'],
-    ['track', 'loggers_sort_track_idx'],
+    ['channel', 'loggers_sort_channel_idx'],
     ['firmware', 'loggers_sort_firmware_idx'],
     ['lastSeen', 'loggers_sort_last_seen_idx'],
     ['supplyV', 'loggers_sort_supply_idx'],
@@ -297,7 +297,7 @@ describe('CSV export', () => {
     expect(listed.total).toBeGreaterThan(25);
     expect(records).toHaveLength(listed.total);
     expect(records.map((r) => r.serial)).toEqual(listed.rows.map((r) => r.serial));
-    expect(Object.keys(records[0])).toEqual(['serial', 'site', 'customer', 'model', 'board', 'track', 'status', 'firmware', 'update_state', 'last_seen_at', 'supply_v', 'temp_c', 'resets_24h', 'flags']);
+    expect(Object.keys(records[0])).toEqual(['serial', 'site', 'customer', 'model', 'board', 'channel', 'status', 'firmware', 'update_state', 'last_seen_at', 'supply_v', 'temp_c', 'resets_24h', 'flags']);
   });
 
   test('when a site name holds commas and quotes, then the field is quoted with the quotes doubled (RFC 4180 §2.6–2.7) and lines end in CRLF', async () => {

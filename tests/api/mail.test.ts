@@ -8,7 +8,7 @@ afterAll(() => t.close());
 
 describe('mail through the local SMTP fake', () => {
   test('when the console sends a message, then the dev mailbox lists it with to, subject, text and sentAt', async () => {
-    const subject = `Release 2.3.0 halted ${Date.now()}`;
+    const subject = `Release 2.3.0 stopped ${Date.now()}`;
     await t.app.services.mailer.send({ to: ['morgan@fernhollow.example'], subject, text: 'Failure ratio 7.5 % of 5 %.', html: '<p>Failure ratio 7.5 % of 5 %.</p>' });
     const admin = await t.signedIn('admin');
     let found: { to: string[]; subject: string; text: string; html: string; sentAt: string } | undefined;

@@ -16,12 +16,12 @@ afterAll(() => t.close());
 const tokenFormat = /^hlt_[A-Za-z0-9_-]{43}$/;
 
 describe('registering one logger', () => {
-  test('when an admin registers a logger, then 201 carries id, serial, board, track, model, a token in the device format and a label whose QR decodes to <origin>/enroll?t=<token>', async () => {
+  test('when an admin registers a logger, then 201 carries id, serial, board, channel, model, a token in the device format and a label whose QR decodes to <origin>/enroll?t=<token>', async () => {
     const { agent } = await demoAgent(t, 'Morgan');
     const modelId = await demoModelId();
-    const res = await agent.post('/api/loggers').set(csrf).set('Host', 'console.fernhollow.example').send({ serial: 'FL2-03001', modelId, board: 'b', track: 'early' });
+    const res = await agent.post('/api/loggers').set(csrf).set('Host', 'console.fernhollow.example').send({ serial: 'FL2-03001', modelId, board: 'b', channel: 'early' });
     expect(res.status).toBe(201);
-    expect(res.body).toMatchObject({ serial: 'FL2-03001', board: 'B', track: 'early', modelId, modelName: 'FL-2 field logger' });
+    expect(res.body).toMatchObject({ serial: 'FL2-03001', board: 'B', channel: 'early', modelId, modelName: 'FL-2 field logger' });
     expect(res.body.token).toMatch(tokenFormat);
     expect(Buffer.from(res.body.token.slice(4), 'base64url')).toHaveLength(32);
     expect(decodeLabel(res.body.labelPng)).toBe(`http://console.fernhollow.example/enroll?t=${res.body.token}`);
@@ -38,7 +38,7 @@ describe('registering one logger', () => {
     try {
       const res = await agent.post('/api/loggers').set(csrf).send({ serial: 'FL2-03002', modelId: await demoModelId(), board: 'C' });
       expect(res.status).toBe(201);
-      expect(res.body.track).toBe('stable');
+      expect(res.body.channel).toBe('stable');
       expect(decodeLabel(res.body.labelPng)).toBe(`https://console.fernhollow.example/enroll?t=${res.body.token}`);
     } finally {
       config.publicUrl = undefined;
@@ -63,9 +63,9 @@ describe('registering one logger', () => {
     expect(board.status).toBe(400);
     expect(board.body.errors[0]).toMatchObject({ path: 'board' });
     expect(board.body.errors[0].message).toContain('A, B, C');
-    const bad = await agent.post('/api/loggers').set(csrf).send({ serial: 'x', modelId: 'nope', board: '', track: 'beta' });
+    const bad = await agent.post('/api/loggers').set(csrf).send({ serial: 'x', modelId: 'nope', board: '', channel: 'beta' });
     expect(bad.status).toBe(400);
-    expect(bad.body.errors.map((e: { path: string }) => e.path).sort()).toEqual(['board', 'modelId', 'serial', 'track']);
+    expect(bad.body.errors.map((e: { path: string }) => e.path).sort()).toEqual(['board', 'channel', 'modelId', 'serial']);
   });
 
   test('when support or a release engineer tries to register, then 403', async () => {
@@ -84,11 +84,11 @@ function csv(lines: string[]): Buffer {
 describe('registering a batch from CSV', () => {
   test('when the file is good, then 201 lists every logger with its own token, in file order, and one activity row counts them', async () => {
     const { agent } = await demoAgent(t, 'Morgan');
-    const file = csv(['serial,model,board,track', 'FL2-04001,FL-2 field logger,A,stable', 'FL2-04002,fl-2 field logger,b,', 'FL2-04003,FL-2 field logger,C,early']);
+    const file = csv(['serial,model,board,channel', 'FL2-04001,FL-2 field logger,A,stable', 'FL2-04002,fl-2 field logger,b,', 'FL2-04003,FL-2 field logger,C,early']);
     const res = await agent.post('/api/loggers/batch').set(csrf).attach('file', file, { filename: 'aldmere-batch.csv', contentType: 'text/csv' });
     expect(res.status).toBe(201);
     expect(res.body.total).toBe(3);
-    expect(res.body.rows.map((r: { serial: string; board: string; track: string; modelName: string }) => [r.serial, r.board, r.track, r.modelName])).toEqual([
+    expect(res.body.rows.map((r: { serial: string; board: string; channel: string; modelName: string }) => [r.serial, r.board, r.channel, r.modelName])).toEqual([
       ['FL2-04001', 'A', 'stable', 'FL-2 field logger'],
       ['FL2-04002', 'B', 'stable', 'FL-2 field logger'],
       ['FL2-04003', 'C', 'early', 'FL-2 field logger'],
@@ -255,7 +255,7 @@ describe('the logger list and detail', () => {
     expect(typeof res.body.nextCursor).toBe('string');
     // The registry contract's fields; the fleet view may add more to the same rows.
     expect(Object.keys(res.body.rows[0])).toEqual(
-      expect.arrayContaining(['id', 'serial', 'modelId', 'modelName', 'board', 'track', 'status', 'siteId', 'siteName', 'customer', 'firmware', 'lastSeenAt', 'supplyV']),
+      expect.arrayContaining(['id', 'serial', 'modelId', 'modelName', 'board', 'channel', 'status', 'siteId', 'siteName', 'customer', 'firmware', 'lastSeenAt', 'supplyV']),
     );
     const page2 = await agent.get('/api/loggers').query({ page: 2, pageSize: 50 });
     expect(page2.body.rows).toHaveLength(50);

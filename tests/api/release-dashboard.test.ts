@@ -1,5 +1,5 @@
 // The release dashboard (issue 6 §4) against a hand-built rollout where every report, board, site and
-// install time is known: the per-board and per-site breakdown, the time to install, the halt thresholds
+// install time is known: the per-board and per-site breakdown, the time to install, the trip points
 // with their current values, adoption per day, paging, and who sees which sites.
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Site, SiteIntegrator, User } from '../../server/db/models';
@@ -56,12 +56,12 @@ beforeAll(async () => {
   await newSite('dairy', 'Coldbrook Dairy', 'Coldbrook Farms');
   await newSite('hall', 'Upper Aldmere Hall', 'Aldmere Parish Council');
 
-  releaseId = (await a.release({ version: '2.3.0', state: 'expanding', share: 50, boards: ['B', 'C'], haltMinReports: 5, haltFailureRatio: 0.25 })).id;
-  await reached(t, releaseId, 'expanding', new Date('2026-06-19T08:00:00Z'));
+  releaseId = (await a.release({ version: '2.3.0', state: 'widening', share: 50, boards: ['B', 'C'], tripMinReports: 5, tripFailureRatio: 0.25 })).id;
+  await reached(t, releaseId, 'widening', new Date('2026-06-19T08:00:00Z'));
 
-  const logger = async (siteKey: string, board: string, firmware = '2.2.0', track: 'stable' | 'early' = 'stable') => {
-    const l = await a.logger({ siteId: site[siteKey], board, track });
-    await setReported(t, l.id, now, { firmware, lastSeenAgoS: 300, supplyV: 5.1, tempC: 21, track });
+  const logger = async (siteKey: string, board: string, firmware = '2.2.0', channel: 'stable' | 'early' = 'stable') => {
+    const l = await a.logger({ siteId: site[siteKey], board, channel });
+    await setReported(t, l.id, now, { firmware, lastSeenAgoS: 300, supplyV: 5.1, tempC: 21, channel });
     return l.id;
   };
   // Brackenford Mill: four installs on board B with the four install times, two confirmed on 20 June.
@@ -74,7 +74,7 @@ beforeAll(async () => {
   await report(await logger('dairy', 'C'), { state: 'failed', reason: 'integrity', offeredMinAgo: 200, doneMinAgo: 100 });
   await report(await logger('dairy', 'C'), { state: 'failed', reason: 'connection', offeredMinAgo: 200, doneMinAgo: 90 });
   await report(await logger('dairy', 'C'), { state: 'downloading', offeredMinAgo: 30 });
-  // Upper Aldmere Hall: board A (not targeted) and one B logger not offered yet; an early-track logger is not in the audience.
+  // Upper Aldmere Hall: board A (not targeted) and one B logger not offered yet; an early-channel logger is not in the audience.
   await logger('hall', 'A');
   await logger('hall', 'B');
   await logger('hall', 'B', '3.0.0-beta.1', 'early');
@@ -135,22 +135,22 @@ describe('release dashboard', () => {
     }
   });
 
-  test('when the halt thresholds are read, then the failure ratio counts failures the halt counts (connection is transient) over finished installs', async () => {
+  test('when the trip points are read, then the failure ratio counts failures the stop counts (connection is transient) over finished installs', async () => {
     const d = await dashboard();
     // 1 counted failure (integrity) of 5 finished (4 installed + 1): 20 %, below 25 %, judged from 5 finished.
-    expect(d.halt.failureRatio).toMatchObject({ installed: 4, failed: 1, finished: 5, ratio: 0.2, threshold: 0.25, minReports: 5, judged: true, over: false });
+    expect(d.trip.failureRatio).toMatchObject({ installed: 4, failed: 1, finished: 5, ratio: 0.2, threshold: 0.25, minReports: 5, judged: true, over: false });
     // Fewer than 20 loggers a full day on the release: the reset rate is not judged yet.
-    expect(d.halt.resetRate).toMatchObject({ loggers: 0, minLoggers: 20, judged: false, over: false, threshold: 2 });
+    expect(d.trip.resetRate).toMatchObject({ loggers: 0, minLoggers: 20, judged: false, over: false, threshold: 2 });
   });
 
-  test('when one more counted failure comes in, then the dashboard shows the ratio over the threshold, as the automatic halt decides', async () => {
+  test('when one more counted failure comes in, then the dashboard shows the ratio over the threshold, as the trip decides', async () => {
     const extra = await a.logger({ siteId: site.hall, board: 'B' });
     await setReported(t, extra.id, now, { firmware: '2.2.0', lastSeenAgoS: 300 });
     await report(extra.id, { state: 'failed', reason: 'storage', offeredMinAgo: 50, doneMinAgo: 5 });
     const d = await dashboard();
     // 2 of 6 = 33.3 % > 25 %.
-    expect(d.halt.failureRatio).toMatchObject({ failed: 2, finished: 6, judged: true, over: true });
-    expect(d.halt.failureRatio.ratio).toBeCloseTo(2 / 6, 10);
+    expect(d.trip.failureRatio).toMatchObject({ failed: 2, finished: 6, judged: true, over: true });
+    expect(d.trip.failureRatio.ratio).toBeCloseTo(2 / 6, 10);
     expect(d.bySite.rows.map((s) => s.siteName)).toEqual(['Coldbrook Dairy', 'Upper Aldmere Hall', 'Brackenford Mill']);
     await t.sequelize.query('DELETE FROM install_reports WHERE logger_id = :id', { replacements: { id: extra.id } });
     await t.sequelize.query(`UPDATE loggers SET status = 'retired', site_id = NULL WHERE id = :id`, { replacements: { id: extra.id } });

@@ -67,12 +67,12 @@ export function signedUpload(
 }
 
 /** POST /api/releases as multipart: manifest as a file part, signature as a text field. */
-export function postUpload(req: Test, upload: SignedUpload, extra: { notes?: string; track?: string } = {}): Test {
+export function postUpload(req: Test, upload: SignedUpload, extra: { notes?: string; channel?: string } = {}): Test {
   let r = req.attach('image', upload.image, { filename: 'fw.bin', contentType: 'application/octet-stream' });
   r = r.attach('manifest', upload.manifest, { filename: 'manifest.json', contentType: 'application/json' });
   r = r.field('signature', upload.signature);
   if (extra.notes !== undefined) r = r.field('notes', extra.notes);
-  if (extra.track !== undefined) r = r.field('track', extra.track);
+  if (extra.channel !== undefined) r = r.field('channel', extra.channel);
   return r;
 }
 

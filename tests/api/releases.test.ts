@@ -46,55 +46,55 @@ async function act(id: string, step: Step) {
 const into: Record<string, Step[]> = {
   draft: [],
   pilot: [{ action: 'start_pilot' }],
-  expanding: [{ action: 'start_pilot' }, { action: 'expand', share: 25 }],
+  widening: [{ action: 'start_pilot' }, { action: 'widen', share: 25 }],
   complete: [{ action: 'start_pilot' }, { action: 'complete' }],
-  paused: [{ action: 'start_pilot' }, { action: 'expand', share: 25 }, { action: 'pause' }],
-  halted: [{ action: 'start_pilot' }, { action: 'expand', share: 25 }, { action: 'halt', reason: 'reset storm' }],
+  paused: [{ action: 'start_pilot' }, { action: 'widen', share: 25 }, { action: 'pause' }],
+  stopped: [{ action: 'start_pilot' }, { action: 'widen', share: 25 }, { action: 'stop', reason: 'reset storm' }],
   withdrawn: [{ action: 'start_pilot' }, { action: 'withdraw', reason: 'wrong image' }],
 };
 
 const allowed: Record<string, string[]> = {
   draft: ['start_pilot'],
-  pilot: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
-  expanding: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
-  complete: ['pause', 'halt', 'withdraw'],
-  paused: ['resume', 'halt', 'withdraw'],
-  halted: ['resume', 'withdraw'],
+  pilot: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
+  widening: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
+  complete: ['pause', 'stop', 'withdraw'],
+  paused: ['resume', 'stop', 'withdraw'],
+  stopped: ['resume', 'withdraw'],
   withdrawn: [],
 };
 
 // [from state, step, expected status, expected state, expected share]
 const table: [string, Step, number, string | null, number | null][] = [
   ['draft', { action: 'start_pilot' }, 200, 'pilot', 0],
-  ['draft', { action: 'expand', share: 5 }, 409, null, null],
+  ['draft', { action: 'widen', share: 5 }, 409, null, null],
   ['draft', { action: 'complete' }, 409, null, null],
-  ['pilot', { action: 'expand', share: 5 }, 200, 'expanding', 5],
-  ['pilot', { action: 'expand', share: 100 }, 400, null, null],
+  ['pilot', { action: 'widen', share: 5 }, 200, 'widening', 5],
+  ['pilot', { action: 'widen', share: 100 }, 400, null, null],
   ['pilot', { action: 'complete' }, 200, 'complete', 100],
   ['pilot', { action: 'pause' }, 200, 'paused', 0],
-  ['pilot', { action: 'halt', reason: 'brown-outs' }, 200, 'halted', 0],
+  ['pilot', { action: 'stop', reason: 'brown-outs' }, 200, 'stopped', 0],
   ['pilot', { action: 'withdraw', reason: 'superseded' }, 200, 'withdrawn', 0],
   ['pilot', { action: 'resume' }, 409, null, null],
   ['pilot', { action: 'start_pilot' }, 409, null, null],
-  ['expanding', { action: 'expand', share: 50 }, 200, 'expanding', 50],
-  ['expanding', { action: 'expand', share: 25 }, 400, null, null],
-  ['expanding', { action: 'expand', share: 10 }, 400, null, null],
-  ['expanding', { action: 'complete' }, 200, 'complete', 100],
-  ['expanding', { action: 'pause' }, 200, 'paused', 25],
-  ['expanding', { action: 'halt' }, 400, null, null],
-  ['expanding', { action: 'withdraw' }, 400, null, null],
+  ['widening', { action: 'widen', share: 50 }, 200, 'widening', 50],
+  ['widening', { action: 'widen', share: 25 }, 400, null, null],
+  ['widening', { action: 'widen', share: 10 }, 400, null, null],
+  ['widening', { action: 'complete' }, 200, 'complete', 100],
+  ['widening', { action: 'pause' }, 200, 'paused', 25],
+  ['widening', { action: 'stop' }, 400, null, null],
+  ['widening', { action: 'withdraw' }, 400, null, null],
   ['complete', { action: 'pause' }, 200, 'paused', 100],
-  ['complete', { action: 'halt', reason: 'field failures' }, 200, 'halted', 100],
+  ['complete', { action: 'stop', reason: 'field failures' }, 200, 'stopped', 100],
   ['complete', { action: 'withdraw', reason: 'recalled' }, 200, 'withdrawn', 100],
-  ['complete', { action: 'expand', share: 50 }, 409, null, null],
-  ['paused', { action: 'resume' }, 200, 'expanding', 25],
-  ['paused', { action: 'halt', reason: 'still failing' }, 200, 'halted', 25],
+  ['complete', { action: 'widen', share: 50 }, 409, null, null],
+  ['paused', { action: 'resume' }, 200, 'widening', 25],
+  ['paused', { action: 'stop', reason: 'still failing' }, 200, 'stopped', 25],
   ['paused', { action: 'withdraw', reason: 'abandoned' }, 200, 'withdrawn', 25],
   ['paused', { action: 'pause' }, 409, null, null],
-  ['halted', { action: 'resume' }, 400, null, null],
-  ['halted', { action: 'resume', reason: 'fixed on the server side' }, 200, 'expanding', 25],
-  ['halted', { action: 'withdraw', reason: 'bad build' }, 200, 'withdrawn', 25],
-  ['halted', { action: 'halt', reason: 'again' }, 409, null, null],
+  ['stopped', { action: 'resume' }, 400, null, null],
+  ['stopped', { action: 'resume', reason: 'fixed on the server side' }, 200, 'widening', 25],
+  ['stopped', { action: 'withdraw', reason: 'bad build' }, 200, 'withdrawn', 25],
+  ['stopped', { action: 'stop', reason: 'again' }, 409, null, null],
   ['withdrawn', { action: 'resume', reason: 'oops' }, 409, null, null],
   ['withdrawn', { action: 'start_pilot' }, 409, null, null],
 ];
@@ -113,7 +113,7 @@ describe('the lifecycle over the API', () => {
     } else {
       expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
       expect(res.body.allowedActions).toEqual(allowed[from]);
-      if (status === 400) expect(res.body.errors[0].path).toBe(step.action === 'expand' ? 'share' : 'reason');
+      if (status === 400) expect(res.body.errors[0].path).toBe(step.action === 'widen' ? 'share' : 'reason');
       expect(await ReleaseTransition.count({ where: { releaseId: release.id } })).toBe(transitionsBefore);
       expect((await Release.findByPk(release.id))?.state).toBe(from);
     }
@@ -126,17 +126,17 @@ describe('the lifecycle over the API', () => {
     expect(piloted).not.toBeNull();
     await act(release.id, { action: 'pause' });
     await act(release.id, { action: 'resume' });
-    await act(release.id, { action: 'expand', share: 25 });
-    const halted = await act(release.id, { action: 'halt', reason: 'watchdog resets doubled' });
-    expect(halted.body.history.map((h: { action: string }) => h.action)).toEqual(['upload', 'start_pilot', 'pause', 'resume', 'expand', 'halt']);
-    expect(halted.body.history[5]).toMatchObject({ fromState: 'expanding', toState: 'halted', share: 25, reason: 'watchdog resets doubled', actorName: 'Priya Test' });
+    await act(release.id, { action: 'widen', share: 25 });
+    const stopped = await act(release.id, { action: 'stop', reason: 'watchdog resets doubled' });
+    expect(stopped.body.history.map((h: { action: string }) => h.action)).toEqual(['upload', 'start_pilot', 'pause', 'resume', 'widen', 'stop']);
+    expect(stopped.body.history[5]).toMatchObject({ fromState: 'widening', toState: 'stopped', share: 25, reason: 'watchdog resets doubled', actorName: 'Priya Test' });
     const row = (await Release.findByPk(release.id))!;
     expect(row.pilotedAt?.getTime()).toBe(piloted?.getTime());
-    expect(row.expandedAt).not.toBeNull();
-    expect(row.haltedAt).not.toBeNull();
+    expect(row.widenedAt).not.toBeNull();
+    expect(row.stoppedAt).not.toBeNull();
     expect(row.completedAt).toBeNull();
     const activity = await Activity.findAll({ where: { targetType: 'release', targetId: release.id }, order: [['id', 'ASC']] });
-    expect(activity.map((a) => a.action)).toEqual(['release.uploaded', 'release.start_pilot', 'release.pause', 'release.resume', 'release.expand', 'release.halt']);
+    expect(activity.map((a) => a.action)).toEqual(['release.uploaded', 'release.start_pilot', 'release.pause', 'release.resume', 'release.widen', 'release.stop']);
     expect(activity[5].summary).toContain('watchdog resets doubled');
     expect(activity[5].actorName).toBe('Priya Test');
   });
@@ -160,10 +160,10 @@ describe('editing a draft', () => {
     const agent = await engineer();
     const site = (await Site.findOne({ where: { name: 'Hollins Dairy' } }))!;
     const ok = await agent.patch(`/api/releases/${release.id}`).set(csrf).send({
-      boards: ['C'], upgradeFrom: '>=2.0.0 <2.4.0', pilotSiteIds: [site.id], daylightWindow: true, haltFailureRatio: 0.1, haltMinReports: 10, haltResetFactor: 3, track: 'early',
+      boards: ['C'], upgradeFrom: '>=2.0.0 <2.4.0', pilotSiteIds: [site.id], daylightWindow: true, tripFailureRatio: 0.1, tripMinReports: 10, tripResetFactor: 3, channel: 'early',
     });
     expect(ok.status).toBe(200);
-    expect(ok.body).toMatchObject({ boards: ['C'], manifestBoards: ['B', 'C'], upgradeFrom: '>=2.0.0 <2.4.0', pilotSiteIds: [site.id], pilotSites: [{ id: site.id, name: 'Hollins Dairy' }], daylightWindow: true, haltFailureRatio: 0.1, haltMinReports: 10, haltResetFactor: 3, track: 'early' });
+    expect(ok.body).toMatchObject({ boards: ['C'], manifestBoards: ['B', 'C'], upgradeFrom: '>=2.0.0 <2.4.0', pilotSiteIds: [site.id], pilotSites: [{ id: site.id, name: 'Hollins Dairy' }], daylightWindow: true, tripFailureRatio: 0.1, tripMinReports: 10, tripResetFactor: 3, channel: 'early' });
     expect(await Activity.count({ where: { action: 'release.edited', targetId: release.id } })).toBe(1);
 
     const outside = await agent.patch(`/api/releases/${release.id}`).set(csrf).send({ boards: ['A', 'C'] });
@@ -176,8 +176,8 @@ describe('editing a draft', () => {
     const missingSite = await agent.patch(`/api/releases/${release.id}`).set(csrf).send({ pilotSiteIds: [crypto.randomUUID()] });
     expect(missingSite.status).toBe(400);
     expect(missingSite.body.errors[0].path).toBe('pilotSiteIds');
-    const ratio = await agent.patch(`/api/releases/${release.id}`).set(csrf).send({ haltFailureRatio: 5 });
-    expect(ratio.body.errors[0].path).toBe('haltFailureRatio');
+    const ratio = await agent.patch(`/api/releases/${release.id}`).set(csrf).send({ tripFailureRatio: 5 });
+    expect(ratio.body.errors[0].path).toBe('tripFailureRatio');
     const cleared = await agent.patch(`/api/releases/${release.id}`).set(csrf).send({ upgradeFrom: null, pilotSiteIds: [] });
     expect(cleared.body).toMatchObject({ upgradeFrom: null, pilotSiteIds: [], boards: ['C'] });
   });
@@ -279,7 +279,7 @@ describe('reading releases', () => {
 });
 
 describe('the rollout estimate', () => {
-  test('when loggers of many kinds exist, then the estimate counts the older, enrolled ones of the track and boards by the cohort bucket', async () => {
+  test('when loggers of many kinds exist, then the estimate counts the older, enrolled ones of the channel and boards by the cohort bucket', async () => {
     const model = await LoggerModel.create({
       name: 'FL-2 estimate bench', boards: [{ label: 'A', note: '' }, { label: 'B', note: '' }], minUpdateSupplyV: 4.5, checkInIntervalS: 900,
       busVMax: 26, shuntFullScaleV: 0.08, tempResolutions: [9, 10, 11, 12],
@@ -288,10 +288,10 @@ describe('the rollout estimate', () => {
       Site.create({ name: 'Estimate pilot site', latitude: null, longitude: null, createdBy: null }),
       Site.create({ name: 'Estimate other site', latitude: null, longitude: null, createdBy: null }),
     ]);
-    const make = (n: number, extra: Partial<{ board: string; track: 'stable' | 'early'; status: 'registered' | 'enrolled' | 'retired'; firmware: string | null; siteId: string; retiredAt: Date }>) =>
+    const make = (n: number, extra: Partial<{ board: string; channel: 'stable' | 'early'; status: 'registered' | 'enrolled' | 'retired'; firmware: string | null; siteId: string; retiredAt: Date }>) =>
       Logger.bulkCreate(
         Array.from({ length: n }, () => ({
-          serial: `EST-${crypto.randomBytes(5).toString('hex')}`, modelId: model.id, board: 'B', track: 'stable' as const, status: 'enrolled' as const,
+          serial: `EST-${crypto.randomBytes(5).toString('hex')}`, modelId: model.id, board: 'B', channel: 'stable' as const, status: 'enrolled' as const,
           tokenDigest: null, tokenIssuedAt: null, registeredBy: null, firmware: '2.0.0', siteId: otherSite.id, ...extra,
         })),
         { returning: true },
@@ -299,7 +299,7 @@ describe('the rollout estimate', () => {
     const eligible = await make(300, {});
     const pilots = await make(4, { siteId: pilotSite.id });
     await make(5, { board: 'A' }); // board not in the release
-    await make(5, { track: 'early' }); // other track
+    await make(5, { channel: 'early' }); // other channel
     await make(5, { status: 'registered' }); // not enrolled
     await make(5, { status: 'retired', retiredAt: new Date() });
     await make(5, { firmware: '3.0.0' }); // already newer
@@ -327,7 +327,7 @@ describe('the rollout estimate', () => {
     expect(now.body.eligibleAtShare).toBeLessThan(pilots.length + 130);
 
     await act(signed.id, { action: 'start_pilot' });
-    await act(signed.id, { action: 'expand', share: 25 });
+    await act(signed.id, { action: 'widen', share: 25 });
     const wider = await agent.get(`/api/releases/${signed.id}/estimate`).query({ share: 50 });
     expect(wider.body).toEqual({ share: 50, eligibleNow: expected(25), eligibleAtShare: expected(50), more: expected(50) - expected(25) });
     const all = await agent.get(`/api/releases/${signed.id}/estimate`).query({ share: 100 });

@@ -31,7 +31,7 @@ function bucket(loggerId: string, releaseId: string): number {
   return crypto.createHash('sha256').update(`${loggerId}:${releaseId}`).digest().readUInt32BE(0) % 10_000;
 }
 
-type Row = { id: string; serial: string; board: string; track: string; status: string; site_id: string | null };
+type Row = { id: string; serial: string; board: string; channel: string; status: string; site_id: string | null };
 
 describe('a simulated fleet through a staged rollout', () => {
   test('when 200 loggers go through pilot → 25 % → 100 %, then each stage reaches exactly its cohort, every eligible logger ends on the new version, and no ineligible logger gets it', async () => {
@@ -51,19 +51,19 @@ describe('a simulated fleet through a staged rollout', () => {
     const random = seededRandom(20261201);
     const firmware = firmwareByBoard('A=2.1.4,B=2.2.0,C=2.2.0');
     const demoBench = readBenchSheet(fs.readFileSync(path.join(app.t.dataDir, 'demo', 'bench-sheet.csv'), 'utf8'));
-    // Registered and enrolled through the console API, some on the early track.
+    // Registered and enrolled through the console API, some on the early channel.
     const registered = await registerFleet(morgan, { count: REGISTERED_THROUGH_API, earlyShare: 0.2, firmware, random, serialPrefix: 'FL2-SIM' });
-    // Flashed earlier: enrolled across the sites, a few early-track ones among them; their bench sheet is read back as the simulator reads it.
+    // Flashed earlier: enrolled across the sites, a few early-channel ones among them; their bench sheet is read back as the simulator reads it.
     const earlier = Array.from({ length: FLEET_SIZE - demoBench.length - registered.length }, (_, i) => ({
       ...newToken('hlt_'),
       serial: `FL2-B${String(i + 1).padStart(5, '0')}`,
       board: ['A', 'B', 'C'][i % 3],
-      track: i % 9 === 4 ? 'early' : 'stable',
+      channel: i % 9 === 4 ? 'early' : 'stable',
       siteId: sites[i % sites.length].id,
     }));
     await Logger.bulkCreate(
       earlier.map((e) => ({
-        serial: e.serial, modelId, board: e.board, track: e.track as 'stable' | 'early', status: 'enrolled' as const, tokenDigest: e.digest,
+        serial: e.serial, modelId, board: e.board, channel: e.channel as 'stable' | 'early', status: 'enrolled' as const, tokenDigest: e.digest,
         tokenIssuedAt: clock, siteId: e.siteId, enrolledAt: clock, registeredBy: null,
       })),
     );
@@ -94,11 +94,11 @@ describe('a simulated fleet through a staged rollout', () => {
     const move = async (body: Record<string, unknown>) => expect((await priya.post(`/api/releases/${releaseId}/transitions`).set(csrf).send(body)).status).toBe(200);
 
     // Who is eligible, from the database's view of each logger and the contract's rules.
-    const rows = await app.t.sequelize.query<Row>('SELECT id, serial, board, track, status, site_id FROM loggers', { type: QueryTypes.SELECT });
+    const rows = await app.t.sequelize.query<Row>('SELECT id, serial, board, channel, status, site_id FROM loggers', { type: QueryTypes.SELECT });
     const bySerial = new Map(rows.map((r) => [r.serial, r]));
     const runningAtStart = new Map(identities.map((i) => [i.serial, i.firmware]));
     const eligible = (r: Row) =>
-      r.status === 'enrolled' && r.track === 'stable' && ['B', 'C'].includes(r.board) &&
+      r.status === 'enrolled' && r.channel === 'stable' && ['B', 'C'].includes(r.board) &&
       semver.satisfies(runningAtStart.get(r.serial)!, UPGRADE_FROM, { includePrerelease: true }) && semver.gt(VERSION, runningAtStart.get(r.serial)!);
     const atPilotSite = (r: Row) => r.site_id !== null && pilotSiteIds.includes(r.site_id);
     const fleetRows = identities.map((i) => bySerial.get(i.serial)!);
@@ -106,7 +106,7 @@ describe('a simulated fleet through a staged rollout', () => {
     // The fleet holds every kind of logger the rules tell apart.
     expect(serialsWhere((r) => eligible(r) && atPilotSite(r)).length).toBeGreaterThan(0);
     expect(serialsWhere((r) => r.board === 'A').length).toBeGreaterThan(0);
-    expect(serialsWhere((r) => r.track === 'early' && r.board !== 'A').length).toBeGreaterThan(0);
+    expect(serialsWhere((r) => r.channel === 'early' && r.board !== 'A').length).toBeGreaterThan(0);
     expect(serialsWhere((r) => r.status === 'registered').length).toBeGreaterThan(0);
 
     const tally = new FleetTally();
@@ -145,7 +145,7 @@ describe('a simulated fleet through a staged rollout', () => {
     const pilot = serialsWhere((r) => eligible(r) && atPilotSite(r));
     await stage(pilot);
 
-    await move({ action: 'expand', share: 25 });
+    await move({ action: 'widen', share: 25 });
     const quarter = serialsWhere((r) => eligible(r) && (atPilotSite(r) || bucket(r.id, releaseId) < 2500));
     expect(quarter.length).toBeGreaterThan(pilot.length);
     await stage(quarter);

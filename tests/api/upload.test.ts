@@ -51,7 +51,7 @@ describe('a verified upload', () => {
     const res = await postUpload(agent.post('/api/releases').set(csrf), upload, { notes: 'Faster check-ins.' });
     expect(res.status).toBe(201);
     const sha256 = crypto.createHash('sha256').update(upload.image).digest('hex');
-    expect(res.body).toMatchObject({ version: '2.4.0', modelId, modelName: 'FL-2 field logger', state: 'draft', track: 'stable', share: 0, boards: ['B', 'C'], manifestBoards: ['B', 'C'], securityCounter: 5, image: { sha256, size: upload.image.length }, flagged: false, allowedActions: ['start_pilot'] });
+    expect(res.body).toMatchObject({ version: '2.4.0', modelId, modelName: 'FL-2 field logger', state: 'draft', channel: 'stable', share: 0, boards: ['B', 'C'], manifestBoards: ['B', 'C'], securityCounter: 5, image: { sha256, size: upload.image.length }, flagged: false, allowedActions: ['start_pilot'] });
     expect(res.body.key).toMatchObject({ keyId: key.keyId, state: 'active' });
     expect(storeEntries(t)).toEqual([sha256]);
     expect(fs.readFileSync(path.join(t.storeDir, sha256)).equals(upload.image)).toBe(true);
@@ -63,13 +63,13 @@ describe('a verified upload', () => {
     expect(await Activity.count({ where: { action: 'release.uploaded', targetId: res.body.id } })).toBe(1);
   });
 
-  test('when the version is a pre-release, then the track defaults to early; an explicit track wins', async () => {
+  test('when the version is a pre-release, then the channel defaults to early; an explicit channel wins', async () => {
     const agent = await engineer();
     const rc = await postUpload(agent.post('/api/releases').set(csrf), signedUpload(key, { model: modelId, version: '2.5.0-rc.1' }));
     expect(rc.status).toBe(201);
-    expect(rc.body.track).toBe('early');
-    const chosen = await postUpload(agent.post('/api/releases').set(csrf), signedUpload(key, { model: modelId, version: '2.5.0-rc.2' }), { track: 'stable' });
-    expect(chosen.body.track).toBe('stable');
+    expect(rc.body.channel).toBe('early');
+    const chosen = await postUpload(agent.post('/api/releases').set(csrf), signedUpload(key, { model: modelId, version: '2.5.0-rc.2' }), { channel: 'stable' });
+    expect(chosen.body.channel).toBe('stable');
   });
 
   test('when the same image is uploaded for two versions, then it is stored once', async () => {
@@ -199,11 +199,11 @@ describe('refusals store nothing', () => {
     expect(json.body.errors.map((e: { path: string }) => e.path)).toEqual(['image', 'manifest']);
   });
 
-  test('when an unknown file part, a second image or a bad track arrives, then 400', async () => {
+  test('when an unknown file part, a second image or a bad channel arrives, then 400', async () => {
     const upload = signedUpload(key, { model: modelId, version: '3.0.0' });
     await expectRefused(async () => postUpload((await engineer()).post('/api/releases').set(csrf), upload).attach('extra', Buffer.from('x'), 'x.bin'), 400, 'extra');
     await expectRefused(async () => postUpload((await engineer()).post('/api/releases').set(csrf), upload).attach('image', upload.image, 'again.bin'), 400, 'image');
-    await expectRefused(async () => postUpload((await engineer()).post('/api/releases').set(csrf), upload, { track: 'beta' }), 400, 'track');
+    await expectRefused(async () => postUpload((await engineer()).post('/api/releases').set(csrf), upload, { channel: 'beta' }), 400, 'channel');
   });
 
   test('when the image is larger than the limit (16 MiB), then 413', async () => {

@@ -237,7 +237,7 @@ async function main() {
         deviceRatePerMinute: 100_000,
       }),
       sequelize: db.sequelize,
-      // Nothing listens there: a halt e-mail would fail quietly in the background, never during a timed request.
+      // Nothing listens there: a stop e-mail would fail quietly in the background, never during a timed request.
       mailer: createMailer({ host: '127.0.0.1', port: 9, secure: false, from: 'Heliodor <heliodor@localhost>' }),
       readiness: { migrated: true, seeded: 'complete' },
     });

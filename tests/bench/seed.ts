@@ -3,12 +3,12 @@
 // session, so 100 000 loggers seed in seconds rather than minutes.
 //
 // - 2 models (FL-2 and an invented FL-3 field logger), boards A/B/C by site age (oldest sites A, newest C,
-//   one logger in ten with another board), ~1 % of sites on the early track.
+//   one logger in ten with another board), ~1 % of sites on the early channel.
 // - Sites: the 60 named sites of the demo scenario first (so the releases' pilot sites are the demo's),
 //   then invented ones built from the Vale's villages and kinds of site ("Tarnwick Pump House 12"),
 //   4 loggers each.
-// - Releases per model: the demo's history (2.0.3, 2.1.4, 2.2.0 complete; 2.3.0 expanding at 25 %,
-//   live; 3.0.0-beta.1 halted and 3.0.0-rc.1 in pilot on early), signed by a demo key like the demo seed.
+// - Releases per model: the demo's history (2.0.3, 2.1.4, 2.2.0 complete; 2.3.0 widening at 25 %,
+//   live; 3.0.0-beta.1 stopped and 3.0.0-rc.1 in pilot on early), signed by a demo key like the demo seed.
 // - Install reports for the live release as the cohort rule would place them (pilot sites, or the
 //   logger's SHA-256 bucket below the share, cohort.ts), with the funnel spread over its states.
 // - Latest state on every logger row (firmware, last_seen_at, supply_v, readings.temp_c, recent_resets)
@@ -38,7 +38,7 @@ export type SeededFleet = {
   sites: number;
   checkIns: number;
   installReports: number;
-  /** The live release of the FL-2: 2.3.0, expanding. */
+  /** The live release of the FL-2: 2.3.0, widening. */
   liveReleaseId: string;
   /** A token-holding logger with check-in history (the timeline scenario). */
   timelineLoggerId: string;
@@ -207,14 +207,14 @@ export async function seedBench(
         });
         const last = r.steps[r.steps.length - 1];
         await db.query(
-          `INSERT INTO releases (id, model_id, version, track, state, share, resume_state, boards, manifest_boards, upgrade_from, daylight_window,
+          `INSERT INTO releases (id, model_id, version, channel, state, share, resume_state, boards, manifest_boards, upgrade_from, daylight_window,
                                  security_counter, image_sha256, manifest, signature, signing_key_id, notes, created_by, created_at, updated_at,
-                                 piloted_at, expanded_at, completed_at, halted_at)
+                                 piloted_at, widened_at, completed_at, stopped_at)
            VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22, $23)`,
           [
-            r.id, modelIds[m], r.version, r.track, r.state, r.share, r.resumeState, r.boards, r.upgradeFrom, r.daylightWindow,
+            r.id, modelIds[m], r.version, r.channel, r.state, r.share, r.resumeState, r.boards, r.upgradeFrom, r.daylightWindow,
             r.securityCounter, image.sha256, signed.manifest, signed.signature, keyRow.rows[0].id, r.notes, people.Priya, r.uploadedAt, last.at,
-            r.pilotedAt, r.expandedAt, r.completedAt, r.haltedAt,
+            r.pilotedAt, r.widenedAt, r.completedAt, r.stoppedAt,
           ],
         );
         await db.query('INSERT INTO release_pilot_sites (release_id, site_id) SELECT $1, unnest($2::uuid[])', [r.id, r.pilotSites.map((i) => siteIds[i])]);
@@ -249,7 +249,7 @@ export async function seedBench(
        SELECT b.*, s.id AS site_id, s.created_at AS site_created, s.integrator,
               CASE WHEN s.idx % 10 < 7 THEN 0 ELSE 1 END AS model_no,
               (ARRAY['A', 'B', 'C'])[((LEAST(2, (b.site_idx * 3) / $1) + CASE WHEN b.u_board < 0.1 THEN 1 ELSE 0 END) % 3) + 1] AS board,
-              CASE WHEN b.site_idx = ANY($2::int[]) OR b.site_idx % 97 = 5 THEN 'early' ELSE 'stable' END AS track,
+              CASE WHEN b.site_idx = ANY($2::int[]) OR b.site_idx % 97 = 5 THEN 'early' ELSE 'stable' END AS channel,
               b.u_silent < 0.02 AS silent, b.u_low < 0.03 AS low, b.u_unstable < 0.01 AS unstable, b.u_probe < 0.003 AS probe,
               (b.g % $3 = 1 AND b.g / $3 < $4) AS has_token
          FROM bench_loggers b JOIN bench_sites s ON s.idx = b.site_idx`,
@@ -259,7 +259,7 @@ export async function seedBench(
       `CREATE TEMP TABLE bench_l3 AS
        SELECT l.*,
               CASE
-                WHEN l.track = 'early' AND l.board <> 'A' THEN CASE WHEN l.u_fw < 0.3 THEN '3.0.0-beta.1' ELSE '2.2.0' END
+                WHEN l.channel = 'early' AND l.board <> 'A' THEN CASE WHEN l.u_fw < 0.3 THEN '3.0.0-beta.1' ELSE '2.2.0' END
                 WHEN l.board = 'A' THEN CASE WHEN l.u_fw < 0.04 THEN '2.0.3' WHEN l.u_fw < 0.15 THEN '2.1.4' ELSE '2.2.0' END
                 ELSE CASE WHEN l.u_fw < 0.02 THEN '2.0.3' WHEN l.u_fw < 0.08 THEN '2.1.4' ELSE '2.2.0' END
               END AS fw0,
@@ -267,20 +267,20 @@ export async function seedBench(
          FROM bench_l2 l`,
       [plans.map((p) => p.r230.id), plans.map((p) => p.rc1.id), plans.map((p) => p.beta1.id)],
     );
-    // Where each logger stands with the live release (2.3.0, boards B and C, from >=2.1.0, 25 %) and the early track's two.
+    // Where each logger stands with the live release (2.3.0, boards B and C, from >=2.1.0, 25 %) and the early channel's two.
     await db.query(
       `CREATE TEMP TABLE bench_l4 AS
        SELECT l.*,
-              CASE WHEN l.track = 'stable' AND l.board IN ('B', 'C') AND l.fw0 IN ('2.1.4', '2.2.0') AND NOT l.silent AND NOT l.low
+              CASE WHEN l.channel = 'stable' AND l.board IN ('B', 'C') AND l.fw0 IN ('2.1.4', '2.2.0') AND NOT l.silent AND NOT l.low
                         AND (l.site_idx = ANY($1::int[])
                              OR ('x' || substr(encode(sha256(convert_to(l.id::text || ':' || l.live_id::text, 'UTF8')), 'hex'), 1, 8))::bit(32)::bigint % 10000 < $2)
                    THEN CASE WHEN l.u_report < 0.80 THEN 'installed' WHEN l.u_report < 0.82 THEN 'failed' WHEN l.u_report < 0.85 THEN 'offered'
                              WHEN l.u_report < 0.87 THEN 'downloading' WHEN l.u_report < 0.88 THEN 'downloaded' WHEN l.u_report < 0.89 THEN 'installing' END
               END AS live_state,
-              CASE WHEN l.track = 'early' AND l.board <> 'A' AND l.site_idx = ANY($3::int[])
+              CASE WHEN l.channel = 'early' AND l.board <> 'A' AND l.site_idx = ANY($3::int[])
                    THEN CASE WHEN l.u_report < 0.6 THEN 'installed' WHEN l.u_report < 0.7 THEN 'downloading' END END AS rc_state,
               CASE WHEN l.fw0 = '3.0.0-beta.1' THEN 'installed'
-                   WHEN l.track = 'early' AND l.board <> 'A' AND l.u_report > 0.95 THEN 'failed' END AS beta_state
+                   WHEN l.channel = 'early' AND l.board <> 'A' AND l.u_report > 0.95 THEN 'failed' END AS beta_state
          FROM bench_l3 l`,
       [plan0.r230.pilotSites, Math.round(plan0.r230.share * 100), plan0.rc1.pilotSites],
     );
@@ -298,10 +298,10 @@ export async function seedBench(
     const counterCase = `CASE l.firmware ${counters.map(([v, c]) => `WHEN '${v}' THEN ${c}`).join(' ')} ELSE 0 END`;
     const supplyCase = (part: 'nominalV' | 'spreadV') => `CASE l.board ${['A', 'B', 'C'].map((b) => `WHEN '${b}' THEN ${supply(b)[part]}`).join(' ')} END`;
     await db.query(
-      `INSERT INTO loggers (id, serial, model_id, board, track, status, token_digest, token_issued_at, site_id, enrolled_at, enrolled_by, install,
+      `INSERT INTO loggers (id, serial, model_id, board, channel, status, token_digest, token_issued_at, site_id, enrolled_at, enrolled_by, install,
                             registered_by, firmware, supply_v, last_seen_at, created_at, updated_at, reported_board, security_counter, readings,
                             last_ip, rssi_dbm, free_heap_b, uptime_s, config_version, last_reset_reason, last_check_in_at, check_in_count, recent_resets)
-       SELECT l.id, x.serial, ($1::uuid[])[l.model_no + 1], l.board, l.track, 'enrolled',
+       SELECT l.id, x.serial, ($1::uuid[])[l.model_no + 1], l.board, l.channel, 'enrolled',
               encode(sha256(convert_to('hlt_' || rtrim(translate(encode(sha256(convert_to('heliodor bench logger ' || x.serial, 'UTF8')), 'base64'), '+/', '-_'), '='), 'UTF8')), 'hex'),
               l.enrolled_at - interval '3 days', l.site_id, l.enrolled_at, l.integrator,
               jsonb_build_object('panelWp', 100, 'panelVocV', 22, 'notes', ''),
@@ -379,7 +379,7 @@ export async function seedBench(
 
     await db.query(
       `INSERT INTO activity (at, actor_type, actor_id, actor_name, action, target_type, target_id, summary)
-       SELECT ${nowLit} - make_interval(mins => i * 37), 'person', $1, 'Priya', 'release.expand', 'release', $2, 'Priya widened FL-2 field logger 2.3.0 to 25 %'
+       SELECT ${nowLit} - make_interval(mins => i * 37), 'person', $1, 'Priya', 'release.widen', 'release', $2, 'Priya widened FL-2 field logger 2.3.0 to 25 %'
          FROM generate_series(1, 200) AS i`,
       [people.Priya, plan0.r230.id],
     );

@@ -39,7 +39,7 @@ function writeY4m(file: string, png: PNG, frames = 6) {
 }
 
 async function register(serial: string, board = 'B') {
-  const res = await admin.post('/api/loggers').set(csrf).send({ serial, modelId, board, track: 'stable' });
+  const res = await admin.post('/api/loggers').set(csrf).send({ serial, modelId, board, channel: 'stable' });
   expect(res.status).toBe(201);
   return { id: res.body.id as string, serial, token: res.body.token as string };
 }

@@ -151,7 +151,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
   test('when support opens the overview, versions, a live release and a low-supply logger, then each shows the API’s figures and a note joins the timeline', async () => {
     const overview = (await support.get('/api/overview')).body as { fleet: { laggingSites: { count: number } } };
     const releases = await apiList<{ id: string; version: string; state: string }>('/api/releases');
-    const live = releases.rows.find((r) => r.state === 'expanding') ?? releases.rows.find((r) => r.state === 'pilot');
+    const live = releases.rows.find((r) => r.state === 'widening') ?? releases.rows.find((r) => r.state === 'pilot');
     expect(live).toBeDefined();
     const release = (await support.get(`/api/releases/${live!.id}`)).body as ReleaseView;
     const logger = (await apiList<FleetRow>('/api/loggers?flag=low_supply&pageSize=25')).rows[0];
@@ -176,7 +176,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     await page.getByText('Adoption over time', { exact: false }).first().scrollIntoViewIfNeeded();
     await screenshot(page, `versions-adoption-${size}`);
 
-    // The halt rule's ratio (DEVICE_API.md): failed over finished installs, shown beside the threshold;
+    // The trip rule's ratio (DEVICE_API.md): failed over finished installs, shown beside the threshold;
     // failures the logger retries by itself (connection, low supply) count on neither side.
     const counted = release.counts.failed - release.counts.failedByReason.connection - release.counts.failedByReason.low_supply;
     const finished = release.counts.installed + counted;
@@ -184,7 +184,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     const words = (x: number) => `${Number((x * 100).toFixed(1))} %`;
     await page.goto(`${base}/releases/${live!.id}`);
     await page.getByTestId('failure-ratio').waitFor();
-    expect(await page.getByTestId('failure-ratio').innerText()).toBe(`Failure ratio ${words(ratio)} of ${words(Number(release.haltFailureRatio))}`);
+    expect(await page.getByTestId('failure-ratio').innerText()).toBe(`Failure ratio ${words(ratio)} of ${words(Number(release.tripFailureRatio))}`);
     await page.getByTestId('adoption').scrollIntoViewIfNeeded();
     await screenshot(page, `release-dashboard-${size}`);
 

@@ -57,7 +57,7 @@ test('when an admin uploads a CSV batch, then progress shows, then the label she
   await signIn(page, base, 'morgan@fernhollow.example', testPassword);
   await page.getByRole('heading', { name: 'Overview' }).waitFor();
   await openBatchForm(page);
-  const csv = ['serial,model,board,track', ...serials.map((s, i) => `${s},FL-2 field logger,${'ABC'[i % 3]},${i % 5 === 0 ? 'early' : 'stable'}`)].join('\n') + '\n';
+  const csv = ['serial,model,board,channel', ...serials.map((s, i) => `${s},FL-2 field logger,${'ABC'[i % 3]},${i % 5 === 0 ? 'early' : 'stable'}`)].join('\n') + '\n';
   await chooseCsv(page, 'bench-batch.csv', csv);
 
   // A slow uplink (Chrome DevTools Protocol network emulation), so the upload lasts long enough to watch.
@@ -160,7 +160,7 @@ test('when an admin registers one logger and later rotates its token, then each 
 
 test('when a token is rotated, then the label it replaced is no longer known', async () => {
   const model = (await admin.get('/api/models')).body.rows[0];
-  const created = await admin.post('/api/loggers').set(csrf).send({ serial: 'FL2-R0002', modelId: model.id, board: 'B', track: 'stable' });
+  const created = await admin.post('/api/loggers').set(csrf).send({ serial: 'FL2-R0002', modelId: model.id, board: 'B', channel: 'stable' });
   expect(created.status).toBe(201);
   const page = await open({ viewport: viewports.wide });
   await signIn(page, base, 'morgan@fernhollow.example', testPassword);

@@ -1,5 +1,5 @@
 // The rollout dashboard in the browser (issue 6 §4), at phone and wide sizes, on the full demo scenario's
-// live 2.3.0 release: a release engineer reads the halt thresholds with their current values, the time
+// live 2.3.0 release: a release engineer reads the trip points with their current values, the time
 // to install, each board revision and the sites (failures first) as the API answers them; the page
 // refreshes itself while the release is live (a report written straight into install_reports shows up
 // without a reload); the site list pages; a site row opens the site. Expected figures come from the API
@@ -18,7 +18,7 @@ type ReleaseRow = { id: string; modelId: string; version: string; state: string 
 let engineer: Agent;
 let release: ReleaseRow;
 
-/** A percentage as the halt card writes it: one decimal at most, trailing zero dropped ("1.8 %", "5 %"). */
+/** A percentage as the stop card writes it: one decimal at most, trailing zero dropped ("1.8 %", "5 %"). */
 const pct = (x: number) => `${Number((x * 100).toFixed(1))} %`;
 
 async function apiGet<T>(path: string): Promise<T> {
@@ -33,7 +33,7 @@ beforeAll(async () => {
   engineer = session.t.agent();
   expect((await engineer.post('/api/auth/sign-in').send({ email: engineerEmail, password: testPassword })).status).toBe(200);
   // The live release with the most install reports: the scenario's widening stable release.
-  const { rows } = await apiGet<{ rows: (ReleaseRow & { installed: number; failed: number })[] }>('/api/releases?state=expanding');
+  const { rows } = await apiGet<{ rows: (ReleaseRow & { installed: number; failed: number })[] }>('/api/releases?state=widening');
   const live = rows.filter((r) => r.installed + r.failed > 0).sort((a, b) => b.installed + b.failed - (a.installed + a.failed));
   expect(live.length).toBeGreaterThan(0);
   release = live[0];
@@ -63,17 +63,17 @@ function collectErrors(page: Page) {
 const siteNames = (page: Page) => page.getByTestId('release-site').evaluateAll((els) => els.map((e) => (e as HTMLElement).innerText.split('\n')[0].trim()));
 
 describe.each(Object.entries(viewports))('release dashboard at %s size', (size, viewport) => {
-  test('when a release engineer opens a live release, then the halt gauge, boards, first site and median install time are the API’s figures', async () => {
+  test('when a release engineer opens a live release, then the stop gauge, boards, first site and median install time are the API’s figures', async () => {
     const context = await session.browser.newContext({ viewport });
     const page = await context.newPage();
     const errors = collectErrors(page);
     await openRelease(page);
     const d = await dashboard();
 
-    // Halt thresholds now: "Failure ratio X % of Y %", with the counts the automatic halt judges.
-    const f = d.halt.failureRatio;
+    // Trip points now: "Failure ratio X % of Y %", with the counts the trip judges.
+    const f = d.trip.failureRatio;
     expect(await page.getByTestId('failure-ratio').innerText()).toBe(`Failure ratio ${pct(f.ratio)} of ${pct(f.threshold)}`);
-    expect(await page.getByTestId('halt-thresholds').innerText()).toContain(`${f.failed} failed of ${f.finished} finished installs`);
+    expect(await page.getByTestId('trip-points').innerText()).toContain(`${f.failed} failed of ${f.finished} finished installs`);
     await page.getByText('Live · refreshes every 15 s').waitFor();
 
     // Time to install: the median is shown whenever the API has one.
@@ -103,7 +103,7 @@ describe.each(Object.entries(viewports))('release dashboard at %s size', (size, 
     const last = d.adoption[d.adoption.length - 1];
     expect(await page.getByTestId('adoption').innerText()).toContain(`${last.cumulative} installed since ${d.adoption[0].day}`);
 
-    await shoot(page, 'halt-thresholds', `release-dashboard-halt-${size}`);
+    await shoot(page, 'trip-points', `release-dashboard-trip-${size}`);
     await shoot(page, 'by-board', `release-dashboard-boards-${size}`);
     await shoot(page, 'by-site', `release-dashboard-sites-${size}`);
     await shoot(page, 'adoption', `release-dashboard-adoption-${size}`);
@@ -117,16 +117,16 @@ test('when an install report arrives while the page is open, then the dashboard 
   const page = await context.newPage();
   const errors = collectErrors(page);
   await openRelease(page);
-  const before = (await dashboard()).halt.failureRatio;
-  await page.getByTestId('halt-thresholds').getByText(`${before.failed} failed of ${before.finished} finished installs`).waitFor();
+  const before = (await dashboard()).trip.failureRatio;
+  await page.getByTestId('trip-points').getByText(`${before.failed} failed of ${before.finished} finished installs`).waitFor();
   // A mark on the window: a reload would wipe it.
   await page.evaluate(() => ((window as unknown as { heliodorSameVisit: boolean }).heliodorSameVisit = true));
 
-  // A logger of the release's audience (model, track, targeted board) that has no report yet fails the
-  // install for storage, a failure the halt counts (connection and low supply are retried instead).
+  // A logger of the release's audience (model, channel, targeted board) that has no report yet fails the
+  // install for storage, a failure the stop counts (connection and low supply are retried instead).
   const [[logger]] = (await session.t.sequelize.query(
     `SELECT l.id FROM loggers l JOIN releases r ON r.id = :releaseId
-      WHERE l.model_id = r.model_id AND l.track = r.track AND l.status = 'enrolled' AND l.board = ANY (r.boards)
+      WHERE l.model_id = r.model_id AND l.channel = r.channel AND l.status = 'enrolled' AND l.board = ANY (r.boards)
         AND NOT EXISTS (SELECT 1 FROM install_reports ir WHERE ir.logger_id = l.id AND ir.release_id = r.id)
       ORDER BY l.serial LIMIT 1`,
     { replacements: { releaseId: release.id } },
@@ -138,11 +138,11 @@ test('when an install report arrives while the page is open, then the dashboard 
      VALUES (:loggerId, :releaseId, 'failed', 'storage', now() - interval '20 minutes', now(), now())`,
     { replacements: { loggerId: logger.id, releaseId: release.id } },
   );
-  const after = (await dashboard()).halt.failureRatio;
+  const after = (await dashboard()).trip.failureRatio;
   expect(after).toMatchObject({ failed: before.failed + 1, finished: before.finished + 1 });
 
   // The interval is 15 s (hooks/releases.ts LIVE_REFRESH_MS); 40 s leaves room for two refreshes and a slow machine.
-  await page.getByTestId('halt-thresholds').getByText(`${after.failed} failed of ${after.finished} finished installs`).waitFor({ timeout: 40_000 });
+  await page.getByTestId('trip-points').getByText(`${after.failed} failed of ${after.finished} finished installs`).waitFor({ timeout: 40_000 });
   expect(Date.now() - started).toBeLessThan(40_000);
   expect(await page.getByTestId('failure-ratio').innerText()).toBe(`Failure ratio ${pct(after.ratio)} of ${pct(after.threshold)}`);
   expect(await page.evaluate(() => (window as unknown as { heliodorSameVisit?: boolean }).heliodorSameVisit)).toBe(true);

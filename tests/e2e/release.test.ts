@@ -61,7 +61,7 @@ function collectErrors(page: Page) {
   return errors;
 }
 
-test('when the release engineer uploads a signed image, starts the pilot and widens to 25 %, then the release is expanding at 25 % with its history', async () => {
+test('when the release engineer uploads a signed image, starts the pilot and widens to 25 %, then the release is widening at 25 % with its history', async () => {
   const page = await browser.newPage({ viewport: viewports.wide });
   const errors = collectErrors(page);
   await signIn(page, base, 'priya@fernhollow.example', testPassword);
@@ -131,15 +131,15 @@ test('when the release engineer uploads a signed image, starts the pilot and wid
   await screenshot(page, 'release-widen-confirm-wide');
   await page.getByTestId('confirm-move-confirm').click();
 
-  await page.getByTestId('release-state').getByText('Expanding', { exact: true }).waitFor();
+  await page.getByTestId('release-state').getByText('Widening', { exact: true }).waitFor();
   expect(await page.getByTestId('release-share').innerText()).toContain('25 %');
   expect(await page.getByTestId('history').innerText()).toContain('Widened to 25 %');
-  await screenshot(page, 'release-expanding-wide');
+  await screenshot(page, 'release-widening-wide');
 
   const detail = await admin.get(`/api/releases/${id}`);
   expect(Number(detail.body.share)).toBe(25);
-  expect(detail.body).toMatchObject({ state: 'expanding', pilotSites: [{ name: 'Aldmere Village Hall' }] });
-  expect(detail.body.history.map((h: { action: string }) => h.action)).toEqual(expect.arrayContaining(['start_pilot', 'expand']));
+  expect(detail.body).toMatchObject({ state: 'widening', pilotSites: [{ name: 'Aldmere Village Hall' }] });
+  expect(detail.body.history.map((h: { action: string }) => h.action)).toEqual(expect.arrayContaining(['start_pilot', 'widen']));
   expect(errors).toEqual([]);
   await page.close();
 });

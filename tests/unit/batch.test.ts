@@ -27,7 +27,7 @@ describe('batch registration CSV', () => {
     const rows = rowsOf(
       run(
         [
-          'serial,model,board,track',
+          'serial,model,board,channel',
           'FL2-AV-0001,FL-2 field logger,A,stable',
           `FL2-AV-0002,${fl2.id},B,early`,
           'FL2-AV-0003,fl-2 FIELD logger,c,',
@@ -35,15 +35,15 @@ describe('batch registration CSV', () => {
       ),
     );
     expect(rows).toEqual([
-      { line: 2, serial: 'FL2-AV-0001', modelId: fl2.id, board: 'A', track: 'stable' },
-      { line: 3, serial: 'FL2-AV-0002', modelId: fl2.id, board: 'B', track: 'early' },
-      { line: 4, serial: 'FL2-AV-0003', modelId: fl2.id, board: 'C', track: 'stable' },
+      { line: 2, serial: 'FL2-AV-0001', modelId: fl2.id, board: 'A', channel: 'stable' },
+      { line: 3, serial: 'FL2-AV-0002', modelId: fl2.id, board: 'B', channel: 'early' },
+      { line: 4, serial: 'FL2-AV-0003', modelId: fl2.id, board: 'C', channel: 'stable' },
     ]);
   });
 
-  test('when the header is in another order and case, without track, then columns are matched by name and track defaults to stable', () => {
+  test('when the header is in another order and case, without channel, then columns are matched by name and channel defaults to stable', () => {
     const rows = rowsOf(run('Board, MODEL ,Serial\nB,FL-2 field logger,FL2-AV-0101\n'));
-    expect(rows).toEqual([{ line: 2, serial: 'FL2-AV-0101', modelId: fl2.id, board: 'B', track: 'stable' }]);
+    expect(rows).toEqual([{ line: 2, serial: 'FL2-AV-0101', modelId: fl2.id, board: 'B', channel: 'stable' }]);
   });
 
   test('when the file has CRLF line endings (RFC 4180) and blank lines, then rows keep the line numbers an editor shows', () => {
@@ -81,7 +81,7 @@ describe('batch registration CSV', () => {
     const errors = errorsOf(
       run(
         [
-          'serial,model,board,track', // 1
+          'serial,model,board,channel', // 1
           'FL2-AV-0401,FL-2 field logger,A,stable', // 2 good
           'FL2-AV-0402,FL-9 logger,A,stable', // 3 unknown model
           'FL2-AV-0403,FL-2 field logger,D,stable', // 4 board not of that model
@@ -89,7 +89,7 @@ describe('batch registration CSV', () => {
           'FL2-AV-0099,FL-2 field logger,B,', // 6 already registered
           'FL2 AV 0406,FL-2 field logger,B,', // 7 bad serial characters
           'F2,FL-2 field logger,B,', // 8 too short
-          'FL2-AV-0408,FL-2 field logger,B,beta', // 9 unknown track
+          'FL2-AV-0408,FL-2 field logger,B,beta', // 9 unknown channel
           ',FL-2 field logger,', // 10 serial and board missing
           'FL2-AV-0410,FL-2 field logger,B,stable,extra', // 11 one value too many
           'FL2-AV-0411,FL-1 bench logger,B', // 12 board B is not an FL-1 board
@@ -104,7 +104,7 @@ describe('batch registration CSV', () => {
       [6, 'serial'],
       [7, 'serial'],
       [8, 'serial'],
-      [9, 'track'],
+      [9, 'channel'],
       [10, 'serial'],
       [10, 'board'],
       [11, '(row)'],

@@ -247,10 +247,10 @@ describe('shared install and registration schemas', () => {
     expect(measurementProfile(parsed, chipLimits).ok).toBe(true);
   });
 
-  test('when a logger is registered without a track, then it goes on the stable track and its serial is trimmed', () => {
+  test('when a logger is registered without a channel, then it goes on the stable channel and its serial is trimmed', () => {
     const parsed = registerLoggerRequest.parse({ serial: ' FL2-AV-0001 ', modelId: '5b0e6f0a-2c1d-4e8f-9a3b-7c6d5e4f3a21', board: 'B' });
-    expect(parsed).toEqual({ serial: 'FL2-AV-0001', modelId: '5b0e6f0a-2c1d-4e8f-9a3b-7c6d5e4f3a21', board: 'B', track: 'stable' });
-    expect(registerLoggerRequest.safeParse({ ...parsed, track: 'beta' }).success).toBe(false);
+    expect(parsed).toEqual({ serial: 'FL2-AV-0001', modelId: '5b0e6f0a-2c1d-4e8f-9a3b-7c6d5e4f3a21', board: 'B', channel: 'stable' });
+    expect(registerLoggerRequest.safeParse({ ...parsed, channel: 'beta' }).success).toBe(false);
     expect(registerLoggerRequest.safeParse({ ...parsed, serial: 'FL 2' }).success).toBe(false);
   });
 });

@@ -41,7 +41,7 @@ function logger(overrides: Partial<LoggerAtCheckIn> = {}): LoggerAtCheckIn {
     status: 'enrolled',
     siteId: OTHER_SITE,
     board: 'B',
-    track: 'stable',
+    channel: 'stable',
     firmware: '2.2.0',
     securityCounter: 3,
     supplyV: 12.4,
@@ -55,7 +55,7 @@ function release(overrides: Partial<ReleaseTargeting> = {}): ReleaseTargeting {
   return {
     id: R230,
     version: '2.3.0',
-    track: 'stable',
+    channel: 'stable',
     state: 'complete',
     share: 100,
     boards: ['A', 'B', 'C'],
@@ -105,10 +105,10 @@ describe('offer decision', () => {
       expect(d.considered.every((c) => c.outcome === 'not_offered' && c.detail.length > 0)).toBe(true);
     });
 
-    test('when the model has no release on the logger\'s track, then nothing is offered and each release says wrong_track', () => {
-      const d = decide({ logger: { track: 'early' }, releases: [release(), release({ id: R214, version: '2.1.4' })] });
+    test('when the model has no release on the logger\'s channel, then nothing is offered and each release says wrong_channel', () => {
+      const d = decide({ logger: { channel: 'early' }, releases: [release(), release({ id: R214, version: '2.1.4' })] });
       expect(d.offer).toBeNull();
-      expect(d.considered.map((c) => c.reason)).toEqual(['wrong_track', 'wrong_track']);
+      expect(d.considered.map((c) => c.reason)).toEqual(['wrong_channel', 'wrong_channel']);
     });
 
     test('when the model has no releases at all, then nothing is offered and nothing is considered', () => {
@@ -118,7 +118,7 @@ describe('offer decision', () => {
 
   describe('rule 2: candidates', () => {
     test.each([
-      { when: 'the release is on the early track and the logger on stable', r: { track: 'early' as const }, l: {}, reason: 'wrong_track' },
+      { when: 'the release is on the early channel and the logger on stable', r: { channel: 'early' as const }, l: {}, reason: 'wrong_channel' },
       { when: 'the release is a draft', r: { state: 'draft' as const }, l: {}, reason: 'not_live' },
       { when: "the logger's board is not in the release's list", r: { boards: ['B', 'C'] }, l: { board: 'A' }, reason: 'board_not_supported' },
       { when: 'the release has no boards', r: { boards: [] }, l: {}, reason: 'board_not_supported' },
@@ -126,7 +126,7 @@ describe('offer decision', () => {
       { when: 'the release is older than the running version', r: {}, l: { firmware: '2.4.0' }, reason: 'not_newer' },
       { when: "the release's security counter is below the logger's", r: { securityCounter: 4 }, l: { securityCounter: 5 }, reason: 'security_counter_too_low' },
       { when: "the release's security counter equals the logger's", r: { securityCounter: 5 }, l: { securityCounter: 5 }, reason: 'offered' },
-      { when: 'the release is newer, live, for the board, same track', r: {}, l: {}, reason: 'offered' },
+      { when: 'the release is newer, live, for the board, same channel', r: {}, l: {}, reason: 'offered' },
       { when: 'the logger is on board A and A is listed', r: { boards: ['A'] }, l: { board: 'A' }, reason: 'offered' },
     ])('when $when, then the reason is $reason', ({ r, l, reason }) => {
       const d = decide({ logger: l, releases: [release(r)] });
@@ -136,15 +136,15 @@ describe('offer decision', () => {
     // semver.org §11 (REFERENCE.md §4) precedence: pre-releases rank below the normal version;
     // semver.org §10: build metadata is ignored for precedence.
     test.each([
-      { track: 'early' as const, running: '3.0.0-rc.1', version: '3.0.0', offered: true },
-      { track: 'early' as const, running: '3.0.0', version: '3.0.0-rc.1', offered: false },
-      { track: 'early' as const, running: '2.3.0', version: '3.0.0-rc.1', offered: true },
-      { track: 'stable' as const, running: '2.3.0-beta.2', version: '2.3.0', offered: true },
-      { track: 'stable' as const, running: '2.3.0', version: '2.3.0-beta.2', offered: false },
-      { track: 'stable' as const, running: '2.3.0+build.5', version: '2.3.0+build.7', offered: false },
-      { track: 'stable' as const, running: '2.9.0', version: '2.10.0', offered: true },
-    ])('when a $track logger runs $running and the release is $version, then offered is $offered', ({ track, running, version, offered }) => {
-      const d = decide({ logger: { track, firmware: running }, releases: [release({ track, version, upgradeFrom: null })] });
+      { channel: 'early' as const, running: '3.0.0-rc.1', version: '3.0.0', offered: true },
+      { channel: 'early' as const, running: '3.0.0', version: '3.0.0-rc.1', offered: false },
+      { channel: 'early' as const, running: '2.3.0', version: '3.0.0-rc.1', offered: true },
+      { channel: 'stable' as const, running: '2.3.0-beta.2', version: '2.3.0', offered: true },
+      { channel: 'stable' as const, running: '2.3.0', version: '2.3.0-beta.2', offered: false },
+      { channel: 'stable' as const, running: '2.3.0+build.5', version: '2.3.0+build.7', offered: false },
+      { channel: 'stable' as const, running: '2.9.0', version: '2.10.0', offered: true },
+    ])('when a $channel logger runs $running and the release is $version, then offered is $offered', ({ channel, running, version, offered }) => {
+      const d = decide({ logger: { channel, firmware: running }, releases: [release({ channel, version, upgradeFrom: null })] });
       expect(single(d)).toEqual({ reason: offered ? 'offered' : 'not_newer', offered });
       expect(semver.gt(version, running)).toBe(offered);
     });
@@ -153,8 +153,8 @@ describe('offer decision', () => {
     test.each(chain.slice(1).map((higher, i) => ({ lower: chain[i], higher })))(
       'when the semver.org §11 chain step $lower < $higher is checked, then $higher is offered over $lower and not the reverse',
       ({ lower, higher }) => {
-        const up = decide({ logger: { track: 'early', firmware: lower }, releases: [release({ track: 'early', version: higher, upgradeFrom: null })] });
-        const down = decide({ logger: { track: 'early', firmware: higher }, releases: [release({ track: 'early', version: lower, upgradeFrom: null })] });
+        const up = decide({ logger: { channel: 'early', firmware: lower }, releases: [release({ channel: 'early', version: higher, upgradeFrom: null })] });
+        const down = decide({ logger: { channel: 'early', firmware: higher }, releases: [release({ channel: 'early', version: lower, upgradeFrom: null })] });
         expect(single(up)).toEqual({ reason: 'offered', offered: true });
         expect(single(down)).toEqual({ reason: 'not_newer', offered: false });
       },
@@ -171,13 +171,13 @@ describe('offer decision', () => {
       { when: 'bucket 2500 and share 25 %', id: LOGGER_BUCKET_2500, share: 25, reason: 'outside_share' },
       { when: 'bucket 500 and share 25 %', id: LOGGER_BUCKET_500, share: 25, reason: 'offered' },
       { when: 'bucket 2500 and share 25.01 %', id: LOGGER_BUCKET_2500, share: 25.01, reason: 'offered' },
-    ])('when an expanding release meets a logger with $when, then the reason is $reason', ({ id, share, reason }) => {
-      const d = decide({ logger: { id }, releases: [release({ state: 'expanding', share })] });
+    ])('when an widening release meets a logger with $when, then the reason is $reason', ({ id, share, reason }) => {
+      const d = decide({ logger: { id }, releases: [release({ state: 'widening', share })] });
       expect(single(d)).toEqual({ reason, offered: reason === 'offered' });
     });
 
     test('when a logger is outside the share, then the detail names its bucket and the threshold', () => {
-      const d = decide({ logger: { id: LOGGER_BUCKET_500 }, releases: [release({ state: 'expanding', share: 5 })] });
+      const d = decide({ logger: { id: LOGGER_BUCKET_500 }, releases: [release({ state: 'widening', share: 5 })] });
       expect(d.considered[0].detail).toContain('500');
       expect(d.considered[0].detail).toContain('5 %');
     });
@@ -188,8 +188,8 @@ describe('offer decision', () => {
         [LOGGER_BUCKET_500, false, true],
         [LOGGER_BUCKET_2500, false, false],
       ] as const) {
-        expect(decide({ logger: { id }, releases: [release({ state: 'expanding', share: 5 })] }).offer !== null).toBe(at5);
-        expect(decide({ logger: { id }, releases: [release({ state: 'expanding', share: 25 })] }).offer !== null).toBe(at25);
+        expect(decide({ logger: { id }, releases: [release({ state: 'widening', share: 5 })] }).offer !== null).toBe(at5);
+        expect(decide({ logger: { id }, releases: [release({ state: 'widening', share: 25 })] }).offer !== null).toBe(at25);
       }
     });
 
@@ -197,12 +197,12 @@ describe('offer decision', () => {
       { when: 'a pilot release and the logger is at a pilot site', state: 'pilot' as const, site: PILOT_SITE, pilots: [PILOT_SITE], reason: 'offered' },
       { when: 'a pilot release and the logger is elsewhere', state: 'pilot' as const, site: OTHER_SITE, pilots: [PILOT_SITE], reason: 'not_pilot_site' },
       { when: 'a pilot release with no pilot sites', state: 'pilot' as const, site: PILOT_SITE, pilots: [], reason: 'not_pilot_site' },
-      { when: 'an expanding release, a pilot site, bucket outside the share', state: 'expanding' as const, site: PILOT_SITE, pilots: [PILOT_SITE], reason: 'offered' },
-      { when: 'an expanding release, not a pilot site, bucket outside the share', state: 'expanding' as const, site: OTHER_SITE, pilots: [PILOT_SITE], reason: 'outside_share' },
+      { when: 'an widening release, a pilot site, bucket outside the share', state: 'widening' as const, site: PILOT_SITE, pilots: [PILOT_SITE], reason: 'offered' },
+      { when: 'an widening release, not a pilot site, bucket outside the share', state: 'widening' as const, site: OTHER_SITE, pilots: [PILOT_SITE], reason: 'outside_share' },
       { when: 'a complete release and the logger is at a pilot site', state: 'complete' as const, site: PILOT_SITE, pilots: [PILOT_SITE], reason: 'offered' },
       { when: 'a complete release and the logger is elsewhere, bucket 2500', state: 'complete' as const, site: OTHER_SITE, pilots: [PILOT_SITE], reason: 'offered' },
     ])('when $when, then the reason is $reason', ({ state, site, pilots, reason }) => {
-      const share = state === 'pilot' ? 0 : state === 'expanding' ? 5 : 100;
+      const share = state === 'pilot' ? 0 : state === 'widening' ? 5 : 100;
       const d = decide({ logger: { id: LOGGER_BUCKET_2500, siteId: site }, releases: [release({ state, share, pilotSiteIds: pilots })] });
       expect(single(d)).toEqual({ reason, offered: reason === 'offered' });
     });
@@ -250,7 +250,7 @@ describe('offer decision', () => {
       expect(d.offer?.version === '2.3.0').toBe(admitted);
     });
 
-    test('when no release on the track admits the running version, then nothing is offered and the newest says needs_stepping_stone', () => {
+    test('when no release on the channel admits the running version, then nothing is offered and the newest says needs_stepping_stone', () => {
       const d = decide({ logger: { firmware: '2.0.3' }, releases: [release()] });
       expect(single(d)).toEqual({ reason: 'needs_stepping_stone', offered: false });
     });
@@ -262,7 +262,7 @@ describe('offer decision', () => {
     });
 
     test('when the newest release is outside the share, then the highest eligible one is offered plainly (not as a stepping stone)', () => {
-      const releases = [release({ id: R230, state: 'expanding', share: 5 }), release({ id: R214, version: '2.1.4', upgradeFrom: null })];
+      const releases = [release({ id: R230, state: 'widening', share: 5 }), release({ id: R214, version: '2.1.4', upgradeFrom: null })];
       const d = decide({ logger: { id: LOGGER_BUCKET_500, firmware: '2.0.3' }, releases });
       expect(d.offer?.id).toBe(R214);
       expect(verdictOf(d, R214).reason).toBe('offered');
@@ -345,8 +345,8 @@ describe('offer decision', () => {
     });
   });
 
-  describe('rule 6: halted, paused, withdrawn and install reports', () => {
-    test.each(['paused', 'halted', 'withdrawn', 'draft'] as const)('when the release is %s, then it offers nothing and the detail names the state', (state) => {
+  describe('rule 6: stopped, paused, withdrawn and install reports', () => {
+    test.each(['paused', 'stopped', 'withdrawn', 'draft'] as const)('when the release is %s, then it offers nothing and the detail names the state', (state) => {
       const d = decide({ releases: [release({ state })] });
       expect(single(d)).toEqual({ reason: 'not_live', offered: false });
       expect(d.considered[0].detail).toContain(state === 'draft' ? 'draft' : state);
@@ -400,8 +400,8 @@ describe('offer decision', () => {
       ]);
     });
 
-    test('when the newest release is halted, then the next live one is offered', () => {
-      const releases = [release({ id: R230, state: 'halted' }), release({ id: R221, version: '2.2.1', upgradeFrom: null })];
+    test('when the newest release is stopped, then the next live one is offered', () => {
+      const releases = [release({ id: R230, state: 'stopped' }), release({ id: R221, version: '2.2.1', upgradeFrom: null })];
       const d = decide({ releases });
       expect(d.offer?.id).toBe(R221);
       expect(verdictOf(d, R230).reason).toBe('not_live');
@@ -411,7 +411,7 @@ describe('offer decision', () => {
   describe('the explanation', () => {
     const mixed = () => [
       release({ id: R214, version: '2.1.4', upgradeFrom: null }),
-      release({ id: '1a2b3c4d-0000-4000-8000-000000000300', version: '3.0.0-rc.1', track: 'early' }),
+      release({ id: '1a2b3c4d-0000-4000-8000-000000000300', version: '3.0.0-rc.1', channel: 'early' }),
       release({ id: R230 }),
       release({ id: R210, version: '2.1.0', state: 'withdrawn' }),
     ];
@@ -419,7 +419,7 @@ describe('offer decision', () => {
     test('when several releases exist, then every one is considered once, newest first, and exactly one is offered', () => {
       const d = decide({ logger: { firmware: '2.0.3' }, releases: mixed() });
       expect(d.considered.map((c) => c.version)).toEqual(['3.0.0-rc.1', '2.3.0', '2.1.4', '2.1.0']);
-      expect(d.considered.map((c) => c.reason)).toEqual(['wrong_track', 'needs_stepping_stone', 'stepping_stone', 'not_live']);
+      expect(d.considered.map((c) => c.reason)).toEqual(['wrong_channel', 'needs_stepping_stone', 'stepping_stone', 'not_live']);
       expect(d.considered.filter((c) => c.outcome === 'offered')).toHaveLength(1);
     });
 

@@ -1,9 +1,9 @@
-// Install report order, rollback detection, halt thresholds and load manners: the pure parts of the
+// Install report order, rollback detection, trip points and load manners: the pure parts of the
 // device API service. Orders and figures come from DEVICE_API.md ("States only move forward"),
 // issue 5 §4–§6, and semantic-version precedence as the semver package (npm) computes it.
 import semver from 'semver';
 import { afterInstalled, applyReport, isFinished, type StoredReport } from '../../server/device-api/reports';
-import { evaluateHalt, failureRatioVerdict, haltGauges, resetRateVerdict } from '../../server/device-api/halt';
+import { evaluateTrips, failureRatioVerdict, tripGauges, resetRateVerdict } from '../../server/device-api/trip';
 import { busyness, nextCheckInSeconds, stretchFor } from '../../server/device-api/load';
 import { dayOfPartition, partitionName, retentionDays, utcDay } from '../../server/device-api/partitions';
 
@@ -70,62 +70,62 @@ describe('confirmation and rollback', () => {
   });
 });
 
-describe('halt thresholds', () => {
-  const release = { haltFailureRatio: 0.05, haltMinReports: 20, haltResetFactor: 2 };
-  test('when fewer than the minimum installs finished, then no halt whatever the ratio', () => {
-    expect(failureRatioVerdict(release, { installed: 0, failed: 19 }).halt).toBe(false);
+describe('trip points', () => {
+  const release = { tripFailureRatio: 0.05, tripMinReports: 20, tripResetFactor: 2 };
+  test('when fewer than the minimum installs finished, then no stop whatever the ratio', () => {
+    expect(failureRatioVerdict(release, { installed: 0, failed: 19 }).trip).toBe(false);
   });
-  test('when the ratio equals the threshold, then no halt; above it, then halt with the figures', () => {
-    expect(failureRatioVerdict(release, { installed: 19, failed: 1 }).halt).toBe(false); // 1/20 = 5 %
+  test('when the ratio equals the threshold, then no stop; above it, then stop with the figures', () => {
+    expect(failureRatioVerdict(release, { installed: 19, failed: 1 }).trip).toBe(false); // 1/20 = 5 %
     const v = failureRatioVerdict(release, { installed: 19, failed: 2 }); // 2/21 = 9.52 %
-    expect(v).toMatchObject({ halt: true, rule: 'failure_ratio' });
-    expect(v.halt && v.reason).toContain('2 of 21 finished installs failed (9.5 %)');
+    expect(v).toMatchObject({ trip: true, rule: 'failure_ratio' });
+    expect(v.trip && v.reason).toContain('2 of 21 finished installs failed (9.5 %)');
   });
   const resets = { loggers: 20, resetsAfter: 0, loggerDaysAfter: 20, resetsBefore: 10, loggerDaysBefore: 100 };
   test('when fewer than 20 loggers confirmed a day ago, then the reset rate is not judged', () => {
-    expect(resetRateVerdict(release, { ...resets, loggers: 19, resetsAfter: 1000 }).halt).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, loggers: 19, resetsAfter: 1000 }).trip).toBe(false);
   });
-  test('when the reset rate is exactly twice the rate before, then no halt; above twice, then halt', () => {
+  test('when the reset rate is exactly twice the rate before, then no stop; above twice, then stop', () => {
     // before: 10 resets / 100 logger-days = 0.1 a day; after: 4 / 20 = 0.2 (= 2 ×), 5 / 20 = 0.25 (> 2 ×).
-    expect(resetRateVerdict(release, { ...resets, resetsAfter: 4 }).halt).toBe(false);
-    expect(resetRateVerdict(release, { ...resets, resetsAfter: 5 })).toMatchObject({ halt: true, rule: 'reset_rate' });
+    expect(resetRateVerdict(release, { ...resets, resetsAfter: 4 }).trip).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsAfter: 5 })).toMatchObject({ trip: true, rule: 'reset_rate' });
   });
   test('when there were no resets before, then the floor of one per 100 logger-days is the rate before', () => {
     // floor 0.01 a day × factor 2 × 20 logger-days = 0.4 resets: 1 reset crosses it, 0 does not.
-    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 0 }).halt).toBe(false);
-    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 1 }).halt).toBe(true);
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 0 }).trip).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, resetsAfter: 1 }).trip).toBe(true);
   });
   test('when the dashboard reads the gauges, then they show the figures the verdicts judge, and agree with them at and around each threshold', () => {
     // 1 of 20 finished = 5 % of 5 %: judged, not over (the threshold is "above", strictly).
-    expect(haltGauges(release, { installed: 19, failed: 1 }, resets).failureRatio).toMatchObject({ finished: 20, ratio: 0.05, judged: true, over: false });
+    expect(tripGauges(release, { installed: 19, failed: 1 }, resets).failureRatio).toMatchObject({ finished: 20, ratio: 0.05, judged: true, over: false });
     // before 0.1 a day; after 4 / 20 = 0.2 a day, factor 2 of 2.
-    expect(haltGauges(release, { installed: 0, failed: 0 }, { ...resets, resetsAfter: 4 }).resetRate).toMatchObject({ after: 0.2, before: 0.1, factor: 2, judged: true, over: false });
+    expect(tripGauges(release, { installed: 0, failed: 0 }, { ...resets, resetsAfter: 4 }).resetRate).toMatchObject({ after: 0.2, before: 0.1, factor: 2, judged: true, over: false });
     // No resets before: judged against the floor (0.01 a day), the measured rate still shows 0.
-    expect(haltGauges(release, { installed: 0, failed: 0 }, { ...resets, resetsBefore: 0, resetsAfter: 1 }).resetRate).toMatchObject({ before: 0, beforeJudged: 0.01, over: true });
+    expect(tripGauges(release, { installed: 0, failed: 0 }, { ...resets, resetsBefore: 0, resetsAfter: 1 }).resetRate).toMatchObject({ before: 0, beforeJudged: 0.01, over: true });
     for (const failed of [0, 1, 2, 19, 20]) {
       for (const installed of [0, 1, 18, 19, 40]) {
         const f = { installed, failed };
-        expect(haltGauges(release, f, resets).failureRatio.over).toBe(failureRatioVerdict(release, f).halt);
+        expect(tripGauges(release, f, resets).failureRatio.over).toBe(failureRatioVerdict(release, f).trip);
       }
     }
     for (const loggers of [19, 20]) {
       for (const resetsAfter of [0, 3, 4, 5, 50]) {
         for (const [resetsBefore, loggerDaysBefore] of [[0, 100], [10, 100], [0, 0], [2, 19], [2, 20]]) {
           const r = { ...resets, loggers, resetsAfter, resetsBefore, loggerDaysBefore };
-          expect(haltGauges(release, { installed: 0, failed: 0 }, r).resetRate.over).toBe(resetRateVerdict(release, r).halt);
+          expect(tripGauges(release, { installed: 0, failed: 0 }, r).resetRate.over).toBe(resetRateVerdict(release, r).trip);
         }
       }
     }
   });
   test('when the check-ins kept hold less than 20 logger-days before the release, then the reset rate is not judged, however many resets', () => {
     // A release confirmed longer ago than the retention window has no rate before to compare with.
-    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 0, resetsAfter: 500 }).halt).toBe(false);
-    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 19.9, resetsAfter: 500 }).halt).toBe(false);
-    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 20, resetsAfter: 500 }).halt).toBe(true);
-    expect(haltGauges(release, { installed: 0, failed: 0 }, { ...resets, loggerDaysBefore: 0, resetsAfter: 500 }).resetRate).toMatchObject({ judged: false, over: false, minLoggerDaysBefore: 20 });
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 0, resetsAfter: 500 }).trip).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 19.9, resetsAfter: 500 }).trip).toBe(false);
+    expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 20, resetsAfter: 500 }).trip).toBe(true);
+    expect(tripGauges(release, { installed: 0, failed: 0 }, { ...resets, loggerDaysBefore: 0, resetsAfter: 500 }).resetRate).toMatchObject({ judged: false, over: false, minLoggerDaysBefore: 20 });
   });
   test('the failure ratio is judged first', () => {
-    expect(evaluateHalt(release, { installed: 0, failed: 20 }, { ...resets, resetsAfter: 100 })).toMatchObject({ rule: 'failure_ratio' });
+    expect(evaluateTrips(release, { installed: 0, failed: 20 }, { ...resets, resetsAfter: 100 })).toMatchObject({ rule: 'failure_ratio' });
   });
 });
 

@@ -11,53 +11,53 @@ import {
 } from '../../server/releases/lifecycle';
 
 // Source: issue 4 §5 "Lifecycle, the complete table", written out here by hand (not read from lifecycle.ts):
-// draft → pilot (start_pilot) or deleted; pilot → expanding (expand, 1–99 %), complete, paused, halted,
-// withdrawn; expanding → expanding (larger share only), complete (= 100 %), paused, halted, withdrawn;
-// paused → resume (to the state it was paused from), halted, withdrawn; halted → resume (to the state
-// before the halt; reason required), withdrawn; complete → paused, halted, withdrawn; withdrawn is final.
+// draft → pilot (start_pilot) or deleted; pilot → widening (widen, 1–99 %), complete, paused, stopped,
+// withdrawn; widening → widening (larger share only), complete (= 100 %), paused, stopped, withdrawn;
+// paused → resume (to the state it was paused from), stopped, withdrawn; stopped → resume (to the state
+// before the stop; reason required), withdrawn; complete → paused, stopped, withdrawn; withdrawn is final.
 // Any other pair is refused (409) naming the allowed actions.
 
 const start: Record<ReleaseState, ReleaseLifecycle> = {
   draft: { state: 'draft', share: 0, resumeState: null },
   pilot: { state: 'pilot', share: 0, resumeState: null },
-  expanding: { state: 'expanding', share: 25, resumeState: null },
+  widening: { state: 'widening', share: 25, resumeState: null },
   complete: { state: 'complete', share: 100, resumeState: null },
-  paused: { state: 'paused', share: 25, resumeState: 'expanding' },
-  halted: { state: 'halted', share: 25, resumeState: 'expanding' },
+  paused: { state: 'paused', share: 25, resumeState: 'widening' },
+  stopped: { state: 'stopped', share: 25, resumeState: 'widening' },
   withdrawn: { state: 'withdrawn', share: 25, resumeState: null },
 };
 
 const allowed: Record<ReleaseState, ReleaseAction[]> = {
   draft: ['start_pilot'],
-  pilot: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
-  expanding: ['expand', 'complete', 'pause', 'halt', 'withdraw'],
-  complete: ['pause', 'halt', 'withdraw'],
-  paused: ['resume', 'halt', 'withdraw'],
-  halted: ['resume', 'withdraw'],
+  pilot: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
+  widening: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
+  complete: ['pause', 'stop', 'withdraw'],
+  paused: ['resume', 'stop', 'withdraw'],
+  stopped: ['resume', 'withdraw'],
   withdrawn: [],
 };
 
-/** Expected result of each legal pair, given the start rows above, share 50 for expand and a reason. */
+/** Expected result of each legal pair, given the start rows above, share 50 for widen and a reason. */
 const legal: Partial<Record<`${ReleaseState}:${ReleaseAction}`, ReleaseLifecycle>> = {
   'draft:start_pilot': { state: 'pilot', share: 0, resumeState: null },
-  'pilot:expand': { state: 'expanding', share: 50, resumeState: null },
+  'pilot:widen': { state: 'widening', share: 50, resumeState: null },
   'pilot:complete': { state: 'complete', share: 100, resumeState: null },
   'pilot:pause': { state: 'paused', share: 0, resumeState: 'pilot' },
-  'pilot:halt': { state: 'halted', share: 0, resumeState: 'pilot' },
+  'pilot:stop': { state: 'stopped', share: 0, resumeState: 'pilot' },
   'pilot:withdraw': { state: 'withdrawn', share: 0, resumeState: null },
-  'expanding:expand': { state: 'expanding', share: 50, resumeState: null },
-  'expanding:complete': { state: 'complete', share: 100, resumeState: null },
-  'expanding:pause': { state: 'paused', share: 25, resumeState: 'expanding' },
-  'expanding:halt': { state: 'halted', share: 25, resumeState: 'expanding' },
-  'expanding:withdraw': { state: 'withdrawn', share: 25, resumeState: null },
+  'widening:widen': { state: 'widening', share: 50, resumeState: null },
+  'widening:complete': { state: 'complete', share: 100, resumeState: null },
+  'widening:pause': { state: 'paused', share: 25, resumeState: 'widening' },
+  'widening:stop': { state: 'stopped', share: 25, resumeState: 'widening' },
+  'widening:withdraw': { state: 'withdrawn', share: 25, resumeState: null },
   'complete:pause': { state: 'paused', share: 100, resumeState: 'complete' },
-  'complete:halt': { state: 'halted', share: 100, resumeState: 'complete' },
+  'complete:stop': { state: 'stopped', share: 100, resumeState: 'complete' },
   'complete:withdraw': { state: 'withdrawn', share: 100, resumeState: null },
-  'paused:resume': { state: 'expanding', share: 25, resumeState: null },
-  'paused:halt': { state: 'halted', share: 25, resumeState: 'paused' },
+  'paused:resume': { state: 'widening', share: 25, resumeState: null },
+  'paused:stop': { state: 'stopped', share: 25, resumeState: 'paused' },
   'paused:withdraw': { state: 'withdrawn', share: 25, resumeState: null },
-  'halted:resume': { state: 'expanding', share: 25, resumeState: null },
-  'halted:withdraw': { state: 'withdrawn', share: 25, resumeState: null },
+  'stopped:resume': { state: 'widening', share: 25, resumeState: null },
+  'stopped:withdraw': { state: 'withdrawn', share: 25, resumeState: null },
 };
 
 const pairs = RELEASE_STATES.flatMap((state) => RELEASE_ACTIONS.map((action) => ({ state, action, expected: legal[`${state}:${action}`] ?? null })));
@@ -88,18 +88,18 @@ describe('release lifecycle', () => {
     expect(canDelete(state)).toBe(state === 'draft');
   });
 
-  test.each(RELEASE_STATES)('when %s is checked for liveness, then only pilot, expanding and complete are live (DEVICE_API.md rule 2)', (state) => {
-    expect(isLive(state)).toBe(state === 'pilot' || state === 'expanding' || state === 'complete');
+  test.each(RELEASE_STATES)('when %s is checked for liveness, then only pilot, widening and complete are live (DEVICE_API.md rule 2)', (state) => {
+    expect(isLive(state)).toBe(state === 'pilot' || state === 'widening' || state === 'complete');
   });
 
   describe('reasons', () => {
     test.each([
-      { state: 'pilot' as const, action: 'halt' as const },
-      { state: 'expanding' as const, action: 'halt' as const },
+      { state: 'pilot' as const, action: 'stop' as const },
+      { state: 'widening' as const, action: 'stop' as const },
       { state: 'complete' as const, action: 'withdraw' as const },
-      { state: 'paused' as const, action: 'halt' as const },
-      { state: 'halted' as const, action: 'resume' as const },
-      { state: 'halted' as const, action: 'withdraw' as const },
+      { state: 'paused' as const, action: 'stop' as const },
+      { state: 'stopped' as const, action: 'resume' as const },
+      { state: 'stopped' as const, action: 'withdraw' as const },
     ])('when a $state release gets $action without a reason, then it is refused as reason_required', ({ state, action }) => {
       for (const reason of [undefined, null, '', '   ']) {
         const result = transition(start[state], action, { reason });
@@ -111,13 +111,13 @@ describe('release lifecycle', () => {
       { state: 'pilot' as const, action: 'pause' as const },
       { state: 'paused' as const, action: 'resume' as const },
       { state: 'draft' as const, action: 'start_pilot' as const },
-      { state: 'expanding' as const, action: 'complete' as const },
+      { state: 'widening' as const, action: 'complete' as const },
     ])('when a $state release gets $action without a reason, then it goes ahead (no reason required)', ({ state, action }) => {
       expect(transition(start[state], action, {}).ok).toBe(true);
     });
 
     test('when an illegal action also lacks a reason, then the refusal is illegal (409 before 400)', () => {
-      expect(transition(start.withdrawn, 'halt', {})).toMatchObject({ ok: false, code: 'illegal', allowedActions: [] });
+      expect(transition(start.withdrawn, 'stop', {})).toMatchObject({ ok: false, code: 'illegal', allowedActions: [] });
     });
   });
 
@@ -132,21 +132,21 @@ describe('release lifecycle', () => {
       { from: 'pilot' as const, share: 100, ok: false },
       { from: 'pilot' as const, share: Number.NaN, ok: false },
       { from: 'pilot' as const, share: undefined, ok: false },
-      { from: 'expanding' as const, share: 26, ok: true },
-      { from: 'expanding' as const, share: 25, ok: false },
-      { from: 'expanding' as const, share: 5, ok: false },
-    ])('when a $from release is expanded to $share %, then ok is $ok', ({ from, share, ok }) => {
-      const result = transition(start[from], 'expand', { share });
-      if (ok) expect(result).toEqual({ ok: true, release: { state: 'expanding', share, resumeState: null } });
+      { from: 'widening' as const, share: 26, ok: true },
+      { from: 'widening' as const, share: 25, ok: false },
+      { from: 'widening' as const, share: 5, ok: false },
+    ])('when a $from release is widened to $share %, then ok is $ok', ({ from, share, ok }) => {
+      const result = transition(start[from], 'widen', { share });
+      if (ok) expect(result).toEqual({ ok: true, release: { state: 'widening', share, resumeState: null } });
       else expect(result).toMatchObject({ ok: false, code: 'invalid_share' });
     });
 
     test('when a release goes pilot → 5 % → 25 % → 50 % → complete, then the share follows (issue 4 shortcuts)', () => {
       let release = start.pilot;
       for (const [action, share, expected] of [
-        ['expand', 5, 5],
-        ['expand', 25, 25],
-        ['expand', 50, 50],
+        ['widen', 5, 5],
+        ['widen', 25, 25],
+        ['widen', 50, 50],
         ['complete', undefined, 100],
       ] as const) {
         const result = transition(release, action, { share });
@@ -160,7 +160,7 @@ describe('release lifecycle', () => {
   });
 
   describe('resume', () => {
-    test.each(['pilot', 'expanding', 'complete'] as const)('when a %s release is paused and resumed, then it is back in that state with its share', (live) => {
+    test.each(['pilot', 'widening', 'complete'] as const)('when a %s release is paused and resumed, then it is back in that state with its share', (live) => {
       const paused = transition(start[live], 'pause');
       expect(paused.ok).toBe(true);
       if (!paused.ok) return;
@@ -168,22 +168,22 @@ describe('release lifecycle', () => {
       expect(resumed).toEqual({ ok: true, release: start[live] });
     });
 
-    test.each(['pilot', 'expanding', 'complete'] as const)('when a %s release is halted and resumed with a reason, then it is back in that state', (live) => {
-      const halted = transition(start[live], 'halt', { reason: 'watchdog resets doubled' });
-      expect(halted.ok).toBe(true);
-      if (!halted.ok) return;
-      const resumed = transition(halted.release, 'resume', { reason: 'fix confirmed on the bench' });
+    test.each(['pilot', 'widening', 'complete'] as const)('when a %s release is stopped and resumed with a reason, then it is back in that state', (live) => {
+      const stopped = transition(start[live], 'stop', { reason: 'watchdog resets doubled' });
+      expect(stopped.ok).toBe(true);
+      if (!stopped.ok) return;
+      const resumed = transition(stopped.release, 'resume', { reason: 'fix confirmed on the bench' });
       expect(resumed).toEqual({ ok: true, release: start[live] });
     });
 
-    test('when a paused release is halted, then resume returns to paused, and a second resume to the live state', () => {
+    test('when a paused release is stopped, then resume returns to paused, and a second resume to the live state', () => {
       const steps: Array<[ReleaseAction, string | undefined, ReleaseState]> = [
         ['pause', undefined, 'paused'],
-        ['halt', 'failures over threshold', 'halted'],
+        ['stop', 'failures over threshold', 'stopped'],
         ['resume', 'cause found', 'paused'],
-        ['resume', undefined, 'expanding'],
+        ['resume', undefined, 'widening'],
       ];
-      let release = start.expanding;
+      let release = start.widening;
       for (const [action, reason, state] of steps) {
         const result = transition(release, action, { reason });
         expect(result.ok).toBe(true);

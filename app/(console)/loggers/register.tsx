@@ -59,7 +59,7 @@ export default function Register() {
         error: single.error,
         run: (input) =>
           single.mutate(input, {
-            onSuccess: (r) => setIssued([{ id: r.id, serial: r.serial, token: r.token, modelName: r.modelName, board: r.board, track: r.track }]),
+            onSuccess: (r) => setIssued([{ id: r.id, serial: r.serial, token: r.token, modelName: r.modelName, board: r.board, channel: r.channel }]),
           }),
       }}
       batch={{

@@ -25,14 +25,14 @@ export default function ReleaseDetail() {
   const me = useMe();
   const { wide } = useBreakpoints();
   const release = useRelease(id);
-  const live = release.data?.state === 'pilot' || release.data?.state === 'expanding';
+  const live = release.data?.state === 'pilot' || release.data?.state === 'widening';
   useLiveRelease(id, live);
   const started = Boolean(release.data && release.data.state !== 'draft');
   const dashboard = useReleaseDashboard(started ? id : '', live);
   const [sitePage, setSitePage] = React.useState(1);
   const siteRows = useReleaseSites(started ? id : '', sitePage, SITE_PAGE_SIZE, live);
   const [pending, setPending] = React.useState<PendingMove | null>(null);
-  const estimateShare = pending && (pending.action === 'expand' || pending.action === 'complete') ? (pending.action === 'complete' ? 100 : (pending.share ?? null)) : null;
+  const estimateShare = pending && (pending.action === 'widen' || pending.action === 'complete') ? (pending.action === 'complete' ? 100 : (pending.share ?? null)) : null;
   const estimate = useReleaseEstimate(id, estimateShare);
   const transition = useReleaseTransition(id);
   const remove = useDeleteRelease(id);

@@ -6,6 +6,7 @@ import * as m0003 from './0003_releases';
 import * as m0004 from './0004_device';
 import * as m0005 from './0005_registry_more';
 import * as m0006 from './0006_fleet';
+import * as m0007 from './0007_own_words';
 
 export type Migration = {
   name: string;
@@ -20,4 +21,5 @@ export const migrations: Migration[] = [
   { name: '0004_device', ...m0004 },
   { name: '0005_registry_more', ...m0005 },
   { name: '0006_fleet', ...m0006 },
+  { name: '0007_own_words', ...m0007 },
 ];

@@ -1,7 +1,7 @@
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 
 export type BoardRevision = { label: string; note: string };
-export type Track = 'stable' | 'early';
+export type Channel = 'stable' | 'early';
 export type LoggerStatus = 'registered' | 'enrolled' | 'retired';
 
 /** A logger model (hardware design), e.g. "FL-2 field logger". Named LoggerModel to avoid Sequelize's Model. */
@@ -42,7 +42,7 @@ export class Logger extends Model<InferAttributes<Logger>, InferCreationAttribut
   declare serial: string;
   declare modelId: string;
   declare board: string;
-  declare track: CreationOptional<Track>;
+  declare channel: CreationOptional<Channel>;
   declare status: CreationOptional<LoggerStatus>;
   declare tokenDigest: string | null;
   declare tokenIssuedAt: Date | null;
@@ -125,7 +125,7 @@ export function initRegistryModels(sequelize: Sequelize) {
       serial: { type: DataTypes.TEXT, allowNull: false },
       modelId: { type: DataTypes.UUID, allowNull: false },
       board: { type: DataTypes.TEXT, allowNull: false },
-      track: { type: DataTypes.TEXT, allowNull: false, defaultValue: 'stable' },
+      channel: { type: DataTypes.TEXT, allowNull: false, defaultValue: 'stable' },
       status: { type: DataTypes.TEXT, allowNull: false, defaultValue: 'registered' },
       tokenDigest: { type: DataTypes.CHAR(64), allowNull: true },
       tokenIssuedAt: { type: DataTypes.DATE, allowNull: true },

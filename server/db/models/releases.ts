@@ -4,7 +4,7 @@ import type { SignatureAlgorithm } from '../../../schemas/manifest';
 import type { ReleaseAction, ReleaseState, ResumeState } from '../../releases/lifecycle';
 import type { Scope } from '../../auth/actor';
 import type { ActorType } from './activity';
-import type { Track } from './registry';
+import type { Channel } from './registry';
 
 export type KeyState = 'active' | 'retired' | 'revoked';
 export type InstallReportState = 'offered' | 'downloading' | 'downloaded' | 'installing' | 'installed' | 'failed';
@@ -44,7 +44,7 @@ export class Release extends Model<InferAttributes<Release>, InferCreationAttrib
   declare id: CreationOptional<string>;
   declare modelId: string;
   declare version: string;
-  declare track: Track;
+  declare channel: Channel;
   declare state: CreationOptional<ReleaseState>;
   declare share: CreationOptional<number>;
   declare resumeState: CreationOptional<ResumeState | null>;
@@ -52,9 +52,9 @@ export class Release extends Model<InferAttributes<Release>, InferCreationAttrib
   declare manifestBoards: string[];
   declare upgradeFrom: CreationOptional<string | null>;
   declare daylightWindow: CreationOptional<boolean>;
-  declare haltFailureRatio: CreationOptional<number>;
-  declare haltMinReports: CreationOptional<number>;
-  declare haltResetFactor: CreationOptional<number>;
+  declare tripFailureRatio: CreationOptional<number>;
+  declare tripMinReports: CreationOptional<number>;
+  declare tripResetFactor: CreationOptional<number>;
   declare securityCounter: number;
   declare imageSha256: string;
   declare manifest: Buffer;
@@ -65,9 +65,13 @@ export class Release extends Model<InferAttributes<Release>, InferCreationAttrib
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
   declare pilotedAt: CreationOptional<Date | null>;
-  declare expandedAt: CreationOptional<Date | null>;
+  declare widenedAt: CreationOptional<Date | null>;
   declare completedAt: CreationOptional<Date | null>;
-  declare haltedAt: CreationOptional<Date | null>;
+  declare stoppedAt: CreationOptional<Date | null>;
+  /** Who stopped a stopped release: a person, or the trip rule. */
+  declare stoppedBy: CreationOptional<'person' | 'trip' | null>;
+  /** The figures a trip judged, kept with the release it stopped. */
+  declare tripFigures: CreationOptional<Record<string, unknown> | null>;
 }
 
 export class ReleasePilotSite extends Model<InferAttributes<ReleasePilotSite>, InferCreationAttributes<ReleasePilotSite>> {
@@ -158,7 +162,7 @@ export function initReleaseModels(sequelize: Sequelize) {
       id: uuid(),
       modelId: { type: DataTypes.UUID, allowNull: false },
       version: { type: DataTypes.TEXT, allowNull: false },
-      track: { type: DataTypes.TEXT, allowNull: false },
+      channel: { type: DataTypes.TEXT, allowNull: false },
       state: { type: DataTypes.TEXT, allowNull: false, defaultValue: 'draft' },
       share: numeric('share', 0),
       resumeState: { type: DataTypes.TEXT, allowNull: true },
@@ -166,9 +170,9 @@ export function initReleaseModels(sequelize: Sequelize) {
       manifestBoards: { type: DataTypes.ARRAY(DataTypes.TEXT), allowNull: false },
       upgradeFrom: { type: DataTypes.TEXT, allowNull: true },
       daylightWindow: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
-      haltFailureRatio: numeric('haltFailureRatio', 0.05),
-      haltMinReports: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 20 },
-      haltResetFactor: numeric('haltResetFactor', 2),
+      tripFailureRatio: numeric('tripFailureRatio', 0.05),
+      tripMinReports: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 20 },
+      tripResetFactor: numeric('tripResetFactor', 2),
       securityCounter: { type: DataTypes.INTEGER, allowNull: false },
       imageSha256: { type: DataTypes.CHAR(64), allowNull: false },
       manifest: { type: DataTypes.BLOB, allowNull: false },
@@ -179,9 +183,11 @@ export function initReleaseModels(sequelize: Sequelize) {
       createdAt: DataTypes.DATE,
       updatedAt: DataTypes.DATE,
       pilotedAt: date(),
-      expandedAt: date(),
+      widenedAt: date(),
       completedAt: date(),
-      haltedAt: date(),
+      stoppedAt: date(),
+      stoppedBy: { type: DataTypes.TEXT, allowNull: true },
+      tripFigures: { type: DataTypes.JSONB, allowNull: true },
     },
     { sequelize, tableName: 'releases', underscored: true },
   );

@@ -63,7 +63,7 @@ export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Prom
         const silent = i === 4 && k === 1;
         await Logger.create(
           {
-            serial, modelId: model.id, board, track: 'stable', status: 'enrolled', tokenDigest: digest, tokenIssuedAt: now,
+            serial, modelId: model.id, board, channel: 'stable', status: 'enrolled', tokenDigest: digest, tokenIssuedAt: now,
             siteId: site.id, enrolledAt: new Date(now.getTime() - (30 + i) * 86400_000), enrolledBy: integrator.id,
             registeredBy: people.get('Morgan')!.id, firmware: board === 'A' ? '2.1.4' : '2.2.0',
             supplyV: board === 'A' ? 4.7 : 5.1,
@@ -78,7 +78,7 @@ export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Prom
       const serial = `FL2-${String(2400 + serialNo++).padStart(5, '0')}`;
       const { token, digest } = newToken('hlt_');
       bench.push(`${serial},${token},${model.name},${board}`);
-      await Logger.create({ serial, modelId: model.id, board, track: 'stable', status: 'registered', tokenDigest: digest, tokenIssuedAt: now, registeredBy: people.get('Morgan')!.id }, { transaction });
+      await Logger.create({ serial, modelId: model.id, board, channel: 'stable', status: 'registered', tokenDigest: digest, tokenIssuedAt: now, registeredBy: people.get('Morgan')!.id }, { transaction });
     }
     await Activity.create(
       { actorType: 'system', actorId: null, actorName: 'system', action: 'demo.seeded', targetType: 'system', targetId: null, summary: 'Demo scenario seeded: Fernhollow Energy Co-op', requestId: null, details: null },

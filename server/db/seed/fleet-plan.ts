@@ -7,7 +7,7 @@
 //   whose share covers its bucket (cohort.ts: SHA-256 of logger:release), or at completion;
 // - it installs releases one hop at a time, in version order, each admitted by the release's
 //   upgrade-from range; releases with the daylight window on install only inside the site's window;
-// - a halted release offers nothing after its halt.
+// - a stopped release offers nothing after its stop.
 // A few loggers play a part in the story (low supply, a failed install, a stepping stone …): their
 // ids are drawn until their bucket puts them where the story needs them.
 import { randomUUID } from 'node:crypto';
@@ -22,7 +22,7 @@ export const MINUTE = 60_000;
 export const HOUR = 3_600_000;
 export const DAY = 86_400_000;
 
-type Track = 'stable' | 'early';
+type Channel = 'stable' | 'early';
 type Person = 'Morgan' | 'Priya' | 'Tomasz' | 'Ade' | 'Lena' | 'system';
 
 // ─── Releases ───────────────────────────────────────────────────────────────
@@ -32,7 +32,7 @@ type StepSpec = { action: ReleaseAction | 'upload'; at: Date; share?: number; re
 export type PlannedRelease = {
   id: string;
   version: string;
-  track: Track;
+  channel: Channel;
   boards: string[];
   upgradeFrom: string | null;
   securityCounter: number;
@@ -45,9 +45,9 @@ export type PlannedRelease = {
   resumeState: ResumeState | null;
   uploadedAt: Date;
   pilotedAt: Date | null;
-  expandedAt: Date | null;
+  widenedAt: Date | null;
   completedAt: Date | null;
-  haltedAt: Date | null;
+  stoppedAt: Date | null;
 };
 
 /** A time on the given number of days before `now`, at hh:mm UTC (office hours in the Vale). */
@@ -81,7 +81,7 @@ function nextInWindow(at: Date, spot: { latitude: number; longitude: number }): 
   return at;
 }
 
-function buildRelease(spec: Omit<PlannedRelease, 'id' | 'steps' | 'state' | 'share' | 'resumeState' | 'uploadedAt' | 'pilotedAt' | 'expandedAt' | 'completedAt' | 'haltedAt'>, steps: StepSpec[]): PlannedRelease {
+function buildRelease(spec: Omit<PlannedRelease, 'id' | 'steps' | 'state' | 'share' | 'resumeState' | 'uploadedAt' | 'pilotedAt' | 'widenedAt' | 'completedAt' | 'stoppedAt'>, steps: StepSpec[]): PlannedRelease {
   let life: ReleaseLifecycle = { state: 'draft', share: 0, resumeState: null };
   const done: PlannedRelease['steps'] = [];
   const first: Partial<Record<ReleaseState, Date>> = {};
@@ -105,9 +105,9 @@ function buildRelease(spec: Omit<PlannedRelease, 'id' | 'steps' | 'state' | 'sha
     resumeState: life.resumeState,
     uploadedAt: steps[0].at,
     pilotedAt: first.pilot ?? null,
-    expandedAt: first.expanding ?? null,
+    widenedAt: first.widening ?? null,
     completedAt: first.complete ?? null,
-    haltedAt: first.halted ?? null,
+    stoppedAt: first.stopped ?? null,
   };
 }
 
@@ -140,55 +140,55 @@ export const SITE = {
   pellowHall: 46,
 } as const;
 
-/** Sites on the early track (3.0 pre-releases): the co-op's own depot and three volunteers. */
+/** Sites on the early channel (3.0 pre-releases): the co-op's own depot and three volunteers. */
 export const EARLY_SITES: readonly number[] = [SITE.fernhollowDepot, SITE.glasshouses, SITE.aldmereSports, SITE.pellowHall];
-/** Early-track loggers followed the stable track until the sites volunteered. */
+/** Early-channel loggers followed the stable channel until the sites volunteered. */
 const EARLY_SWITCH_DAYS = 25;
 
 export function planReleases(now: Date, widenedAt: Date) {
   const at = (days: number, hh: number, mm: number) => daysAgoAt(now, days, hh, mm);
   const r203 = buildRelease(
     {
-      version: '2.0.3', track: 'stable', boards: ['A', 'B', 'C'], upgradeFrom: null, securityCounter: 3, daylightWindow: false,
+      version: '2.0.3', channel: 'stable', boards: ['A', 'B', 'C'], upgradeFrom: null, securityCounter: 3, daylightWindow: false,
       notes: 'Fixes the energy counter wrapping after 4 GWh-equivalent pulses; steadier Wi-Fi reconnects.', pilotSites: [SITE.aldmereHall, SITE.aldmereSchool],
     },
     [
       { action: 'upload', at: at(124, 9, 40), actor: 'Priya' },
       { action: 'start_pilot', at: at(122, 10, 5), actor: 'Priya' },
-      { action: 'expand', at: at(116, 10, 30), share: 30, actor: 'Priya' },
+      { action: 'widen', at: at(116, 10, 30), share: 30, actor: 'Priya' },
       { action: 'complete', at: at(110, 11, 0), actor: 'Priya' },
     ],
   );
   const r214 = buildRelease(
     {
-      version: '2.1.4', track: 'stable', boards: ['A', 'B', 'C'], upgradeFrom: null, securityCounter: 4, daylightWindow: false,
+      version: '2.1.4', channel: 'stable', boards: ['A', 'B', 'C'], upgradeFrom: null, securityCounter: 4, daylightWindow: false,
       notes: 'Moves the settings store to the new flash layout. Later releases expect it: loggers on 2.0.x step through 2.1.4.',
       pilotSites: [SITE.brackenfordPumps, SITE.brackenfordHall],
     },
     [
       { action: 'upload', at: at(80, 9, 15), actor: 'Priya' },
       { action: 'start_pilot', at: at(78, 10, 0), actor: 'Priya' },
-      { action: 'expand', at: at(73, 10, 20), share: 25, actor: 'Priya' },
-      { action: 'expand', at: at(69, 9, 50), share: 60, actor: 'Priya' },
+      { action: 'widen', at: at(73, 10, 20), share: 25, actor: 'Priya' },
+      { action: 'widen', at: at(69, 9, 50), share: 60, actor: 'Priya' },
       { action: 'complete', at: at(65, 10, 10), actor: 'Priya' },
     ],
   );
   const r220 = buildRelease(
     {
-      version: '2.2.0', track: 'stable', boards: ['A', 'B', 'C'], upgradeFrom: '>=2.1.0', securityCounter: 4, daylightWindow: false,
+      version: '2.2.0', channel: 'stable', boards: ['A', 'B', 'C'], upgradeFrom: '>=2.1.0', securityCounter: 4, daylightWindow: false,
       notes: 'Probe readings at the profile\'s resolution; check-ins carry reset counts by reason.', pilotSites: [SITE.hollinsDairy, SITE.tarnwickPumps2],
     },
     [
       { action: 'upload', at: at(42, 14, 5), actor: 'Priya' },
       { action: 'start_pilot', at: at(40, 9, 30), actor: 'Priya' },
-      { action: 'expand', at: at(36, 10, 0), share: 20, actor: 'Priya' },
-      { action: 'expand', at: at(33, 10, 15), share: 50, actor: 'Priya' },
+      { action: 'widen', at: at(36, 10, 0), share: 20, actor: 'Priya' },
+      { action: 'widen', at: at(33, 10, 15), share: 50, actor: 'Priya' },
       { action: 'complete', at: at(29, 9, 45), actor: 'Priya' },
     ],
   );
   const r230 = buildRelease(
     {
-      version: '2.3.0', track: 'stable', boards: ['B', 'C'], upgradeFrom: '>=2.1.0', securityCounter: 5, daylightWindow: true,
+      version: '2.3.0', channel: 'stable', boards: ['B', 'C'], upgradeFrom: '>=2.1.0', securityCounter: 5, daylightWindow: true,
       notes:
         'Faster sampling and the new radio power save; the radio stays quiet through supply dips.\n\n' +
         'Not for board A: its linear regulator browns out under the longer radio bursts (bench test), so board A stays on 2.2.0. ' +
@@ -198,28 +198,28 @@ export function planReleases(now: Date, widenedAt: Date) {
     [
       { action: 'upload', at: at(10, 15, 20), actor: 'Priya' },
       { action: 'start_pilot', at: at(8, 10, 30), actor: 'Priya' },
-      { action: 'expand', at: at(5, 10, 40), share: 10, actor: 'Priya' },
-      { action: 'expand', at: widenedAt, share: 25, actor: 'Priya' },
+      { action: 'widen', at: at(5, 10, 40), share: 10, actor: 'Priya' },
+      { action: 'widen', at: widenedAt, share: 25, actor: 'Priya' },
     ],
   );
   const beta1 = buildRelease(
     {
-      version: '3.0.0-beta.1', track: 'early', boards: ['B', 'C'], upgradeFrom: '>=2.2.0', securityCounter: 5, daylightWindow: false,
+      version: '3.0.0-beta.1', channel: 'early', boards: ['B', 'C'], upgradeFrom: '>=2.2.0', securityCounter: 5, daylightWindow: false,
       notes: 'Firmware 3.0 preview: the new measurement scheduler and remote profile checks.', pilotSites: [SITE.fernhollowDepot, SITE.aldmereSports],
     },
     [
       { action: 'upload', at: at(23, 11, 0), actor: 'Priya' },
       { action: 'start_pilot', at: at(21, 10, 0), actor: 'Priya' },
-      { action: 'expand', at: at(11, 10, 30), share: 20, actor: 'Priya' },
+      { action: 'widen', at: at(11, 10, 30), share: 20, actor: 'Priya' },
       {
-        action: 'halt', at: at(6, 9, 20), actor: 'Priya',
+        action: 'stop', at: at(6, 9, 20), actor: 'Priya',
         reason: 'Watchdog resets after Wi-Fi reconnects on board B at Corvenham Growers Glasshouses; 3.0.0-rc.1 carries the fix.',
       },
     ],
   );
   const rc1 = buildRelease(
     {
-      version: '3.0.0-rc.1', track: 'early', boards: ['B', 'C'], upgradeFrom: '>=2.2.0', securityCounter: 5, daylightWindow: false,
+      version: '3.0.0-rc.1', channel: 'early', boards: ['B', 'C'], upgradeFrom: '>=2.2.0', securityCounter: 5, daylightWindow: false,
       notes: 'Release candidate: fixes the watchdog resets of beta.1 after Wi-Fi reconnects.', pilotSites: [SITE.fernhollowDepot, SITE.aldmereSports],
     },
     [
@@ -240,7 +240,7 @@ export type Role =
   | 'stepping_stone'
   | 'daylight'
   | 'outside_share'
-  | 'halted_behind'
+  | 'stopped_behind'
   | 'on_beta'
   | 'unstable'
   | 'probe_fault'
@@ -264,7 +264,7 @@ export type PlannedLogger = {
   id: string;
   serial: string;
   board: string;
-  track: Track;
+  channel: Channel;
   status: 'registered' | 'enrolled' | 'retired';
   siteIndex: number | null;
   enrolledAt: Date | null;
@@ -286,7 +286,7 @@ export type PlannedLogger = {
   profileChangedAt: Date | null;
 };
 
-export type PlannedSite = ValeSite & { index: number; latitude: number; longitude: number; integrator: 'Tomasz' | 'Ade'; track: Track; createdAt: Date; boardEra: 'A' | 'B' | 'C' };
+export type PlannedSite = ValeSite & { index: number; latitude: number; longitude: number; integrator: 'Tomasz' | 'Ade'; channel: Channel; createdAt: Date; boardEra: 'A' | 'B' | 'C' };
 
 export const FACTORY_BEFORE_RELEASES = '1.9.2';
 export const COUNTER_OF: Record<string, number> = { '1.9.2': 2, '2.0.3': 3, '2.1.4': 4, '2.2.0': 4, '2.3.0': 5, '3.0.0-beta.1': 5, '3.0.0-rc.1': 5 };
@@ -310,7 +310,7 @@ export function planFleet(now: Date, random: Random = seededRandom(20261201)) {
     const boardEra = index < 13 ? 'A' : index < 36 ? 'B' : 'C';
     return {
       ...s, index, latitude, longitude, integrator: integratorOf(village),
-      track: EARLY_SITES.includes(index) ? 'early' : 'stable',
+      channel: EARLY_SITES.includes(index) ? 'early' : 'stable',
       createdAt: daysAgoAt(now, 720 - index * 11, 9 + (index % 7), (index * 13) % 60),
       boardEra,
     };
@@ -327,9 +327,9 @@ export function planFleet(now: Date, random: Random = seededRandom(20261201)) {
     [`${SITE.hobblefordPumps}:0`, ['failed_connection']],
     [`${SITE.tarnwickDairy}:2`, ['daylight']],
     [`${SITE.pellowHut4}:0`, ['outside_share']],
-    [`${SITE.pellowHall}:0`, ['halted_behind']],
+    [`${SITE.pellowHall}:0`, ['stopped_behind']],
     [`${SITE.glasshouses}:0`, ['on_beta']],
-    [`${SITE.glasshouses}:1`, ['halted_behind']],
+    [`${SITE.glasshouses}:1`, ['stopped_behind']],
     [`${SITE.aldmereSports}:1`, ['rc_downloading']],
     [`${SITE.corvenhamHall}:0`, ['profile_changed']],
     [`${SITE.tarnwickHut6}:0`, ['silent', 'outside_share']],
@@ -355,7 +355,7 @@ export function planFleet(now: Date, random: Random = seededRandom(20261201)) {
             return !inShare(b230, 25);
           case 'silent':
             return !inShare(b230, 10);
-          case 'halted_behind':
+          case 'stopped_behind':
             return !inShare(bBeta, 20);
           case 'on_beta':
             return inShare(bBeta, 20);
@@ -413,7 +413,7 @@ export function planFleet(now: Date, random: Random = seededRandom(20261201)) {
       id,
       serial: nextSerial(),
       board: e.board,
-      track: site.track,
+      channel: site.channel,
       status: retired ? 'retired' : 'enrolled',
       siteIndex: site.index,
       enrolledAt: e.enrolledAt,
@@ -437,7 +437,7 @@ export function planFleet(now: Date, random: Random = seededRandom(20261201)) {
   // On the shelf: registered, not yet enrolled anywhere.
   for (let k = 0; k < 6; k++) {
     loggers.push({
-      id: randomUUID(), serial: nextSerial(), board: 'C', track: 'stable', status: 'registered', siteIndex: null, enrolledAt: null, enrolledBy: null,
+      id: randomUUID(), serial: nextSerial(), board: 'C', channel: 'stable', status: 'registered', siteIndex: null, enrolledAt: null, enrolledBy: null,
       retiredAt: null, retireReason: null, panelWp: 0, roles: [], firmware: null, factory: null, installs: [], reports: [], lastAt: null, lowSupplySince: null, profileChangedAt: null,
     });
   }
@@ -453,14 +453,14 @@ function eligibleAt(logger: PlannedLogger, r: PlannedRelease): Date | null {
   const pilot = r.steps.find((s) => s.action === 'start_pilot');
   if (pilot && logger.siteIndex !== null && r.pilotSites.includes(logger.siteIndex)) times.push(pilot.at.getTime());
   const bucket = bucketOf(logger.id, r.id);
-  const widening = r.steps.find((s) => s.action === 'expand' && inShare(bucket, s.share!));
+  const widening = r.steps.find((s) => s.action === 'widen' && inShare(bucket, s.share!));
   if (widening) times.push(widening.at.getTime());
   const complete = r.steps.find((s) => s.action === 'complete');
   if (complete) times.push(complete.at.getTime());
   if (times.length === 0) return null;
   const first = Math.min(...times);
-  const halt = r.steps.find((s) => s.action === 'halt');
-  if (halt && first >= halt.at.getTime()) return null;
+  const stop = r.steps.find((s) => s.action === 'stop');
+  if (stop && first >= stop.at.getTime()) return null;
   return new Date(first);
 }
 
@@ -483,11 +483,11 @@ function runHistory(logger: PlannedLogger, random: Random, site: PlannedSite, ct
     if (!semver.gt(r.version, running)) continue;
     let from = eligibleAt(logger, r);
     if (!from) continue;
-    // Track: stable releases until an early site volunteered, early ones after.
-    if (logger.track === 'early') {
-      if (r.track === 'stable' && from.getTime() >= ctx.switchAt.getTime()) continue;
-      if (r.track === 'early' && from.getTime() < ctx.switchAt.getTime()) from = ctx.switchAt;
-    } else if (r.track !== 'stable') continue;
+    // Channel: stable releases until an early site volunteered, early ones after.
+    if (logger.channel === 'early') {
+      if (r.channel === 'stable' && from.getTime() >= ctx.switchAt.getTime()) continue;
+      if (r.channel === 'early' && from.getTime() < ctx.switchAt.getTime()) from = ctx.switchAt;
+    } else if (r.channel !== 'stable') continue;
     if (r.upgradeFrom && !semver.satisfies(running, r.upgradeFrom, { includePrerelease: true })) break;
     if (r === releases.r214 && roles.includes('stepping_stone')) {
       // The spare needs the stepping stone first: offered at its first check-in, downloading over a weak link.
@@ -497,8 +497,8 @@ function runHistory(logger: PlannedLogger, random: Random, site: PlannedSite, ct
     let start = Math.max(from.getTime(), last) + Math.round((5 + random() * 25) * MINUTE);
     const spot = { latitude: site.latitude, longitude: site.longitude };
     if (r.daylightWindow) start = nextInWindow(new Date(start), spot).getTime() + Math.round(random() * 30 * MINUTE);
-    const halt = r.steps.find((s) => s.action === 'halt');
-    if (halt && start >= halt.at.getTime()) continue;
+    const stop = r.steps.find((s) => s.action === 'stop');
+    if (stop && start >= stop.at.getTime()) continue;
     const offeredAt = new Date(Math.max(from.getTime(), start - Math.round(random() * 10 * MINUTE)));
 
     // The parts the story needs.

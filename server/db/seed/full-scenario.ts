@@ -90,11 +90,11 @@ export async function seedFullScenario(ctx: FullSeedContext) {
     const lastStep = r.steps[r.steps.length - 1];
     const row = await Release.create(
       {
-        id: r.id, modelId: model.id, version: r.version, track: r.track, state: r.state, share: r.share, resumeState: r.resumeState,
+        id: r.id, modelId: model.id, version: r.version, channel: r.channel, state: r.state, share: r.share, resumeState: r.resumeState,
         boards: r.boards, manifestBoards: r.boards, upgradeFrom: r.upgradeFrom, daylightWindow: r.daylightWindow,
         securityCounter: r.securityCounter, imageSha256: image.sha256, manifest: signed.manifest, signature: signed.signature,
         signingKeyId: keyRow.id, notes: r.notes, createdBy: priya.id, createdAt: r.uploadedAt, updatedAt: lastStep.at,
-        pilotedAt: r.pilotedAt, expandedAt: r.expandedAt, completedAt: r.completedAt, haltedAt: r.haltedAt,
+        pilotedAt: r.pilotedAt, widenedAt: r.widenedAt, completedAt: r.completedAt, stoppedAt: r.stoppedAt,
       },
       { transaction },
     );
@@ -131,7 +131,7 @@ export async function seedFullScenario(ctx: FullSeedContext) {
     const site = l.siteIndex === null ? null : plan.sites[l.siteIndex];
     const integrator = l.enrolledBy ? person(l.enrolledBy) : null;
     loggerRows.push({
-      id: l.id, serial: l.serial, modelId: model.id, board: l.board, track: l.track, status: l.status,
+      id: l.id, serial: l.serial, modelId: model.id, board: l.board, channel: l.channel, status: l.status,
       tokenDigest: digest, tokenIssuedAt: l.enrolledAt ? new Date(l.enrolledAt.getTime() - 3 * DAY) : new Date(now.getTime() - 2 * DAY),
       siteId: site ? siteIds[site.index] : null, enrolledAt: l.enrolledAt, enrolledBy: integrator?.id ?? null,
       install: site ? { panelWp: l.panelWp, panelVocV: 22, notes: l.roles.includes('stepping_stone') ? 'Spare board B in place of the flooded logger.' : '' } : null,
@@ -176,14 +176,14 @@ export async function seedFullScenario(ctx: FullSeedContext) {
       const name = `${model.name} ${r.version}`;
       const summary =
         s.action === 'upload'
-          ? `${s.actor} uploaded ${name} (draft, ${r.track}, signed by key ${keyRow.keyId})`
-          : s.action === 'expand'
+          ? `${s.actor} uploaded ${name} (draft, ${r.channel}, signed by key ${keyRow.keyId})`
+          : s.action === 'widen'
             ? `${s.actor} widened ${name} to ${s.shareAfter} %`
             : s.action === 'start_pilot'
               ? `${s.actor} started the pilot of ${name}`
               : s.action === 'complete'
                 ? `${s.actor} completed the rollout of ${name}`
-                : `${s.actor} halted ${name}${s.reason ? `: ${s.reason}` : ''}`;
+                : `${s.actor} stopped ${name}${s.reason ? `: ${s.reason}` : ''}`;
       entries.push({
         at: s.at, actor, action: s.action === 'upload' ? 'release.uploaded' : `release.${s.action}`, targetType: 'release', targetId: r.id, summary,
         details: s.action === 'upload' ? undefined : { fromState: s.fromState, toState: s.toState, share: s.shareAfter, reason: s.reason ?? null },

@@ -34,7 +34,7 @@ export const demoSites: DemoSite[] = [
   { name: 'Brackenford Pump House', customer: 'Vale Irrigation Group', address: 'Mill Race, Brackenford', latitude: 52.1288, longitude: -1.9534, integrator: 'Ade' },
   { name: 'Aldmere Primary School', customer: 'Aldmere Primary School', address: 'School Road, Aldmere', latitude: 52.1431, longitude: -1.9777, integrator: 'Tomasz' },
   { name: 'Hollins Dairy', customer: 'Hollins Dairy Farm', address: 'Hollins Lane, Westby', latitude: 52.1567, longitude: -2.0113, integrator: 'Ade' },
-  { name: 'Westby Telecom Hut 3', customer: 'Vale Link Networks', address: 'Ridge Track, Westby', latitude: 52.1702, longitude: -2.0251, integrator: 'Tomasz' },
+  { name: 'Westby Telecom Hut 3', customer: 'Vale Link Networks', address: 'Ridge Channel, Westby', latitude: 52.1702, longitude: -2.0251, integrator: 'Tomasz' },
   { name: 'Aldwater Boat Club', customer: 'Aldwater Boat Club', address: 'Lakeside, Aldwater', latitude: 52.1193, longitude: -1.9402, integrator: 'Ade' },
 ];
 
@@ -80,7 +80,7 @@ export const valeSites: ValeSite[] = [
   { name: 'Brackenford Pump House', customer: 'Vale Irrigation Group', address: 'Mill Race, Brackenford', village: 'brackenford', loggers: 5, latitude: 52.1288, longitude: -1.9534 },
   { name: 'Aldmere Primary School', customer: 'Aldmere Primary School', address: 'School Road, Aldmere', village: 'aldmere', loggers: 8, latitude: 52.1431, longitude: -1.9777 },
   { name: 'Hollins Dairy', customer: 'Hollins Dairy Farm', address: 'Hollins Lane, Westby', village: 'westby', loggers: 7, latitude: 52.1567, longitude: -2.0113 },
-  { name: 'Westby Telecom Hut 3', customer: 'Vale Link Networks', address: 'Ridge Track, Westby', village: 'westby', loggers: 3, latitude: 52.1702, longitude: -2.0251 },
+  { name: 'Westby Telecom Hut 3', customer: 'Vale Link Networks', address: 'Ridge Channel, Westby', village: 'westby', loggers: 3, latitude: 52.1702, longitude: -2.0251 },
   { name: 'Aldwater Boat Club', customer: 'Aldwater Boat Club', address: 'Lakeside, Aldwater', village: 'aldwater', loggers: 4, latitude: 52.1193, longitude: -1.9402 },
   { name: 'Brackenford Village Hall', customer: 'Brackenford Parish Council', address: 'Church Street, Brackenford', village: 'brackenford', loggers: 3 },
   { name: 'Tarnwick Pump House 1', customer: 'Vale Irrigation Group', address: 'Tarn Lane, Tarnwick', village: 'tarnwick', loggers: 5 },
@@ -117,7 +117,7 @@ export const valeSites: ValeSite[] = [
   { name: 'Quenby Marsh Village Hall', customer: 'Quenby Marsh Parish Meeting', address: 'Marsh Road, Quenby Marsh', village: 'quenby', loggers: 3 },
   { name: 'Sedgebury Dairy', customer: 'Sedgebury Dairy Farm', address: 'Sedge Farm, Sedgebury', village: 'sedgebury', loggers: 7 },
   { name: 'Corvenham Village Hall', customer: 'Corvenham Parish Council', address: 'Hall Road, Corvenham', village: 'corvenham', loggers: 3 },
-  { name: 'Westby Telecom Hut 5', customer: 'Vale Link Networks', address: 'Ridge Track, Westby', village: 'westby', loggers: 2 },
+  { name: 'Westby Telecom Hut 5', customer: 'Vale Link Networks', address: 'Ridge Channel, Westby', village: 'westby', loggers: 2 },
   { name: 'Hobbleford Pump House', customer: 'Vale Irrigation Group', address: 'Hobble Brook, Hobbleford', village: 'hobbleford', loggers: 5 },
   { name: 'Aldwater Boathouse Café', customer: 'Aldwater Lakeside Café', address: 'South Shore, Aldwater', village: 'aldwater', loggers: 3 },
   { name: 'Tarnwick Telecom Hut 6', customer: 'Vale Link Networks', address: 'Tarn Ridge, Tarnwick', village: 'tarnwick', loggers: 2 },

@@ -1,6 +1,6 @@
-// Automatic halt under concurrent install reports (issue 5 §5): 50 loggers report failed at once; the
-// release halts exactly once, one e-mail goes out, every report is counted. Threshold figures: the
-// release's own haltFailureRatio (5 %) and haltMinReports (20), as DEVICE_API.md's releases carry them.
+// Trip under concurrent install reports (issue 5 §5): 50 loggers report failed at once; the
+// release stops exactly once, one e-mail goes out, every report is counted. Threshold figures: the
+// release's own tripFailureRatio (5 %) and tripMinReports (20), as DEVICE_API.md's releases carry them.
 import { QueryTypes } from 'sequelize';
 import { bearer, CHECK_IN, checkInBody, fleetApp } from './device-fixtures';
 
@@ -12,11 +12,11 @@ async function one<T extends object>(sql: string, replacements: Record<string, u
   return row!;
 }
 
-describe('automatic halt', () => {
-  test('when 50 loggers report a failed install at the same moment, then the release halts once, one e-mail is sent and all 50 failures are counted', async () => {
-    await app.t.signedIn('admin', 'Morgan Halt Admin');
-    await app.t.signedIn('release_engineer', 'Priya Halt Engineer');
-    const release = await app.fleet.release({ version: '7.0.0', haltFailureRatio: 0.05, haltMinReports: 20 });
+describe('trip', () => {
+  test('when 50 loggers report a failed install at the same moment, then the release stops once, one e-mail is sent and all 50 failures are counted', async () => {
+    await app.t.signedIn('admin', 'Morgan Stop Admin');
+    await app.t.signedIn('release_engineer', 'Priya Stop Engineer');
+    const release = await app.fleet.release({ version: '7.0.0', tripFailureRatio: 0.05, tripMinReports: 20 });
     const loggers = await Promise.all(Array.from({ length: 50 }, () => app.fleet.logger()));
     for (const lg of loggers) {
       const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('6.9.0'));
@@ -33,12 +33,12 @@ describe('automatic halt', () => {
       ),
     );
     expect(replies.map((r) => r.status)).toEqual(loggers.map(() => 200));
-    // A halted release offers nothing, from the check-in that halted it on.
+    // A stopped release offers nothing, from the check-in that stopped it on.
     expect(replies.every((r) => r.body.offer === null)).toBe(true);
 
-    const state = await one<{ state: string; resume_state: string; halted_at: Date | null }>('SELECT state, resume_state, halted_at FROM releases WHERE id = :id', { id: release.id });
-    expect(state).toMatchObject({ state: 'halted', resume_state: 'complete' });
-    expect(state.halted_at).not.toBeNull();
+    const state = await one<{ state: string; resume_state: string; stopped_at: Date | null }>('SELECT state, resume_state, stopped_at FROM releases WHERE id = :id', { id: release.id });
+    expect(state).toMatchObject({ state: 'stopped', resume_state: 'complete' });
+    expect(state.stopped_at).not.toBeNull();
     const counts = await one<{ failed: number; total: number }>(
       `SELECT count(*) FILTER (WHERE state = 'failed' AND reason = 'integrity')::int AS failed, count(*)::int AS total FROM install_reports WHERE release_id = :id`,
       { id: release.id },
@@ -49,18 +49,18 @@ describe('automatic halt', () => {
       { type: QueryTypes.SELECT, replacements: { id: release.id } },
     );
     expect(transitions).toHaveLength(1);
-    expect(transitions[0]).toMatchObject({ action: 'halt', actor_type: 'system', actor_name: 'system', from_state: 'complete', to_state: 'halted' });
-    // The halt happened at the 20th finished install: 20 of 20 failed, 100 % > 5 %.
+    expect(transitions[0]).toMatchObject({ action: 'stop', actor_type: 'system', actor_name: 'system', from_state: 'complete', to_state: 'stopped' });
+    // The stop happened at the 20th finished install: 20 of 20 failed, 100 % > 5 %.
     expect(transitions[0].reason).toContain('20 of 20 finished installs failed (100 %)');
     const activity = await app.t.sequelize.query<{ actor_type: string; summary: string }>(
-      `SELECT actor_type, summary FROM activity WHERE action = 'release.halted' AND target_id = :id`,
+      `SELECT actor_type, summary FROM activity WHERE action = 'release.stopped' AND target_id = :id`,
       { type: QueryTypes.SELECT, replacements: { id: release.id } },
     );
     expect(activity).toHaveLength(1);
     expect(activity[0].actor_type).toBe('system');
 
-    const admin = await app.t.signedIn('admin', 'Morgan Halt Admin');
-    const subject = `Release 7.0.0 of ${app.fleet.model.name} halted automatically`;
+    const admin = await app.t.signedIn('admin', 'Morgan Stop Admin');
+    const subject = `Release 7.0.0 of ${app.fleet.model.name} tripped`;
     let mails: { to: string[]; subject: string; text: string }[] = [];
     for (let i = 0; i < 50; i++) {
       const res = await admin.get('/api/dev/outbox');
@@ -71,12 +71,12 @@ describe('automatic halt', () => {
     await new Promise((r) => setTimeout(r, 300)); // a second e-mail, if any, would have arrived by now
     mails = ((await admin.get('/api/dev/outbox')).body as typeof mails).filter((m) => m.subject === subject);
     expect(mails).toHaveLength(1);
-    expect(mails[0].to).toEqual(expect.arrayContaining(['morgan.halt.admin@test.example', 'priya.halt.engineer@test.example']));
+    expect(mails[0].to).toEqual(expect.arrayContaining(['morgan.stop.admin@test.example', 'priya.stop.engineer@test.example']));
     expect(mails[0].text).toContain('20 of 20 finished installs failed');
   });
 
   test('when installs fail only for transient reasons, then the release keeps going', async () => {
-    const release = await app.fleet.release({ version: '8.0.0', boards: ['C'], haltFailureRatio: 0.05, haltMinReports: 5 });
+    const release = await app.fleet.release({ version: '8.0.0', boards: ['C'], tripFailureRatio: 0.05, tripMinReports: 5 });
     const loggers = await Promise.all(Array.from({ length: 10 }, () => app.fleet.logger({ board: 'C' })));
     for (const lg of loggers) {
       await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('7.9.0', { board: 'C' })).expect(200);
@@ -94,9 +94,9 @@ describe('automatic halt', () => {
     expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('complete');
   });
 
-  test('when failures stay at the threshold over the minimum, then no halt; one more failure crosses it', async () => {
+  test('when failures stay at the threshold over the minimum, then no stop; one more failure crosses it', async () => {
     // 1 failure in 20 finished installs is exactly 5 %: not above the threshold.
-    const release = await app.fleet.release({ version: '9.0.0', boards: ['A'], haltFailureRatio: 0.05, haltMinReports: 20 });
+    const release = await app.fleet.release({ version: '9.0.0', boards: ['A'], tripFailureRatio: 0.05, tripMinReports: 20 });
     const loggers = await Promise.all(Array.from({ length: 21 }, () => app.fleet.logger({ board: 'A' })));
     const report = (lg: { token: string }, state: string, reason?: string) =>
       app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('8.9.0', { board: 'A', report: { release: release.id, state, ...(reason ? { reason } : {}) } }));
@@ -106,6 +106,6 @@ describe('automatic halt', () => {
     expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('complete');
     // 2 of 21 = 9.5 % > 5 %.
     await report(loggers[20], 'failed', 'other');
-    expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('halted');
+    expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('stopped');
   });
 });

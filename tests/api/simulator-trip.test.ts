@@ -1,6 +1,6 @@
 // The fleet simulator's --fail-rate against the real app: when a share of installs fail, the release's
-// automatic halt (issue 5 §5: failure ratio over a minimum number of finished installs) stops the
-// rollout, and from then on no logger is offered it. Sources: DEVICE_API.md rule 6 (a halted release
+// trip (issue 5 §5: failure ratio over a minimum number of finished installs) stops the
+// rollout, and from then on no logger is offered it. Sources: DEVICE_API.md rule 6 (a stopped release
 // offers nothing; a logger whose install failed for integrity, storage or other is not offered it again).
 import crypto from 'node:crypto';
 import fs from 'node:fs';
@@ -14,7 +14,7 @@ let clock = new Date('2026-06-21T08:00:00Z');
 const app = listeningApp({ seed: 'demo', now: () => clock });
 
 describe('a simulated fleet with failing installs', () => {
-  test('when half the installs fail, then the release halts itself once the failure ratio passes its threshold, and nobody is offered it afterwards', async () => {
+  test('when half the installs fail, then the release stops itself once the failure ratio passes its threshold, and nobody is offered it afterwards', async () => {
     const morgan = new ConsoleSession(app.base);
     await morgan.signIn('morgan@fernhollow.example', testPassword);
     const pair = crypto.generateKeyPairSync('ed25519');
@@ -28,7 +28,7 @@ describe('a simulated fleet with failing installs', () => {
     const registered = await registerFleet(morgan, { count: 28, firmware, random, serialPrefix: 'FL2-FAIL' });
     const identities = [...bench.map((r) => ({ serial: r.serial, token: r.token, board: r.board, firmware: firmware(r.board) })), ...registered];
 
-    // 2.3.0 for every board, straight to 100 %, halting when more than 20 % of at least 8 finished installs fail.
+    // 2.3.0 for every board, straight to 100 %, stopping when more than 20 % of at least 8 finished installs fail.
     const image = crypto.randomBytes(32 * 1024);
     const manifest = canonicalManifest({
       board_revisions: ['A', 'B', 'C'], format: 1, image_sha256: crypto.createHash('sha256').update(image).digest('hex'), image_size: image.length,
@@ -39,14 +39,14 @@ describe('a simulated fleet with failing installs', () => {
     form.append('manifest', new Blob([manifest], { type: 'application/json' }), 'manifest.json');
     form.append('signature', signManifest(manifest, String(pair.privateKey.export({ type: 'pkcs8', format: 'pem' }))));
     const release = await morgan.request<{ id: string }>('POST', '/api/releases', form);
-    await morgan.request('PATCH', `/api/releases/${release.id}`, { haltFailureRatio: 0.2, haltMinReports: 8 });
+    await morgan.request('PATCH', `/api/releases/${release.id}`, { tripFailureRatio: 0.2, tripMinReports: 8 });
     await morgan.request('POST', `/api/releases/${release.id}/transitions`, { action: 'start_pilot' });
     await morgan.request('POST', `/api/releases/${release.id}/transitions`, { action: 'complete' });
 
     const tally = new FleetTally();
     const loggers = buildFleet(identities, { baseUrl: app.base, clock: () => clock, random, trustedKeys: [parsePublicKeyPem(publicPem)], failRate: 0.5, spreadS: 900 }, tally);
     const state = async () => (await morgan.request<{ state: string }>('GET', `/api/releases/${release.id}`)).state;
-    for (let step = 0; step < 12 && (await state()) !== 'halted'; step++) {
+    for (let step = 0; step < 12 && (await state()) !== 'stopped'; step++) {
       await runFleet(loggers, {
         clock: () => clock,
         until: new Date(clock.getTime() + 1200_000),
@@ -58,18 +58,18 @@ describe('a simulated fleet with failing installs', () => {
       });
     }
     type Counts = { installed: number; failed: number; failedByReason: Record<string, number> };
-    const halted = await morgan.request<{ state: string; counts: Counts; history: { action: string; actorName: string }[] }>('GET', `/api/releases/${release.id}`);
-    expect(halted.state).toBe('halted');
-    expect(halted.history.filter((h) => h.action === 'halt')).toEqual([expect.objectContaining({ actorName: 'system' })]);
-    // The server counted every simulated failure by its reason (integrity, storage, other: the ones that count towards a halt),
-    // and the ratio it halted on passed 20 % of at least 8 finished installs.
-    for (const reason of ['integrity', 'storage', 'other']) expect(halted.counts.failedByReason[reason]).toBe(tally.counts.failuresByReason[reason] ?? 0);
-    const counted = halted.counts.failedByReason.integrity + halted.counts.failedByReason.storage + halted.counts.failedByReason.other;
-    expect(halted.counts.installed + counted).toBeGreaterThanOrEqual(8);
-    expect(counted / (halted.counts.installed + counted)).toBeGreaterThan(0.2);
+    const stopped = await morgan.request<{ state: string; counts: Counts; history: { action: string; actorName: string }[] }>('GET', `/api/releases/${release.id}`);
+    expect(stopped.state).toBe('stopped');
+    expect(stopped.history.filter((h) => h.action === 'stop')).toEqual([expect.objectContaining({ actorName: 'system' })]);
+    // The server counted every simulated failure by its reason (integrity, storage, other: the ones that count towards a stop),
+    // and the ratio it stopped on passed 20 % of at least 8 finished installs.
+    for (const reason of ['integrity', 'storage', 'other']) expect(stopped.counts.failedByReason[reason]).toBe(tally.counts.failuresByReason[reason] ?? 0);
+    const counted = stopped.counts.failedByReason.integrity + stopped.counts.failedByReason.storage + stopped.counts.failedByReason.other;
+    expect(stopped.counts.installed + counted).toBeGreaterThanOrEqual(8);
+    expect(counted / (stopped.counts.installed + counted)).toBeGreaterThan(0.2);
 
-    // After the halt: another two hours of check-ins, and not one more install is started.
-    const offersAtHalt = tally.counts.offers;
+    // After the stop: another two hours of check-ins, and not one more install is started.
+    const offersAtStop = tally.counts.offers;
     await runFleet(loggers, {
       clock: () => clock,
       until: new Date(clock.getTime() + 7200_000),
@@ -79,7 +79,7 @@ describe('a simulated fleet with failing installs', () => {
         clock = new Date(Math.max(clock.getTime(), Math.ceil(at.getTime() / 300_000) * 300_000));
       },
     });
-    expect(tally.counts.offers).toBe(offersAtHalt);
+    expect(tally.counts.offers).toBe(offersAtStop);
     expect(tally.counts.errors).toBe(0);
   }, 300_000);
 });

@@ -1,13 +1,13 @@
-// Automatic halt (issue 5 §5): after each install report, the release's thresholds are evaluated and
-// a release that crosses one is halted by the system. The evaluation is pure (`evaluateHalt`); the
-// service (`haltIfCrossed`) reads the figures and halts inside the report's transaction, with the
+// Trip (issue 5 §5): after each install report, the release's thresholds are evaluated and
+// a release that crosses one is stopped by the system. The evaluation is pure (`evaluateTrips`); the
+// service (`tripIfCrossed`) reads the figures and stops inside the report's transaction, with the
 // release row locked (SELECT … FOR UPDATE, taken by the caller before the report is applied), so
-// concurrent check-ins serialise on the release: exactly one of them halts, and every report is counted.
+// concurrent check-ins serialise on the release: exactly one of them stops, and every report is counted.
 //
 // Choices where the issue is silent (also in the OpenAPI document):
 // - Failure ratio: failed ÷ finished, where finished = installed + failed for a reason that is not
-//   transient (connection and low_supply are not counted on either side). It halts when the ratio is
-//   above haltFailureRatio (strictly) over at least haltMinReports finished installs.
+//   transient (connection and low_supply are not counted on either side). It stops when the ratio is
+//   above tripFailureRatio (strictly) over at least tripMinReports finished installs.
 // - When it is evaluated: after every finished report and confirmation (with the release locked), and
 //   at a check-in that brings watchdog or brown-out resets from a logger that confirmed a live release
 //   it runs — at most once a minute per release and process, so a fleet of resetting boards does not
@@ -15,8 +15,8 @@
 // - Reset rate: the loggers that confirmed the release and have checked in on it over at least 24 h
 //   since (at least 20 of them) are compared with themselves: watchdog and brown-out resets per logger-day on the new version (check-ins
 //   since each logger's confirmation) against the same per logger-day on older versions in the
-//   retention window before it. It halts when the new rate is above haltResetFactor × the old rate. A
-//   fleet with no resets at all before would halt on the first one, so the old rate counts as at least
+//   retention window before it. It stops when the new rate is above tripResetFactor × the old rate. A
+//   fleet with no resets at all before would stop on the first one, so the old rate counts as at least
 //   one reset per 100 logger-days (a rule of thumb of ours, common practice for such floors). Without
 //   at least 20 logger-days of history before the release (confirmed longer ago than the retention
 //   window, or loggers new to the fleet) there is nothing to compare, and the rate is not judged.
@@ -31,14 +31,14 @@ export const RESET_MIN_LOGGERS = 20;
 /**
  * History needed before the release, in logger-days, to compare with: without it (a release older than
  * the check-in history kept, or loggers new to the fleet) there is no rate before, and a floor alone
- * would halt a healthy fleet whose boards reset now and then. As many logger-days as the cohort minimum.
+ * would stop a healthy fleet whose boards reset now and then. As many logger-days as the cohort minimum.
  */
 export const RESET_MIN_LOGGER_DAYS_BEFORE = RESET_MIN_LOGGERS;
 export const RESET_MIN_HOURS = 24;
 /** Floor of the old reset rate, resets per logger-day. */
 export const RESET_RATE_FLOOR = 0.01;
 
-export type HaltThresholds = { haltFailureRatio: number; haltMinReports: number; haltResetFactor: number };
+export type TripPoints = { tripFailureRatio: number; tripMinReports: number; tripResetFactor: number };
 
 export type FailureFigures = { installed: number; failed: number };
 
@@ -50,22 +50,22 @@ export type ResetFigures = {
   loggerDaysBefore: number;
 };
 
-export type HaltVerdict =
-  | { halt: false }
-  | { halt: true; rule: 'failure_ratio' | 'reset_rate'; reason: string };
+export type TripVerdict =
+  | { trip: false }
+  | { trip: true; rule: 'failure_ratio' | 'reset_rate'; reason: string };
 
 const pct = (x: number) => `${Number((x * 100).toFixed(1))} %`;
 const rate = (x: number) => Number(x.toFixed(3)).toString();
 
-export function failureRatioVerdict(t: HaltThresholds, f: FailureFigures): HaltVerdict {
+export function failureRatioVerdict(t: TripPoints, f: FailureFigures): TripVerdict {
   const finished = f.installed + f.failed;
-  if (finished < t.haltMinReports || finished === 0) return { halt: false };
+  if (finished < t.tripMinReports || finished === 0) return { trip: false };
   const ratio = f.failed / finished;
-  if (ratio <= t.haltFailureRatio) return { halt: false };
+  if (ratio <= t.tripFailureRatio) return { trip: false };
   return {
-    halt: true,
+    trip: true,
     rule: 'failure_ratio',
-    reason: `Automatic halt: ${f.failed} of ${finished} finished installs failed (${pct(ratio)}), above the halt threshold of ${pct(t.haltFailureRatio)} over at least ${t.haltMinReports} installs.`,
+    reason: `Trip: ${f.failed} of ${finished} finished installs failed (${pct(ratio)}), above the trip point of ${pct(t.tripFailureRatio)} over at least ${t.tripMinReports} installs.`,
   };
 }
 
@@ -74,28 +74,28 @@ export function resetRateJudged(r: ResetFigures): boolean {
   return r.loggers >= RESET_MIN_LOGGERS && r.loggerDaysAfter > 0 && r.loggerDaysBefore >= RESET_MIN_LOGGER_DAYS_BEFORE;
 }
 
-export function resetRateVerdict(t: HaltThresholds, r: ResetFigures): HaltVerdict {
-  if (!resetRateJudged(r)) return { halt: false };
+export function resetRateVerdict(t: TripPoints, r: ResetFigures): TripVerdict {
+  if (!resetRateJudged(r)) return { trip: false };
   const after = r.resetsAfter / r.loggerDaysAfter;
   const measuredBefore = r.loggerDaysBefore > 0 ? r.resetsBefore / r.loggerDaysBefore : 0;
   const before = Math.max(measuredBefore, RESET_RATE_FLOOR);
-  if (after <= t.haltResetFactor * before) return { halt: false };
+  if (after <= t.tripResetFactor * before) return { trip: false };
   return {
-    halt: true,
+    trip: true,
     rule: 'reset_rate',
     reason:
-      `Automatic halt: watchdog and brown-out resets rose to ${rate(after)} per logger-day on the new version ` +
+      `Trip: watchdog and brown-out resets rose to ${rate(after)} per logger-day on the new version ` +
       `(${r.resetsAfter} over ${rate(r.loggerDaysAfter)} logger-days, ${r.loggers} loggers) from ${rate(measuredBefore)} before it ` +
-      `(${r.resetsBefore} over ${rate(r.loggerDaysBefore)} logger-days), more than ${t.haltResetFactor} × the rate before.`,
+      `(${r.resetsBefore} over ${rate(r.loggerDaysBefore)} logger-days), more than ${t.tripResetFactor} × the rate before.`,
   };
 }
 
 /**
- * The halt thresholds beside their current values, as the release dashboard shows them ("failure ratio
+ * The trip points beside their current values, as the release dashboard shows them ("failure ratio
  * 1.8 % of 5 %"). `over` is exactly what the verdicts above decide, so the dashboard and the automatic
- * halt never disagree.
+ * stop never disagree.
  */
-export function haltGauges(t: HaltThresholds, f: FailureFigures, r: ResetFigures) {
+export function tripGauges(t: TripPoints, f: FailureFigures, r: ResetFigures) {
   const finished = f.installed + f.failed;
   const measuredBefore = r.loggerDaysBefore > 0 ? r.resetsBefore / r.loggerDaysBefore : 0;
   const before = Math.max(measuredBefore, RESET_RATE_FLOOR);
@@ -105,10 +105,10 @@ export function haltGauges(t: HaltThresholds, f: FailureFigures, r: ResetFigures
       ...f,
       finished,
       ratio: finished ? f.failed / finished : 0,
-      threshold: t.haltFailureRatio,
-      minReports: t.haltMinReports,
-      judged: finished >= t.haltMinReports && finished > 0,
-      over: failureRatioVerdict(t, f).halt,
+      threshold: t.tripFailureRatio,
+      minReports: t.tripMinReports,
+      judged: finished >= t.tripMinReports && finished > 0,
+      over: failureRatioVerdict(t, f).trip,
     },
     resetRate: {
       ...r,
@@ -119,26 +119,26 @@ export function haltGauges(t: HaltThresholds, f: FailureFigures, r: ResetFigures
       after,
       before: measuredBefore,
       beforeJudged: before,
-      /** The new rate as a multiple of the old one (with the floor), against haltResetFactor. */
+      /** The new rate as a multiple of the old one (with the floor), against tripResetFactor. */
       factor: after / before,
-      threshold: t.haltResetFactor,
+      threshold: t.tripResetFactor,
       judged: resetRateJudged(r),
-      over: resetRateVerdict(t, r).halt,
+      over: resetRateVerdict(t, r).trip,
     },
   };
 }
-export type HaltGauges = ReturnType<typeof haltGauges>;
+export type TripGauges = ReturnType<typeof tripGauges>;
 
-export function evaluateHalt(t: HaltThresholds, f: FailureFigures, r: ResetFigures | null): HaltVerdict {
+export function evaluateTrips(t: TripPoints, f: FailureFigures, r: ResetFigures | null): TripVerdict {
   const byFailures = failureRatioVerdict(t, f);
-  if (byFailures.halt) return byFailures;
-  return r ? resetRateVerdict(t, r) : { halt: false };
+  if (byFailures.trip) return byFailures;
+  return r ? resetRateVerdict(t, r) : { trip: false };
 }
 
 // ─── Service ────────────────────────────────────────────────────────────────
 
 /** The release row as locked by the report's transaction. */
-export type LockedRelease = HaltThresholds & {
+export type LockedRelease = TripPoints & {
   id: string;
   modelId: string;
   version: string;
@@ -151,7 +151,7 @@ export type LockedRelease = HaltThresholds & {
 export async function lockRelease(sequelize: Sequelize, t: Transaction, releaseId: string, options: { skipLocked?: boolean } = {}): Promise<LockedRelease | null> {
   const rows = await sequelize.query<LockedRelease>(
     `SELECT id, model_id AS "modelId", version, state, share, resume_state AS "resumeState",
-            halt_failure_ratio AS "haltFailureRatio", halt_min_reports AS "haltMinReports", halt_reset_factor AS "haltResetFactor"
+            trip_failure_ratio AS "tripFailureRatio", trip_min_reports AS "tripMinReports", trip_reset_factor AS "tripResetFactor"
        FROM releases WHERE id = :id FOR UPDATE${options.skipLocked ? ' SKIP LOCKED' : ''}`,
     { transaction: t, type: QueryTypes.SELECT, replacements: { id: releaseId } },
   );
@@ -205,35 +205,35 @@ export async function resetFigures(sequelize: Sequelize, t: Transaction | undefi
   };
 }
 
-export type HaltOutcome = { release: LockedRelease; reason: string; mail: Mail };
+export type TripOutcome = { release: LockedRelease; reason: string; mail: Mail };
 
 /**
- * Evaluates a live release locked in `t` and halts it when a threshold is crossed: the release row,
+ * Evaluates a live release locked in `t` and stops it when a threshold is crossed: the release row,
  * a release_transitions row and an activity row by the system, all in `t`. Returns the e-mail to send
- * once `t` has committed (never before: a rolled-back halt must not be announced), or null.
+ * once `t` has committed (never before: a rolled-back stop must not be announced), or null.
  */
-export async function haltIfCrossed(
+export async function tripIfCrossed(
   sequelize: Sequelize,
   t: Transaction,
   release: LockedRelease,
   options: { now: Date; retentionDays: number; requestId: string | null },
-): Promise<HaltOutcome | null> {
-  if (!['pilot', 'expanding', 'complete'].includes(release.state)) return null;
+): Promise<TripOutcome | null> {
+  if (!['pilot', 'widening', 'complete'].includes(release.state)) return null;
   const failures = await failureFigures(sequelize, t, release.id);
   let verdict = failureRatioVerdict(release, failures);
-  if (!verdict.halt) verdict = resetRateVerdict(release, await resetFigures(sequelize, t, release, options.now, options.retentionDays));
-  if (!verdict.halt) return null;
+  if (!verdict.trip) verdict = resetRateVerdict(release, await resetFigures(sequelize, t, release, options.now, options.retentionDays));
+  if (!verdict.trip) return null;
 
   const lifecycle: ReleaseLifecycle = { state: release.state, share: release.share, resumeState: release.resumeState };
-  const next = transition(lifecycle, 'halt', { reason: verdict.reason });
+  const next = transition(lifecycle, 'stop', { reason: verdict.reason });
   if (!next.ok) return null;
   await sequelize.query(
-    `UPDATE releases SET state = :state, share = :share, resume_state = :resumeState, halted_at = :now, updated_at = :now WHERE id = :id`,
+    `UPDATE releases SET state = :state, share = :share, resume_state = :resumeState, stopped_at = :now, updated_at = :now WHERE id = :id`,
     { transaction: t, replacements: { ...next.release, now: options.now, id: release.id } },
   );
   await sequelize.query(
     `INSERT INTO release_transitions (release_id, at, action, from_state, to_state, share, reason, actor_type, actor_name)
-     VALUES (:id, :now, 'halt', :from, :to, :share, :reason, 'system', 'system')`,
+     VALUES (:id, :now, 'stop', :from, :to, :share, :reason, 'system', 'system')`,
     { transaction: t, replacements: { id: release.id, now: options.now, from: release.state, to: next.release.state, share: next.release.share, reason: verdict.reason } },
   );
   const [model] = await sequelize.query<{ name: string }>('SELECT name FROM models WHERE id = :id', {
@@ -243,10 +243,10 @@ export async function haltIfCrossed(
   });
   const modelName = model?.name ?? 'the model';
   await recordActivity(t, systemContext(options.requestId), {
-    action: 'release.halted',
+    action: 'release.stopped',
     targetType: 'release',
     targetId: release.id,
-    summary: `Release ${release.version} of ${modelName} was halted automatically. ${verdict.reason}`,
+    summary: `Release ${release.version} of ${modelName} was tripped. ${verdict.reason}`,
     details: { rule: verdict.rule, fromState: release.state, failures },
   });
   const recipients = await sequelize.query<{ email: string }>(
@@ -254,7 +254,7 @@ export async function haltIfCrossed(
     { transaction: t, type: QueryTypes.SELECT },
   );
   const text = [
-    `Heliodor halted release ${release.version} of ${modelName} automatically.`,
+    `Heliodor stopped release ${release.version} of ${modelName} automatically.`,
     '',
     verdict.reason,
     '',
@@ -264,6 +264,6 @@ export async function haltIfCrossed(
   return {
     release: { ...release, state: next.release.state, share: next.release.share, resumeState: next.release.resumeState },
     reason: verdict.reason,
-    mail: { to: recipients.map((r) => r.email), subject: `Release ${release.version} of ${modelName} halted automatically`, text },
+    mail: { to: recipients.map((r) => r.email), subject: `Release ${release.version} of ${modelName} tripped`, text },
   };
 }

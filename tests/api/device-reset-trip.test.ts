@@ -1,4 +1,4 @@
-// Automatic halt by reset rate (issue 5 §5: "the watchdog/brown-out reset rate of loggers on the new
+// Trip by reset rate (issue 5 §5: "the watchdog/brown-out reset rate of loggers on the new
 // version against the same loggers before it (default: more than double, over at least 20 loggers and
 // 24 h)"), read from the check-in history. The clock is injected so that a day can pass.
 import { QueryTypes } from 'sequelize';
@@ -12,8 +12,8 @@ const app = fleetApp({ now: () => clock });
 const stateOf = async (id: string) =>
   (await app.t.sequelize.query<{ state: string }>('SELECT state FROM releases WHERE id = :id', { type: QueryTypes.SELECT, replacements: { id } }))[0].state;
 
-test('when 20 loggers reset far more often on the new version than on the old one over a day, then the release halts at the 20th, not before', async () => {
-  const release = await app.fleet.release({ version: '2.0.0', boards: ['A'], haltMinReports: 1000 });
+test('when 20 loggers reset far more often on the new version than on the old one over a day, then the release stops at the 20th, not before', async () => {
+  const release = await app.fleet.release({ version: '2.0.0', boards: ['A'], tripMinReports: 1000 });
   const loggers = await Promise.all(Array.from({ length: 20 }, () => app.fleet.logger({ board: 'A' })));
   // Ten days on 1.0.0 before the update, one brown-out per logger: 20 resets over 200 logger-days = 0.1 a day.
   await app.t.sequelize.query(
@@ -42,10 +42,10 @@ test('when 20 loggers reset far more often on the new version than on the old on
   for (const [i, lg] of loggers.entries()) {
     clock = new Date(T0.getTime() + 25 * 3_600_000 + i * 61_000);
     await send(lg.token, '2.0.0', { reset_counts: { watchdog: 1 }, reset_reason: 'watchdog' }).expect(200);
-    expect(await stateOf(release.id)).toBe(i < 19 ? 'complete' : 'halted');
+    expect(await stateOf(release.id)).toBe(i < 19 ? 'complete' : 'stopped');
   }
   const [transition] = await app.t.sequelize.query<{ reason: string; actor_type: string }>(
-    `SELECT reason, actor_type FROM release_transitions WHERE release_id = :id AND action = 'halt'`,
+    `SELECT reason, actor_type FROM release_transitions WHERE release_id = :id AND action = 'stop'`,
     { type: QueryTypes.SELECT, replacements: { id: release.id } },
   );
   expect(transition.actor_type).toBe('system');
