@@ -6,6 +6,7 @@ import { Button, Card, EmptyState } from './ui';
 import { QueryView, type QueryState } from './query-state';
 import { colors, space, type } from './theme';
 import { absoluteTime, relativeTime } from './format';
+import { activityWord } from './words';
 import type { List } from '../schemas/common';
 import type { ActivityRow } from '../hooks/activity';
 
@@ -24,7 +25,7 @@ export function ActivityScreen({ state }: { state: State }) {
                 <View key={r.id} style={styles.row}>
                   <Text style={type.body}>{r.summary}</Text>
                   <Text style={type.small}>
-                    {r.actorName} · {r.action} · <Text aria-label={absoluteTime(r.at)}>{relativeTime(r.at)}</Text>
+                    {r.actorName} · {activityWord(r.action)} · <Text aria-label={absoluteTime(r.at)}>{relativeTime(r.at)}</Text>
                   </Text>
                 </View>
               ))}

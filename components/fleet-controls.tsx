@@ -6,7 +6,9 @@ import { Linking, Platform, Pressable, Text, View } from 'react-native';
 import { Badge, Button, Row } from './ui';
 import { Choices } from './choice';
 import { colors, fonts, radii, space, touchTarget, type, type Tone } from './theme';
-import { FLAG_LABELS, type FleetFlag, type UpdateState } from '../schemas/fleet';
+import type { FleetFlag, UpdateState } from '../schemas/fleet';
+import { UPDATE_STATES } from '../schemas/words';
+import { FLAG_WORDS, UPDATE_STATE_WORDS } from './words';
 
 export type Option = { value: string; label: string };
 
@@ -75,43 +77,23 @@ export function DownloadLink({ href, label, testID }: { href: string; label: str
   );
 }
 
-export const FLAG_TONES: Record<FleetFlag, Tone> = { silent: 'ember', unstable: 'ember', low_supply: 'amber', probe_fault: 'amber' };
+
 
 export function FlagBadges({ flags }: { flags: FleetFlag[] }) {
   if (!flags.length) return <Text style={type.small}>—</Text>;
   return (
     <Row wrap gap={space.xs}>
       {flags.map((f) => (
-        <Badge key={f} label={FLAG_LABELS[f]} tone={FLAG_TONES[f]} />
+        <Badge key={f} label={FLAG_WORDS[f].label} tone={FLAG_WORDS[f].tone} />
       ))}
     </Row>
   );
 }
 
-export const UPDATE_STATE_LABELS: Record<UpdateState, string> = {
-  up_to_date: 'Up to date',
-  offered: 'Offered',
-  downloading: 'Downloading',
-  downloaded: 'Downloaded',
-  installing: 'Installing',
-  installed: 'Installed',
-  failed: 'Failed',
-  none: 'Behind',
-};
-
-const UPDATE_STATE_TONES: Record<UpdateState, Tone> = {
-  up_to_date: 'moss',
-  offered: 'slate',
-  downloading: 'slate',
-  downloaded: 'slate',
-  installing: 'slate',
-  installed: 'moss',
-  failed: 'ember',
-  none: 'amber',
-};
+export const UPDATE_STATE_LABELS = Object.fromEntries(UPDATE_STATES.map((s) => [s, UPDATE_STATE_WORDS[s].label])) as Record<UpdateState, string>;
 
 export function UpdateStateBadge({ state }: { state: UpdateState }) {
-  return <Badge label={UPDATE_STATE_LABELS[state]} tone={UPDATE_STATE_TONES[state]} />;
+  return <Badge label={UPDATE_STATE_WORDS[state].label} tone={UPDATE_STATE_WORDS[state].tone} />;
 }
 
 /** "Last seen 5 min ago" with the absolute time on hover (title) and on press (toggles). */

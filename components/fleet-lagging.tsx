@@ -8,40 +8,15 @@ import { ConfirmDialog } from './confirm';
 import { DownloadLink, Pager, Select } from './fleet-controls';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, touchTarget, type, type Tone } from './theme';
-import { LAGGING_REASON_LABELS, laggingReasons, type LaggingLogger, type LaggingReason, type LaggingSite, type RetryOrder } from '../schemas/fleet';
+import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingReason, type LaggingSite, type RetryOrder } from '../schemas/fleet';
+import { LAGGING_REASONS } from '../schemas/words';
+import { LAGGING_REASON_WORDS } from './words';
 import type { List } from '../schemas/common';
 import type { LaggingFilter } from '../hooks/fleet';
 
-/** Short words for the badges; the site view spells each reason out in full. */
-export const REASON_SHORT: Record<LaggingReason, string> = {
-  silent: 'Offline',
-  low_supply: 'Low supply',
-  board_not_supported: 'Board not supported',
-  outside_daylight_window: 'Outside daylight window',
-  outside_share: 'Not yet in share',
-  not_pilot_site: 'Not a pilot site',
-  release_not_live: 'Release stopped or paused',
-  failed_awaiting_retry: 'Failed, awaiting retry',
-  needs_stepping_stone: 'Needs stepping stone',
-  security_counter_too_low: 'Security counter',
-  offered: 'Installing',
-  other: 'Other',
-};
-
-export const REASON_TONES: Record<LaggingReason, Tone> = {
-  silent: 'ember',
-  low_supply: 'amber',
-  board_not_supported: 'ink',
-  outside_daylight_window: 'slate',
-  outside_share: 'slate',
-  not_pilot_site: 'slate',
-  release_not_live: 'amber',
-  failed_awaiting_retry: 'ember',
-  needs_stepping_stone: 'amber',
-  security_counter_too_low: 'ember',
-  offered: 'moss',
-  other: 'ink',
-};
+/** Short words and tones for the badges (components/words.ts); the site view spells each reason out in full. */
+export const REASON_SHORT = Object.fromEntries(LAGGING_REASONS.map((r) => [r, LAGGING_REASON_WORDS[r].label])) as Record<LaggingReason, string>;
+export const REASON_TONES = Object.fromEntries(LAGGING_REASONS.map((r) => [r, LAGGING_REASON_WORDS[r].tone])) as Record<LaggingReason, Tone>;
 
 /** "3 d" for how long a site has lagged. */
 export function lagFor(since: string, now = new Date()): string {
@@ -49,7 +24,7 @@ export function lagFor(since: string, now = new Date()): string {
 }
 
 function ReasonBadges({ reasons }: { reasons: LaggingSite['reasons'] }) {
-  const entries = laggingReasons.filter((r) => reasons[r]);
+  const entries = LAGGING_REASONS.filter((r) => reasons[r]);
   return (
     <Row wrap gap={space.xs}>
       {entries.map((r) => (
@@ -91,7 +66,7 @@ export function LaggingSitesScreen({ state, filter, onFilter, exportHref, wide, 
           <Select
             label="Reason"
             value={filter.reason}
-            options={laggingReasons.map((r) => ({ value: r, label: REASON_SHORT[r] }))}
+            options={LAGGING_REASONS.map((r) => ({ value: r, label: REASON_SHORT[r] }))}
             onChange={(v) => onFilter({ ...filter, reason: v as LaggingReason | undefined, page: 1 })}
             anyLabel="Any reason"
             testID="lagging-reason"

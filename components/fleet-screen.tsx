@@ -9,7 +9,8 @@ import { DownloadLink, Pager, Select, UPDATE_STATE_LABELS, type Option } from '.
 import { FleetCard, FleetSkeleton, FleetTable, choosableColumns } from './fleet-table';
 import { Notice } from './ui';
 import { space, type } from './theme';
-import { FLAG_LABELS, fleetFlags, updateStates } from '../schemas/fleet';
+import { FLEET_FLAGS, UPDATE_STATES } from '../schemas/words';
+import { FLAG_WORDS } from './words';
 import type { List } from '../schemas/common';
 import type { FleetQuery, FleetRow } from '../hooks/fleet';
 
@@ -70,11 +71,11 @@ export function FleetScreen({ state, filter, onFilter, wide, sites, models, boar
           anyLabel="Any channel"
           testID="filter-channel"
         />
-        <Select label="Flag" value={filter.flag} options={fleetFlags.map((f) => ({ value: f, label: FLAG_LABELS[f] }))} onChange={(v) => set({ flag: v as FleetQuery['flag'] })} anyLabel="Any flag" testID="filter-flag" />
+        <Select label="Flag" value={filter.flag} options={FLEET_FLAGS.map((f) => ({ value: f, label: FLAG_WORDS[f].label }))} onChange={(v) => set({ flag: v as FleetQuery['flag'] })} anyLabel="Any flag" testID="filter-flag" />
         <Select
           label="Update state"
           value={filter.updateState}
-          options={updateStates.map((s) => ({ value: s, label: UPDATE_STATE_LABELS[s] }))}
+          options={UPDATE_STATES.map((s) => ({ value: s, label: UPDATE_STATE_LABELS[s] }))}
           onChange={(v) => set({ updateState: v as FleetQuery['updateState'] })}
           anyLabel="Any state"
           testID="filter-update-state"

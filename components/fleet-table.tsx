@@ -16,10 +16,11 @@ import {
   type Updater,
 } from '@tanstack/react-table';
 import { Badge, Card, Mono, Row, Skeleton } from './ui';
-import { FLAG_TONES, FlagBadges, SeenAt, UpdateStateBadge } from './fleet-controls';
+import { FlagBadges, SeenAt, UpdateStateBadge } from './fleet-controls';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, touchTarget, type } from './theme';
-import { FLAG_LABELS, type FleetSortKey } from '../schemas/fleet';
+import type { FleetSortKey } from '../schemas/fleet';
+import { FLAG_WORDS } from './words';
 import type { FleetRow } from '../hooks/fleet';
 
 const features = tableFeatures({ rowSortingFeature, rowPaginationFeature, columnVisibilityFeature });
@@ -176,7 +177,7 @@ export function FleetCard({ row, onOpen }: { row: FleetRow; onOpen: (id: string)
       <Card style={{ gap: space.xs }}>
         <Row style={{ justifyContent: 'space-between' }}>
           <Mono style={{ fontFamily: fonts.monoMedium, fontSize: 16 }}>{row.serial}</Mono>
-          {row.worstFlag ? <Badge label={FLAG_LABELS[row.worstFlag]} tone={FLAG_TONES[row.worstFlag]} /> : <Badge label="No flags" tone="moss" />}
+          {row.worstFlag ? <Badge label={FLAG_WORDS[row.worstFlag].label} tone={FLAG_WORDS[row.worstFlag].tone} /> : <Badge label="No flags" tone="moss" />}
         </Row>
         <Text style={type.body}>{row.siteName ?? 'Not installed yet'}</Text>
         <Text style={type.small}>

@@ -3,8 +3,7 @@ import { Pressable, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
 import { Page } from './shell';
 import { Badge, Card, EmptyState, ProgressBar, Row } from './ui';
-import { FLAG_TONES } from './fleet-controls';
-import { FLAG_LABELS } from '../schemas/fleet';
+import { FLAG_WORDS, NOT_HEARD_FROM } from './words';
 import { QueryView, type QueryState } from './query-state';
 import { useBreakpoints } from './breakpoints';
 import { colors, space, type, toneColors, type Tone } from './theme';
@@ -26,7 +25,7 @@ export function OverviewScreen({ name, state }: { name: string; state: QueryStat
               <View style={[styles.grid, wide && { flexWrap: 'nowrap' }]}>
                 <Figure label="Loggers" value={o.loggers.total} note={`${o.loggers.registered} waiting to be enrolled`} href="/loggers" />
                 <Figure label="Online" value={o.loggers.online} tone="moss" note="checked in within 3 intervals" href="/loggers?status=enrolled" />
-                <Figure label="Silent" value={o.fleet?.silent.count ?? o.loggers.silent} tone={o.loggers.silent ? 'amber' : 'moss'} note="enrolled, no recent check-in" href={o.fleet?.silent.href ?? '/loggers?flag=silent'} />
+                <Figure label={NOT_HEARD_FROM.label} value={o.fleet?.silent.count ?? o.loggers.silent} tone={o.loggers.silent ? NOT_HEARD_FROM.tone : 'moss'} note="enrolled, no recent check-in" href={o.fleet?.silent.href ?? '/loggers?flag=silent'} />
                 <Figure label="Sites" value={o.sites} note={`${o.models} model${o.models === 1 ? '' : 's'}, ${o.people} people`} href="/sites" />
               </View>
               {o.fleet ? <FleetHealth fleet={o.fleet} registered={o.loggers.registered} retired={o.loggers.retired} /> : null}
@@ -87,8 +86,8 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
         <Row wrap gap={space.sm}>
           {fleet.flags.map((f) => (
             <Link key={f.flag} href={f.href as never} asChild>
-              <Pressable role="link" style={styles.chip} aria-label={`${FLAG_LABELS[f.flag]}: ${f.count}`} testID={`overview-flag-${f.flag}`}>
-                <Badge label={`${FLAG_LABELS[f.flag]} · ${f.count}`} tone={f.count ? FLAG_TONES[f.flag] : 'moss'} />
+              <Pressable role="link" style={styles.chip} aria-label={`${FLAG_WORDS[f.flag].label}: ${f.count}`} testID={`overview-flag-${f.flag}`}>
+                <Badge label={`${FLAG_WORDS[f.flag].label} · ${f.count}`} tone={f.count ? FLAG_WORDS[f.flag].tone : 'moss'} />
               </Pressable>
             </Link>
           ))}

@@ -4,35 +4,19 @@ import { Text, View } from 'react-native';
 import { Badge, ProgressBar } from './ui';
 import { space, type, type Tone } from './theme';
 import type { ReleaseState, Channel } from '../hooks/releases';
+import { RELEASE_STATES } from '../schemas/words';
+import { CHANNEL_WORDS, RELEASE_STATE_WORDS } from './words';
 
-export const stateWords: Record<ReleaseState, string> = {
-  draft: 'Draft',
-  pilot: 'Pilot',
-  widening: 'Widening',
-  complete: 'Complete',
-  paused: 'Paused',
-  stopped: 'Stopped',
-  withdrawn: 'Withdrawn',
-};
-
-// Slate: not offering widely yet; moss: rolling out as planned; amber: stopped for now;
-// ember: stopped because something went wrong; ink: over for good.
-export const stateTones: Record<ReleaseState, Tone> = {
-  draft: 'slate',
-  pilot: 'slate',
-  widening: 'moss',
-  complete: 'moss',
-  paused: 'amber',
-  stopped: 'ember',
-  withdrawn: 'ink',
-};
+/** The release states' words and tones (components/words.ts), as the screens read them. */
+export const stateWords = Object.fromEntries(RELEASE_STATES.map((s) => [s, RELEASE_STATE_WORDS[s].label])) as Record<ReleaseState, string>;
+export const stateTones = Object.fromEntries(RELEASE_STATES.map((s) => [s, RELEASE_STATE_WORDS[s].tone])) as Record<ReleaseState, Tone>;
 
 export function StateBadge({ state, testID }: { state: ReleaseState; testID?: string }) {
   return <Badge label={stateWords[state] ?? state} tone={stateTones[state] ?? 'slate'} testID={testID} />;
 }
 
 export function ChannelBadge({ channel }: { channel: Channel }) {
-  return <Badge label={channel === 'early' ? 'Early channel' : 'Stable channel'} tone={channel === 'early' ? 'amber' : 'ink'} />;
+  return <Badge label={CHANNEL_WORDS[channel].label} tone={CHANNEL_WORDS[channel].tone} />;
 }
 
 /** A share in percent as people say it: "25 %", "12.5 %" (numeric columns may arrive as text). */

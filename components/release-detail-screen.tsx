@@ -8,6 +8,7 @@ import { ConfirmDialog, type ProblemLike } from './release-controls';
 import { QueryView, type QueryState } from './query-state';
 import { ReleaseNotes } from './release-notes';
 import { ShareBar, StateBadge, ChannelBadge, bytes, formatShare, stateWords } from './release-badges';
+import { FAILURE_REASON_WORDS, RELEASE_STEP_WORDS } from './words';
 import { colors, fonts, space, type } from './theme';
 import { absoluteTime, relativeTime } from './format';
 import type { Estimate, FailureReason, Release, ReleaseAction, TransitionRequest } from '../hooks/releases';
@@ -34,28 +35,6 @@ type Props = {
 
 const SHORTCUTS = [5, 25, 50];
 
-const failureWords: Record<FailureReason, string> = {
-  integrity: 'Image did not match its digest',
-  signature: 'Signature refused by the logger',
-  storage: 'Not enough storage',
-  connection: 'Connection lost',
-  unsupported: 'Board not supported',
-  low_supply: 'Supply too low',
-  other: 'Other',
-};
-
-const actionWords: Record<string, string> = {
-  create: 'Uploaded',
-  upload: 'Uploaded',
-  start_pilot: 'Started the pilot',
-  widen: 'Widened',
-  complete: 'Completed',
-  pause: 'Paused',
-  resume: 'Resumed',
-  stop: 'Stopped',
-  withdraw: 'Withdrew',
-  trip: 'Tripped',
-};
 
 export function ReleaseDetailScreen(props: Props) {
   return (
@@ -314,7 +293,7 @@ function Funnel({ r }: { r: Release }) {
           <Text style={type.label}>Why installs failed</Text>
           {reasons.map(([k, n]) => (
             <Row key={k} style={{ justifyContent: 'space-between' }}>
-              <Text style={type.dense}>{failureWords[k] ?? k}</Text>
+              <Text style={type.dense}>{FAILURE_REASON_WORDS[k as FailureReason] ?? k}</Text>
               <Text style={[type.dense, styles.num]}>{n}</Text>
             </Row>
           ))}
@@ -342,8 +321,8 @@ function Targeting({ r }: { r: Release }) {
       <Item label="Board revisions">{r.boards.join(', ') || '—'}</Item>
       <Item label="Upgrade from">{r.upgradeFrom ? <Mono>{r.upgradeFrom}</Mono> : 'Any older version'}</Item>
       <Item label="Pilot sites">{r.pilotSites?.length ? r.pilotSites.map((s) => s.name).join(', ') : 'None'}</Item>
-      <Item label="Daylight window">{r.daylightWindow ? 'On: offered between sunrise and sunset' : 'Off'}</Item>
-      <Item label="Trip points">{`More than ${formatShare(Number((Number(r.tripFailureRatio) * 100).toFixed(2)))} failed once ${r.tripMinReports} reports are in; watchdog resets × ${r.tripResetFactor}`}</Item>
+      <Item label="Daylight window">{r.daylightWindow ? 'On: offered from 1 h after sunrise to 1 h before sunset at each site' : 'Off'}</Item>
+      <Item label="Trip points">{`More than ${formatShare(Number((Number(r.tripFailureRatio) * 100).toFixed(2)))} failed once ${r.tripMinReports} reports are in; watchdog and brown-out resets × ${r.tripResetFactor}`}</Item>
       <ImageFacts r={r} />
     </Card>
   );
@@ -394,7 +373,7 @@ function History({ r }: { r: Release }) {
         <View key={`${h.at}-${i}`} style={styles.historyRow}>
           <Row wrap>
             <Text style={[type.body, { fontFamily: fonts.semibold }]}>
-              {actionWords[h.action] ?? h.action}
+              {h.action === 'stop' && h.actorType === 'system' ? 'Tripped' : (RELEASE_STEP_WORDS[h.action as keyof typeof RELEASE_STEP_WORDS] ?? h.action)}
               {h.action === 'widen' && h.share !== null ? ` to ${formatShare(h.share)}` : ''}
             </Text>
             {h.fromState ? (

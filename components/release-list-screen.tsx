@@ -1,4 +1,4 @@
-// Images & releases: every release of every model, newest first, with its state and rollout share.
+// Releases: every release of every model, newest first, with its state and rollout share.
 import React from 'react';
 import { Pressable, ScrollView, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
@@ -27,7 +27,7 @@ export function ReleaseListScreen({ state, filter, onFilterChange, canCreate, on
   const filtered = Boolean(filter.state || filter.channel);
   return (
     <Page
-      title="Images & releases"
+      title="Releases"
       subtitle="Signed images, who gets them, and how far each rollout has gone"
       actions={canCreate ? <Button label="New release" onPress={onNew} testID="new-release" /> : undefined}
     >

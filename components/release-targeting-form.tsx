@@ -31,7 +31,7 @@ const fieldNames: Record<string, string> = {
   pilotSiteIds: 'Pilot sites',
   tripFailureRatio: 'Failure ratio',
   tripMinReports: 'Minimum reports',
-  tripResetFactor: 'Watchdog-reset jump factor',
+  tripResetFactor: 'Reset jump factor (watchdog and brown-out)',
   notes: 'Notes',
   channel: 'Channel',
 };
@@ -148,7 +148,7 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
         </Text>
         <SwitchRow
           label="Daylight window"
-          hint="Offer only between sunrise and sunset at the logger's site, when the panel keeps the supply up."
+          hint="Offer only from 1 h after sunrise to 1 h before sunset at the logger's site, when the panel keeps the supply up."
           value={daylight}
           onChange={setDaylight}
           testID="daylight-window"
@@ -156,12 +156,12 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
         <Field label="Trip when more than this share of installs fail (%)" keyboardType="decimal-pad" value={ratio} onChangeText={setRatio} error={err('tripFailureRatio')} hint="Of the install reports received; default 5 %." testID="stop-ratio" />
         <Field label="…once at least this many reports are in" keyboardType="number-pad" value={minReports} onChangeText={setMinReports} error={err('tripMinReports')} hint="Default 20, so one early failure does not stop a rollout." testID="stop-min-reports" />
         <Field
-          label="Watchdog-reset jump factor"
+          label="Reset jump factor (watchdog and brown-out)"
           keyboardType="decimal-pad"
           value={resetFactor}
           onChangeText={setResetFactor}
           error={err('tripResetFactor')}
-          hint="Trip when loggers on this release reset this many times more often than before; default 2."
+          hint="Trip when loggers on this release have watchdog and brown-out resets this many times more often than before; default 2."
           testID="trip-reset-factor"
         />
       </Card>

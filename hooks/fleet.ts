@@ -8,11 +8,9 @@ import { loggerKeys } from './loggers';
 import { LIVE_REFRESH_MS, releaseKeys, type Release } from './releases';
 import type { List } from '../schemas/common';
 import type { LoggerRow as FleetRow } from '../schemas/loggers';
+import { CHANNELS, FLEET_FLAGS, LAGGING_REASONS, LOGGER_STATUSES, UPDATE_STATES } from '../schemas/words';
 import {
-  fleetFlags,
   fleetSortKeys,
-  laggingReasons,
-  updateStates,
   type FleetFlag,
   type FleetSortKey,
   type LaggingReason,
@@ -66,11 +64,11 @@ export function fleetQueryFromParams(params: Record<string, string | string[] | 
     siteId: one(params.siteId),
     modelId: one(params.modelId),
     board: one(params.board),
-    channel: member(['stable', 'early'] as const, one(params.channel)),
+    channel: member(CHANNELS, one(params.channel)),
     version: one(params.version),
-    flag: member(fleetFlags, one(params.flag)),
-    updateState: member(updateStates, one(params.updateState)),
-    status: member(['registered', 'enrolled', 'retired'] as const, one(params.status)),
+    flag: member(FLEET_FLAGS, one(params.flag)),
+    updateState: member(UPDATE_STATES, one(params.updateState)),
+    status: member(LOGGER_STATUSES, one(params.status)),
     sort: member(fleetSortKeys, one(params.sort)) ?? 'serial',
     dir: one(params.dir) === 'desc' ? 'desc' : 'asc',
     page: Number.isInteger(page) && page >= 1 ? page : 1,
@@ -164,7 +162,7 @@ export function laggingFilterFromParams(params: Record<string, string | string[]
   const size = Number(one(params.pageSize));
   const sort = one(params.sort) === 'behind' ? 'behind' : 'lagging_since';
   return {
-    reason: member(laggingReasons, one(params.reason)),
+    reason: member(LAGGING_REASONS, one(params.reason)),
     customer: one(params.customer),
     sort,
     // Longest lagging first (oldest since) and most behind first are the useful defaults.

@@ -4,7 +4,8 @@ import { api, query, upload, STALE } from './api';
 import type { z } from 'zod';
 import type { List } from '../schemas/common';
 import type {
-  InstallReason,
+  Channel,
+  FailureReason,
   patchReleaseRequest,
   ReleaseAction,
   ReleaseCounts,
@@ -13,7 +14,6 @@ import type {
   ReleaseRow,
   ReleaseSiteRow,
   ReleaseState,
-  ReleaseChannel,
   ReleaseTransitionView,
   ReleaseView,
   TransitionRequest,
@@ -22,8 +22,8 @@ import type { SiteView } from '../schemas/sites';
 
 // The answers' shapes live in schemas/releases.ts (the server's presenter promises them); screens import them from here.
 export type { ReleaseAction, ReleaseState, ReleaseDashboard, ReleaseSiteRow, ReleaseRow, ReleaseCounts, TransitionRequest };
-export type Channel = ReleaseChannel;
-export type FailureReason = InstallReason;
+
+export type { Channel, FailureReason };
 export type ReleaseTransition = ReleaseTransitionView;
 export type Release = ReleaseView;
 export type Estimate = ReleaseEstimate;

@@ -6,15 +6,9 @@ import { z } from 'zod';
 import { uuid } from './common';
 import { strictSemver } from './semver';
 import { signatureAlgorithmSchema } from './manifest';
+import { FAILURE_REASONS, REPORTED_INSTALL_STATES, RESET_REASONS, type ResetReason } from './words';
 
-export const resetReasons = ['power_on', 'watchdog', 'brownout', 'software', 'exception', 'external', 'unknown'] as const;
-export type ResetReason = (typeof resetReasons)[number];
-
-export const installStates = ['downloading', 'downloaded', 'installing', 'installed', 'failed'] as const;
-export type ReportedInstallState = (typeof installStates)[number];
-
-export const installFailureReasons = ['integrity', 'signature', 'storage', 'connection', 'unsupported', 'low_supply', 'other'] as const;
-export type InstallFailureReason = (typeof installFailureReasons)[number];
+export type { FailureReason, ReportedInstallState, ResetReason } from './words';
 
 const count = (what: string) =>
   z.number({ message: `must be ${what}, a whole number of 0 or more` }).int('must be a whole number').min(0, 'must be 0 or more').max(Number.MAX_SAFE_INTEGER, 'is too large');
@@ -33,7 +27,7 @@ export const readingsSchema = z
 export type Readings = z.infer<typeof readingsSchema>;
 
 export const resetCountsSchema = z
-  .object(Object.fromEntries(resetReasons.map((r) => [r, count('a count of boots').optional()])) as Record<ResetReason, z.ZodOptional<ReturnType<typeof count>>>)
+  .object(Object.fromEntries(RESET_REASONS.map((r) => [r, count('a count of boots').optional()])) as Record<ResetReason, z.ZodOptional<ReturnType<typeof count>>>)
   .meta({
     id: 'ResetCounts',
     description: 'Boots since the previous check-in by reason, e.g. {"watchdog": 2, "brownout": 1}. Unknown reasons are ignored.',
@@ -43,9 +37,9 @@ export type ResetCounts = z.infer<typeof resetCountsSchema>;
 export const installReportSchema = z
   .object({
     release: uuid.meta({ description: 'The release id from the offer.' }),
-    state: z.enum(installStates, { message: `must be one of ${installStates.join(', ')}` }),
+    state: z.enum(REPORTED_INSTALL_STATES, { message: `must be one of ${REPORTED_INSTALL_STATES.join(', ')}` }),
     reason: z
-      .enum(installFailureReasons, { message: `must be one of ${installFailureReasons.join(', ')}` })
+      .enum(FAILURE_REASONS, { message: `must be one of ${FAILURE_REASONS.join(', ')}` })
       .optional()
       .meta({ description: 'With state failed. A failed report without a reason counts as other. Ignored with other states.' }),
     detail: z.string({ message: 'must be text' }).max(200, 'at most 200 characters').optional(),
@@ -71,7 +65,7 @@ export const checkInRequestSchema = z
       description: 'Highest manifest counter this logger has accepted; the decision uses the value sent in this check-in.',
     }),
     uptime_s: count('seconds since boot').optional(),
-    reset_reason: z.enum(resetReasons, { message: `must be one of ${resetReasons.join(', ')}` }).optional().meta({ description: 'Cause of the last boot.' }),
+    reset_reason: z.enum(RESET_REASONS, { message: `must be one of ${RESET_REASONS.join(', ')}` }).optional().meta({ description: 'Cause of the last boot.' }),
     resets_since_last: count('a count of boots').optional().meta({
       description: 'Boots since the previous check-in; counted under reset_reason when reset_counts is absent.',
     }),

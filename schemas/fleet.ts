@@ -3,6 +3,9 @@
 import { z } from 'zod';
 import semver from 'semver';
 import { uuid } from './common';
+import { CHANNELS, FLEET_FLAGS, LAGGING_REASONS, UPDATE_STATES, type Channel, type FleetFlag, type LaggingReason, type UpdateState } from './words';
+
+export type { FleetFlag, LaggingReason, UpdateState };
 
 // ─── Flags and update states ────────────────────────────────────────────────
 
@@ -11,15 +14,6 @@ import { uuid } from './common';
  * (≥ 3 watchdog or brown-out resets in 24 h), low supply (below the model's update minimum), probe fault
  * (the probe's power-on value 85 °C, or a reading outside its −55…125 °C range).
  */
-export const fleetFlags = ['silent', 'unstable', 'low_supply', 'probe_fault'] as const;
-export type FleetFlag = (typeof fleetFlags)[number];
-
-export const FLAG_LABELS: Record<FleetFlag, string> = {
-  silent: 'Silent',
-  unstable: 'Unstable',
-  low_supply: 'Low supply',
-  probe_fault: 'Probe fault',
-};
 
 /** Resets in 24 h at which a logger is unstable (issue 6 §1). */
 export const UNSTABLE_RESETS_24H = 3;
@@ -32,10 +26,9 @@ export const PROBE_MAX_C = 125;
  * Where a logger stands with the current release of its channel (the highest release of its model and
  * channel that reached widening or complete and was not withdrawn):
  * up_to_date — runs it or newer; offered … failed — its install report for that release;
- * none — behind with no report yet, or there is no current release, or no version reported.
+ * behind — behind with no report yet, or there is no current release, or no version reported.
+ * (The list itself is UPDATE_STATES in schemas/words.ts.)
  */
-export const updateStates = ['up_to_date', 'offered', 'downloading', 'downloaded', 'installing', 'installed', 'failed', 'none'] as const;
-export type UpdateState = (typeof updateStates)[number];
 
 export const fleetSortKeys = ['serial', 'site', 'customer', 'model', 'board', 'channel', 'firmware', 'updateState', 'lastSeen', 'supplyV', 'resets24h'] as const;
 export type FleetSortKey = (typeof fleetSortKeys)[number];
@@ -56,10 +49,10 @@ export const fleetFilterFields = {
   siteId: uuid.optional(),
   modelId: uuid.optional(),
   board: z.string().trim().min(1, 'is required').max(20, 'at most 20 characters').optional(),
-  channel: z.enum(['stable', 'early'], { message: 'must be stable or early' }).optional(),
+  channel: z.enum(CHANNELS, { message: oneOf(CHANNELS) }).optional(),
   version: versionFilter.optional(),
-  flag: z.enum(fleetFlags, { message: oneOf(fleetFlags) }).optional(),
-  updateState: z.enum(updateStates, { message: oneOf(updateStates) }).optional(),
+  flag: z.enum(FLEET_FLAGS, { message: oneOf(FLEET_FLAGS) }).optional(),
+  updateState: z.enum(UPDATE_STATES, { message: oneOf(UPDATE_STATES) }).optional(),
   sort: z.enum(fleetSortKeys, { message: oneOf(fleetSortKeys) }).default('serial'),
   dir: z.enum(['asc', 'desc'], { message: 'must be asc or desc' }).default('asc'),
   /** nextCursor of the previous answer: a page number in page mode, or a keyset cursor; "start" begins a keyset walk. */
@@ -76,7 +69,7 @@ export type VersionMatrix = {
     /** Loggers (not retired) per running version × board; versions newest first. */
     versions: { firmware: string | null; total: number; byBoard: Record<string, number> }[];
     channels: {
-      channel: 'stable' | 'early';
+      channel: Channel;
       currentRelease: { id: string; version: string; state: string; share: number; since: string | null } | null;
       /** Enrolled loggers on the channel. */
       loggers: number;
@@ -88,7 +81,7 @@ export type VersionMatrix = {
     releases: {
       id: string;
       version: string;
-      channel: 'stable' | 'early';
+      channel: Channel;
       state: string;
       startedAt: string | null;
       /** Installs per UTC day since the release started, with the running total. */
@@ -138,26 +131,11 @@ export type WhyAnswer = { loggerId: string; at: string; offer: { releaseId: stri
 
 // ─── Lagging sites ──────────────────────────────────────────────────────────
 
-export const laggingReasons = [
-  'silent',
-  'low_supply',
-  'board_not_supported',
-  'outside_daylight_window',
-  'outside_share',
-  'not_pilot_site',
-  'release_not_live',
-  'failed_awaiting_retry',
-  'needs_stepping_stone',
-  'security_counter_too_low',
-  'offered',
-  'other',
-] as const;
-export type LaggingReason = (typeof laggingReasons)[number];
 
 export const LAGGING_REASON_LABELS: Record<LaggingReason, string> = {
-  silent: 'Offline: no check-in for 3 intervals',
-  low_supply: 'Supply below the update minimum',
-  board_not_supported: 'Board revision not supported',
+  silent: 'Not heard from: no check-in for 3 intervals',
+  low_supply: 'Low supply: below the update minimum',
+  board_not_supported: 'Board revision not targeted by the release',
   outside_daylight_window: 'Outside the daylight window',
   outside_share: 'Not yet in the rollout share',
   not_pilot_site: 'Not a pilot site',
@@ -170,7 +148,7 @@ export const LAGGING_REASON_LABELS: Record<LaggingReason, string> = {
 };
 
 export const laggingQuery = z.object({
-  reason: z.enum(laggingReasons, { message: oneOf(laggingReasons) }).optional(),
+  reason: z.enum(LAGGING_REASONS, { message: oneOf(LAGGING_REASONS) }).optional(),
   customer: z.string().trim().max(100, 'at most 100 characters').optional(),
   /** One site (the lagging site's own screen). */
   siteId: uuid.optional(),

@@ -2,7 +2,8 @@
 // Console API is camelCase; the device API spells the same profile fields in snake_case (DEVICE_API.md `config`).
 import { z } from 'zod';
 import { text, uuid } from './common';
-import { fleetFilterFields, type FleetFlag, type UpdateState } from './fleet';
+import { fleetFilterFields } from './fleet';
+import { CHANNELS, LOGGER_STATUSES, type Channel, type FleetFlag, type LoggerStatus, type UpdateState } from './words';
 
 // ─── Identity ────────────────────────────────────────────────────────────────
 
@@ -14,9 +15,8 @@ export const serial = z.string().trim().regex(serialPattern, serialRule);
 /** Board revision label as the model lists it, e.g. "B". */
 export const boardLabel = text(20);
 
-export const channels = ['stable', 'early'] as const;
-export const channel = z.enum(channels, { message: 'must be stable or early' });
-export type Channel = z.infer<typeof channel>;
+export const channel = z.enum(CHANNELS, { message: `must be ${CHANNELS.join(' or ')}` });
+export type { Channel, LoggerStatus };
 
 // ─── Registration ────────────────────────────────────────────────────────────
 
@@ -65,15 +65,13 @@ export type MeasurementProfile = z.infer<typeof measurementProfile>;
 
 // ─── Console API: registry requests and views (issue 3) ─────────────────────
 
-export const loggerStatuses = ['registered', 'enrolled', 'retired'] as const;
-export type LoggerStatus = (typeof loggerStatuses)[number];
 
 export const pageSizes = [25, 50, 100] as const;
 
 /** The fleet table's query (issue 6): filters, allow-listed sort keys, a keyset cursor or a page. */
 export const loggersQuery = z.object({
   ...fleetFilterFields,
-  status: z.enum(loggerStatuses, { message: 'must be registered, enrolled or retired' }).optional(),
+  status: z.enum(LOGGER_STATUSES, { message: `must be one of ${LOGGER_STATUSES.join(', ')}` }).optional(),
   page: z.coerce.number({ message: 'must be a number' }).int().min(1, 'pages count from 1').default(1),
   pageSize: z.coerce
     .number({ message: 'must be a number' })

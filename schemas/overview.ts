@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { CHANNELS, FLEET_FLAGS } from './words';
 
 export const overviewSchema = z.object({
   loggers: z.object({
@@ -15,14 +16,14 @@ export const overviewSchema = z.object({
   /** Fleet health for support and release steering (issue 6 §7); each href opens the filtered view. */
   fleet: z.object({
     silent: z.object({ count: z.number().int(), href: z.string() }),
-    flags: z.array(z.object({ flag: z.enum(['silent', 'unstable', 'low_supply', 'probe_fault']), count: z.number().int(), href: z.string() })),
+    flags: z.array(z.object({ flag: z.enum(FLEET_FLAGS), count: z.number().int(), href: z.string() })),
     laggingSites: z.object({ count: z.number().int(), href: z.string() }),
     liveReleases: z.array(
       z.object({
         id: z.string(),
         modelName: z.string(),
         version: z.string(),
-        channel: z.enum(['stable', 'early']),
+        channel: z.enum(CHANNELS),
         state: z.string(),
         share: z.number(),
         installed: z.number().int(),

@@ -5,23 +5,28 @@ import { uuid } from './common';
 import { boardLabel } from './manifest';
 import type { KeyState } from './keys';
 
-// The lifecycle's words (the table itself is server/releases/lifecycle.ts): shared with the console.
-export const RELEASE_STATES = ['draft', 'pilot', 'widening', 'complete', 'paused', 'stopped', 'withdrawn'] as const;
-export type ReleaseState = (typeof RELEASE_STATES)[number];
+import {
+  CHANNELS,
+  FAILURE_REASONS,
+  INSTALL_STATES,
+  LIVE_STATES,
+  RELEASE_ACTIONS,
+  RELEASE_STATES,
+  type Channel,
+  type FailureReason,
+  type InstallState,
+  type LiveState,
+  type ReleaseAction,
+  type ReleaseState,
+  type ResumeState,
+  type StoppedBy,
+} from './words';
 
-/** States in which a release offers updates and serves its image. */
-export const LIVE_STATES = ['pilot', 'widening', 'complete'] as const;
-export type LiveState = (typeof LIVE_STATES)[number];
+// The lifecycle's words are declared in schemas/words.ts; the table itself is the rollout core's.
+export { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES };
+export type { Channel, FailureReason, InstallState, LiveState, ReleaseAction, ReleaseState, ResumeState, StoppedBy };
 
-export const RELEASE_ACTIONS = ['start_pilot', 'widen', 'complete', 'pause', 'resume', 'stop', 'withdraw'] as const;
-export type ReleaseAction = (typeof RELEASE_ACTIONS)[number];
-
-/** The state a paused or stopped release returns to on resume. A stop of a paused release returns to paused. */
-export type ResumeState = LiveState | 'paused';
-
-export const channels = ['stable', 'early'] as const;
-export const channelSchema = z.enum(channels, { error: 'must be stable or early' });
-export type ReleaseChannel = z.infer<typeof channelSchema>;
+export const channelSchema = z.enum(CHANNELS, { error: `must be ${CHANNELS.join(' or ')}` });
 
 export const notesSchema = z.string({ error: 'must be text' }).max(20_000, 'at most 20 000 characters');
 
@@ -80,10 +85,6 @@ export const estimateQuery = z.object({
   share: z.coerce.number({ error: 'must be a percentage' }).min(0, 'must be 0 or more').max(100, 'must be at most 100'),
 });
 
-export const installReasons = ['integrity', 'signature', 'storage', 'connection', 'unsupported', 'low_supply', 'other'] as const;
-export type InstallReason = (typeof installReasons)[number];
-export const installStates = ['offered', 'downloading', 'downloaded', 'installing', 'installed', 'failed'] as const;
-export type InstallState = (typeof installStates)[number];
 
 // ─── Release answers (GET /api/releases, /api/releases/:id, /estimate) ─────
 
@@ -93,7 +94,7 @@ type ReleaseHeading = {
   modelId: string;
   modelName: string;
   version: string;
-  channel: ReleaseChannel;
+  channel: Channel;
   state: ReleaseState;
   share: number;
 };
@@ -108,7 +109,7 @@ export type ReleaseRow = ReleaseHeading & {
 };
 
 /** Install reports by their current state; failures by reason (a missing or unknown reason counts as other). */
-export type ReleaseCounts = Record<InstallState, number> & { failedByReason: Record<InstallReason, number> };
+export type ReleaseCounts = Record<InstallState, number> & { failedByReason: Record<FailureReason, number> };
 
 /** One step of a release's history: a lifecycle action, or "upload" for the row that created the draft. */
 export type ReleaseTransitionView = {
@@ -118,6 +119,8 @@ export type ReleaseTransitionView = {
   toState: ReleaseState;
   share: number | null;
   reason: string | null;
+  /** Who took the step: a person, an automation token, or the system (the trip rule). */
+  actorType: 'person' | 'token' | 'logger' | 'system';
   actorName: string;
 };
 

@@ -104,3 +104,37 @@ export const LAGGING_REASONS = [
   'other',
 ] as const;
 export type LaggingReason = (typeof LAGGING_REASONS)[number];
+
+// ─── Activity ───────────────────────────────────────────────────────────────
+
+/** Every event the activity log records: one code per event, whoever caused it (details say who or what). */
+export const ACTIVITY_ACTIONS = [
+  'demo.seeded',
+  'person.created',
+  'person.signed_in',
+  'key.registered',
+  'key.retired',
+  'key.revoked',
+  'token.created',
+  'token.revoked',
+  'model.created',
+  'model.updated',
+  'site.created',
+  'site.updated',
+  'site.note_added',
+  'logger.registered',
+  'logger.batch_registered',
+  'logger.enrolled',
+  'logger.moved',
+  'logger.retired',
+  'logger.token_rotated',
+  'logger.note_added',
+  'logger.photo_added',
+  'profile.changed',
+  'release.uploaded',
+  'release.edited',
+  'release.deleted',
+  'release.retried',
+  ...Object.values(RELEASE_EVENTS),
+] as const;
+export type ActivityAction = (typeof ACTIVITY_ACTIONS)[number];

@@ -3,9 +3,10 @@
 import type { Transaction } from 'sequelize';
 import { Activity } from '../db/models';
 import type { RequestContext } from '../auth/actor';
+import type { ActivityAction } from '../../schemas/words';
 
 export type ActivityEntry = {
-  action: string; // e.g. "logger.registered", "release.stopped"
+  action: ActivityAction;
   targetType: string; // e.g. "logger", "site", "release"
   targetId?: string | null;
   summary: string; // one plain sentence a support person can read

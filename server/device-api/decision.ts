@@ -102,7 +102,7 @@ export const REASON_LABELS: Record<ReasonCode, string> = {
   firmware_unknown: 'Running version unknown',
   wrong_channel: 'Other channel',
   not_live: 'Release not live',
-  board_not_supported: 'Board revision not supported',
+  board_not_supported: 'Board revision not targeted by the release',
   not_newer: 'Not newer than the running version',
   security_counter_too_low: 'Security counter below the logger’s',
   failed_awaiting_retry: 'Install failed, awaiting retry',
@@ -110,7 +110,7 @@ export const REASON_LABELS: Record<ReasonCode, string> = {
   outside_share: 'Not yet in the rollout share',
   needs_stepping_stone: 'Needs a stepping-stone release first',
   superseded: 'A newer release comes first',
-  low_supply: 'Supply below the update minimum',
+  low_supply: 'Low supply: below the update minimum',
   outside_daylight_window: 'Outside the daylight window',
 };
 

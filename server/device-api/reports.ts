@@ -13,7 +13,7 @@
 // - installed is final for the row, except that the service may turn it into failed (other) when the
 //   bootloader rolled back (see `afterInstalled`).
 import semver from 'semver';
-import type { InstallFailureReason, ReportedInstallState } from '../../schemas/device';
+import type { FailureReason, ReportedInstallState } from '../../schemas/device';
 import { TRANSIENT_FAILURE_REASONS } from './decision';
 
 export type StoredState = 'offered' | ReportedInstallState;
@@ -36,7 +36,7 @@ export type StoredReport = {
 
 export type ReportChange =
   | { apply: false; why: 'repeated' | 'older' | 'after_install' | 'failed_awaiting_retry' }
-  | { apply: true; state: ReportedInstallState; reason: InstallFailureReason | null; newAttempt: boolean };
+  | { apply: true; state: ReportedInstallState; reason: FailureReason | null; newAttempt: boolean };
 
 export const ROLLBACK_DETAIL = 'rolled back by the bootloader';
 
@@ -50,7 +50,7 @@ export function retriedSince(row: StoredReport): boolean {
 }
 
 /** What a reported state does to the stored row (null: no row yet). */
-export function applyReport(row: StoredReport | null, state: ReportedInstallState, reason?: InstallFailureReason | null): ReportChange {
+export function applyReport(row: StoredReport | null, state: ReportedInstallState, reason?: FailureReason | null): ReportChange {
   const failureReason = state === 'failed' ? (reason ?? 'other') : null;
   if (row === null) return { apply: true, state, reason: failureReason, newAttempt: true };
   if (row.state === 'failed') {

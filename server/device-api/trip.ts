@@ -247,7 +247,7 @@ export async function tripIfCrossed(
     targetType: 'release',
     targetId: release.id,
     summary: `Release ${release.version} of ${modelName} was tripped. ${verdict.reason}`,
-    details: { rule: verdict.rule, fromState: release.state, failures },
+    details: { by: 'trip', rule: verdict.rule, fromState: release.state, failures },
   });
   const recipients = await sequelize.query<{ email: string }>(
     `SELECT email FROM users WHERE role IN ('admin', 'release_engineer') AND disabled_at IS NULL ORDER BY email`,

@@ -14,6 +14,7 @@ import { csvRecord, safeText } from './csv';
 import { CURRENT_RELEASES, SILENT } from './sql';
 import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
 import type { FleetDeps } from './table';
+import { SQL_WORDS } from '../db/sql-words';
 
 /** Enrolled loggers below the current release of their channel (firmware reported). */
 const BEHIND_FROM = `
@@ -21,7 +22,7 @@ const BEHIND_FROM = `
   JOIN models m ON m.id = l.model_id
   JOIN sites s ON s.id = l.site_id
   JOIN current_releases cr ON cr.model_id = l.model_id AND cr.channel = l.channel
-  WHERE l.status = 'enrolled' AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`;
+  WHERE l.status = :enrolled AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`;
 
 const REASON_OF: Partial<Record<ReasonCode, LaggingReason>> = {
   low_supply: 'low_supply',
@@ -75,7 +76,7 @@ const CAN_LAG_FOR: Partial<Record<LaggingReason, string>> = {
   low_supply: 'l.supply_v IS NOT NULL AND l.supply_v < m.min_update_supply_v',
   outside_daylight_window: 's.latitude IS NOT NULL AND s.longitude IS NOT NULL',
   board_not_supported: 'NOT EXISTS (SELECT 1 FROM releases r WHERE r.id = cr.id AND COALESCE(l.reported_board, l.board) = ANY (r.boards))',
-  failed_awaiting_retry: `EXISTS (SELECT 1 FROM install_reports ir WHERE ir.logger_id = l.id AND ir.release_id = cr.id AND ir.state = 'failed')`,
+  failed_awaiting_retry: `EXISTS (SELECT 1 FROM install_reports ir WHERE ir.logger_id = l.id AND ir.release_id = cr.id AND ir.state = :failed)`,
 };
 
 function canLagFor(reason: LaggingReason): string {
@@ -86,7 +87,7 @@ function canLagFor(reason: LaggingReason): string {
 async function behindLoggers(deps: FleetDeps, siteIds: string[] | null, customer: string | undefined, now: Date, reason?: LaggingReason): Promise<BehindRow[]> {
   const conditions: string[] = [];
   if (reason) conditions.push(`(${canLagFor(reason)})`);
-  const replacements: Record<string, unknown> = { now: now.toISOString() };
+  const replacements: Record<string, unknown> = { ...SQL_WORDS, now: now.toISOString() };
   if (siteIds) {
     if (siteIds.length === 0) return [];
     conditions.push('l.site_id IN (:siteIds)');
@@ -120,7 +121,7 @@ async function withReasons(deps: FleetDeps, rows: BehindRow[], now: Date): Promi
 
 async function siteRows(deps: FleetDeps, query: LaggingQuery, now: Date, onlySites: string[] | null, paged: boolean): Promise<{ rows: SiteRow[]; total: number }> {
   const conditions: string[] = [];
-  const replacements: Record<string, unknown> = { now: now.toISOString() };
+  const replacements: Record<string, unknown> = { ...SQL_WORDS, now: now.toISOString() };
   if (query.customer) {
     conditions.push('s.customer ILIKE :customer');
     replacements.customer = likePattern(query.customer);
@@ -150,7 +151,7 @@ async function siteRows(deps: FleetDeps, query: LaggingQuery, now: Date, onlySit
            t.total, t.last_contact_at
       FROM lagging g JOIN sites s ON s.id = g.site_id
       CROSS JOIN LATERAL (SELECT count(*)::int AS total, max(x.last_seen_at) AS last_contact_at
-                            FROM loggers x WHERE x.site_id = g.site_id AND x.status = 'enrolled') t`;
+                            FROM loggers x WHERE x.site_id = g.site_id AND x.status = :enrolled) t`;
   const [{ total }] = await deps.sequelize.query<{ total: number }>(`SELECT count(*)::int AS total FROM (${grouped}) q`, {
     type: QueryTypes.SELECT,
     replacements,

@@ -1,38 +1,40 @@
 // The overview's fleet part (issue 6 §7): counts by flag, silent loggers, lagging sites and the live
 // releases with their share and failures — each with the console link that opens the filtered view.
 import { QueryTypes, type Sequelize } from 'sequelize';
-import { fleetFlags, type FleetFlag } from '../../schemas/fleet';
+import { type FleetFlag } from '../../schemas/fleet';
+import { FLEET_FLAGS } from '../../schemas/words';
 import type { Overview } from '../../schemas/overview';
 import { CURRENT_RELEASES, FLAG_SQL } from './sql';
+import { SQL_WORDS } from '../db/sql-words';
 
 export async function fleetOverview(sequelize: Sequelize, now: Date): Promise<Overview['fleet']> {
-  const replacements = { now: now.toISOString() };
+  const replacements = { ...SQL_WORDS, now: now.toISOString() };
   const [[flags], [lagging], releases] = await Promise.all([
     sequelize.query<Record<FleetFlag, number>>(
-      `SELECT ${fleetFlags.map((f) => `count(*) FILTER (WHERE ${FLAG_SQL[f]})::int AS ${f}`).join(', ')}
-         FROM loggers l JOIN models m ON m.id = l.model_id WHERE l.status <> 'retired'`,
+      `SELECT ${FLEET_FLAGS.map((f) => `count(*) FILTER (WHERE ${FLAG_SQL[f]})::int AS ${f}`).join(', ')}
+         FROM loggers l JOIN models m ON m.id = l.model_id WHERE l.status <> :retired`,
       { type: QueryTypes.SELECT, replacements },
     ),
     sequelize.query<{ count: number }>(
       `WITH current_releases AS (${CURRENT_RELEASES})
        SELECT count(DISTINCT l.site_id)::int AS count FROM loggers l
          JOIN current_releases cr ON cr.model_id = l.model_id AND cr.channel = l.channel
-        WHERE l.status = 'enrolled' AND l.site_id IS NOT NULL AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`,
-      { type: QueryTypes.SELECT },
+        WHERE l.status = :enrolled AND l.site_id IS NOT NULL AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`,
+      { type: QueryTypes.SELECT, replacements },
     ),
     sequelize.query<{ id: string; model_name: string; version: string; channel: 'stable' | 'early'; state: string; share: string; installed: number; failed: number }>(
       `SELECT r.id, m.name AS model_name, r.version, r.channel, r.state, r.share,
-              (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = 'installed') AS installed,
-              (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = 'failed') AS failed
+              (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = :installed) AS installed,
+              (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = :failed) AS failed
          FROM releases r JOIN models m ON m.id = r.model_id
-        WHERE r.state IN ('pilot', 'widening', 'complete')
+        WHERE r.state IN (:liveStates)
         ORDER BY lower(m.name), r.channel DESC, heliodor_semver_key(r.version) COLLATE "C" DESC`,
-      { type: QueryTypes.SELECT },
+      { type: QueryTypes.SELECT, replacements },
     ),
   ]);
   return {
     silent: { count: flags.silent, href: '/loggers?flag=silent' },
-    flags: fleetFlags.map((flag) => ({ flag, count: flags[flag], href: `/loggers?flag=${flag}` })),
+    flags: FLEET_FLAGS.map((flag) => ({ flag, count: flags[flag], href: `/loggers?flag=${flag}` })),
     laggingSites: { count: lagging.count, href: '/lagging' },
     liveReleases: releases.map((r) => ({
       id: r.id,

@@ -11,6 +11,7 @@ import type { Note, RetryAnswer, RetryRequest, SiteNotesQuery, Sparklines, Timel
 import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C } from '../../schemas/fleet';
 import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
 import type { FleetDeps } from './table';
+import { SQL_WORDS } from '../db/sql-words';
 
 const iso = (d: Date | string) => new Date(d).toISOString();
 
@@ -31,7 +32,7 @@ export async function retryFailed(deps: FleetDeps, ctx: RequestContext, releaseI
     });
     if (!release) throw problems.notFound('release');
     let target: string;
-    const replacements: Record<string, unknown> = { releaseId, now: deps.now() };
+    const replacements: Record<string, unknown> = { ...SQL_WORDS, releaseId, now: deps.now() };
     if ('siteId' in body) {
       const [site] = await deps.sequelize.query<{ name: string }>('SELECT name FROM sites WHERE id = :siteId', { type: QueryTypes.SELECT, replacements: { siteId: body.siteId }, transaction });
       if (!site) throw problems.notFound('site');
@@ -44,7 +45,7 @@ export async function retryFailed(deps: FleetDeps, ctx: RequestContext, releaseI
     const retried = await deps.sequelize.query<{ serial: string; logger_id: string }>(
       `UPDATE install_reports ir SET retried_at = :now
          FROM loggers l
-        WHERE l.id = ir.logger_id AND ${target} AND ir.release_id = :releaseId AND ir.state = 'failed'
+        WHERE l.id = ir.logger_id AND ${target} AND ir.release_id = :releaseId AND ir.state = :failed
           AND (ir.retried_at IS NULL OR ir.retried_at < ir.updated_at)
         RETURNING l.serial, ir.logger_id`,
       { type: QueryTypes.SELECT, replacements, transaction },

@@ -1,6 +1,7 @@
 // SQL fragments the fleet views share: the current release of each model and channel, the flags, the
 // update state. Every value reaches the database as a bound replacement (:name); the only text put
-// into a statement comes from the constants in this file, chosen by allow-listed keys.
+// into a statement comes from the constants in this file, chosen by allow-listed keys. Domain words
+// (states, statuses) are replacements too: a statement using these fragments spreads SQL_WORDS.
 import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C, UNSTABLE_RESETS_24H } from '../../schemas/fleet';
 
 /**
@@ -14,37 +15,37 @@ export const CURRENT_RELEASES = `
   SELECT DISTINCT ON (r.model_id, r.channel) r.id, r.model_id, r.channel, r.version, r.state, r.share,
          heliodor_semver_key(r.version) COLLATE "C" AS version_key, LEAST(r.widened_at, r.completed_at) AS since
     FROM releases r
-   WHERE (r.widened_at IS NOT NULL OR r.completed_at IS NOT NULL) AND r.state <> 'withdrawn'
+   WHERE (r.widened_at IS NOT NULL OR r.completed_at IS NOT NULL) AND r.state <> :withdrawn
    ORDER BY r.model_id, r.channel, heliodor_semver_key(r.version) COLLATE "C" DESC`;
 
 /** Enrolled and not seen for three check-in intervals (the overview counts "silent" the same way). */
-export const SILENT = `(l.status = 'enrolled' AND (l.last_seen_at IS NULL OR l.last_seen_at < CAST(:now AS timestamptz) - make_interval(secs => 3 * m.check_in_interval_s)))`;
+export const SILENT = `(l.status = :enrolled AND (l.last_seen_at IS NULL OR l.last_seen_at < CAST(:now AS timestamptz) - make_interval(secs => 3 * m.check_in_interval_s)))`;
 export const RESETS_24H = `heliodor_resets_since(l.recent_resets, CAST(:now AS timestamptz) - interval '24 hours')`;
 export const UNSTABLE = `(${RESETS_24H} >= ${UNSTABLE_RESETS_24H})`;
-export const LOW_SUPPLY = `(l.status <> 'retired' AND l.supply_v IS NOT NULL AND l.supply_v < m.min_update_supply_v)`;
+export const LOW_SUPPLY = `(l.status <> :retired AND l.supply_v IS NOT NULL AND l.supply_v < m.min_update_supply_v)`;
 /** The probe reading as a number, or null when absent or not a number. */
 const TEMP = `(CASE WHEN jsonb_typeof(l.readings->'temp_c') = 'number' THEN (l.readings->>'temp_c')::float8 END)`;
 export const TEMP_C = TEMP;
-export const PROBE_FAULT = `(l.status <> 'retired' AND ${TEMP} IS NOT NULL AND (${TEMP} = ${PROBE_POWER_ON_C} OR ${TEMP} < ${PROBE_MIN_C} OR ${TEMP} > ${PROBE_MAX_C}))`;
+export const PROBE_FAULT = `(l.status <> :retired AND ${TEMP} IS NOT NULL AND (${TEMP} = ${PROBE_POWER_ON_C} OR ${TEMP} < ${PROBE_MIN_C} OR ${TEMP} > ${PROBE_MAX_C}))`;
 
 export const FLAG_SQL = { silent: SILENT, unstable: UNSTABLE, low_supply: LOW_SUPPLY, probe_fault: PROBE_FAULT } as const;
 
 /**
  * The update state against the current release `cr` of the logger's model and channel, with its install
- * report `ir` (see schemas/fleet.ts updateStates). A failed report an operator has since retried reads
+ * report `ir` (UPDATE_STATES in schemas/words.ts). A failed report an operator has since retried reads
  * as offered again.
  */
 export const UPDATE_STATE = `(CASE
-    WHEN cr.id IS NULL OR l.firmware IS NULL THEN 'none'
-    WHEN l.firmware_key >= cr.version_key THEN 'up_to_date'
-    WHEN ir.state IS NULL THEN 'none'
-    WHEN ir.state = 'failed' AND ir.retried_at IS NOT NULL AND ir.retried_at >= ir.updated_at THEN 'offered'
+    WHEN cr.id IS NULL OR l.firmware IS NULL THEN :behind
+    WHEN l.firmware_key >= cr.version_key THEN :upToDate
+    WHEN ir.state IS NULL THEN :behind
+    WHEN ir.state = :failed AND ir.retried_at IS NOT NULL AND ir.retried_at >= ir.updated_at THEN :offered
     ELSE ir.state END)`;
 
 /** Pipeline order for sorting by update state: nothing yet, then the funnel, then done. */
 export const UPDATE_STATE_RANK = `(CASE ${UPDATE_STATE}
-    WHEN 'none' THEN 0 WHEN 'failed' THEN 1 WHEN 'offered' THEN 2 WHEN 'downloading' THEN 3 WHEN 'downloaded' THEN 4
-    WHEN 'installing' THEN 5 WHEN 'installed' THEN 6 ELSE 7 END)`;
+    WHEN :behind THEN 0 WHEN :failed THEN 1 WHEN :offered THEN 2 WHEN :downloading THEN 3 WHEN :downloaded THEN 4
+    WHEN :installing THEN 5 WHEN :installed THEN 6 ELSE 7 END)`;
 
 /** The joins the fleet table reads from: model, site, the current release of the logger's channel, its report. */
 export const FLEET_FROM = `

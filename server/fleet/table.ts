@@ -11,10 +11,12 @@ import type { Actor } from '../auth/actor';
 import { problems } from '../http/problem';
 import { likePattern } from '../sites/service';
 import { isStrictSemver } from '../../schemas/semver';
-import { fleetFlags, type FleetFlag, type FleetSortKey, type UpdateState } from '../../schemas/fleet';
+import { type FleetFlag, type FleetSortKey, type UpdateState } from '../../schemas/fleet';
+import { FLEET_FLAGS } from '../../schemas/words';
 import type { LoggerRow, LoggersQuery } from '../../schemas/loggers';
 import { csvRecord, safeText } from './csv';
 import { CURRENT_RELEASES, FLAG_SQL, FLEET_FROM, RESETS_24H, TEMP_C, UPDATE_STATE, UPDATE_STATE_RANK } from './sql';
+import { SQL_WORDS } from '../db/sql-words';
 
 export type FleetDeps = { sequelize: Sequelize; now: () => Date };
 
@@ -82,7 +84,7 @@ async function versionsMatching(deps: FleetDeps, version: string): Promise<strin
 
 async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: Date) {
   const conditions: string[] = [];
-  const replacements: Record<string, unknown> = { now: now.toISOString() };
+  const replacements: Record<string, unknown> = { ...SQL_WORDS, now: now.toISOString() };
   if (query.q) {
     conditions.push('(l.serial ILIKE :q OR s.name ILIKE :q OR s.customer ILIKE :q)');
     replacements.q = likePattern(query.q);
@@ -141,7 +143,7 @@ type RowRecord = {
 } & Record<`f_${FleetFlag}`, boolean>;
 
 function presentRow(r: RowRecord): LoggerRow {
-  const flags = fleetFlags.filter((f) => r[`f_${f}`]);
+  const flags = FLEET_FLAGS.filter((f) => r[`f_${f}`]);
   return {
     id: r.id,
     serial: r.serial,
@@ -179,7 +181,7 @@ async function readRows(
     replacements.afterValue = page.after.value;
     replacements.afterId = page.after.id;
   }
-  const flagColumns = fleetFlags.map((f) => `${FLAG_SQL[f]} AS f_${f}`).join(', ');
+  const flagColumns = FLEET_FLAGS.map((f) => `${FLAG_SQL[f]} AS f_${f}`).join(', ');
   return deps.sequelize.query<RowRecord>(
     `WITH current_releases AS (${CURRENT_RELEASES})
      SELECT l.id, l.serial, l.model_id, m.name AS model_name, l.board, l.channel, l.status, l.site_id, s.name AS site_name,

@@ -5,6 +5,7 @@ import { QueryTypes } from 'sequelize';
 import type { VersionMatrix } from '../../schemas/fleet';
 import { CURRENT_RELEASES } from './sql';
 import type { FleetDeps } from './table';
+import { SQL_WORDS } from '../db/sql-words';
 
 type ModelRow = { id: string; name: string; boards: { label: string }[] };
 type CountRow = { model_id: string; firmware: string | null; board: string; n: number };
@@ -43,19 +44,19 @@ export function adoptionDays(startedAt: Date | null, installs: { day: string; n:
 }
 
 export async function versionMatrix(deps: FleetDeps): Promise<VersionMatrix> {
-  const q = <T extends object>(sql: string) => deps.sequelize.query<T>(sql, { type: QueryTypes.SELECT });
+  const q = <T extends object>(sql: string) => deps.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements: SQL_WORDS });
   const [models, counts, channels, releases, adoption] = await Promise.all([
     q<ModelRow>('SELECT id, name, boards FROM models ORDER BY lower(name), id'),
     q<CountRow>(
-      `SELECT model_id, firmware, board, count(*)::int AS n FROM loggers WHERE status <> 'retired'
+      `SELECT model_id, firmware, board, count(*)::int AS n FROM loggers WHERE status <> :retired
         GROUP BY model_id, firmware, firmware_key, board ORDER BY model_id, firmware_key DESC, board`,
     ),
     q<ChannelRow>(
       `WITH current_releases AS (${CURRENT_RELEASES}),
-       channels AS (SELECT m.id AS model_id, t.channel FROM models m CROSS JOIN (VALUES ('stable'), ('early')) t(channel))
+       channels AS (SELECT m.id AS model_id, t.channel FROM models m CROSS JOIN unnest(ARRAY[:channels]::text[]) t(channel))
        SELECT t.model_id, t.channel,
-              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = 'enrolled') AS loggers,
-              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = 'enrolled'
+              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = :enrolled) AS loggers,
+              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = :enrolled
                   AND cr.id IS NOT NULL AND l.firmware_key >= cr.version_key) AS on_current,
               cr.id AS release_id, cr.version, cr.state, cr.share, cr.since
          FROM channels t LEFT JOIN current_releases cr ON cr.model_id = t.model_id AND cr.channel = t.channel
@@ -63,11 +64,11 @@ export async function versionMatrix(deps: FleetDeps): Promise<VersionMatrix> {
     ),
     q<ReleaseRow>(
       `SELECT id, model_id, version, channel, state, LEAST(piloted_at, widened_at, completed_at) AS started_at
-         FROM releases WHERE state <> 'draft' ORDER BY model_id, heliodor_semver_key(version) COLLATE "C" DESC`,
+         FROM releases WHERE state <> :draft ORDER BY model_id, heliodor_semver_key(version) COLLATE "C" DESC`,
     ),
     q<AdoptionRow>(
       `SELECT release_id, to_char(date_trunc('day', COALESCE(confirmed_at, finished_at) AT TIME ZONE 'UTC'), 'YYYY-MM-DD') AS day, count(*)::int AS n
-         FROM install_reports WHERE state = 'installed' AND COALESCE(confirmed_at, finished_at) IS NOT NULL
+         FROM install_reports WHERE state = :installed AND COALESCE(confirmed_at, finished_at) IS NOT NULL
         GROUP BY 1, 2 ORDER BY 1, 2`,
     ),
   ]);

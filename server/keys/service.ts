@@ -83,7 +83,7 @@ export async function registerKey(sequelize: Sequelize, ctx: RequestContext, inp
   return presentKey(key, 0);
 }
 
-const keyMoves: Record<'retire' | 'revoke', { from: KeyState[]; to: KeyState; verb: string }> = {
+const keyMoves: Record<'retire' | 'revoke', { from: KeyState[]; to: KeyState; verb: 'retired' | 'revoked' }> = {
   retire: { from: ['active'], to: 'retired', verb: 'retired' },
   revoke: { from: ['active', 'retired'], to: 'revoked', verb: 'revoked' },
 };

@@ -1,7 +1,8 @@
 // Batch registration: reads and checks a whole CSV upload before anything is stored.
 // Pure: bytes in, rows or every problem (with the file's line number, header = line 1) out.
 import { parse, type InfoRecord } from 'csv-parse/sync';
-import { serialPattern, serialRule, channels, type Channel } from '../../schemas/loggers';
+import { serialPattern, serialRule } from '../../schemas/loggers';
+import { CHANNELS, type Channel } from '../../schemas/words';
 
 export const MAX_BATCH_ROWS = 5000;
 /** Longest row we read; a logger row is well under 200 bytes, so anything near this is not a logger list. */
@@ -117,7 +118,7 @@ export function parseLoggerBatch(buffer: Uint8Array, models: readonly BatchModel
 
     const channelText = cell('channel').toLowerCase();
     const channel = (channelText === '' ? 'stable' : channelText) as Channel;
-    if (!channels.includes(channel)) fail('channel', `channel "${cell('channel')}" must be stable or early (blank means stable)`);
+    if (!CHANNELS.includes(channel)) fail('channel', `channel "${cell('channel')}" must be stable or early (blank means stable)`);
 
     if (rowErrors.length > 0 || !model || board === undefined) errors.push(...rowErrors);
     else rows.push({ line, serial, modelId: model.id, board, channel });

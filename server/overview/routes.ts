@@ -3,22 +3,23 @@ import { QueryTypes } from 'sequelize';
 import type { Api } from '../http/api';
 import type { Overview } from '../../schemas/overview';
 import { fleetOverview } from '../fleet/overview';
+import { SQL_WORDS } from '../db/sql-words';
 
 /** Fleet numbers for the first screen, in two indexed queries. */
 export async function overview(sequelize: Sequelize, now: Date): Promise<Overview> {
   const [counts] = await sequelize.query<Record<string, number>>(
     `SELECT
        count(*)::int AS total,
-       count(*) FILTER (WHERE l.status = 'registered')::int AS registered,
-       count(*) FILTER (WHERE l.status = 'enrolled')::int AS enrolled,
-       count(*) FILTER (WHERE l.status = 'enrolled' AND l.last_seen_at >= :now::timestamptz - make_interval(secs => 3 * m.check_in_interval_s))::int AS online,
-       count(*) FILTER (WHERE l.status = 'enrolled' AND (l.last_seen_at IS NULL OR l.last_seen_at < :now::timestamptz - make_interval(secs => 3 * m.check_in_interval_s)))::int AS silent,
-       count(*) FILTER (WHERE l.status = 'retired')::int AS retired,
+       count(*) FILTER (WHERE l.status = :registered)::int AS registered,
+       count(*) FILTER (WHERE l.status = :enrolled)::int AS enrolled,
+       count(*) FILTER (WHERE l.status = :enrolled AND l.last_seen_at >= :now::timestamptz - make_interval(secs => 3 * m.check_in_interval_s))::int AS online,
+       count(*) FILTER (WHERE l.status = :enrolled AND (l.last_seen_at IS NULL OR l.last_seen_at < :now::timestamptz - make_interval(secs => 3 * m.check_in_interval_s)))::int AS silent,
+       count(*) FILTER (WHERE l.status = :retired)::int AS retired,
        (SELECT count(*) FROM sites)::int AS sites,
        (SELECT count(*) FROM models)::int AS models,
        (SELECT count(*) FROM users WHERE disabled_at IS NULL)::int AS people
      FROM loggers l JOIN models m ON m.id = l.model_id`,
-    { type: QueryTypes.SELECT, replacements: { now: now.toISOString() } },
+    { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, now: now.toISOString() } },
   );
   const recent = await sequelize.query<{ id: number; at: Date; actor_name: string; action: string; summary: string }>(
     "SELECT id, at, actor_name, action, summary FROM activity WHERE action <> 'person.signed_in' ORDER BY at DESC, id DESC LIMIT 8",

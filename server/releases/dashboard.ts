@@ -18,6 +18,7 @@ import { failureFigures, tripGauges, resetFigures } from '../device-api/trip';
 import { retentionDays } from '../device-api/partitions';
 import { adoptionDays } from '../fleet/versions';
 import type { ReleaseBoardRow, ReleaseDashboard, ReleaseSiteRow, ReleaseSitesQuery } from '../../schemas/releases';
+import { SQL_WORDS } from '../db/sql-words';
 
 export type DashboardDeps = { sequelize: Sequelize; now: () => Date };
 
@@ -47,17 +48,17 @@ const INSTALL_S = `EXTRACT(EPOCH FROM (${DONE_AT} - ir.offered_at))`;
 const AUDIENCE = `
   FROM loggers l
   LEFT JOIN install_reports ir ON ir.logger_id = l.id AND ir.release_id = :releaseId
- WHERE l.model_id = :modelId AND l.channel = :channel AND l.status = 'enrolled'`;
+ WHERE l.model_id = :modelId AND l.channel = :channel AND l.status = :enrolled`;
 const INTEGRATOR_SCOPE = ` AND (l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))`;
 
 const TALLY = `
   count(*)::int AS loggers,
   count(*) FILTER (WHERE l.firmware_key >= heliodor_semver_key(:version) COLLATE "C")::int AS on_release,
   count(ir.logger_id)::int AS reached,
-  count(*) FILTER (WHERE ir.state IN ('offered', 'downloading', 'downloaded', 'installing'))::int AS in_progress,
-  count(*) FILTER (WHERE ir.state = 'installed')::int AS installed,
-  count(*) FILTER (WHERE ir.state = 'failed')::int AS failed,
-  percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) FILTER (WHERE ir.state = 'installed' AND ${DONE_AT} IS NOT NULL) AS median_install_s`;
+  count(*) FILTER (WHERE ir.state IN (:underWay))::int AS in_progress,
+  count(*) FILTER (WHERE ir.state = :installed)::int AS installed,
+  count(*) FILTER (WHERE ir.state = :failed)::int AS failed,
+  percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) FILTER (WHERE ir.state = :installed AND ${DONE_AT} IS NOT NULL) AS median_install_s`;
 
 const tally = (r: TallyRow) => ({
   loggers: Number(r.loggers),
@@ -84,7 +85,7 @@ function scopeOf(actor: Actor, release: ReleaseRow) {
   const integrator = actor.type === 'person' && actor.role === 'integrator';
   return {
     scope: integrator ? INTEGRATOR_SCOPE : '',
-    replacements: { releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, actorId: integrator ? actor.id : null },
+    replacements: { ...SQL_WORDS, releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, actorId: integrator ? actor.id : null },
   };
 }
 
@@ -131,7 +132,7 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
       `SELECT count(*)::int AS installs,
               percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS median_s,
               percentile_cont(0.9) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS p90_s
-         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = 'installed' AND ${DONE_AT} IS NOT NULL`,
+         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL`,
       { type: QueryTypes.SELECT, replacements },
     ),
     sequelize.query<TallyRow & { board: string }>(`SELECT l.board, ${TALLY} ${AUDIENCE} ${scope} GROUP BY l.board ORDER BY l.board`, {
@@ -143,7 +144,7 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
     resetFigures(sequelize, undefined, release, now, retentionDays()),
     sequelize.query<{ day: string; n: number }>(
       `SELECT to_char(date_trunc('day', ${DONE_AT} AT TIME ZONE 'UTC'), 'YYYY-MM-DD') AS day, count(*)::int AS n
-         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = 'installed' AND ${DONE_AT} IS NOT NULL
+         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL
         GROUP BY 1 ORDER BY 1`,
       { type: QueryTypes.SELECT, replacements },
     ),

@@ -3,7 +3,9 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
 import { allowedActions } from './lifecycle';
 import { renderNotes } from './notes';
-import { installReasons, installStates, type ReleaseCounts, type ReleaseRow, type ReleaseView } from '../../schemas/releases';
+import { FAILURE_REASONS, INSTALL_STATES } from '../../schemas/words';
+import { type ReleaseCounts, type ReleaseRow, type ReleaseView } from '../../schemas/releases';
+import { SQL_WORDS } from '../db/sql-words';
 
 export type InstallCounts = ReleaseCounts;
 export type { ReleaseRow, ReleaseView };
@@ -14,12 +16,12 @@ export async function installCounts(sequelize: Sequelize, releaseId: string): Pr
     'SELECT state, reason, count(*)::int AS n FROM install_reports WHERE release_id = :releaseId GROUP BY state, reason',
     { type: QueryTypes.SELECT, replacements: { releaseId } },
   );
-  const counts = Object.fromEntries(installStates.map((s) => [s, 0])) as unknown as InstallCounts;
-  counts.failedByReason = Object.fromEntries(installReasons.map((r) => [r, 0])) as InstallCounts['failedByReason'];
+  const counts = Object.fromEntries(INSTALL_STATES.map((s) => [s, 0])) as unknown as InstallCounts;
+  counts.failedByReason = Object.fromEntries(FAILURE_REASONS.map((r) => [r, 0])) as InstallCounts['failedByReason'];
   for (const row of rows) {
-    if (row.state in counts) counts[row.state as (typeof installStates)[number]] += row.n;
+    if (row.state in counts) counts[row.state as (typeof INSTALL_STATES)[number]] += row.n;
     if (row.state === 'failed') {
-      const reason = (installReasons as readonly string[]).includes(row.reason ?? '') ? (row.reason as (typeof installReasons)[number]) : 'other';
+      const reason = (FAILURE_REASONS as readonly string[]).includes(row.reason ?? '') ? (row.reason as (typeof FAILURE_REASONS)[number]) : 'other';
       counts.failedByReason[reason] += row.n;
     }
   }
@@ -34,7 +36,7 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     ReleaseTransition.findAll({ where: { releaseId: release.id }, order: [['id', 'ASC']] }),
     sequelize.query<{ id: string; name: string }>(
       'SELECT s.id, s.name FROM release_pilot_sites p JOIN sites s ON s.id = p.site_id WHERE p.release_id = :id ORDER BY s.name, s.id',
-      { type: QueryTypes.SELECT, replacements: { id: release.id } },
+      { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, id: release.id } },
     ),
     installCounts(sequelize, release.id),
   ]);
@@ -70,6 +72,7 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
       toState: t.toState,
       share: t.share === null || t.share === undefined ? null : Number(t.share),
       reason: t.reason,
+      actorType: t.actorType,
       actorName: t.actorName,
     })),
     allowedActions: allowedActions(release.state),
@@ -91,13 +94,13 @@ export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: 
        JOIN models m ON m.id = r.model_id
        JOIN signing_keys k ON k.id = r.signing_key_id
        LEFT JOIN LATERAL (
-         SELECT count(*) FILTER (WHERE i.state = 'installed') AS installed,
-                count(*) FILTER (WHERE i.state = 'failed') AS failed
+         SELECT count(*) FILTER (WHERE i.state = :installed) AS installed,
+                count(*) FILTER (WHERE i.state = :failed) AS failed
            FROM install_reports i WHERE i.release_id = r.id
        ) c ON TRUE
       WHERE ${where.join(' AND ')}
       ORDER BY r.created_at DESC, r.id`,
-    { type: QueryTypes.SELECT, replacements: filter },
+    { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, ...filter } },
   );
   const out: ReleaseRow[] = rows.map((r) => ({ ...r, share: Number(r.share), createdAt: new Date(r.createdAt).toISOString() }));
   return { rows: out, total: out.length };

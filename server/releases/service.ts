@@ -14,6 +14,7 @@ import { shareThreshold } from '../device-api/cohort';
 import { canDelete, transition, type ReleaseState } from './lifecycle';
 import { existingSiteIds, presentRelease } from './presenter';
 import { uploadFields, type PatchReleaseRequest, type ReleaseEstimate, type TransitionRequest } from '../../schemas/releases';
+import { RELEASE_EVENTS } from '../../schemas/words';
 
 export type ReleaseDeps = { sequelize: Sequelize; store: ImageStore; now: () => Date; logger?: { warn: (o: object, msg: string) => void } };
 
@@ -302,14 +303,14 @@ export async function transitionRelease(deps: ReleaseDeps, ctx: RequestContext, 
     const name = label(found, await modelName(found.modelId, t));
     const words = actionWords[input.action](found.share);
     await recordActivity(t, ctx, {
-      action: `release.${input.action}`,
+      action: RELEASE_EVENTS[input.action],
       targetType: 'release',
       targetId: id,
       summary:
         input.action === 'widen'
           ? `${ctx.actor.name} widened ${name} to ${found.share} %${reason ? `: ${reason}` : ''}`
           : `${ctx.actor.name} ${words} ${name}${reason ? `: ${reason}` : ''}`,
-      details: { fromState: from, toState: found.state, share: found.share, reason },
+      details: { fromState: from, toState: found.state, share: found.share, reason, ...(input.action === 'stop' ? { by: 'person' } : {}) },
     });
     return found;
   });

@@ -251,7 +251,7 @@ describe('notes and activity', () => {
     // Up to the seed's clock (sign-ins by this file's tests come later).
     const rows = await q<{ action: string; summary: string }>('SELECT action, summary FROM activity WHERE at <= :now ORDER BY at, id', { now: now.toISOString() });
     const actions = new Set(rows.map((r) => r.action));
-    for (const a of ['key.registered', 'release.uploaded', 'release.start_pilot', 'release.widen', 'release.complete', 'release.stop', 'logger.retired', 'logger.enrolled', 'demo.seeded']) {
+    for (const a of ['key.registered', 'release.uploaded', 'release.pilot_started', 'release.widened', 'release.completed', 'release.stopped', 'logger.retired', 'logger.enrolled', 'demo.seeded']) {
       expect(actions).toContain(a);
     }
     expect(rows[rows.length - 1].action).toBe('demo.seeded');

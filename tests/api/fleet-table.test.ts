@@ -174,7 +174,7 @@ describe('sorting', () => {
     model: (a, b) => cmp(a.modelName.toLowerCase(), b.modelName.toLowerCase()),
     updateState: (a, b) => cmp(RANK.indexOf(a.updateState), RANK.indexOf(b.updateState)),
   };
-  const RANK = ['none', 'failed', 'offered', 'downloading', 'downloaded', 'installing', 'installed', 'up_to_date'];
+  const RANK = ['behind', 'failed', 'offered', 'downloading', 'downloaded', 'installing', 'installed', 'up_to_date'];
   function cmp<T extends string | number>(a: T, b: T) {
     return a < b ? -1 : a > b ? 1 : 0;
   }

@@ -136,7 +136,7 @@ describe('the lifecycle over the API', () => {
     expect(row.stoppedAt).not.toBeNull();
     expect(row.completedAt).toBeNull();
     const activity = await Activity.findAll({ where: { targetType: 'release', targetId: release.id }, order: [['id', 'ASC']] });
-    expect(activity.map((a) => a.action)).toEqual(['release.uploaded', 'release.start_pilot', 'release.pause', 'release.resume', 'release.widen', 'release.stop']);
+    expect(activity.map((a) => a.action)).toEqual(['release.uploaded', 'release.pilot_started', 'release.paused', 'release.resumed', 'release.widened', 'release.stopped']);
     expect(activity[5].summary).toContain('watchdog resets doubled');
     expect(activity[5].actorName).toBe('Priya Test');
   });

@@ -68,7 +68,7 @@ test('when the release engineer uploads a signed image, starts the pilot and wid
   await page.getByRole('heading', { name: 'Overview' }).waitFor();
 
   await page.getByRole('navigation', { name: 'Main' }).getByText('Releases', { exact: true }).click();
-  await page.getByRole('heading', { name: 'Images & releases' }).waitFor();
+  await page.getByRole('heading', { name: 'Releases', exact: true }).waitFor();
   await page.getByText('No releases yet — upload a signed image to create a draft.').waitFor();
   await screenshot(page, 'release-list-empty-wide');
 
@@ -150,7 +150,7 @@ test('when the releases list is opened on a phone, then releases show as cards w
   await signIn(page, base, 'priya@fernhollow.example', testPassword);
   await page.getByRole('heading', { name: 'Overview' }).waitFor();
   await page.getByRole('tab', { name: 'Releases' }).click();
-  await page.getByRole('heading', { name: 'Images & releases' }).waitFor();
+  await page.getByRole('heading', { name: 'Releases', exact: true }).waitFor();
   const card = page.getByTestId('release-card').first();
   await card.waitFor();
   expect(await card.innerText()).toContain(version);

@@ -25,6 +25,7 @@ import { seededRandom } from '../../../scripts/simulator/random';
 import { createDemoKey, demoImage, signDemoManifest, storeImage } from './demo-signing';
 import { COUNTER_OF, DAY, HOUR, planFleet, SITE, type PlannedRelease } from './fleet-plan';
 import { seedCheckInHistory, ensureHistoryPartitions } from './history';
+import { RELEASE_EVENTS } from '../../../schemas/words';
 
 export type FullSeedContext = {
   sequelize: Sequelize;
@@ -185,8 +186,8 @@ export async function seedFullScenario(ctx: FullSeedContext) {
                 ? `${s.actor} completed the rollout of ${name}`
                 : `${s.actor} stopped ${name}${s.reason ? `: ${s.reason}` : ''}`;
       entries.push({
-        at: s.at, actor, action: s.action === 'upload' ? 'release.uploaded' : `release.${s.action}`, targetType: 'release', targetId: r.id, summary,
-        details: s.action === 'upload' ? undefined : { fromState: s.fromState, toState: s.toState, share: s.shareAfter, reason: s.reason ?? null },
+        at: s.at, actor, action: s.action === 'upload' ? 'release.uploaded' : RELEASE_EVENTS[s.action], targetType: 'release', targetId: r.id, summary,
+        details: s.action === 'upload' ? undefined : { fromState: s.fromState, toState: s.toState, share: s.shareAfter, reason: s.reason ?? null, ...(s.action === 'stop' ? { by: s.actor === 'system' ? 'trip' : 'person' } : {}) },
       });
     }
   }

@@ -17,6 +17,7 @@ import { gaussian, type Random } from '../../../scripts/simulator/random';
 import { partitionName, utcDay } from '../../device-api/partitions';
 import { COUNTER_OF, DAY, HOUR, MINUTE, type FleetPlan } from './fleet-plan';
 import { valeVillages } from './scenario';
+import { SQL_WORDS } from '../sql-words';
 
 export const HISTORY_DAYS = 14;
 /** Versions on which the seeded history has no brown-out or watchdog resets (see the release notes). */
@@ -217,8 +218,8 @@ export async function seedCheckInHistory(sequelize: Sequelize, t: Transaction, p
               'temp_c', CASE WHEN probe_fault AND at > CAST(:now AS timestamptz) - interval '3 hours' THEN 85
                              ELSE round(CAST(cell AS numeric) * 16) / 16 END
             ),
-            CASE WHEN boot_at = upgraded_at THEN 'software' WHEN boot_at = enrolled_at THEN 'power_on' ELSE reset_kind END,
-            CASE WHEN upgrade_row THEN jsonb_build_object('software', 1)
+            CASE WHEN boot_at = upgraded_at THEN :software WHEN boot_at = enrolled_at THEN :powerOn ELSE reset_kind END,
+            CASE WHEN upgrade_row THEN jsonb_build_object(CAST(:software AS text), 1)
                  WHEN reset_now THEN jsonb_build_object(reset_kind, 1)
                  ELSE CAST('{}' AS jsonb) END,
             CAST(greatest(-120, least(0, rssi_base + round(2 * g2))) AS int),
@@ -227,7 +228,7 @@ export async function seedCheckInHistory(sequelize: Sequelize, t: Transaction, p
             CASE WHEN cfg2_at IS NOT NULL AND at >= cfg2_at THEN 2 ELSE 1 END,
             ip
        FROM energy`,
-    { transaction: t, replacements: { now: now.toISOString(), quiet: pgArray(QUIET_VERSIONS) } },
+    { transaction: t, replacements: { ...SQL_WORDS, now: now.toISOString(), quiet: pgArray(QUIET_VERSIONS) } },
   );
 
   // Latest state on the logger rows, exactly as the last check-in left it.
