@@ -48,6 +48,8 @@ export type PlannedRelease = {
   widenedAt: Date | null;
   completedAt: Date | null;
   stoppedAt: Date | null;
+  /** Who stopped it, while it stays stopped: a person, or the trip rule (the system). */
+  stoppedBy: 'person' | 'trip' | null;
 };
 
 /** A time on the given number of days before `now`, at hh:mm UTC (office hours in the Vale). */
@@ -81,7 +83,7 @@ function nextInWindow(at: Date, spot: { latitude: number; longitude: number }): 
   return at;
 }
 
-function buildRelease(spec: Omit<PlannedRelease, 'id' | 'steps' | 'state' | 'share' | 'resumeState' | 'uploadedAt' | 'pilotedAt' | 'widenedAt' | 'completedAt' | 'stoppedAt'>, steps: StepSpec[]): PlannedRelease {
+function buildRelease(spec: Omit<PlannedRelease, 'id' | 'steps' | 'state' | 'share' | 'resumeState' | 'uploadedAt' | 'pilotedAt' | 'widenedAt' | 'completedAt' | 'stoppedAt' | 'stoppedBy'>, steps: StepSpec[]): PlannedRelease {
   let life: ReleaseLifecycle = { state: 'draft', share: 0, resumeState: null };
   const done: PlannedRelease['steps'] = [];
   const first: Partial<Record<ReleaseState, Date>> = {};
@@ -108,6 +110,7 @@ function buildRelease(spec: Omit<PlannedRelease, 'id' | 'steps' | 'state' | 'sha
     widenedAt: first.widening ?? null,
     completedAt: first.complete ?? null,
     stoppedAt: first.stopped ?? null,
+    stoppedBy: life.state === 'stopped' ? (done.findLast((d) => d.action === 'stop')?.actor === 'system' ? 'trip' : 'person') : null,
   };
 }
 

@@ -95,7 +95,7 @@ export async function seedFullScenario(ctx: FullSeedContext) {
         boards: r.boards, manifestBoards: r.boards, upgradeFrom: r.upgradeFrom, daylightWindow: r.daylightWindow,
         securityCounter: r.securityCounter, imageSha256: image.sha256, manifest: signed.manifest, signature: signed.signature,
         signingKeyId: keyRow.id, notes: r.notes, createdBy: priya.id, createdAt: r.uploadedAt, updatedAt: lastStep.at,
-        pilotedAt: r.pilotedAt, widenedAt: r.widenedAt, completedAt: r.completedAt, stoppedAt: r.stoppedAt,
+        pilotedAt: r.pilotedAt, widenedAt: r.widenedAt, completedAt: r.completedAt, stoppedAt: r.stoppedAt, stoppedBy: r.stoppedBy,
       },
       { transaction },
     );
