@@ -2,7 +2,7 @@
 // Console API is camelCase; the device API spells the same profile fields in snake_case (DEVICE_API.md `config`).
 import { z } from 'zod';
 import { text, uuid } from './common';
-import { fleetFilterFields, type FleetFlag, type UpdateState } from './fleet';
+import { fleetFilterFields, type FleetRow } from './fleet';
 
 // ─── Identity ────────────────────────────────────────────────────────────────
 
@@ -63,14 +63,14 @@ export const measurementProfile = z.object({
 });
 export type MeasurementProfile = z.infer<typeof measurementProfile>;
 
-// ─── Console API: registry requests and views (issue 3) ─────────────────────
+// ─── Console API: registry requests and views ───────────────────────────────
 
 export const loggerStatuses = ['registered', 'enrolled', 'retired'] as const;
 export type LoggerStatus = (typeof loggerStatuses)[number];
 
 export const pageSizes = [25, 50, 100] as const;
 
-/** The fleet table's query (issue 6): filters, allow-listed sort keys, a keyset cursor or a page. */
+/** The fleet table's query: filters, allow-listed sort keys, a keyset cursor or a page. */
 export const loggersQuery = z.object({
   ...fleetFilterFields,
   status: z.enum(loggerStatuses, { message: 'must be registered, enrolled or retired' }).optional(),
@@ -122,30 +122,8 @@ export type ProfileChangeRequest = z.infer<typeof profileChangeRequest>;
 /** The profile as the console shows it: the device fields plus the panel it was computed for. */
 export type ProfileView = MeasurementProfile & { panelWp: number | null; panelVocV: number | null; createdAt: string };
 
-export type LoggerRow = {
-  id: string;
-  serial: string;
-  modelId: string;
-  modelName: string;
-  board: string;
-  channel: Channel;
-  status: LoggerStatus;
-  siteId: string | null;
-  siteName: string | null;
-  customer: string | null;
-  firmware: string | null;
-  lastSeenAt: string | null;
-  supplyV: number | null;
-  /** Latest probe reading (°C), or null. */
-  tempC: number | null;
-  /** Where the logger stands with the current release of its channel. */
-  updateState: UpdateState;
-  /** Watchdog and brown-out resets in the last 24 h. */
-  resets24h: number;
-  /** Flags, worst first; worstFlag is the first of them or null. */
-  flags: FleetFlag[];
-  worstFlag: FleetFlag | null;
-};
+/** A row of the fleet table (GET /api/loggers): declared column by column in schemas/fleet.ts. */
+export type LoggerRow = FleetRow;
 
 export type LoggerDetail = {
   id: string;
