@@ -1,10 +1,10 @@
 // The measurement profile computed live as the integrator types, with the same pure function the
-// server uses (server/loggers/calibration.ts), the headroom against the chip's limits, and its refusals.
+// server uses (lib/calibration.ts), the headroom against the chip's limits, and its refusals.
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
 import { Card, Notice, ProgressBar } from './ui';
 import { colors, space, type } from './theme';
-import { measurementProfile, type InstallForProfile, type ModelLimits, type ProfileResult } from '../server/loggers/calibration';
+import { measurementProfile, type InstallForProfile, type ModelLimits, type ProfileResult } from '../lib/calibration';
 
 /** Amps in the unit an installer reads: µA, mA or A, at most 4 significant digits. */
 export function formatCurrent(a: number): string {

@@ -16,7 +16,7 @@ import { colors, fonts, radii, space, touchTarget, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { EnrollInput, Lookup } from '../hooks/loggers';
 import type { Site, SiteInput } from '../hooks/sites';
-import type { InstallForProfile } from '../server/loggers/calibration';
+import type { InstallForProfile } from '../lib/calibration';
 
 const errorOf = (e: unknown) => e as (ApiError & Error) | null;
 

@@ -1,4 +1,4 @@
-// The fleet table (issue 6 §1): @tanstack/react-table v9 in manual mode — the server sorts, filters and
+// The fleet table: @tanstack/react-table v9 in manual mode — the server sorts, filters and
 // pages; the table holds the sort, the page and the visible columns, all mirrored in the URL by the
 // screen. Wide screens get the full table; phones get cards with serial, site, firmware and the worst flag.
 import React from 'react';
@@ -19,7 +19,7 @@ import { Badge, Card, Mono, Row, Skeleton } from './ui';
 import { FlagBadges, SeenAt, UpdateStateBadge } from './fleet-controls';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, touchTarget, type } from './theme';
-import type { FleetSortKey } from '../schemas/fleet';
+import { fleetColumnIds, fleetColumns, type FleetColumnId, type FleetSortKey } from '../schemas/fleet';
 import { FLAG_WORDS } from './words';
 import type { FleetRow } from '../hooks/fleet';
 
@@ -27,63 +27,69 @@ const features = tableFeatures({ rowSortingFeature, rowPaginationFeature, column
 const column = createColumnHelper<typeof features, FleetRow>();
 
 const volts = (v: number | null) => (v === null ? '—' : `${v.toFixed(2)} V`);
+const dense = (value: string | null) => <Text style={type.dense}>{value ?? '—'}</Text>;
+const figures = (value: string | number) => <Text style={[type.dense, { fontVariant: ['tabular-nums'] }]}>{value}</Text>;
 
-/** Column ids are the server's sort keys, so a header press is the sort request as it is. */
-export const fleetColumns = column.columns([
-  column.accessor('serial', {
-    id: 'serial',
-    header: 'Serial',
-    cell: (c) => <Mono style={{ fontSize: 13 }}>{c.row.original.serial}</Mono>,
-  }),
-  column.accessor((r) => r.siteName, { id: 'site', header: 'Site', cell: (c) => <Text style={type.dense}>{c.row.original.siteName ?? '—'}</Text> }),
-  column.accessor((r) => r.customer, { id: 'customer', header: 'Customer', cell: (c) => <Text style={type.dense}>{c.row.original.customer ?? '—'}</Text> }),
-  column.accessor((r) => r.modelName, { id: 'model', header: 'Model', cell: (c) => <Text style={type.dense}>{c.row.original.modelName}</Text> }),
-  column.accessor('board', { id: 'board', header: 'Board', cell: (c) => <Text style={type.dense}>{c.row.original.board}</Text> }),
-  column.accessor('channel', { id: 'channel', header: 'Channel', cell: (c) => <Text style={type.dense}>{c.row.original.channel}</Text> }),
-  column.accessor('firmware', { id: 'firmware', header: 'Firmware', cell: (c) => <Mono style={{ fontSize: 13 }}>{c.row.original.firmware ?? '—'}</Mono> }),
-  column.accessor('updateState', { id: 'updateState', header: 'Update', cell: (c) => <UpdateStateBadge state={c.row.original.updateState} /> }),
-  column.accessor('lastSeenAt', {
-    id: 'lastSeen',
-    header: 'Last seen',
-    cell: (c) => {
-      const at = c.row.original.lastSeenAt;
-      return <SeenAt at={at} relative={at ? relativeTime(at) : 'never'} absolute={at ? absoluteTime(at) : 'never'} />;
-    },
-  }),
-  column.accessor('supplyV', { id: 'supplyV', header: 'Supply', cell: (c) => <Text style={[type.dense, { fontVariant: ['tabular-nums'] }]}>{volts(c.row.original.supplyV)}</Text> }),
-  column.accessor('resets24h', { id: 'resets24h', header: 'Resets 24 h', cell: (c) => <Text style={[type.dense, { fontVariant: ['tabular-nums'] }]}>{c.row.original.resets24h}</Text> }),
-  column.display({ id: 'flags', header: 'Flags', enableSorting: false, cell: (c) => <FlagBadges flags={c.row.original.flags} /> }),
-]);
-
-/** Every column a person may hide, with its header (serial always stays). */
-export const choosableColumns: { id: string; label: string }[] = [
-  { id: 'site', label: 'Site' },
-  { id: 'customer', label: 'Customer' },
-  { id: 'model', label: 'Model' },
-  { id: 'board', label: 'Board' },
-  { id: 'channel', label: 'Channel' },
-  { id: 'firmware', label: 'Firmware' },
-  { id: 'updateState', label: 'Update' },
-  { id: 'lastSeen', label: 'Last seen' },
-  { id: 'supplyV', label: 'Supply' },
-  { id: 'resets24h', label: 'Resets 24 h' },
-  { id: 'flags', label: 'Flags' },
-];
-
-const widths: Record<string, number> = {
-  serial: 1.25,
-  site: 1.6,
-  customer: 1.5,
-  model: 1,
-  board: 0.55,
-  channel: 0.65,
-  firmware: 1,
-  updateState: 1.1,
-  lastSeen: 1.05,
-  supplyV: 0.8,
-  resets24h: 0.75,
-  flags: 1.3,
+type ColumnLook = {
+  label: string;
+  /** Share of the row's width (flex). */
+  width: number;
+  /** Whether a person may hide it in the column chooser. */
+  hideable: boolean;
+  /** A first press on the header sorts highest first (figures); otherwise A to Z, oldest first. */
+  descFirst?: boolean;
+  cell: (row: FleetRow) => React.ReactNode;
 };
+
+/**
+ * The console's half of each fleet column (the shared half is schemas/fleet.ts `fleetColumns`, in whose
+ * order they appear): label, width, whether it may be hidden, and its cell. null: in the CSV export only.
+ */
+const looks: Record<FleetColumnId, ColumnLook | null> = {
+  serial: { label: 'Serial', width: 1.25, hideable: false, cell: (r) => <Mono style={{ fontSize: 13 }}>{r.serial}</Mono> },
+  site: { label: 'Site', width: 1.6, hideable: true, cell: (r) => dense(r.siteName) },
+  customer: { label: 'Customer', width: 1.5, hideable: true, cell: (r) => dense(r.customer) },
+  model: { label: 'Model', width: 1, hideable: true, cell: (r) => dense(r.modelName) },
+  board: { label: 'Board', width: 0.55, hideable: true, cell: (r) => dense(r.board) },
+  channel: { label: 'Channel', width: 0.65, hideable: true, cell: (r) => dense(r.channel) },
+  status: null,
+  firmware: { label: 'Firmware', width: 1, hideable: true, cell: (r) => <Mono style={{ fontSize: 13 }}>{r.firmware ?? '—'}</Mono> },
+  updateState: { label: 'Update', width: 1.1, hideable: true, cell: (r) => <UpdateStateBadge state={r.updateState} /> },
+  lastSeen: {
+    label: 'Last seen',
+    width: 1.05,
+    hideable: true,
+    cell: (r) => <SeenAt at={r.lastSeenAt} relative={r.lastSeenAt ? relativeTime(r.lastSeenAt) : 'never'} absolute={r.lastSeenAt ? absoluteTime(r.lastSeenAt) : 'never'} />,
+  },
+  supplyV: { label: 'Supply', width: 0.8, hideable: true, descFirst: true, cell: (r) => figures(volts(r.supplyV)) },
+  tempC: null,
+  resets24h: { label: 'Resets 24 h', width: 0.75, hideable: true, descFirst: true, cell: (r) => figures(r.resets24h) },
+  flags: { label: 'Flags', width: 1.3, hideable: true, cell: (r) => <FlagBadges flags={r.flags} /> },
+};
+
+const shown = fleetColumnIds.flatMap((id) => {
+  const look = looks[id];
+  return look ? [{ id, ...look }] : [];
+});
+
+/** The table's columns. Their ids are the server's sort keys, so a header press is the sort request as it is. */
+export const tableColumns = column.columns(
+  shown.map((c) =>
+    // Sorting happens in the server (manual mode); the accessor only marks the column as data, which sorting needs.
+    column.accessor((r) => r, {
+      id: c.id,
+      header: c.label,
+      enableSorting: fleetColumns[c.id].sortable,
+      sortDescFirst: c.descFirst ?? false,
+      cell: (x) => c.cell(x.row.original),
+    }),
+  ),
+);
+
+/** Every column a person may hide, with its label (serial always stays). */
+export const choosableColumns: { id: FleetColumnId; label: string }[] = shown.filter((c) => c.hideable).map(({ id, label }) => ({ id, label }));
+
+const widths = Object.fromEntries(shown.map((c) => [c.id, c.width])) as Record<string, number>;
 
 type TableProps = {
   rows: FleetRow[];
@@ -106,7 +112,7 @@ export function FleetTable({ rows, total, sort, dir, page, pageSize, hidden, onS
   const columnVisibility: ColumnVisibilityState = Object.fromEntries(hidden.map((id) => [id, false]));
   const table = useTable({
     features,
-    columns: fleetColumns,
+    columns: tableColumns,
     data: rows,
     getRowId: (r) => r.id,
     manualSorting: true,

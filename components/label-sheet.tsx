@@ -1,11 +1,11 @@
 // The screen that shows freshly issued tokens once: label previews, a printable A4 sheet (24 up, layout
-// from server/loggers/label-sheet.ts), the bench sheet CSV, and a plain warning that none of it comes back.
+// from lib/label-sheet.ts), the bench sheet CSV, and a plain warning that none of it comes back.
 import React from 'react';
 import { Image, StyleSheet, Text, View } from 'react-native';
 import { createPortal } from 'react-dom';
 import { Button, Card, Notice, ProgressBar, Row } from './ui';
 import { colors, fonts, space, type } from './theme';
-import { enrollmentLink, labelSheet, labelSheetLayout } from '../server/loggers/label-sheet';
+import { enrollmentLink, labelSheet, labelSheetLayout } from '../lib/label-sheet';
 import { qrDataUrl } from './qr-art';
 import { benchSheetCsv, benchSheetName, type BenchRow } from './bench-sheet';
 import { downloadText, isWeb, useGlobalStyle } from './web';

@@ -13,7 +13,7 @@ import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, radii, space, touchTarget, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { LoggerDetail, ProfileInput } from '../hooks/loggers';
-import type { ModelLimits } from '../server/loggers/calibration';
+import type { ModelLimits } from '../lib/calibration';
 import type { Site } from '../hooks/sites';
 
 type Action<A extends unknown[] = []> = { busy: boolean; error: unknown; run: (...args: A) => void };

@@ -8,7 +8,7 @@ import { CalibrationPreview, liveProfile } from './calibration-preview';
 import { colors, space, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { Profile, ProfileInput } from '../hooks/loggers';
-import type { InstallForProfile, ModelLimits } from '../server/loggers/calibration';
+import type { InstallForProfile, ModelLimits } from '../lib/calibration';
 
 function parseNumber(text: string): number | undefined {
   const t = text.trim().replace(',', '.');

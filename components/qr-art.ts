@@ -1,7 +1,7 @@
 // QR codes drawn in the client as SVG (the `qrcode` package's encoder; we only draw its modules), so the
 // label sheet can be rendered from tokens the server handed out once and never stores in clear.
 import { create } from 'qrcode';
-import { LABEL_QR_ERROR_CORRECTION } from '../server/loggers/label-sheet';
+import { LABEL_QR_ERROR_CORRECTION } from '../lib/label-sheet';
 
 /** The QR code standard asks for a light margin of 4 modules. */
 const QUIET = 4;

@@ -11,6 +11,7 @@ import { ShareBar, StateBadge, ChannelBadge, bytes, formatShare, stateWords } fr
 import { FAILURE_REASON_WORDS, RELEASE_STEP_WORDS } from './words';
 import { colors, fonts, space, type } from './theme';
 import { absoluteTime, relativeTime } from './format';
+import { MAX_WIDEN_SHARE, MIN_WIDEN_SHARE } from '../lib/share';
 import type { Estimate, FailureReason, Release, ReleaseAction, TransitionRequest } from '../hooks/releases';
 
 /** A move the person is about to confirm. */
@@ -134,7 +135,7 @@ function Moves({ r, onPending }: { r: Release; onPending: (p: PendingMove) => vo
   const widenTo = (text: string) => {
     const n = Number(text.replace(',', '.'));
     const floor = r.state === 'widening' ? current : 0;
-    if (!Number.isFinite(n) || n < 1 || n > 99) return setCustomError('A share from 1 to 99 %; use Complete for 100 %.');
+    if (!Number.isFinite(n) || n < MIN_WIDEN_SHARE || n > MAX_WIDEN_SHARE) return setCustomError(`A share from ${MIN_WIDEN_SHARE} to ${MAX_WIDEN_SHARE} %; use Complete for 100 %.`);
     if (n <= floor) return setCustomError(`The share can only grow: more than ${formatShare(floor)}.`);
     setCustomError(undefined);
     onPending({ action: 'widen', share: n });

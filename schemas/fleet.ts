@@ -1,9 +1,9 @@
-// Fleet views (issue 6): the fleet table's filters, sort keys, flags and update states, the version
+// Fleet views: the fleet table's filters, sort keys, flags and update states, the version
 // matrix, lagging sites, notes, the logger timeline, sparklines and retries. Console API, camelCase.
 import { z } from 'zod';
 import semver from 'semver';
 import { uuid } from './common';
-import { CHANNELS, FLEET_FLAGS, LAGGING_REASONS, UPDATE_STATES, type Channel, type FleetFlag, type LaggingReason, type UpdateState } from './words';
+import { CHANNELS, FLEET_FLAGS, LAGGING_REASONS, LOGGER_STATUSES, UPDATE_STATES, type Channel, type FleetFlag, type LaggingReason, type UpdateState } from './words';
 
 export type { FleetFlag, LaggingReason, UpdateState };
 
@@ -15,7 +15,7 @@ export type { FleetFlag, LaggingReason, UpdateState };
  * (the probe's power-on value 85 °C, or a reading outside its −55…125 °C range).
  */
 
-/** Resets in 24 h at which a logger is unstable (issue 6 §1). */
+/** Watchdog and brown-out resets in 24 h at which a logger is unstable (the product's rule). */
 export const UNSTABLE_RESETS_24H = 3;
 /** The temperature probe's power-on register value and valid range (probe datasheet; REFERENCE.md §9). */
 export const PROBE_POWER_ON_C = 85;
@@ -30,8 +30,54 @@ export const PROBE_MAX_C = 125;
  * (The list itself is UPDATE_STATES in schemas/words.ts.)
  */
 
-export const fleetSortKeys = ['serial', 'site', 'customer', 'model', 'board', 'channel', 'firmware', 'updateState', 'lastSeen', 'supplyV', 'resets24h'] as const;
-export type FleetSortKey = (typeof fleetSortKeys)[number];
+// ─── The fleet table's columns ──────────────────────────────────────────────
+
+/**
+ * The fleet table's columns, each declared once, in the order the table shows them and the CSV export
+ * writes them: the row fields it carries (GET /api/loggers) and whether the server sorts by it. The row
+ * type, the sort allow-list (its ids are the `sort` parameter) and the column ids the console may hide
+ * derive from this list. Each column's SQL, sort expression, CSV cell and presenter are in
+ * server/fleet/columns.ts; its label, width and cell in components/fleet-table.tsx (null there: CSV only).
+ */
+export const fleetColumns = {
+  serial: { sortable: true, fields: { serial: z.string() } },
+  site: { sortable: true, fields: { siteId: uuid.nullable(), siteName: z.string().nullable() } },
+  customer: { sortable: true, fields: { customer: z.string().nullable() } },
+  model: { sortable: true, fields: { modelId: uuid, modelName: z.string() } },
+  board: { sortable: true, fields: { board: z.string() } },
+  channel: { sortable: true, fields: { channel: z.enum(CHANNELS) } },
+  status: { sortable: false, fields: { status: z.enum(LOGGER_STATUSES) } },
+  firmware: { sortable: true, fields: { firmware: z.string().nullable() } },
+  /** Where the logger stands with the current release of its channel. */
+  updateState: { sortable: true, fields: { updateState: z.enum(UPDATE_STATES) } },
+  lastSeen: { sortable: true, fields: { lastSeenAt: z.iso.datetime().nullable() } },
+  supplyV: { sortable: true, fields: { supplyV: z.number().nullable() } },
+  /** Latest probe reading (°C), or null. */
+  tempC: { sortable: false, fields: { tempC: z.number().nullable() } },
+  /** Watchdog and brown-out resets in the last 24 h. */
+  resets24h: { sortable: true, fields: { resets24h: z.number().int().nonnegative() } },
+  /** Flags, worst first; worstFlag is the first of them or null. */
+  flags: { sortable: false, fields: { flags: z.array(z.enum(FLEET_FLAGS)), worstFlag: z.enum(FLEET_FLAGS).nullable() } },
+} as const satisfies Record<string, { sortable: boolean; fields: z.ZodRawShape }>;
+
+export type FleetColumnId = keyof typeof fleetColumns;
+export const fleetColumnIds = Object.keys(fleetColumns) as FleetColumnId[];
+
+/** The columns the server sorts by: the allow-list of the `sort` parameter. */
+export type FleetSortKey = { [K in FleetColumnId]: (typeof fleetColumns)[K]['sortable'] extends true ? K : never }[FleetColumnId];
+export const fleetSortKeys = fleetColumnIds.filter((id): id is FleetSortKey => fleetColumns[id].sortable);
+
+type UnionToIntersection<U> = (U extends unknown ? (u: U) => void : never) extends (i: infer I) => void ? I : never;
+type ColumnFields = UnionToIntersection<(typeof fleetColumns)[FleetColumnId]['fields']>;
+
+/** One row of the fleet table: the logger's id and every column's fields. */
+export const fleetRow = z.strictObject({
+  id: uuid,
+  ...(Object.assign({}, ...fleetColumnIds.map((id) => fleetColumns[id].fields)) as ColumnFields),
+});
+export type FleetRow = z.infer<typeof fleetRow>;
+/** The row fields a column carries. */
+export type FleetColumnFields<K extends FleetColumnId> = Pick<FleetRow, keyof (typeof fleetColumns)[K]['fields'] & keyof FleetRow>;
 
 const oneOf = (values: readonly string[]) => `must be one of ${values.join(', ')}`;
 

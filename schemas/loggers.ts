@@ -2,7 +2,7 @@
 // Console API is camelCase; the device API spells the same profile fields in snake_case (DEVICE_API.md `config`).
 import { z } from 'zod';
 import { text, uuid } from './common';
-import { fleetFilterFields } from './fleet';
+import { fleetFilterFields, type FleetRow } from './fleet';
 import { CHANNELS, LOGGER_STATUSES, type Channel, type FleetFlag, type LoggerStatus, type UpdateState } from './words';
 
 // ─── Identity ────────────────────────────────────────────────────────────────
@@ -63,12 +63,12 @@ export const measurementProfile = z.object({
 });
 export type MeasurementProfile = z.infer<typeof measurementProfile>;
 
-// ─── Console API: registry requests and views (issue 3) ─────────────────────
+// ─── Console API: registry requests and views ───────────────────────────────
 
 
 export const pageSizes = [25, 50, 100] as const;
 
-/** The fleet table's query (issue 6): filters, allow-listed sort keys, a keyset cursor or a page. */
+/** The fleet table's query: filters, allow-listed sort keys, a keyset cursor or a page. */
 export const loggersQuery = z.object({
   ...fleetFilterFields,
   status: z.enum(LOGGER_STATUSES, { message: `must be one of ${LOGGER_STATUSES.join(', ')}` }).optional(),
@@ -120,30 +120,8 @@ export type ProfileChangeRequest = z.infer<typeof profileChangeRequest>;
 /** The profile as the console shows it: the device fields plus the panel it was computed for. */
 export type ProfileView = MeasurementProfile & { panelWp: number | null; panelVocV: number | null; createdAt: string };
 
-export type LoggerRow = {
-  id: string;
-  serial: string;
-  modelId: string;
-  modelName: string;
-  board: string;
-  channel: Channel;
-  status: LoggerStatus;
-  siteId: string | null;
-  siteName: string | null;
-  customer: string | null;
-  firmware: string | null;
-  lastSeenAt: string | null;
-  supplyV: number | null;
-  /** Latest probe reading (°C), or null. */
-  tempC: number | null;
-  /** Where the logger stands with the current release of its channel. */
-  updateState: UpdateState;
-  /** Watchdog and brown-out resets in the last 24 h. */
-  resets24h: number;
-  /** Flags, worst first; worstFlag is the first of them or null. */
-  flags: FleetFlag[];
-  worstFlag: FleetFlag | null;
-};
+/** A row of the fleet table (GET /api/loggers): declared column by column in schemas/fleet.ts. */
+export type LoggerRow = FleetRow;
 
 export type LoggerDetail = {
   id: string;

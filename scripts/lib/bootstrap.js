@@ -195,7 +195,13 @@ function newestMtime(paths) {
   return newest;
 }
 
-const webSources = ['app', 'components', 'hooks', 'schemas', 'assets', 'public', 'app.json', 'babel.config.js', 'metro.config.js', 'package-lock.json'];
+/**
+ * Everything the exported web app is built from: the folders its bundle imports from (app/ and all it
+ * reaches: components/, hooks/, schemas/, lib/, assets/) and the build's own configuration. A change in any
+ * of them rebuilds dist/; tests/unit/imports.test.ts follows the bundle's imports and fails when one lands
+ * in a folder missing here.
+ */
+const webSources = ['app', 'components', 'hooks', 'schemas', 'lib', 'assets', 'public', 'app.json', 'babel.config.js', 'metro.config.js', 'tsconfig.json', 'package-lock.json'];
 
 /** Exports the Expo web app to dist/ when the build is missing or older than its sources. */
 function ensureWebBuild({ force = false } = {}) {
@@ -255,5 +261,6 @@ module.exports = {
   pgCluster,
   secret,
   ensureWebBuild,
+  webSources,
   isRoot,
 };

@@ -1,6 +1,6 @@
-// The fleet table (issue 6 §1): GET /api/loggers and its CSV export. Filtering, sorting and paging all
-// happen in PostgreSQL; sort keys and filters come from allow-lists (schemas/fleet.ts) and every value
-// is a bound replacement.
+// The fleet table: GET /api/loggers and its CSV export. Filtering, sorting and paging all happen in
+// PostgreSQL; sort keys and filters come from allow-lists (schemas/fleet.ts) and every value is a bound
+// replacement. The columns — what each selects, sorts by, presents and exports — are in columns.ts.
 //
 // Paging: `page` (offset) or a keyset `cursor` — the sort value and id of the last row, so the next
 // batch is an index range read whatever the depth. The export walks the whole filter by cursor in
@@ -11,31 +11,17 @@ import type { Actor } from '../auth/actor';
 import { problems } from '../http/problem';
 import { likePattern } from '../sites/service';
 import { isStrictSemver } from '../../schemas/semver';
-import { type FleetFlag, type FleetSortKey, type UpdateState } from '../../schemas/fleet';
-import { FLEET_FLAGS } from '../../schemas/words';
+import type { FleetSortKey } from '../../schemas/fleet';
 import type { LoggerRow, LoggersQuery } from '../../schemas/loggers';
-import { csvRecord, safeText } from './csv';
-import { CURRENT_RELEASES, FLAG_SQL, FLEET_FROM, RESETS_24H, TEMP_C, UPDATE_STATE, UPDATE_STATE_RANK } from './sql';
+import { csvRecord } from './csv';
+import { csvOf, FLEET_CSV_HEADER, FLEET_SELECT, presentRow, SORTS, type SortType } from './columns';
+import { CURRENT_RELEASES, FLAG_SQL, FLEET_FROM, UPDATE_STATE } from './sql';
 import { SQL_WORDS } from '../db/sql-words';
 
 export type FleetDeps = { sequelize: Sequelize; now: () => Date };
 
-/** Each sort key's expression and the SQL type its cursor value is read back as. Never null, so keyset comparisons hold. */
-export const SORTS: Record<FleetSortKey, { expr: string; type: string }> = {
-  serial: { expr: 'lower(l.serial)', type: 'text' },
-  site: { expr: "COALESCE(lower(s.name), '')", type: 'text' },
-  customer: { expr: "COALESCE(lower(s.customer), '')", type: 'text' },
-  model: { expr: 'lower(m.name)', type: 'text' },
-  board: { expr: 'l.board', type: 'text' },
-  channel: { expr: 'l.channel', type: 'text' },
-  firmware: { expr: 'l.firmware_key', type: 'text[]' },
-  updateState: { expr: UPDATE_STATE_RANK, type: 'integer' },
-  lastSeen: { expr: "COALESCE(l.last_seen_at, '-infinity'::timestamptz)", type: 'timestamptz' },
-  supplyV: { expr: 'COALESCE(l.supply_v, -1)', type: 'numeric' },
-  resets24h: { expr: RESETS_24H, type: 'integer' },
-};
-
-const CURSOR_VALUE: Record<string, RegExp> = {
+/** The form a keyset cursor value must have for each sort type. */
+const CURSOR_VALUE: Record<SortType, RegExp> = {
   text: /^[\s\S]{0,400}$/,
   'text[]': /^\{[\s\S]{0,400}\}$/,
   integer: /^-?\d{1,9}$/,
@@ -122,49 +108,8 @@ async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: D
   return { conditions, replacements };
 }
 
-type RowRecord = {
-  id: string;
-  serial: string;
-  model_id: string;
-  model_name: string;
-  board: string;
-  channel: LoggerRow['channel'];
-  status: LoggerRow['status'];
-  site_id: string | null;
-  site_name: string | null;
-  customer: string | null;
-  firmware: string | null;
-  last_seen_at: Date | null;
-  supply_v: string | number | null;
-  temp_c: number | null;
-  resets_24h: number;
-  update_state: UpdateState;
-  sort_value: string;
-} & Record<`f_${FleetFlag}`, boolean>;
-
-function presentRow(r: RowRecord): LoggerRow {
-  const flags = FLEET_FLAGS.filter((f) => r[`f_${f}`]);
-  return {
-    id: r.id,
-    serial: r.serial,
-    modelId: r.model_id,
-    modelName: r.model_name,
-    board: r.board,
-    channel: r.channel,
-    status: r.status,
-    siteId: r.site_id,
-    siteName: r.site_name,
-    customer: r.customer,
-    firmware: r.firmware,
-    lastSeenAt: r.last_seen_at ? new Date(r.last_seen_at).toISOString() : null,
-    supplyV: r.supply_v === null ? null : Number(r.supply_v),
-    tempC: r.temp_c === null ? null : Number(r.temp_c),
-    updateState: r.update_state,
-    resets24h: Number(r.resets_24h),
-    flags,
-    worstFlag: flags[0] ?? null,
-  };
-}
+/** A row as the query answers it: every column's selected values (columns.ts), the id and the sort value. */
+type RowRecord = { id: string; sort_value: string } & Record<string, unknown>;
 
 async function readRows(
   deps: FleetDeps,
@@ -181,12 +126,9 @@ async function readRows(
     replacements.afterValue = page.after.value;
     replacements.afterId = page.after.id;
   }
-  const flagColumns = FLEET_FLAGS.map((f) => `${FLAG_SQL[f]} AS f_${f}`).join(', ');
   return deps.sequelize.query<RowRecord>(
     `WITH current_releases AS (${CURRENT_RELEASES})
-     SELECT l.id, l.serial, l.model_id, m.name AS model_name, l.board, l.channel, l.status, l.site_id, s.name AS site_name,
-            s.customer, l.firmware, l.last_seen_at, l.supply_v, ${TEMP_C} AS temp_c, ${RESETS_24H} AS resets_24h,
-            ${UPDATE_STATE} AS update_state, ${flagColumns}, (${sort.expr})::text AS sort_value
+     SELECT l.id, ${FLEET_SELECT}, (${sort.expr})::text AS sort_value
        ${FLEET_FROM}
       ${conditions.length ? `WHERE ${conditions.join(' AND ')}` : ''}
       ORDER BY ${sort.expr} ${dir}, l.id ${dir}
@@ -223,42 +165,6 @@ export async function listFleet(deps: FleetDeps, actor: Actor, query: LoggersQue
     nextCursor = keyset ? encodeCursor({ sort: query.sort, dir: query.dir, value: last.sort_value, id: last.id }) : String(page + 1);
   }
   return { rows: rows.map(presentRow), total, ...(nextCursor ? { nextCursor } : {}) };
-}
-
-export const FLEET_CSV_HEADER = [
-  'serial',
-  'site',
-  'customer',
-  'model',
-  'board',
-  'channel',
-  'status',
-  'firmware',
-  'update_state',
-  'last_seen_at',
-  'supply_v',
-  'temp_c',
-  'resets_24h',
-  'flags',
-] as const;
-
-function csvOf(r: LoggerRow): string {
-  return csvRecord([
-    safeText(r.serial),
-    safeText(r.siteName),
-    safeText(r.customer),
-    safeText(r.modelName),
-    safeText(r.board),
-    r.channel,
-    r.status,
-    safeText(r.firmware),
-    r.updateState,
-    r.lastSeenAt,
-    r.supplyV,
-    r.tempC,
-    r.resets24h,
-    r.flags.join(' '),
-  ]);
 }
 
 /** Every row the filter matches, in its sort order, read in keyset batches and handed on as CSV text. */

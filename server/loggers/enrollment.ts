@@ -8,7 +8,7 @@ import { problems } from '../http/problem';
 import type { RequestContext } from '../auth/actor';
 import { digestToken } from '../auth/tokens';
 import { refuseUnassignedIntegrator } from '../sites/service';
-import { measurementProfile, type ComputedProfile } from './calibration';
+import { measurementProfile, type ComputedProfile } from '../../lib/calibration';
 import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
 import { loggerFor, type RegistryDeps } from './service';
 import type { Enrolled, EnrollmentLookup, EnrollRequest, LoggerDetail, ProfileChangeRequest, ProfileView } from '../../schemas/loggers';

@@ -4,10 +4,7 @@
 import { deflateSync, crc32 } from 'node:zlib';
 import { create as createQr } from 'qrcode';
 import { GLYPH_HEIGHT, GLYPH_WIDTH, glyphFor } from './label-font';
-import { LABEL_QR_ERROR_CORRECTION } from './label-sheet';
-
-export { enrollmentLink, labelSheetLayout, labelSheet, LABEL_QR_ERROR_CORRECTION } from './label-sheet';
-export type { LabelCell, LabelSheetLayout } from './label-sheet';
+import { LABEL_QR_ERROR_CORRECTION } from '../../lib/label-sheet';
 
 export type LabelText = { serial: string; modelName: string; board?: string };
 

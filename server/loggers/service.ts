@@ -7,7 +7,8 @@ import { problems } from '../http/problem';
 import type { Actor, RequestContext } from '../auth/actor';
 import { issueLoggerToken } from './tokens';
 import { parseLoggerBatch } from './batch';
-import { enrollmentLink, labelPng } from './labels';
+import { labelPng } from './labels';
+import { enrollmentLink } from '../../lib/label-sheet';
 import { presentDetail } from './present';
 import { listFleet } from '../fleet/table';
 import type {

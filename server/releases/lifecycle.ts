@@ -13,6 +13,7 @@
 
 // The states and actions are named in schemas/releases.ts, which the console shares.
 import { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES, type LiveState, type ReleaseAction, type ReleaseState, type ResumeState } from '../../schemas/releases';
+import { MAX_WIDEN_SHARE, MIN_WIDEN_SHARE } from '../../lib/share';
 
 export { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES };
 export type { LiveState, ReleaseAction, ReleaseState, ResumeState };
@@ -46,9 +47,6 @@ const TABLE: Record<ReleaseState, readonly ReleaseAction[]> = {
   stopped: ['resume', 'withdraw'],
   withdrawn: [],
 };
-
-export const MIN_WIDEN_SHARE = 1;
-export const MAX_WIDEN_SHARE = 99;
 
 export function isLive(state: ReleaseState): state is LiveState {
   return (LIVE_STATES as readonly string[]).includes(state);

@@ -1,4 +1,4 @@
-// The fleet table (issue 6 §1): GET /api/loggers with every filter and sort, keyset paging, flags
+// The fleet table: GET /api/loggers with every filter and sort, keyset paging, flags
 // against a hand-built fleet, refusals of injection attempts, and the streamed CSV export.
 import semver from 'semver';
 import { parse as parseCsv } from 'csv-parse/sync';
@@ -6,7 +6,9 @@ import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Site } from '../../server/db/models';
 import { createFleet, checkInBody, bearer, type Fleet } from './device-fixtures';
 import { addCheckIn, hoursBefore, reached, setReported } from './fleet-fixtures';
-import { encodeCursor, SORTS } from '../../server/fleet/table';
+import { encodeCursor } from '../../server/fleet/table';
+import { SORTS } from '../../server/fleet/columns';
+import { fleetRow } from '../../schemas/fleet';
 
 const now = new Date('2026-06-21T12:00:00Z');
 let t: TestApp;
@@ -38,7 +40,7 @@ beforeAll(async () => {
   await add('silent', { ...healthy, lastSeenAgoS: 2701 });
   await add('silentEdge', { ...healthy, lastSeenAgoS: 2700 });
   await add('neverSeen', { ...healthy, lastSeenAgoS: null, firmware: null });
-  // Unstable: ≥ 3 watchdog or brown-out resets in 24 h (issue 6 §1); power-on resets and older ones do not count.
+  // Unstable: ≥ 3 watchdog or brown-out resets in 24 h (the product's rule, schemas/fleet.ts UNSTABLE_RESETS_24H); power-on resets and older ones do not count.
   await add('unstable', healthy);
   await add('almostUnstable', healthy);
   // Low supply: below the model's update minimum (4.6 V); exactly the minimum is not below it.
@@ -111,6 +113,14 @@ describe('flags', () => {
     expect(res.status).toBe(200);
     const { rows } = await all({ q: l.serial });
     expect(rows[0].resets24h).toBe(2);
+  });
+});
+
+describe('rows', () => {
+  test('when the fleet is listed, then every row has exactly the fields the shared column list declares, of their declared types', async () => {
+    const { rows } = await all();
+    expect(rows.length).toBeGreaterThan(25);
+    for (const row of rows) expect(fleetRow.safeParse(row).error).toBeUndefined();
   });
 });
 

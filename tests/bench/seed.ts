@@ -20,7 +20,7 @@
 import { createHash } from 'node:crypto';
 import { Client } from 'pg';
 import { hashPassword } from '../../server/auth/passwords';
-import { measurementProfile } from '../../server/loggers/calibration';
+import { measurementProfile } from '../../lib/calibration';
 import { partitionName, utcDay } from '../../server/device-api/partitions';
 import { boardSupplies } from '../../scripts/simulator/readings';
 import { createDemoKey, demoImage, signDemoManifest, storeImage } from '../../server/db/seed/demo-signing';

@@ -8,7 +8,7 @@ import {
   sampleIntervalFor,
   type InstallForProfile,
   type ModelLimits,
-} from '../../server/loggers/calibration';
+} from '../../lib/calibration';
 import { installDetails, measurementProfile as measurementProfileSchema, registerLoggerRequest } from '../../schemas/loggers';
 
 // Check values: INA226 data sheet SBOS547 (REFERENCE.md §8): shunt full scale 81.92 mV, bus range 0–36 V,

@@ -1,6 +1,7 @@
 import jsQR from 'jsqr';
 import { PNG } from 'pngjs';
-import { enrollmentLink, labelPng, labelSheetLayout, LABEL_QR_ERROR_CORRECTION } from '../../server/loggers/labels';
+import { labelPng } from '../../server/loggers/labels';
+import { enrollmentLink, labelSheetLayout, LABEL_QR_ERROR_CORRECTION } from '../../lib/label-sheet';
 
 // Reference decoders: jsqr (a general-purpose QR decoder) and pngjs (a general-purpose PNG decoder, CRCs checked).
 const origin = 'https://console.fernhollow.example';

@@ -1,4 +1,4 @@
-import { decodeProbeRaw, probeReadingFault } from '../../server/loggers/calibration';
+import { decodeProbeRaw, probeReadingFault } from '../../lib/calibration';
 
 // Source: DS18B20 data sheet, Table 1 "Temperature/Data Relationship" (REFERENCE.md §9).
 const table1: Array<[number, number]> = [

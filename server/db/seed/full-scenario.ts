@@ -20,7 +20,7 @@ import {
   User,
 } from '../models';
 import { newToken } from '../../auth/tokens';
-import { measurementProfile } from '../../loggers/calibration';
+import { measurementProfile } from '../../../lib/calibration';
 import { seededRandom } from '../../../scripts/simulator/random';
 import { createDemoKey, demoImage, signDemoManifest, storeImage } from './demo-signing';
 import { COUNTER_OF, DAY, HOUR, planFleet, SITE, type PlannedRelease } from './fleet-plan';

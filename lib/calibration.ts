@@ -1,7 +1,7 @@
 // Measurement profile maths for a logger's shunt-based power-monitor chip and its temperature probe.
 // Pure: no I/O and no server-only imports, because the enrollment form runs the same function in the
 // browser to show the computed values and the headroom while the integrator types.
-import type { MeasurementProfile, TempResolutionBits } from '../../schemas/loggers';
+import type { MeasurementProfile, TempResolutionBits } from '../schemas/loggers';
 
 /** The power-monitor chip's fixed scaling constant of the calibration equation. */
 export const CALIBRATION_CONSTANT = 0.00512;
