@@ -11,7 +11,7 @@ const serverTransform = {
     },
   ],
 };
-const esmPackages = ['@tanstack', 'react-native', '@react-native', 'expo', '@expo', 'expo-.*', '@expo-google-fonts', '@react-navigation', 'react-native-.*', 'canonicalize'];
+const esmPackages = ['@tanstack', 'react-native', '@react-native', 'expo', '@expo', 'expo-.*', '@expo-google-fonts', '@react-navigation', 'react-native-.*', 'canonicalize', 'standard-navigation'];
 
 module.exports = {
   // Browser tests take seconds per step; a global limit is the only one jest honours.

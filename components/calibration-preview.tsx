@@ -2,6 +2,7 @@
 // server uses (lib/calibration.ts), the headroom against the chip's limits, and its refusals.
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
+import type { z } from 'zod';
 import { Card, Notice, ProgressBar } from './ui';
 import { colors, space, type } from './theme';
 import { measurementProfile, type InstallForProfile, type ModelLimits, type ProfileResult } from '../lib/calibration';
@@ -30,6 +31,17 @@ export function liveProfile(install: Partial<InstallForProfile>, limits: ModelLi
     },
     limits,
   );
+}
+
+/**
+ * A form schema that also puts the calculation's refusals (shunt full scale, calibration range, bus
+ * limit, probe resolution) on the fields they concern, after the shared schema's own rules.
+ */
+export function withProfileCheck<S extends z.ZodType<Partial<InstallForProfile>>>(schema: S, limits: ModelLimits): S {
+  return schema.superRefine((install, ctx) => {
+    const result = liveProfile(install, limits);
+    if (result && !result.ok) for (const e of result.errors) ctx.addIssue({ code: 'custom', path: [e.path], message: e.message });
+  });
 }
 
 export function CalibrationPreview({ result, filled }: { result: ProfileResult | null; filled: (path: keyof InstallForProfile) => boolean }) {

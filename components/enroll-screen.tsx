@@ -3,12 +3,13 @@
 import React from 'react';
 import { Image, Pressable, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
+import { z } from 'zod';
 import { Page } from './shell';
 import { Badge, Button, Card, EmptyState, Field, Mono, Notice, ProgressBar, Row, Skeleton } from './ui';
-import { Choices } from './choice';
+import { decimal, decimalText, FieldMessage, FormChoices, FormField, formSchema, useSchemaForm, useServerErrors, whenValid } from './form';
 import { QrScanner, type ScannerProblem } from './qr-scanner';
 import { readEnrollmentCode } from './enroll-code';
-import { CalibrationPreview, liveProfile } from './calibration-preview';
+import { CalibrationPreview, liveProfile, withProfileCheck } from './calibration-preview';
 import { SiteForm } from './site-form';
 import { loggerStatus } from './status';
 import { pickFile } from './web';
@@ -16,6 +17,7 @@ import { colors, fonts, radii, space, touchTarget, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { EnrollInput, Lookup } from '../hooks/loggers';
 import type { Site, SiteInput } from '../hooks/sites';
+import { enrollRequest } from '../schemas/loggers';
 import type { InstallForProfile } from '../lib/calibration';
 
 const errorOf = (e: unknown) => e as (ApiError & Error) | null;
@@ -92,12 +94,35 @@ export function EnrollScan({ busy, error, onToken }: { busy: boolean; error: unk
 
 const MAX_PHOTO_BYTES = 10 * 1024 * 1024;
 
-function parseNumber(text: string): number | undefined {
-  const t = text.trim().replace(',', '.');
-  if (t === '') return undefined;
-  const n = Number(t);
-  return Number.isFinite(n) ? n : NaN;
+/** The shunt is typed in the unit on its marking; the API takes ohms. */
+const shuntUnits = ['mΩ', 'Ω'] as const;
+type ShuntUnit = (typeof shuntUnits)[number];
+
+function shuntInOhm(text: string, unit: ShuntUnit): number | undefined {
+  const value = decimal(text);
+  return value === undefined || unit === 'Ω' ? value : Number((value / 1000).toPrecision(12));
 }
+
+/**
+ * What the form holds: the install details as typed (numbers as text, the shunt in its unit) and
+ * the site, turned into the enrollment request and checked by its shared schema. The label's token
+ * is the screen's, added when the form is sent.
+ */
+const enrollForm = formSchema(
+  z
+    .object({
+      siteId: z.string().optional(),
+      panelWp: decimalText(),
+      panelVocV: decimalText(),
+      shuntOhm: z.string(),
+      shuntUnit: z.enum(shuntUnits),
+      maxCurrentA: decimalText(),
+      tempResolutionBits: z.number().optional(),
+      notes: z.string(),
+    })
+    .transform(({ shuntOhm, shuntUnit, ...details }) => ({ ...details, shuntOhm: shuntInOhm(shuntOhm, shuntUnit) })),
+  enrollRequest.omit({ token: true }),
+);
 
 export type EnrollFormProps = {
   lookup: Lookup;
@@ -113,37 +138,46 @@ export type EnrollFormProps = {
 
 export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, createSite, enroll, onRescan, wide }: EnrollFormProps) {
   const { logger, limits } = lookup;
-  const [siteId, setSiteId] = React.useState<string | undefined>(logger.site?.id);
   const [chosenSite, setChosenSite] = React.useState<Site | { id: string; name: string } | undefined>(logger.site ?? undefined);
   const [creating, setCreating] = React.useState(false);
-  const [panelWp, setPanelWp] = React.useState('');
-  const [panelVocV, setPanelVocV] = React.useState('');
-  const [shunt, setShunt] = React.useState('');
-  const [shuntUnit, setShuntUnit] = React.useState<'mΩ' | 'Ω'>('mΩ');
-  const [maxCurrentA, setMaxCurrentA] = React.useState('');
-  const [bits, setBits] = React.useState<number | undefined>(limits.tempResolutions.includes(12) ? 12 : limits.tempResolutions[limits.tempResolutions.length - 1]);
-  const [notes, setNotes] = React.useState('');
   const [photo, setPhoto] = React.useState<File | null>(null);
   const [photoUrl, setPhotoUrl] = React.useState<string | null>(null);
   const [photoError, setPhotoError] = React.useState<string | undefined>();
-  const [local, setLocal] = React.useState<Record<string, string>>({});
+  const schema = React.useMemo(() => withProfileCheck(enrollForm, limits), [limits]);
+  const form = useSchemaForm(schema, {
+    defaultValues: {
+      siteId: logger.site?.id,
+      panelWp: '',
+      panelVocV: '',
+      shuntOhm: '',
+      shuntUnit: 'mΩ',
+      maxCurrentA: '',
+      tempResolutionBits: limits.tempResolutions.includes(12) ? 12 : limits.tempResolutions[limits.tempResolutions.length - 1],
+      notes: '',
+    },
+    missing: { siteId: 'Choose the site where this logger is installed, or create it.' },
+  });
+  const { control } = form;
+  const server = errorOf(enroll.error);
+  useServerErrors(form, server);
 
   React.useEffect(() => () => void (photoUrl && URL.revokeObjectURL(photoUrl)), [photoUrl]);
 
-  const shuntValue = parseNumber(shunt);
-  const shuntOhm = shuntValue === undefined ? undefined : shuntUnit === 'mΩ' ? Number((shuntValue / 1000).toPrecision(12)) : shuntValue;
+  const typed = form.watch();
   const install: Partial<InstallForProfile> = {
-    shuntOhm,
-    maxCurrentA: parseNumber(maxCurrentA),
-    panelVocV: parseNumber(panelVocV),
-    tempResolutionBits: bits,
+    shuntOhm: shuntInOhm(typed.shuntOhm, typed.shuntUnit),
+    maxCurrentA: decimal(typed.maxCurrentA),
+    panelVocV: decimal(typed.panelVocV),
+    tempResolutionBits: typed.tempResolutionBits,
   };
   const result = liveProfile(install, limits);
-  const filled = (path: keyof InstallForProfile) =>
-    path === 'tempResolutionBits' ? true : { shuntOhm: shunt, maxCurrentA, panelVocV }[path].trim() !== '';
+  const filled = (path: keyof InstallForProfile) => path === 'tempResolutionBits' || typed[path].trim() !== '';
 
-  const server = errorOf(enroll.error);
-  const fieldError = (path: string) => local[path] ?? (server?.field ? server.field(path) : undefined);
+  const chooseSite = (site: Site | { id: string; name: string }) => {
+    form.setValue('siteId', site.id);
+    form.clearErrors('siteId');
+    setChosenSite(site);
+  };
 
   const choosePhoto = async () => {
     const file = await pickFile('image/jpeg,image/png', 'environment');
@@ -155,36 +189,15 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
     setPhotoUrl(URL.createObjectURL(file));
   };
 
-  const submit = () => {
-    const problems: Record<string, string> = {};
-    const wp = parseNumber(panelWp);
-    if (!siteId) problems.siteId = 'Choose the site where this logger is installed, or create it.';
-    if (wp === undefined || !(wp > 0)) problems.panelWp = 'must be a number above 0';
-    if (result && !result.ok) for (const e of result.errors) problems[e.path] ??= e.message;
-    if (!result) {
-      problems.shuntOhm = 'is required';
-      problems.maxCurrentA = 'is required';
-      problems.panelVocV = 'is required';
-    }
-    setLocal(problems);
-    if (Object.keys(problems).length || !siteId || !result?.ok) return;
-    enroll.run(
-      {
-        token,
-        siteId,
-        panelWp: wp as number,
-        panelVocV: install.panelVocV as number,
-        shuntOhm: result.profile.shuntOhm,
-        maxCurrentA: result.profile.maxCurrentA,
-        tempResolutionBits: result.profile.tempResolutionBits,
-        notes: notes.trim() || undefined,
-      },
-      photo,
-    );
-  };
+  // The profile's own figures are sent, as the server computes them from the same function.
+  const submit = whenValid(form, (details) => {
+    const computed = liveProfile(details, limits);
+    if (!computed?.ok) return;
+    const { shuntOhm, maxCurrentA, tempResolutionBits } = computed.profile;
+    enroll.run({ ...details, token, shuntOhm, maxCurrentA, tempResolutionBits }, photo);
+  });
 
   const status = loggerStatus(logger);
-  const siteMissing = fieldError('siteId');
 
   const identity = (
     <Card testID="enroll-logger">
@@ -234,8 +247,7 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
           onCancel={() => setCreating(false)}
           onSubmit={(input) =>
             createSite.run(input, (site) => {
-              setSiteId(site.id);
-              setChosenSite(site);
+              chooseSite(site);
               setCreating(false);
             })
           }
@@ -250,18 +262,14 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
           ) : null}
           <View role="radiogroup" aria-label="Site" style={{ gap: space.xs }}>
             {sites.rows.slice(0, 12).map((s) => {
-              const on = s.id === siteId;
+              const on = s.id === typed.siteId;
               return (
                 <Pressable
                   key={s.id}
                   role="radio"
                   aria-checked={on}
                   aria-label={s.name}
-                  onPress={() => {
-                    setSiteId(s.id);
-                    setChosenSite(s);
-                    setLocal(({ siteId: _gone, ...rest }) => rest);
-                  }}
+                  onPress={() => chooseSite(s)}
                   style={[styles.siteRow, on && styles.siteRowOn]}
                 >
                   <View style={[styles.radio, on && styles.radioOn]} />
@@ -275,11 +283,7 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
               );
             })}
           </View>
-          {siteMissing ? (
-            <Text role="alert" style={[type.small, { color: colors.ember }]}>
-              {siteMissing}
-            </Text>
-          ) : null}
+          <FieldMessage control={control} name="siteId" />
           <View style={{ alignSelf: 'flex-start' }}>
             <Button label="New site" variant="secondary" onPress={() => setCreating(true)} testID="new-site" />
           </View>
@@ -304,46 +308,33 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
       </Text>
       <Row gap={space.sm} style={{ alignItems: 'flex-start' }}>
         <View style={{ flex: 1 }}>
-          <Field label="Panel rating (Wp)" value={panelWp} onChangeText={setPanelWp} inputMode="decimal" error={fieldError('panelWp')} testID="panel-wp" />
+          <FormField control={control} name="panelWp" label="Panel rating (Wp)" inputMode="decimal" testID="panel-wp" />
         </View>
         <View style={{ flex: 1 }}>
-          <Field label="Open-circuit voltage (V)" value={panelVocV} onChangeText={setPanelVocV} inputMode="decimal" error={fieldError('panelVocV')} testID="panel-voc" />
+          <FormField control={control} name="panelVocV" label="Open-circuit voltage (V)" inputMode="decimal" testID="panel-voc" />
         </View>
       </Row>
       <Row gap={space.sm} style={{ alignItems: 'flex-end' }}>
         <View style={{ flex: 1 }}>
-          <Field label={`Shunt resistance (${shuntUnit})`} value={shunt} onChangeText={setShunt} inputMode="decimal" testID="shunt" />
+          <FormField control={control} name="shuntOhm" showError={false} label={`Shunt resistance (${typed.shuntUnit})`} inputMode="decimal" testID="shunt" />
         </View>
-        <Choices
-          choices={[
-            { value: 'mΩ', label: 'mΩ' },
-            { value: 'Ω', label: 'Ω' },
-          ]}
-          value={shuntUnit}
-          onChange={setShuntUnit}
-        />
+        <FormChoices control={control} name="shuntUnit" choices={shuntUnits.map((unit) => ({ value: unit, label: unit }))} />
       </Row>
-      {fieldError('shuntOhm') ? (
-        <Text role="alert" style={[type.small, { color: colors.ember }]}>
-          {fieldError('shuntOhm')}
-        </Text>
-      ) : null}
-      <Field label="Maximum expected current (A)" value={maxCurrentA} onChangeText={setMaxCurrentA} inputMode="decimal" error={fieldError('maxCurrentA')} testID="max-current" />
-      <Choices
+      <FieldMessage control={control} name="shuntOhm" />
+      <FormField control={control} name="maxCurrentA" label="Maximum expected current (A)" inputMode="decimal" testID="max-current" />
+      <FormChoices
+        control={control}
+        name="tempResolutionBits"
         label="Temperature probe resolution"
         choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: `${b} bits` }))}
-        value={bits}
-        onChange={setBits}
-        error={fieldError('tempResolutionBits')}
         testID="probe-resolution"
       />
-      <Field
+      <FormField
+        control={control}
+        name="notes"
         label="Mounting notes (optional)"
-        value={notes}
-        onChangeText={setNotes}
         multiline
         style={{ minHeight: 72, paddingTop: space.sm }}
-        error={fieldError('notes')}
         placeholder="Where the enclosure is, cable runs, anything the next visitor should know"
         testID="notes"
       />

@@ -1,13 +1,14 @@
-// A logger's fleet view (issue 6 §5–6): "Why no update?" (the offer decision per release, in plain
+// A logger's fleet view: "Why no update?" (the offer decision per release, in plain
 // words), supply-voltage and temperature sparklines over 7 days, the timeline newest first with older
 // pages on request, and the add-note form for support, release engineers and admins.
 import React from 'react';
 import { Text, View } from 'react-native';
-import { Badge, Button, Card, Field, Mono, Notice, Row, Skeleton } from './ui';
+import { Badge, Button, Card, Mono, Notice, Row, Skeleton } from './ui';
+import { FormField, useSchemaForm, useServerErrors, whenValid } from './form';
 import { Sparkline } from './charts/line';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, type } from './theme';
-import type { Note, Sparklines, TimelineItem } from '../schemas/fleet';
+import { noteRequest, type Note, type Sparklines, type TimelineItem } from '../schemas/fleet';
 import type { WhyAnswer } from '../hooks/fleet';
 
 type Q<T> = { data?: T; isPending: boolean; error: Error | null };
@@ -163,31 +164,34 @@ export function Timeline({ state }: { state: TimelineState }) {
   );
 }
 
+const noteMax = noteRequest.shape.text.maxLength ?? 1000;
+
 /** A short note by support or the team; it joins the timeline (or the site's notes). */
 export function NoteForm({ busy, error, onAdd, done }: { busy: boolean; error: Error | null; onAdd: (text: string, clear: () => void) => void; done?: boolean }) {
-  const [text, setText] = React.useState('');
-  const left = 1000 - text.length;
+  const form = useSchemaForm(noteRequest, { defaultValues: { text: '' } });
+  useServerErrors(form, error);
+  const text = form.watch('text');
+  const left = noteMax - text.length;
   return (
     <Card testID="note-form">
       <Text role="heading" aria-level={2} style={type.heading}>
         Add a note
       </Text>
-      <Field
+      <FormField
+        control={form.control}
+        name="text"
         label="Note"
-        value={text}
-        onChangeText={setText}
         multiline
-        maxLength={1000}
+        maxLength={noteMax}
         placeholder="Called the site; the panel was shaded by new scaffolding until Friday."
         style={{ minHeight: 88, paddingVertical: space.sm, textAlignVertical: 'top' }}
         hint={`${left} characters left`}
-        error={(error as { field?: (p: string) => string | undefined } | null)?.field?.('text')}
         testID="note-text"
       />
       {error && !(error as { field?: (p: string) => string | undefined }).field?.('text') ? <Notice title={problem(error)?.title ?? 'Not saved'} detail={problem(error)?.detail ?? error.message} /> : null}
       {done ? <Text style={[type.small, { color: colors.moss }]}>Note saved.</Text> : null}
       <View style={{ alignSelf: 'flex-start' }}>
-        <Button label="Add note" disabled={!text.trim()} busy={busy} onPress={() => onAdd(text.trim(), () => setText(''))} testID="note-add" />
+        <Button label="Add note" disabled={!text.trim()} busy={busy} onPress={whenValid(form, (note) => onAdd(note.text, () => form.reset()))} testID="note-add" />
       </View>
     </Card>
   );

@@ -2,13 +2,15 @@
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
 import { Page } from './shell';
-import { Badge, Button, Card, EmptyState, Field, Mono, Notice, Row } from './ui';
+import { Badge, Button, Card, EmptyState, Mono, Notice, Row } from './ui';
+import { FormField, useSchemaForm, useServerErrors, whenValid } from './form';
 import { ConfirmDialog, ProblemNotice, type ProblemLike } from './release-controls';
 import { QueryView, type QueryState } from './query-state';
 import { colors, space, type, type Tone } from './theme';
 import { absoluteTime, relativeTime } from './format';
 import type { List } from '../schemas/common';
 import type { KeyState, SigningKey } from '../hooks/keys';
+import { registerKeyRequest } from '../schemas/keys';
 
 export type KeyMove = { key: SigningKey; action: 'retire' | 'revoke' };
 
@@ -90,39 +92,42 @@ function KeyCard({ k, canManage, onPending }: { k: SigningKey; canManage: boolea
   );
 }
 
+/**
+ * The registration request, with two checks the console makes before anything leaves the browser:
+ * a private key is never sent (the server would refuse it, but it must not travel at all), and the
+ * text must at least look like a PEM public key (the server parses it and names what is wrong).
+ */
+const keyForm = registerKeyRequest.extend({
+  publicKeyPem: registerKeyRequest.shape.publicKeyPem.superRefine((pem, ctx) => {
+    if (/PRIVATE KEY/.test(pem)) {
+      ctx.addIssue({ code: 'custom', message: 'This is a PRIVATE key. Do not paste it here or anywhere online: paste the matching public key (the .public.pem file).' });
+    } else if (!/-----BEGIN PUBLIC KEY-----/.test(pem)) {
+      ctx.addIssue({ code: 'custom', message: 'Paste a PEM public key, starting with -----BEGIN PUBLIC KEY-----.' });
+    }
+  }),
+});
+
 function RegisterForm({ onRegister, busy, error }: { onRegister: Props['onRegister']; busy: boolean; error: Props['registerError'] }) {
-  const [name, setName] = React.useState('');
-  const [pem, setPem] = React.useState('');
-  const [local, setLocal] = React.useState<Record<string, string>>({});
-  const submit = () => {
-    const m: Record<string, string> = {};
-    if (!name.trim()) m.name = 'Name the key, e.g. "Release signing 2026".';
-    if (/PRIVATE KEY/.test(pem)) m.publicKeyPem = 'This is a PRIVATE key. Do not paste it here or anywhere online: paste the matching public key (the .public.pem file).';
-    else if (!/-----BEGIN PUBLIC KEY-----/.test(pem)) m.publicKeyPem = 'Paste a PEM public key, starting with -----BEGIN PUBLIC KEY-----.';
-    setLocal(m);
-    if (Object.keys(m).length) return;
-    onRegister({ name: name.trim(), publicKeyPem: pem.trim() + '\n' }, () => {
-      setName('');
-      setPem('');
-    });
-  };
+  const form = useSchemaForm(keyForm, { defaultValues: { name: '', publicKeyPem: '' } });
+  const { control } = form;
+  useServerErrors(form, error);
+  const submit = whenValid(form, ({ name, publicKeyPem }) => onRegister({ name, publicKeyPem: publicKeyPem.trim() + '\n' }, () => form.reset()));
   return (
     <Card>
       <Text role="heading" aria-level={2} style={type.heading}>
         Register a public key
       </Text>
       <Notice tone="amber" title="Paste the PUBLIC key" detail="The console never receives a private key. Keep the .private.pem file offline; paste the .public.pem file made by `heliodor keys new`." />
-      <Field label="Name" value={name} onChangeText={setName} error={local.name ?? error?.field?.('name')} testID="key-name" />
-      <Field
+      <FormField control={control} name="name" label="Name" testID="key-name" />
+      <FormField
+        control={control}
+        name="publicKeyPem"
         label="Public key (PEM)"
         mono
         multiline
-        value={pem}
-        onChangeText={setPem}
         autoCapitalize="none"
         autoCorrect={false}
         placeholder={'-----BEGIN PUBLIC KEY-----\n…\n-----END PUBLIC KEY-----'}
-        error={local.publicKeyPem ?? error?.field?.('publicKeyPem')}
         hint="Ed25519 or ECDSA P-256, as SubjectPublicKeyInfo PEM."
         style={{ minHeight: 120, paddingVertical: space.sm, fontSize: 13 }}
         testID="key-pem"

@@ -2,22 +2,35 @@
 // server stores a new version and the logger receives it at its next check-in.
 import React from 'react';
 import { Text, View } from 'react-native';
-import { Button, Field, Notice, Row } from './ui';
-import { Choices } from './choice';
-import { CalibrationPreview, liveProfile } from './calibration-preview';
+import { z } from 'zod';
+import { Button, Notice, Row } from './ui';
+import { CalibrationPreview, liveProfile, withProfileCheck } from './calibration-preview';
+import { decimal, FormChoices, FormField, formSchema, useSchemaForm, useServerErrors, whenValid } from './form';
 import { colors, space, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { Profile, ProfileInput } from '../hooks/loggers';
+import { profileChangeRequest } from '../schemas/loggers';
 import type { InstallForProfile, ModelLimits } from '../lib/calibration';
 
-function parseNumber(text: string): number | undefined {
-  const t = text.trim().replace(',', '.');
-  if (t === '') return undefined;
-  const n = Number(t);
-  return Number.isFinite(n) ? n : NaN;
+const trimmed = (x: number) => String(Number(x.toPrecision(12)));
+
+/** What the form holds: the profile's figures as typed, the shunt in mΩ as marked on the part. */
+const profileFields = z.object({ panelWp: z.string(), panelVocV: z.string(), shuntOhm: z.string(), maxCurrentA: z.string(), tempResolutionBits: z.number() });
+
+/** The figures as typed in the units of the API. */
+function inProfileUnits({ panelWp, panelVocV, shuntOhm, maxCurrentA, tempResolutionBits }: z.infer<typeof profileFields>) {
+  const milliOhm = decimal(shuntOhm);
+  return {
+    panelWp: decimal(panelWp),
+    panelVocV: decimal(panelVocV),
+    shuntOhm: milliOhm === undefined ? undefined : Number((milliOhm / 1000).toPrecision(12)),
+    maxCurrentA: decimal(maxCurrentA),
+    tempResolutionBits,
+  };
 }
 
-const trimmed = (x: number) => String(Number(x.toPrecision(12)));
+/** The typed figures as a profile change, checked by its shared schema. */
+const profileForm = formSchema(profileFields.transform(inProfileUnits), profileChangeRequest);
 
 export function ProfileForm({
   current,
@@ -34,47 +47,53 @@ export function ProfileForm({
   onSave: (input: ProfileInput) => void;
   onCancel: () => void;
 }) {
-  const [panelWp, setPanelWp] = React.useState(current.panelWp != null ? trimmed(current.panelWp) : '');
-  const [panelVocV, setPanelVocV] = React.useState(current.panelVocV != null ? trimmed(current.panelVocV) : '');
-  const [shuntMilli, setShuntMilli] = React.useState(trimmed(current.shuntOhm * 1000));
-  const [maxCurrentA, setMaxCurrentA] = React.useState(trimmed(current.maxCurrentA));
-  const [bits, setBits] = React.useState<number>(current.tempResolutionBits);
-  const shunt = parseNumber(shuntMilli);
-  const install: Partial<InstallForProfile> = {
-    shuntOhm: shunt === undefined ? undefined : Number((shunt / 1000).toPrecision(12)),
-    maxCurrentA: parseNumber(maxCurrentA),
-    panelVocV: parseNumber(panelVocV),
-    tempResolutionBits: bits,
-  };
-  const result = liveProfile(install, limits);
-  const filled = (path: keyof InstallForProfile) => path === 'tempResolutionBits' || ({ shuntOhm: shuntMilli, maxCurrentA, panelVocV }[path].trim() !== '');
+  const schema = React.useMemo(() => withProfileCheck(profileForm, limits), [limits]);
+  const form = useSchemaForm(schema, {
+    defaultValues: {
+      panelWp: current.panelWp != null ? trimmed(current.panelWp) : '',
+      panelVocV: current.panelVocV != null ? trimmed(current.panelVocV) : '',
+      shuntOhm: trimmed(current.shuntOhm * 1000),
+      maxCurrentA: trimmed(current.maxCurrentA),
+      tempResolutionBits: current.tempResolutionBits,
+    },
+  });
+  const { control } = form;
   const server = error as ApiError | null;
-  const wp = parseNumber(panelWp);
+  useServerErrors(form, server);
+  const typed = form.watch();
+  const result = liveProfile(inProfileUnits(typed), limits);
+  const filled = (path: keyof InstallForProfile) => path === 'tempResolutionBits' || typed[path].trim() !== '';
+  // The profile's own figures are sent, as the server computes them from the same function.
+  const save = whenValid(form, (change) => {
+    const computed = liveProfile(change, limits);
+    if (!computed?.ok) return;
+    const { shuntOhm, maxCurrentA, tempResolutionBits } = computed.profile;
+    onSave({ ...change, shuntOhm, maxCurrentA, tempResolutionBits });
+  });
 
   return (
     <View style={{ gap: space.md }}>
       <Row gap={space.sm} style={{ alignItems: 'flex-start' }}>
         <View style={{ flex: 1 }}>
-          <Field label="Panel rating (Wp)" value={panelWp} onChangeText={setPanelWp} inputMode="decimal" error={server?.field?.('panelWp')} />
+          <FormField control={control} name="panelWp" label="Panel rating (Wp)" inputMode="decimal" />
         </View>
         <View style={{ flex: 1 }}>
-          <Field label="Open-circuit voltage (V)" value={panelVocV} onChangeText={setPanelVocV} inputMode="decimal" error={server?.field?.('panelVocV')} />
+          <FormField control={control} name="panelVocV" label="Open-circuit voltage (V)" inputMode="decimal" />
         </View>
       </Row>
       <Row gap={space.sm} style={{ alignItems: 'flex-start' }}>
         <View style={{ flex: 1 }}>
-          <Field label="Shunt resistance (mΩ)" value={shuntMilli} onChangeText={setShuntMilli} inputMode="decimal" error={server?.field?.('shuntOhm')} testID="profile-shunt" />
+          <FormField control={control} name="shuntOhm" label="Shunt resistance (mΩ)" inputMode="decimal" testID="profile-shunt" />
         </View>
         <View style={{ flex: 1 }}>
-          <Field label="Maximum expected current (A)" value={maxCurrentA} onChangeText={setMaxCurrentA} inputMode="decimal" error={server?.field?.('maxCurrentA')} />
+          <FormField control={control} name="maxCurrentA" label="Maximum expected current (A)" inputMode="decimal" />
         </View>
       </Row>
-      <Choices
+      <FormChoices
+        control={control}
+        name="tempResolutionBits"
         label="Temperature probe resolution"
         choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: `${b} bits` }))}
-        value={bits}
-        onChange={setBits}
-        error={server?.field?.('tempResolutionBits')}
       />
       <CalibrationPreview result={result} filled={filled} />
       {server && !server.fieldErrors?.length ? <Notice title={server.title} detail={server.detail} /> : null}
@@ -82,18 +101,9 @@ export function ProfileForm({
       <Row gap={space.sm} wrap>
         <Button
           label="Save new profile"
-          disabled={!result?.ok || (wp !== undefined && !(wp > 0))}
+          disabled={!result?.ok}
           busy={busy}
-          onPress={() =>
-            result?.ok &&
-            onSave({
-              panelWp: wp,
-              panelVocV: install.panelVocV,
-              shuntOhm: result.profile.shuntOhm,
-              maxCurrentA: result.profile.maxCurrentA,
-              tempResolutionBits: result.profile.tempResolutionBits,
-            })
-          }
+          onPress={save}
           testID="profile-save"
         />
         <Button label="Cancel" variant="secondary" onPress={onCancel} />

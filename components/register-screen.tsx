@@ -2,15 +2,17 @@
 // labels and bench sheet, shown once.
 import React from 'react';
 import { Text, View } from 'react-native';
+import { z } from 'zod';
 import { Page } from './shell';
-import { Button, Card, Field, Mono, Notice, ProgressBar, Row, Skeleton } from './ui';
+import { Button, Card, Mono, Notice, ProgressBar, Row, Skeleton } from './ui';
+import { FormChoices, FormField, formSchema, useSchemaForm, useServerErrors, whenValid } from './form';
 import { Choices } from './choice';
 import { colors, space, type } from './theme';
 import { pickFile } from './web';
 import type { ApiError } from '../hooks/api';
 import type { Model } from '../hooks/models';
 import type { RegisterInput } from '../hooks/loggers';
-import { serialPattern, serialRule } from '../schemas/loggers';
+import { channel, registerLoggerRequest } from '../schemas/loggers';
 
 type Props = {
   models: { rows: Model[]; loading: boolean; error: unknown };
@@ -39,64 +41,59 @@ export function RegisterScreen({ models, single, batch }: Props) {
 }
 
 function SingleForm({ models, single }: Pick<Props, 'models' | 'single'>) {
-  const [serial, setSerial] = React.useState('');
-  const [modelId, setModelId] = React.useState<string | undefined>();
-  const [board, setBoard] = React.useState<string | undefined>();
-  const [channel, setChannel] = React.useState<'stable' | 'early'>('stable');
-  const [local, setLocal] = React.useState<Record<string, string>>({});
-  const model = models.rows.find((m) => m.id === modelId) ?? (models.rows.length === 1 ? models.rows[0] : undefined);
-  const error = asApi(single.error);
-  const fieldError = (p: string) => local[p] ?? error?.field?.(p);
-
-  const submit = () => {
-    const problems: Record<string, string> = {};
-    if (!serialPattern.test(serial.trim())) problems.serial = serialRule;
-    if (!model) problems.modelId = 'choose a model';
-    if (!board || !model?.boards.some((b) => b.label === board)) problems.board = 'choose the board revision';
-    setLocal(problems);
-    if (Object.keys(problems).length || !model || !board) return;
-    single.run({ serial: serial.trim(), modelId: model.id, board, channel });
-  };
-
   if (models.loading) return <Skeleton rows={4} height={44} />;
   if (models.error) return <Notice title={asApi(models.error)?.title ?? 'Could not load the models'} detail={asApi(models.error)?.detail} />;
   if (!models.rows.length) return <Notice title="No models yet" detail="An admin adds the model and its board revisions first (More → Models)." tone="amber" />;
+  return <SingleFields models={models.rows} single={single} />;
+}
+
+/** What the form holds: the registration request, with nothing chosen yet where a choice is needed. */
+const registerForm = formSchema(z.object({ serial: z.string(), modelId: z.string().optional(), board: z.string().optional(), channel }), registerLoggerRequest);
+
+function SingleFields({ models, single }: { models: Model[]; single: Props['single'] }) {
+  // The board must be one the chosen model lists; the shared rule only knows it is a label.
+  const schema = React.useMemo(
+    () =>
+      registerForm.superRefine((input, ctx) => {
+        const model = models.find((m) => m.id === input.modelId);
+        if (model && !model.boards.some((b) => b.label === input.board)) ctx.addIssue({ code: 'custom', path: ['board'], message: 'choose the board revision' });
+      }),
+    [models],
+  );
+  const form = useSchemaForm(schema, {
+    defaultValues: { serial: '', modelId: models.length === 1 ? models[0].id : undefined, board: undefined, channel: 'stable' },
+    missing: { modelId: 'choose a model', board: 'choose the board revision' },
+  });
+  const { control } = form;
+  const error = asApi(single.error);
+  useServerErrors(form, error);
+  const model = models.find((m) => m.id === form.watch('modelId'));
 
   return (
     <Card>
-      <Field label="Serial" value={serial} onChangeText={setSerial} mono autoCapitalize="characters" autoCorrect={false} placeholder="FL2-00121" error={fieldError('serial')} testID="serial" />
-      <Choices
+      <FormField control={control} name="serial" label="Serial" mono autoCapitalize="characters" autoCorrect={false} placeholder="FL2-00121" testID="serial" />
+      <FormChoices
+        control={control}
+        name="modelId"
         label="Model"
-        choices={models.rows.map((m) => ({ value: m.id, label: m.name }))}
-        value={model?.id}
-        onChange={(id) => {
-          setModelId(id);
-          setBoard(undefined);
-        }}
-        error={fieldError('modelId')}
+        choices={models.map((m) => ({ value: m.id, label: m.name }))}
+        onChange={() => form.setValue('board', undefined)}
       />
       {model ? (
-        <Choices
-          label="Board revision"
-          choices={model.boards.map((b) => ({ value: b.label, label: b.label, hint: b.note }))}
-          value={board}
-          onChange={setBoard}
-          error={fieldError('board')}
-          testID="board"
-        />
+        <FormChoices control={control} name="board" label="Board revision" choices={model.boards.map((b) => ({ value: b.label, label: b.label, hint: b.note }))} testID="board" />
       ) : null}
-      <Choices
+      <FormChoices
+        control={control}
+        name="channel"
         label="Channel"
         choices={[
           { value: 'stable', label: 'Stable', hint: 'tested releases' },
           { value: 'early', label: 'Early', hint: 'gets releases first' },
         ]}
-        value={channel}
-        onChange={setChannel}
       />
       {error && !error.fieldErrors?.length ? <Notice title={error.title} detail={error.detail} /> : null}
       <View style={{ alignSelf: 'flex-start' }}>
-        <Button label="Register logger" onPress={submit} busy={single.busy} testID="register-one" />
+        <Button label="Register logger" onPress={whenValid(form, single.run)} busy={single.busy} testID="register-one" />
       </View>
     </Card>
   );

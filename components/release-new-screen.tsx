@@ -2,13 +2,18 @@
 // the checks found, then set the draft's targeting and start the pilot.
 import React from 'react';
 import { Text, View } from 'react-native';
+import { useController, type Control } from 'react-hook-form';
+import { z } from 'zod';
 import { Page } from './shell';
 import { Badge, Button, Card, Field, Mono, Notice, ProgressBar, Row } from './ui';
+import { FormField, useFieldMessage, useSchemaForm, useServerErrors, whenValid } from './form';
 import { ProblemNotice, Segmented, type ProblemLike } from './release-controls';
 import { FilePicker, type PickedFile } from './release-file-picker';
 import { StateBadge, ChannelBadge, bytes } from './release-badges';
 import { colors, fonts, space, type } from './theme';
 import type { Release, ReleaseUpload, Channel, UploadPart } from '../hooks/releases';
+import { notesSchema, uploadFields } from '../schemas/releases';
+import { CHANNELS } from '../schemas/words';
 
 type Problem = (ProblemLike & { status?: number; field?: (path: string) => string | undefined }) | null;
 
@@ -25,6 +30,7 @@ type Props = {
 };
 
 type Mode = 'file' | 'text';
+type UploadFields = z.input<typeof uploadForm>;
 
 const uploadFieldNames: Record<string, string> = {
   image: 'Image',
@@ -55,45 +61,51 @@ const nextStep: Record<string, string> = {
 /** The advice for a refused field: its own, else its part's (image, manifest, signature). */
 const adviceFor = (path: string) => nextStep[path] ?? nextStep[path.split('.')[0]];
 
-export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, created, targeting, onCancel }: Props) {
-  const [image, setImage] = React.useState<PickedFile | null>(null);
-  const [manifestMode, setManifestMode] = React.useState<Mode>('file');
-  const [manifestFile, setManifestFile] = React.useState<PickedFile | null>(null);
-  const [manifestText, setManifestText] = React.useState('');
-  const [signatureMode, setSignatureMode] = React.useState<Mode>('file');
-  const [signatureFile, setSignatureFile] = React.useState<PickedFile | null>(null);
-  const [signatureText, setSignatureText] = React.useState('');
-  const [notes, setNotes] = React.useState('');
-  const [channel, setChannel] = React.useState<Channel | 'auto'>('auto');
-  const [missing, setMissing] = React.useState<Record<string, string>>({});
+const filePart = (f: PickedFile): UploadPart & { kind: 'file' } => ({ kind: 'file', name: f.name, blob: f.blob, uri: f.uri, mimeType: f.mimeType });
 
-  const filePart = (f: PickedFile): UploadPart & { kind: 'file' } => ({ kind: 'file', name: f.name, blob: f.blob, uri: f.uri, mimeType: f.mimeType });
+const picked = z.custom<PickedFile>().nullable();
+/** A signed part (manifest, signature) given as a file or pasted as text. */
+const signedPart = z.object({ mode: z.enum(['file', 'text']), file: picked, text: z.string() });
+const given = (part: z.infer<typeof signedPart>) => (part.mode === 'file' ? part.file !== null : part.text.trim() !== '');
 
-  function submit() {
-    const m: Record<string, string> = {};
-    if (!image) m.image = 'Choose the image file.';
-    if (manifestMode === 'file' ? !manifestFile : !manifestText.trim()) m.manifest = manifestMode === 'file' ? 'Choose manifest.json.' : 'Paste the manifest.';
-    if (signatureMode === 'file' ? !signatureFile : !signatureText.trim()) m.signature = signatureMode === 'file' ? 'Choose the signature file.' : 'Paste the signature (base64).';
-    setMissing(m);
-    if (Object.keys(m).length || !image) return;
-    onUpload({
-      image: filePart(image),
+/**
+ * The upload's text fields (notes, channel) from their shared schema, with the three signed parts
+ * the form checks are there (the server checks what they say) and "from the version" for the channel.
+ */
+const uploadForm = uploadFields
+  .extend({ image: picked, manifest: signedPart, signature: signedPart, notes: notesSchema, channel: z.enum(['auto', ...CHANNELS]) })
+  .superRefine(({ image, manifest, signature }, ctx) => {
+    if (!image) ctx.addIssue({ code: 'custom', path: ['image'], message: 'Choose the image file.' });
+    if (!given(manifest)) ctx.addIssue({ code: 'custom', path: ['manifest'], message: manifest.mode === 'file' ? 'Choose manifest.json.' : 'Paste the manifest.' });
+    if (!given(signature)) ctx.addIssue({ code: 'custom', path: ['signature'], message: signature.mode === 'file' ? 'Choose the signature file.' : 'Paste the signature (base64).' });
+  })
+  .transform(
+    ({ image, manifest, signature, notes, channel }): ReleaseUpload => ({
+      image: filePart(image!),
       // Pasted manifests are sent exactly as pasted: the signature covers those bytes.
-      manifest: manifestMode === 'file' ? filePart(manifestFile!) : { kind: 'text', text: manifestText },
-      signature: signatureMode === 'file' ? filePart(signatureFile!) : { kind: 'text', text: signatureText.trim() },
+      manifest: manifest.mode === 'file' ? filePart(manifest.file!) : { kind: 'text', text: manifest.text },
+      signature: signature.mode === 'file' ? filePart(signature.file!) : { kind: 'text', text: signature.text.trim() },
       notes,
       channel: channel === 'auto' ? undefined : channel,
-    });
-  }
+    }),
+  );
 
+export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, created, targeting, onCancel }: Props) {
+  const form = useSchemaForm(uploadForm, {
+    defaultValues: {
+      image: null,
+      manifest: { mode: 'file', file: null, text: '' },
+      signature: { mode: 'file', file: null, text: '' },
+      notes: '',
+      channel: 'auto',
+    },
+  });
+  const { control } = form;
   // A refusal of manifest.version and the like is shown under the manifest picker too.
-  const fieldError = (part: string) =>
-    missing[part] ??
-    ((uploadError?.fieldErrors ?? [])
-      .filter((e) => e.path === part || e.path.startsWith(`${part}.`))
-      .map((e) => (e.path === part ? e.message : `${uploadFieldNames[e.path] ?? e.path}: ${e.message}`))
-      .join(' ') ||
-      undefined);
+  useServerErrors(form, uploadError, { labels: uploadFieldNames });
+  const image = useController({ control, name: 'image' }).field;
+  const imageError = useFieldMessage(control, 'image');
+  const channel = useController({ control, name: 'channel' }).field;
   const advice = [...new Set((uploadError?.fieldErrors ?? []).map((e) => adviceFor(e.path)).filter(Boolean))];
 
   return (
@@ -104,30 +116,28 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
             <Text role="heading" aria-level={2} style={type.heading}>
               Signed image
             </Text>
-            <FilePicker label="Image" hint="The firmware image the manifest describes." value={image} onChange={setImage} error={fieldError('image')} testID="file-image" />
+            <FilePicker label="Image" hint="The firmware image the manifest describes." value={image.value as PickedFile | null} onChange={image.onChange} error={imageError} testID="file-image" />
             <FileOrText
+              control={control}
+              name="manifest"
               label="Manifest"
-              mode={manifestMode}
-              onMode={setManifestMode}
-              error={fieldError('manifest')}
-              file={<FilePicker label="manifest.json" accept=".json,application/json" hint="Canonical JSON made by `heliodor manifest`." value={manifestFile} onChange={setManifestFile} error={fieldError('manifest')} testID="file-manifest" />}
-              text={{ label: 'Manifest (canonical JSON, exactly as signed)', value: manifestText, onChange: setManifestText, multiline: true, testID: 'text-manifest' }}
+              file={{ label: 'manifest.json', accept: '.json,application/json', hint: 'Canonical JSON made by `heliodor manifest`.', testID: 'file-manifest' }}
+              text={{ label: 'Manifest (canonical JSON, exactly as signed)', multiline: true, testID: 'text-manifest' }}
             />
             <FileOrText
+              control={control}
+              name="signature"
               label="Signature"
-              mode={signatureMode}
-              onMode={setSignatureMode}
-              error={fieldError('signature')}
-              file={<FilePicker label="Signature" accept=".sig,.txt,text/plain" hint="The base64 signature from `heliodor sign`." value={signatureFile} onChange={setSignatureFile} error={fieldError('signature')} testID="file-signature" />}
-              text={{ label: 'Signature (base64)', value: signatureText, onChange: setSignatureText, testID: 'text-signature' }}
+              file={{ label: 'Signature', accept: '.sig,.txt,text/plain', hint: 'The base64 signature from `heliodor sign`.', testID: 'file-signature' }}
+              text={{ label: 'Signature (base64)', testID: 'text-signature' }}
             />
           </Card>
           <Card>
-            <Field label="Release notes (Markdown, optional)" multiline value={notes} onChangeText={setNotes} style={{ minHeight: 96, paddingVertical: space.sm, textAlignVertical: 'top' }} testID="notes" />
+            <FormField control={control} name="notes" label="Release notes (Markdown, optional)" multiline style={{ minHeight: 96, paddingVertical: space.sm, textAlignVertical: 'top' }} testID="notes" />
             <Segmented<Channel | 'auto'>
               label="Channel"
-              value={channel}
-              onChange={setChannel}
+              value={channel.value as Channel | 'auto'}
+              onChange={channel.onChange}
               options={[
                 { value: 'auto', label: 'From the version' },
                 { value: 'stable', label: 'Stable' },
@@ -172,7 +182,7 @@ export function ReleaseNewScreen({ onUpload, uploading, progress, uploadError, c
       {!created ? (
         <Row wrap style={{ justifyContent: 'flex-end' }}>
           <Button label="Cancel" variant="secondary" onPress={onCancel} />
-          <Button label="Upload and check" busy={uploading} onPress={submit} testID="upload" />
+          <Button label="Upload and check" busy={uploading} onPress={whenValid(form, onUpload)} testID="upload" />
         </Row>
       ) : (
         <>
@@ -221,34 +231,38 @@ function CheckSummary({ release }: { release: Release }) {
 }
 
 /** A signed part given either as a file or pasted as text (manifest, signature), with the choice above it. */
-function FileOrText({ label, mode, onMode, error, file, text }: {
+function FileOrText({ control, name, label, file, text }: {
+  control: Control<UploadFields, unknown, ReleaseUpload>;
+  name: 'manifest' | 'signature';
   label: string;
-  mode: Mode;
-  onMode: (m: Mode) => void;
-  error?: string;
-  file: React.ReactNode;
-  text: { label: string; value: string; onChange: (v: string) => void; multiline?: boolean; testID: string };
+  file: { label: string; accept: string; hint: string; testID: string };
+  text: { label: string; multiline?: boolean; testID: string };
 }) {
+  const mode = useController({ control, name: `${name}.mode` }).field;
+  const picked = useController({ control, name: `${name}.file` }).field;
+  const typed = useController({ control, name: `${name}.text` }).field;
+  const error = useFieldMessage(control, name);
   return (
     <>
       <Segmented<Mode>
         label={label}
-        value={mode}
-        onChange={onMode}
+        value={mode.value}
+        onChange={mode.onChange}
         options={[
           { value: 'file', label: 'Choose file' },
           { value: 'text', label: 'Paste text' },
         ]}
       />
-      {mode === 'file' ? (
-        file
+      {mode.value === 'file' ? (
+        <FilePicker {...file} value={picked.value} onChange={picked.onChange} error={error} />
       ) : (
         <Field
           label={text.label}
           mono
           multiline={text.multiline}
-          value={text.value}
-          onChangeText={text.onChange}
+          value={typed.value}
+          onChangeText={typed.onChange}
+          onBlur={typed.onBlur}
           error={error}
           style={text.multiline ? { minHeight: 96, paddingVertical: space.sm } : undefined}
           autoCapitalize="none"

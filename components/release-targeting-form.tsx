@@ -2,11 +2,15 @@
 // the trip points. Saved with PATCH while the release is a draft; "Start pilot" saves first.
 import React from 'react';
 import { Text, View } from 'react-native';
-import { Button, Card, Field, Notice, Row } from './ui';
+import { useController } from 'react-hook-form';
+import { z } from 'zod';
+import { Button, Card, Notice, Row } from './ui';
+import { decimal, decimalText, FieldMessage, FormField, toggled, useSchemaForm, useServerErrors, whenValid } from './form';
 import { ChoiceChip, ConfirmDialog, ProblemNotice, Segmented, SwitchRow, type ProblemLike } from './release-controls';
 import { QueryView, type QueryState } from './query-state';
-import { colors, space, type } from './theme';
+import { space, type } from './theme';
 import type { Release, ReleaseTargeting, Channel } from '../hooks/releases';
+import { patchReleaseRequest } from '../schemas/releases';
 
 type SiteChoice = { id: string; name: string; customer?: string };
 
@@ -40,47 +44,52 @@ function percentText(ratio: number): string {
   return String(Number((Number(ratio) * 100).toFixed(2)));
 }
 
+const shape = patchReleaseRequest.shape;
+const tripRatio = shape.tripFailureRatio.unwrap();
+
+/**
+ * The failure ratio is typed as a percentage: the shared rule checks the fraction the API takes, and
+ * its bounds are said in percent (a fraction's wording would confuse on a percentage field).
+ */
+const percentOfTripRatio = z.string().transform((text, ctx) => {
+  const percent = decimal(text);
+  const checked = tripRatio.safeParse(percent === undefined ? undefined : Number((percent / 100).toFixed(4)));
+  if (checked.success) return checked.data;
+  ctx.addIssue({ code: 'custom', message: `must be a percentage from ${(tripRatio.minValue ?? 0) * 100} to ${(tripRatio.maxValue ?? 1) * 100}` });
+  return z.NEVER;
+});
+
+/** The draft's targeting as the form holds it: the trip points as typed text, each checked by its shared rule. */
+const targetingForm = patchReleaseRequest.extend({
+  tripFailureRatio: percentOfTripRatio,
+  tripMinReports: decimalText().pipe(shape.tripMinReports.unwrap()),
+  tripResetFactor: decimalText().pipe(shape.tripResetFactor.unwrap()),
+});
+
 export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, saving, starting, saved, error, startError, confirmOpen, onConfirmOpen }: Props) {
-  const [boards, setBoards] = React.useState<string[]>(release.boards?.length ? release.boards : release.manifestBoards);
-  const [upgradeFrom, setUpgradeFrom] = React.useState(release.upgradeFrom ?? '');
-  const [pilotSiteIds, setPilotSiteIds] = React.useState<string[]>(release.pilotSiteIds ?? []);
-  const [daylight, setDaylight] = React.useState(Boolean(release.daylightWindow));
-  const [ratio, setRatio] = React.useState(percentText(release.tripFailureRatio ?? 0.05));
-  const [minReports, setMinReports] = React.useState(String(release.tripMinReports ?? 20));
-  const [resetFactor, setResetFactor] = React.useState(String(release.tripResetFactor ?? 2));
-  const [notes, setNotes] = React.useState(release.notes ?? '');
-  const [channel, setChannel] = React.useState<Channel>(release.channel);
-  const [local, setLocal] = React.useState<Record<string, string>>({});
+  const form = useSchemaForm(targetingForm, {
+    defaultValues: {
+      boards: release.boards?.length ? release.boards : release.manifestBoards,
+      upgradeFrom: release.upgradeFrom ?? '',
+      pilotSiteIds: release.pilotSiteIds ?? [],
+      daylightWindow: Boolean(release.daylightWindow),
+      tripFailureRatio: percentText(release.tripFailureRatio ?? 0.05),
+      tripMinReports: String(release.tripMinReports ?? 20),
+      tripResetFactor: String(release.tripResetFactor ?? 2),
+      notes: release.notes ?? '',
+      channel: release.channel,
+    },
+  });
+  const { control } = form;
+  useServerErrors(form, error);
+  const boards = useController({ control, name: 'boards' }).field;
+  const pilotSites = useController({ control, name: 'pilotSiteIds' }).field;
+  const channel = useController({ control, name: 'channel' }).field;
+  const daylight = useController({ control, name: 'daylightWindow' }).field;
+  const chosenBoards = (boards.value ?? []) as string[];
+  const chosenSites = (pilotSites.value ?? []) as string[];
 
-  const toggle = (list: string[], v: string) => (list.includes(v) ? list.filter((x) => x !== v) : [...list, v]);
-
-  /** Checks what the console can check itself; the server checks again (ranges, sites, boards). */
-  function collect(): ReleaseTargeting | null {
-    const problems: Record<string, string> = {};
-    const r = Number(ratio.replace(',', '.'));
-    const n = Number(minReports);
-    const f = Number(resetFactor.replace(',', '.'));
-    if (!boards.length) problems.boards = 'Choose at least one board revision.';
-    if (ratio.trim() === '' || !Number.isFinite(r) || r < 0 || r > 100) problems.tripFailureRatio = 'A percentage from 0 to 100.';
-    if (minReports.trim() === '' || !Number.isInteger(n) || n < 1) problems.tripMinReports = 'A whole number of reports, 1 or more.';
-    if (resetFactor.trim() === '' || !Number.isFinite(f) || f < 1) problems.tripResetFactor = 'A factor of 1 or more, e.g. 2 (twice the usual resets).';
-    setLocal(problems);
-    if (Object.keys(problems).length) return null;
-    return {
-      boards,
-      upgradeFrom: upgradeFrom.trim() === '' ? null : upgradeFrom.trim(),
-      pilotSiteIds,
-      daylightWindow: daylight,
-      tripFailureRatio: Number((r / 100).toFixed(4)),
-      tripMinReports: n,
-      tripResetFactor: f,
-      notes,
-      channel,
-    };
-  }
-
-  const err = (path: string) => local[path] ?? error?.field?.(path);
-  const pilotCount = pilotSiteIds.length;
+  const pilotCount = chosenSites.length;
 
   return (
     <View style={{ gap: space.lg }} testID="targeting-form">
@@ -92,27 +101,26 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
           <Text style={type.label}>Board revisions (from the manifest)</Text>
           <Row wrap>
             {release.manifestBoards.map((b) => (
-              <ChoiceChip key={b} label={`Board ${b}`} checked={boards.includes(b)} onToggle={() => setBoards(toggle(boards, b))} />
+              <ChoiceChip key={b} label={`Board ${b}`} checked={chosenBoards.includes(b)} onToggle={() => boards.onChange(toggled(chosenBoards, b))} />
             ))}
           </Row>
-          {err('boards') ? <Text role="alert" style={[type.small, { color: colors.ember }]}>{err('boards')}</Text> : null}
+          <FieldMessage control={control} name="boards" />
         </View>
-        <Field
+        <FormField
+          control={control}
+          name="upgradeFrom"
           label="Upgrade from (semver range, optional)"
           mono
-          value={upgradeFrom}
-          onChangeText={setUpgradeFrom}
           placeholder=">=2.1.0 <2.4.0"
           autoCapitalize="none"
           autoCorrect={false}
-          error={err('upgradeFrom')}
           hint="Empty: any older version. Use a range to route old loggers through a stepping-stone release first."
           testID="upgrade-from"
         />
         <Segmented<Channel>
           label="Channel"
-          value={channel}
-          onChange={setChannel}
+          value={channel.value as Channel}
+          onChange={channel.onChange}
           options={[
             { value: 'stable', label: 'Stable' },
             { value: 'early', label: 'Early' },
@@ -130,7 +138,7 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
             list.length ? (
               <Row wrap>
                 {list.map((s) => (
-                  <ChoiceChip key={s.id} label={s.name} checked={pilotSiteIds.includes(s.id)} onToggle={() => setPilotSiteIds(toggle(pilotSiteIds, s.id))} testID={`pilot-site-${s.id}`} />
+                  <ChoiceChip key={s.id} label={s.name} checked={chosenSites.includes(s.id)} onToggle={() => pilotSites.onChange(toggled(chosenSites, s.id))} testID={`pilot-site-${s.id}`} />
                 ))}
               </Row>
             ) : (
@@ -138,7 +146,7 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
             )
           }
         </QueryView>
-        {err('pilotSiteIds') ? <Text role="alert" style={[type.small, { color: colors.ember }]}>{err('pilotSiteIds')}</Text> : null}
+        <FieldMessage control={control} name="pilotSiteIds" />
         {pilotCount === 0 ? <Notice tone="amber" title="No pilot sites chosen" detail="The pilot would offer this release to nobody until you widen it." /> : null}
       </Card>
 
@@ -149,33 +157,32 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
         <SwitchRow
           label="Daylight window"
           hint="Offer only from 1 h after sunrise to 1 h before sunset at the logger's site, when the panel keeps the supply up."
-          value={daylight}
-          onChange={setDaylight}
+          value={Boolean(daylight.value)}
+          onChange={daylight.onChange}
           testID="daylight-window"
         />
-        <Field label="Trip when more than this share of installs fail (%)" keyboardType="decimal-pad" value={ratio} onChangeText={setRatio} error={err('tripFailureRatio')} hint="Of the install reports received; default 5 %." testID="stop-ratio" />
-        <Field label="…once at least this many reports are in" keyboardType="number-pad" value={minReports} onChangeText={setMinReports} error={err('tripMinReports')} hint="Default 20, so one early failure does not stop a rollout." testID="stop-min-reports" />
-        <Field
+        <FormField control={control} name="tripFailureRatio" label="Trip when more than this share of installs fail (%)" keyboardType="decimal-pad" hint="Of the install reports received; default 5 %." testID="stop-ratio" />
+        <FormField control={control} name="tripMinReports" label="…once at least this many reports are in" keyboardType="number-pad" hint="Default 20, so one early failure does not stop a rollout." testID="stop-min-reports" />
+        <FormField
+          control={control}
+          name="tripResetFactor"
           label="Reset jump factor (watchdog and brown-out)"
           keyboardType="decimal-pad"
-          value={resetFactor}
-          onChangeText={setResetFactor}
-          error={err('tripResetFactor')}
           hint="Trip when loggers on this release have watchdog and brown-out resets this many times more often than before; default 2."
           testID="trip-reset-factor"
         />
       </Card>
 
       <Card>
-        <Field label="Release notes (Markdown)" multiline value={notes} onChangeText={setNotes} style={{ minHeight: 120, paddingVertical: space.sm, textAlignVertical: 'top' }} error={err('notes')} />
+        <FormField control={control} name="notes" label="Release notes (Markdown)" multiline style={{ minHeight: 120, paddingVertical: space.sm, textAlignVertical: 'top' }} />
       </Card>
 
       <ProblemNotice error={error} fieldNames={fieldNames} />
       {saved && !error ? <Notice tone="moss" title="Draft saved" detail="The targeting is stored; start the pilot when you are ready." /> : null}
 
       <Row wrap style={{ justifyContent: 'flex-end' }}>
-        <Button label="Save draft" variant="secondary" busy={saving} onPress={() => { const t = collect(); if (t) onSave(t); }} testID="save-draft" />
-        <Button label="Start pilot" busy={starting} onPress={() => { if (collect()) onConfirmOpen(true); }} testID="start-pilot" />
+        <Button label="Save draft" variant="secondary" busy={saving} onPress={whenValid(form, onSave)} testID="save-draft" />
+        <Button label="Start pilot" busy={starting} onPress={whenValid(form, () => onConfirmOpen(true))} testID="start-pilot" />
       </Row>
 
       <ConfirmDialog
@@ -185,16 +192,13 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
         busy={starting}
         error={startError}
         onCancel={() => onConfirmOpen(false)}
-        onConfirm={() => {
-          const t = collect();
-          if (t) onStartPilot(t);
-        }}
+        onConfirm={whenValid(form, onStartPilot)}
         testID="confirm-start-pilot"
       >
         <Text style={type.body}>
           {pilotCount === 0
             ? 'No pilot sites are chosen, so the pilot offers this release to nobody until you widen it.'
-            : `Loggers on board ${boards.join(', ')} at ${pilotCount} pilot ${pilotCount === 1 ? 'site' : 'sites'} are offered ${release.version} at their next check-in.`}
+            : `Loggers on board ${chosenBoards.join(', ')} at ${pilotCount} pilot ${pilotCount === 1 ? 'site' : 'sites'} are offered ${release.version} at their next check-in.`}
         </Text>
         <Text style={type.small}>A failed install can leave a logger offline until someone visits. The supply guard holds back loggers whose supply is low; the targeting cannot be changed after the pilot starts.</Text>
       </ConfirmDialog>

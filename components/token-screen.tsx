@@ -1,14 +1,18 @@
 // API tokens for automation: a CI job pushing signed images, a report reading the fleet.
 import React from 'react';
 import { Platform, StyleSheet, Text, View } from 'react-native';
+import { useController } from 'react-hook-form';
+import { z } from 'zod';
 import { Page } from './shell';
-import { Badge, Button, Card, EmptyState, Field, Mono, Notice, Row } from './ui';
+import { Badge, Button, Card, EmptyState, Mono, Notice, Row } from './ui';
+import { FieldMessage, FormField, toggled, useSchemaForm, useServerErrors, whenValid } from './form';
 import { ChoiceChip, ConfirmDialog, ProblemNotice, type ProblemLike } from './release-controls';
 import { QueryView, type QueryState } from './query-state';
 import { colors, radii, space, type } from './theme';
 import { absoluteTime, relativeTime } from './format';
 import type { List } from '../schemas/common';
 import { tokenScopes, type ApiToken, type NewToken, type TokenScope } from '../hooks/tokens';
+import { createTokenRequest } from '../schemas/tokens';
 
 type Props = {
   state: QueryState<List<ApiToken>>;
@@ -98,39 +102,48 @@ function TokenCard({ t, now, onRevoke }: { t: ApiToken; now: Date; onRevoke: () 
   );
 }
 
+/**
+ * The token request as the form holds it: the expiry is typed as a date and means the end of that
+ * day in UTC; the shared rule checks the time it becomes, and the form adds that it lies ahead.
+ */
+function tokenForm(now: Date) {
+  return createTokenRequest.extend({
+    expiresAt: z
+      .string()
+      .trim()
+      .regex(/^\d{4}-\d{2}-\d{2}$/, 'A date as YYYY-MM-DD.')
+      .transform((day) => `${day}T23:59:59Z`)
+      .pipe(createTokenRequest.shape.expiresAt)
+      .refine((at) => Date.parse(at) > now.getTime(), 'Choose a date in the future.'),
+  });
+}
+
 function CreateForm({ onCreate, busy, error, now }: { onCreate: Props['onCreate']; busy: boolean; error: Props['createError']; now: Date }) {
-  const [name, setName] = React.useState('');
-  const [scopes, setScopes] = React.useState<TokenScope[]>(['images:write']);
-  const [expires, setExpires] = React.useState(isoDate(new Date(now.getTime() + 90 * 86_400_000)));
-  const [local, setLocal] = React.useState<Record<string, string>>({});
-  const submit = () => {
-    const m: Record<string, string> = {};
-    if (!name.trim()) m.name = 'Name the job that will use it, e.g. "Build server".';
-    if (!scopes.length) m.scopes = 'Choose at least one scope.';
-    const at = `${expires.trim()}T23:59:59Z`;
-    if (!/^\d{4}-\d{2}-\d{2}$/.test(expires.trim()) || Number.isNaN(Date.parse(at))) m.expiresAt = 'A date as YYYY-MM-DD.';
-    else if (Date.parse(at) <= now.getTime()) m.expiresAt = 'Choose a date in the future.';
-    setLocal(m);
-    if (Object.keys(m).length) return;
-    onCreate({ name: name.trim(), scopes, expiresAt: at }, () => setName(''));
-  };
+  const form = useSchemaForm(tokenForm(now), {
+    defaultValues: { name: '', scopes: ['images:write'], expiresAt: isoDate(new Date(now.getTime() + 90 * 86_400_000)) },
+  });
+  const { control } = form;
+  useServerErrors(form, error);
+  const scopes = useController({ control, name: 'scopes' }).field;
+  const chosen = (scopes.value ?? []) as TokenScope[];
+  const submit = whenValid(form, (body) => onCreate(body, () => form.setValue('name', '')));
   return (
     <Card>
       <Text role="heading" aria-level={2} style={type.heading}>
         Create a token
       </Text>
-      <Field label="Name" value={name} onChangeText={setName} error={local.name ?? error?.field?.('name')} testID="token-name" />
+      <FormField control={control} name="name" label="Name" testID="token-name" />
       <View style={{ gap: space.xs }}>
         <Text style={type.label}>Scopes: only what the job needs</Text>
         {tokenScopes.map((s) => (
           <View key={s} style={{ gap: 2 }}>
-            <ChoiceChip label={s} mono checked={scopes.includes(s)} onToggle={() => setScopes(scopes.includes(s) ? scopes.filter((x) => x !== s) : [...scopes, s])} testID={`scope-${s}`} />
+            <ChoiceChip label={s} mono checked={chosen.includes(s)} onToggle={() => scopes.onChange(toggled(chosen, s))} testID={`scope-${s}`} />
             <Text style={[type.small, { paddingLeft: space.sm }]}>{scopeWords[s]}</Text>
           </View>
         ))}
-        {local.scopes ?? error?.field?.('scopes') ? <Text role="alert" style={[type.small, { color: colors.ember }]}>{local.scopes ?? error?.field?.('scopes')}</Text> : null}
+        <FieldMessage control={control} name="scopes" />
       </View>
-      <Field label="Expires on (YYYY-MM-DD, end of day UTC)" value={expires} onChangeText={setExpires} error={local.expiresAt ?? error?.field?.('expiresAt')} autoCapitalize="none" testID="token-expiry" />
+      <FormField control={control} name="expiresAt" label="Expires on (YYYY-MM-DD, end of day UTC)" autoCapitalize="none" testID="token-expiry" />
       <ProblemNotice error={error} />
       <Row style={{ justifyContent: 'flex-end' }}>
         <Button label="Create token" busy={busy} onPress={submit} testID="create-token" />

@@ -12,6 +12,10 @@ export type Rendered = {
   text: () => string;
   press: (id: string) => void;
   type: (id: string, value: string) => void;
+  /** Lets pending work finish (a form's schema check runs asynchronously before it submits). */
+  settle: () => Promise<void>;
+  /** The message shown with a field: the alert beside the input with this testID. */
+  fieldMessage: (id: string) => string | null;
   unmount: () => void;
 };
 
@@ -40,6 +44,11 @@ export function render(element: React.ReactElement): Rendered {
         setter.call(input, value);
         input.dispatchEvent(new Event('input', { bubbles: true }));
       }),
+    settle: () =>
+      act(async () => {
+        await new Promise((resolve) => setTimeout(resolve, 0));
+      }),
+    fieldMessage: (id) => byTestId(id).parentElement?.querySelector('[role="alert"]')?.textContent ?? null,
     unmount: () => {
       act(() => root.unmount());
       container.remove();
