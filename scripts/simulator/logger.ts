@@ -21,7 +21,7 @@ import semver from 'semver';
 import { z } from 'zod';
 import { ManifestError, parseSignedManifest, verifyManifestSignature, type Manifest, type SigningPublicKey } from '../../server/images/manifest';
 import { chance, gaussian, pick, type Random } from './random';
-import { PanelMeter, supplyBetweenCheckIns, typicalPanel, type Panel, type ResetReason, type Spot } from './readings';
+import { PanelMeter, supplyBetweenCheckIns, typicalPanel, type BoardSupply, type Panel, type ResetReason, type Spot } from './readings';
 
 // ---- The wire (DEVICE_API.md), as a client reads it: unknown fields are ignored. ----
 
@@ -163,6 +163,8 @@ export type LoggerIdentity = {
   /** Where the panel is (defaults to the middle of Aldmere Vale). */
   spot?: Spot;
   panel?: Panel;
+  /** How this logger's supply behaves, when not as its board revision's usually does (a sagging supply, an unstable board). */
+  supply?: BoardSupply;
 };
 
 export type LoggerEvent =
@@ -230,6 +232,7 @@ export class VirtualLogger {
   private rebootInto: { version: string; securityCounter: number; at: Date } | null = null;
   private installing = false;
   private supplyV = 5;
+  private readonly supply: BoardSupply | undefined;
 
   constructor(identity: LoggerIdentity, env: LoggerEnvironment) {
     this.serial = identity.serial;
@@ -238,6 +241,7 @@ export class VirtualLogger {
     this.modelId = identity.modelId ?? null;
     this.firmware = identity.firmware;
     this.securityCounter = identity.securityCounter ?? 0;
+    this.supply = identity.supply;
     this.env = {
       fetch: globalThis.fetch.bind(globalThis),
       interruptRate: 0,
@@ -295,7 +299,7 @@ export class VirtualLogger {
     }
     const since = this.lastCheckInAt ?? now;
     const hours = Math.max(0, (now.getTime() - since.getTime()) / 3_600_000);
-    const { supplyV, resets } = supplyBetweenCheckIns(this.board, hours, this.env.random);
+    const { supplyV, resets } = supplyBetweenCheckIns(this.board, hours, this.env.random, this.supply);
     this.supplyV = supplyV;
     const count = Object.values(resets).reduce((a, b) => a + (b ?? 0), 0);
     if (count > 0) {
