@@ -184,8 +184,11 @@ export type LoggerEnvironment = {
   trustedKeys: readonly SigningPublicKey[];
   /** Share of download attempts cut short part-way (0–1). */
   interruptRate?: number;
-  /** Share of installs that fail while writing the image (0–1), with a reason from integrity, storage, other. */
-  failRate?: number;
+  /**
+   * Share of installs that fail while writing the image (0–1), with a reason from integrity, storage, other;
+   * or a function that gives the share for each offer when its install is written.
+   */
+  failRate?: number | ((offer: Offer) => number);
   /** Download attempts per offer before the logger gives up until the next check-in. */
   maxDownloadAttempts?: number;
   onEvent?: (event: LoggerEvent) => void;
@@ -542,7 +545,8 @@ export class VirtualLogger {
       if (!verdict.ok) return fail(verdict.reason, verdict.detail);
       await this.report({ release: offer.release, state: 'downloaded' });
       await this.report({ release: offer.release, state: 'installing' });
-      if (chance(this.env.random, this.env.failRate)) {
+      const failRate = typeof this.env.failRate === 'function' ? this.env.failRate(offer) : this.env.failRate;
+      if (chance(this.env.random, failRate)) {
         const reason = pick(this.env.random, injectedFailures);
         const detail = { integrity: 'the written image read back with a different SHA-256', storage: 'writing the update slot failed', other: 'the bootloader refused the new slot' }[reason as 'integrity' | 'storage' | 'other'];
         return fail(reason, `${detail} (simulated)`);

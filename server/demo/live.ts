@@ -16,13 +16,15 @@
 // time the full scenario was seeded: silent loggers stay silent (the Westby mast's power cut), the
 // sagging supply stays below the supply guard, unstable boards brown out every few hours, the stuck
 // temperature probe keeps reading 85 °C, boards with bad flash fail every install, weak links drop
-// half their downloads. Every other install fails at the demo's failure rate (2 % by default, below
-// the default trip point of 5 %), so the trip gauges move without tripping unless someone raises it.
+// half their downloads. Every other install fails at the demo's failure rate (2 % by default), held
+// back wherever one more failure would take a release past 80 % of its trip point (FailureBudget), so
+// the trip gauges move without tripping — unless someone raises the rate to the trip point or beyond
+// (HELIODOR_DEMO_FAIL_RATE), or lowers a release's trip point below it: then releases trip as in the field.
 import { createHash, randomInt } from 'node:crypto';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import semver from 'semver';
 import type pino from 'pino';
-import { VirtualLogger, type CheckInRequest, type LoggerEnvironment, type LoggerEvent, type LoggerIdentity } from '../../scripts/simulator/logger';
+import { VirtualLogger, type CheckInRequest, type LoggerEnvironment, type LoggerEvent, type LoggerIdentity, type Offer } from '../../scripts/simulator/logger';
 import { acceleratedClock, FleetTally, runFleet } from '../../scripts/simulator/fleet';
 import { forkRandom, seededRandom, type Random } from '../../scripts/simulator/random';
 import { boardSupplies, typicalPanel, type BoardSupply } from '../../scripts/simulator/readings';
@@ -176,6 +178,39 @@ export type LiveDemo = {
 
 const NEVER = new Date(8.64e15);
 
+/** Share of a release's trip point the demo's own failures stay under. */
+export const TRIP_MARGIN = 0.8;
+
+export type ReleaseFailures = { installed: number; failed: number; tripFailureRatio: number; tripMinReports: number };
+
+/**
+ * The demo's failure rate for one more install of a release: the rate as set, unless one more failure
+ * would take the release's failure ratio past TRIP_MARGIN of its trip point, counted the way the trip
+ * counts it (failed ÷ finished, over at least tripMinReports finished installs) — then none. A rate set
+ * at or above the trip point is not held back. An unknown release gets no failures until it is known.
+ */
+export function guardedFailRate(rate: number, release: ReleaseFailures | undefined, injectedSince = 0): number {
+  if (!release) return 0;
+  if (rate >= release.tripFailureRatio) return rate;
+  const failed = release.failed + injectedSince + 1;
+  const finished = release.installed + release.failed + injectedSince + 1;
+  return failed / Math.max(finished, release.tripMinReports) <= TRIP_MARGIN * release.tripFailureRatio ? rate : 0;
+}
+
+/** Each live release's finished installs as the trip counts them (connection and low-supply failures are retried, not counted). */
+async function releaseFailures(sequelize: Sequelize): Promise<Map<string, ReleaseFailures>> {
+  const rows = await sequelize.query<ReleaseFailures & { id: string }>(
+    `SELECT r.id, r.trip_failure_ratio::float8 AS "tripFailureRatio", r.trip_min_reports AS "tripMinReports",
+            count(ir.release_id) FILTER (WHERE ir.state = 'installed')::int AS installed,
+            count(ir.release_id) FILTER (WHERE ir.state = 'failed' AND COALESCE(ir.reason, 'other') NOT IN ('connection', 'low_supply'))::int AS failed
+       FROM releases r LEFT JOIN install_reports ir ON ir.release_id = r.id
+      WHERE r.state IN ('pilot', 'widening', 'complete')
+      GROUP BY r.id`,
+    { type: QueryTypes.SELECT },
+  );
+  return new Map(rows.map((r) => [r.id, r]));
+}
+
 /** Starts the living demo; resolves once the roster is read (a no-op demo when nothing can run). */
 export async function startLiveDemo(deps: LiveDemoDeps): Promise<LiveDemo> {
   const { sequelize, logger: log, settings } = deps;
@@ -202,8 +237,21 @@ export async function startLiveDemo(deps: LiveDemoDeps): Promise<LiveDemo> {
   // The same requests as a logger's; stopping cancels those in flight.
   const fetchLoopback: typeof fetch = (input, init) => globalThis.fetch(input, { ...init, signal: abort.signal });
   const trustedKeys: SigningPublicKey[] = [];
+  // The failure budget: figures read every few seconds, and the failures the loggers reported since.
+  let figures = new Map<string, ReleaseFailures>();
+  let injected: { release: string; at: number }[] = [];
+  const readFigures = async () => {
+    const asked = Date.now();
+    figures = await releaseFailures(sequelize);
+    injected = injected.filter((f) => f.at >= asked);
+  };
+  const failRateFor = (rate: number) => (offer: Offer) =>
+    guardedFailRate(rate, figures.get(offer.release), injected.filter((f) => f.release === offer.release).length);
   const onEvent = (event: LoggerEvent) => {
     tally.onEvent(event);
+    if (event.kind === 'report' && event.delivered && event.report.state === 'failed' && ['integrity', 'storage', 'other'].includes(event.report.reason ?? 'other')) {
+      injected.push({ release: event.report.release, at: Date.now() });
+    }
     if (event.kind === 'report' && event.delivered && (event.report.state === 'installed' || event.report.state === 'failed')) {
       log.debug(`living demo: ${event.serial} reports ${event.report.state}${event.report.reason ? ` (${event.report.reason})` : ''}`);
     } else if (event.kind === 'error' && !abort.signal.aborted) {
@@ -257,7 +305,17 @@ export async function startLiveDemo(deps: LiveDemoDeps): Promise<LiveDemo> {
           panel: typicalPanel(row.panel_wp && row.panel_wp > 0 ? row.panel_wp : 100),
           supply: behaviour.supply,
         },
-        { baseUrl: deps.baseUrl, fetch: fetchLoopback, clock, random: own, trustedKeys, failRate: behaviour.failRate, interruptRate: behaviour.interruptRate, onEvent },
+        {
+          baseUrl: deps.baseUrl,
+          fetch: fetchLoopback,
+          clock,
+          random: own,
+          trustedKeys,
+          // Bad flash fails whatever the budget says: that is the scenario's hardware, not the demo's dice.
+          failRate: behaviour.failRate >= 1 ? 1 : failRateFor(behaviour.failRate),
+          interruptRate: behaviour.interruptRate,
+          onEvent,
+        },
         behaviour.probeStuckC,
       );
       // Its timer runs on from its last check-in; one that is overdue (the server was off, or it was
@@ -269,10 +327,11 @@ export async function startLiveDemo(deps: LiveDemoDeps): Promise<LiveDemo> {
     }
   };
 
-  await sync();
+  await Promise.all([sync(), readFigures()]);
   log.info(
     `living demo: ${loggers.length} loggers check in every ${Math.round(intervalS / 60)} min` +
-      `${silent ? `, ${silent} silent` : ''}${settings.speed !== 1 ? ` (clock ${settings.speed}× real time)` : ''}; HELIODOR_DEMO_LIVE=0 turns it off`,
+      `${silent ? ` (${silent} stay silent, as the scenario has it)` : ''}${settings.speed !== 1 ? `, clock at ${settings.speed}× real time` : ''}` +
+      '; HELIODOR_DEMO_LIVE=0 turns it off',
   );
 
   let stopped = false;
@@ -288,6 +347,12 @@ export async function startLiveDemo(deps: LiveDemoDeps): Promise<LiveDemo> {
       });
   }, deps.rosterEveryMs ?? 60_000);
   resync.unref?.();
+  let figuring = Promise.resolve();
+  const refigure = setInterval(() => {
+    if (stopped) return;
+    figuring = readFigures().catch((err: unknown) => log.debug({ err }, 'living demo: release figures not read; trying again shortly'));
+  }, 5_000);
+  refigure.unref?.();
 
   const running = runFleet(loggers, {
     clock,
@@ -308,9 +373,10 @@ export async function startLiveDemo(deps: LiveDemoDeps): Promise<LiveDemo> {
       if (!stopped) {
         stopped = true;
         clearInterval(resync);
+        clearInterval(refigure);
         abort.abort();
       }
-      await Promise.all([running, syncing]);
+      await Promise.all([running, syncing, figuring]);
     },
   };
 }
