@@ -45,7 +45,9 @@ export type LiveBehaviour = {
   supply?: BoardSupply;
   /** The temperature the probe keeps reporting (a probe that does not answer). */
   probeStuckC?: number;
+  /** Share of installs that fail: the demo's rate (held back by the failure budget), or 1 for bad flash. */
   failRate: number;
+  /** Share of download attempts cut short. */
   interruptRate: number;
 };
 
