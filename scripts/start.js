@@ -17,7 +17,9 @@ cluster.start();
 if (!cluster.databaseExists(database)) cluster.psql(`CREATE DATABASE ${database}`);
 b.ensureWebBuild();
 
-const child = spawn(path.join(b.root, 'node_modules', '.bin', 'tsx'), ['server/index.ts'], {
+// One process for the server: Node with tsx as its TypeScript loader (no supervising tsx process in
+// between, which would kill a server that takes more than a moment to stop).
+const child = spawn(process.execPath, ['--import', 'tsx', 'server/index.ts'], {
   cwd: b.root,
   stdio: 'inherit',
   env: { ...process.env, HELIODOR_DATA: dataDir, HELIODOR_PG_PORT: String(pgPort), HELIODOR_STARTED_AT: String(started) },
@@ -27,6 +29,8 @@ let stopping = false;
 function stop(signal) {
   if (stopping) return;
   stopping = true;
+  // Ctrl-C reaches the server too (same process group); passing the signal on covers a `kill` of this
+  // process alone. The server stops once, however many times it is told.
   if (child.exitCode === null) child.kill(signal);
 }
 process.on('SIGINT', () => stop('SIGINT'));

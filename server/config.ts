@@ -23,6 +23,10 @@ const envSchema = z.object({
   HELIODOR_DEVICE_RATE: z.coerce.number().int().min(1).default(60),
   HELIODOR_DB_POOL: z.coerce.number().int().min(1).max(200).default(20),
   HELIODOR_LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info'),
+  HELIODOR_LOG_FORMAT: z.enum(['pretty', 'json']).optional(),
+  HELIODOR_DEMO_LIVE: z.enum(['0', '1']).default('1'),
+  HELIODOR_DEMO_SPEED: z.coerce.number().min(1).max(3600).default(1),
+  HELIODOR_DEMO_FAIL_RATE: z.coerce.number().min(0).max(1).default(0.02),
   SMTP_HOST: z.string().optional(),
   SMTP_PORT: z.coerce.number().int().optional(),
   SMTP_USER: z.string().optional(),
@@ -33,7 +37,8 @@ const envSchema = z.object({
 
 export type Config = ReturnType<typeof loadConfig>;
 
-function readSecret(dataDir: string, name: string): string {
+/** A secret of the data folder (`<data>/secrets/<name>`, mode 0600), made on first use. */
+export function readSecret(dataDir: string, name: string): string {
   const dir = path.join(dataDir, 'secrets');
   fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
   const file = path.join(dir, name);
@@ -52,6 +57,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
   const e = parsed.data;
   const production = e.HELIODOR_ENV === 'production';
   const dataDir = path.resolve(root, e.HELIODOR_DATA);
+  const demo = !production && e.HELIODOR_DEMO === '1';
+  const logFormat: 'pretty' | 'json' = e.HELIODOR_LOG_FORMAT ?? (production ? 'json' : 'pretty');
   const databaseUrl =
     e.DATABASE_URL ??
     `postgres://heliodor:${encodeURIComponent(readSecret(dataDir, 'pg-password'))}@127.0.0.1:${e.HELIODOR_PG_PORT}/${e.HELIODOR_DB_NAME}`;
@@ -59,7 +66,12 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     env: e.HELIODOR_ENV,
     production,
     /** Demo conveniences: seed, printed sign-ins, dev mailbox. Off in production. */
-    demo: !production && e.HELIODOR_DEMO === '1',
+    demo,
+    /**
+     * The living demo: the demo fleet checks in with this server through the device API (server/demo/).
+     * `speed` runs its clock faster than the wall clock; `failRate` is the share of installs that fail.
+     */
+    demoLive: { enabled: demo && e.HELIODOR_DEMO_LIVE === '1', speed: e.HELIODOR_DEMO_SPEED, failRate: e.HELIODOR_DEMO_FAIL_RATE },
     devMailbox: !production,
     port: e.PORT,
     dataDir,
@@ -73,6 +85,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     imageLimitBytes: e.HELIODOR_IMAGE_LIMIT,
     deviceRatePerMinute: e.HELIODOR_DEVICE_RATE,
     logLevel: e.HELIODOR_LOG_LEVEL,
+    /** Lines for people (pino-pretty) outside production, one JSON object per line in production. */
+    logFormat,
     webDir: path.join(root, 'dist'),
     smtp: production
       ? {

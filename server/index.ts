@@ -1,7 +1,10 @@
-// Starts Heliodor: settings, database migrations, demo seed, mail fake, HTTP.
+// Starts Heliodor: settings, database migrations, demo seed, mail fake, HTTP, and in the demo the
+// living demo fleet (server/demo/live.ts). SIGINT and SIGTERM stop it all in reverse order.
 import type { Server } from 'node:http';
-import pino from 'pino';
+import type pino from 'pino';
 import { loadConfig } from './config';
+import { createLogger } from './logging';
+import { startLiveDemo, type LiveDemo } from './demo/live';
 import { createDatabase, migrate } from './db';
 import { databaseIsNew, seedDemo } from './db/seed/demo';
 import { demoEmail, demoPeople } from './db/seed/scenario';
@@ -14,7 +17,7 @@ import { roleNames } from '../schemas/auth';
 
 async function main() {
   const config = loadConfig();
-  const logger = pino({ level: config.logLevel });
+  const logger = createLogger({ level: config.logLevel, format: config.logFormat });
   const sequelize = createDatabase(config.databaseUrl, { poolMax: config.dbPool });
   const readiness: Readiness = { migrated: false, seeded: config.demo ? 'pending' : 'skipped' };
 
@@ -33,6 +36,7 @@ async function main() {
   const port = (server.address() as { port: number }).port;
 
   await waitForDatabase(sequelize, logger);
+  logger.info('migrating the database');
   await migrate(sequelize);
   readiness.migrated = true;
   if (config.demo) {
@@ -47,10 +51,25 @@ async function main() {
     readiness.seeded = 'complete';
   }
 
-  process.stdout.write(`Heliodor ready at http://127.0.0.1:${port}\n`);
-  if (config.demo) {
-    const people = demoPeople.map((p) => `  ${demoEmail(p.name).padEnd(28)} ${roleNames[p.role]}`).join('\n');
-    process.stdout.write(`Demo sign-ins (password: ${config.demoPassword === 'fernhollow-demo' ? 'fernhollow-demo' : 'from HELIODOR_DEMO_PASSWORD'}):\n${people}\n`);
+  const url = `http://127.0.0.1:${port}`;
+  let live: LiveDemo | null = null;
+  if (config.demoLive.enabled) {
+    live = await startLiveDemo({ sequelize, dataDir: config.dataDir, baseUrl: url, logger, settings: config.demoLive }).catch((err: Error) => {
+      logger.warn({ err }, 'the living demo could not start; the demo stays as seeded');
+      return null;
+    });
+  }
+
+  const signIns = demoPeople.map((p) => ({ email: demoEmail(p.name), role: roleNames[p.role] }));
+  const password = config.demoPassword === 'fernhollow-demo' ? 'fernhollow-demo' : 'from HELIODOR_DEMO_PASSWORD';
+  if (config.logFormat === 'json') {
+    // One JSON line per event for log collectors.
+    logger.info({ url, ...(config.demo ? { demoSignIns: signIns.map((s) => s.email) } : {}) }, `Heliodor ready at ${url}`);
+  } else {
+    process.stdout.write(`Heliodor ready at ${url}\n`);
+    if (config.demo) {
+      process.stdout.write(`Demo sign-ins (password: ${password}):\n${signIns.map((s) => `  ${s.email.padEnd(28)} ${s.role}`).join('\n')}\n`);
+    }
   }
 
   let stopping = false;
@@ -58,10 +77,12 @@ async function main() {
     if (stopping) return;
     stopping = true;
     logger.info(`${signal}: stopping`);
+    await live?.stop();
     server.close();
     server.closeAllConnections?.();
     smtp?.close(() => undefined);
     await sequelize.close().catch(() => undefined);
+    logger.info('stopped');
     process.exit(0);
   };
   process.on('SIGINT', () => void stop('SIGINT'));

@@ -21,20 +21,98 @@ function run(cmd, args, options = {}) {
   }
 }
 
-function sha256File(file) {
-  return crypto.createHash('sha256').update(fs.readFileSync(file)).digest('hex');
+/** This machine as npm's platform checks see it (os, cpu, libc of package.json). */
+function thisPlatform() {
+  let libc = null;
+  if (process.platform === 'linux') {
+    const header = process.report && typeof process.report.getReport === 'function' ? process.report.getReport().header : {};
+    libc = header.glibcVersionRuntime ? 'glibc' : 'musl';
+  }
+  return { os: process.platform, cpu: process.arch, libc };
 }
 
-/** npm ci when node_modules is missing or was installed from another package-lock.json. */
+/** package.json's os/cpu/libc lists: names to allow, or "!name" to refuse (npm's own rule). */
+function listAllows(list, value) {
+  if (!Array.isArray(list) || list.length === 0) return true;
+  if (value === null) return true;
+  if (list.includes(`!${value}`)) return false;
+  const allowed = list.filter((v) => !v.startsWith('!'));
+  return allowed.length === 0 || allowed.includes(value);
+}
+
+function fitsPlatform(entry, platform) {
+  return listAllows(entry.os, platform.os) && listAllows(entry.cpu, platform.cpu) && listAllows(entry.libc, platform.libc);
+}
+
+/** What makes two lockfile entries the same installed package: its version and where it came from. */
+function identity(entry) {
+  if (entry.link) return { link: true, resolved: entry.resolved };
+  return { version: entry.version, integrity: entry.integrity ?? null, resolved: entry.integrity ? null : (entry.resolved ?? null) };
+}
+
+/**
+ * How node_modules differs from package-lock.json, by the hidden lockfile npm writes after every
+ * install (node_modules/.package-lock.json, "Hidden Lockfiles" in npm's package-lock.json docs): the
+ * same packages at the same versions from the same tarballs (integrity). Flags npm records differently
+ * in the two files (dev, optional, devOptional, peer) and descriptive fields (license, engines, bin,
+ * funding) do not matter. A package missing from node_modules is fine only when it is optional and
+ * does not fit this machine (os, cpu, libc): npm skips those. Returns the differences, [] when none.
+ */
+function lockfileDifferences(wanted, hidden, platform = thisPlatform()) {
+  const want = (wanted && wanted.packages) || {};
+  const have = (hidden && hidden.packages) || {};
+  const differences = [];
+  for (const [key, entry] of Object.entries(want)) {
+    if (key === '') continue; // the project itself
+    const got = have[key];
+    if (!got) {
+      if ((entry.optional || entry.devOptional) && !fitsPlatform(entry, platform)) continue;
+      differences.push(`${key} is missing`);
+      continue;
+    }
+    const a = identity(entry);
+    const b = identity(got);
+    if (JSON.stringify(a) !== JSON.stringify(b)) {
+      differences.push(a.version !== b.version ? `${key} is ${b.version ?? 'a link'}, package-lock.json says ${a.version ?? 'a link'}` : `${key} came from elsewhere`);
+    }
+  }
+  for (const key of Object.keys(have)) {
+    if (key !== '' && !want[key]) differences.push(`${key} is not in package-lock.json`);
+  }
+  return differences;
+}
+
+/** Why node_modules needs `npm ci`, or null when it matches package-lock.json as npm installed it. */
+function nodeModulesStale(dir = root) {
+  const modules = path.join(dir, 'node_modules');
+  if (!fs.existsSync(modules)) return 'node_modules is missing';
+  const hiddenFile = path.join(modules, '.package-lock.json');
+  if (!fs.existsSync(hiddenFile)) return 'node_modules has no record of its install (node_modules/.package-lock.json)';
+  let wanted;
+  let hidden;
+  try {
+    wanted = JSON.parse(fs.readFileSync(path.join(dir, 'package-lock.json'), 'utf8'));
+    hidden = JSON.parse(fs.readFileSync(hiddenFile, 'utf8'));
+  } catch (err) {
+    return `a lockfile cannot be read (${err.message})`;
+  }
+  const differences = lockfileDifferences(wanted, hidden);
+  if (differences.length > 0) {
+    const more = differences.length > 1 ? ` and ${differences.length - 1} more` : '';
+    return `node_modules differs from package-lock.json: ${differences[0]}${more}`;
+  }
+  // Every package folder the record names must still be there (npm's own condition for trusting it).
+  const gone = Object.keys(hidden.packages || {}).find((key) => key !== '' && !fs.existsSync(path.join(dir, key)));
+  if (gone) return `${gone} was removed by hand`;
+  return null;
+}
+
+/** npm ci when node_modules is missing or does not match package-lock.json (e.g. a manual `npm ci` is recognised). */
 function ensureNodeModules() {
-  const lock = path.join(root, 'package-lock.json');
-  const stamp = path.join(root, 'node_modules', '.heliodor-lock');
-  const want = fs.existsSync(lock) ? sha256File(lock) : 'no-lock';
-  const have = fs.existsSync(stamp) ? fs.readFileSync(stamp, 'utf8').trim() : '';
-  if (have === want && fs.existsSync(path.join(root, 'node_modules', '.bin', 'tsx'))) return;
-  log(fs.existsSync(path.join(root, 'node_modules')) ? 'node_modules is stale: npm ci' : 'installing packages: npm ci');
+  const stale = nodeModulesStale();
+  if (!stale) return;
+  log(fs.existsSync(path.join(root, 'node_modules')) ? `${stale}: npm ci` : 'installing packages: npm ci');
   run('npm', ['ci', '--no-audit', '--no-fund'], { cwd: root });
-  fs.writeFileSync(stamp, want);
 }
 
 let aptUpdated = false;
@@ -256,6 +334,8 @@ module.exports = {
   log,
   run,
   ensureNodeModules,
+  nodeModulesStale,
+  lockfileDifferences,
   ensureChromium,
   postgresBinDir,
   pgCluster,

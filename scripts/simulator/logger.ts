@@ -21,7 +21,7 @@ import semver from 'semver';
 import { z } from 'zod';
 import { ManifestError, parseSignedManifest, verifyManifestSignature, type Manifest, type SigningPublicKey } from '../../server/images/manifest';
 import { chance, gaussian, pick, type Random } from './random';
-import { PanelMeter, supplyBetweenCheckIns, typicalPanel, type Panel, type ResetReason, type Spot } from './readings';
+import { PanelMeter, supplyBetweenCheckIns, typicalPanel, type BoardSupply, type Panel, type ResetReason, type Spot } from './readings';
 
 // ---- The wire (DEVICE_API.md), as a client reads it: unknown fields are ignored. ----
 
@@ -163,6 +163,8 @@ export type LoggerIdentity = {
   /** Where the panel is (defaults to the middle of Aldmere Vale). */
   spot?: Spot;
   panel?: Panel;
+  /** How this logger's supply behaves, when not as its board revision's usually does (a sagging supply, an unstable board). */
+  supply?: BoardSupply;
 };
 
 export type LoggerEvent =
@@ -182,8 +184,11 @@ export type LoggerEnvironment = {
   trustedKeys: readonly SigningPublicKey[];
   /** Share of download attempts cut short part-way (0–1). */
   interruptRate?: number;
-  /** Share of installs that fail while writing the image (0–1), with a reason from integrity, storage, other. */
-  failRate?: number;
+  /**
+   * Share of installs that fail while writing the image (0–1), with a reason from integrity, storage, other;
+   * or a function that gives the share for each offer when its install is written.
+   */
+  failRate?: number | ((offer: Offer) => number);
   /** Download attempts per offer before the logger gives up until the next check-in. */
   maxDownloadAttempts?: number;
   onEvent?: (event: LoggerEvent) => void;
@@ -230,6 +235,7 @@ export class VirtualLogger {
   private rebootInto: { version: string; securityCounter: number; at: Date } | null = null;
   private installing = false;
   private supplyV = 5;
+  private readonly supply: BoardSupply | undefined;
 
   constructor(identity: LoggerIdentity, env: LoggerEnvironment) {
     this.serial = identity.serial;
@@ -238,6 +244,7 @@ export class VirtualLogger {
     this.modelId = identity.modelId ?? null;
     this.firmware = identity.firmware;
     this.securityCounter = identity.securityCounter ?? 0;
+    this.supply = identity.supply;
     this.env = {
       fetch: globalThis.fetch.bind(globalThis),
       interruptRate: 0,
@@ -295,7 +302,7 @@ export class VirtualLogger {
     }
     const since = this.lastCheckInAt ?? now;
     const hours = Math.max(0, (now.getTime() - since.getTime()) / 3_600_000);
-    const { supplyV, resets } = supplyBetweenCheckIns(this.board, hours, this.env.random);
+    const { supplyV, resets } = supplyBetweenCheckIns(this.board, hours, this.env.random, this.supply);
     this.supplyV = supplyV;
     const count = Object.values(resets).reduce((a, b) => a + (b ?? 0), 0);
     if (count > 0) {
@@ -538,7 +545,8 @@ export class VirtualLogger {
       if (!verdict.ok) return fail(verdict.reason, verdict.detail);
       await this.report({ release: offer.release, state: 'downloaded' });
       await this.report({ release: offer.release, state: 'installing' });
-      if (chance(this.env.random, this.env.failRate)) {
+      const failRate = typeof this.env.failRate === 'function' ? this.env.failRate(offer) : this.env.failRate;
+      if (chance(this.env.random, failRate)) {
         const reason = pick(this.env.random, injectedFailures);
         const detail = { integrity: 'the written image read back with a different SHA-256', storage: 'writing the update slot failed', other: 'the bootloader refused the new slot' }[reason as 'integrity' | 'storage' | 'other'];
         return fail(reason, `${detail} (simulated)`);

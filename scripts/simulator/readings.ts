@@ -225,13 +225,13 @@ export const SAG_V = 4.6;
 
 export type ResetReason = 'power_on' | 'watchdog' | 'brownout' | 'software' | 'exception' | 'external' | 'unknown';
 
-/** The supply reading at a check-in and the resets since the previous one. */
+/** The supply reading at a check-in and the resets since the previous one (by the board's behaviour, unless one is given). */
 export function supplyBetweenCheckIns(
   board: string,
   hours: number,
   random: Random,
+  behaviour: BoardSupply = boardSupplies[board] ?? boardSupplies.B,
 ): { supplyV: number; resets: Partial<Record<ResetReason, number>> } {
-  const behaviour = boardSupplies[board] ?? boardSupplies.B;
   const supplyV = Math.max(0, gaussian(random, behaviour.nominalV, behaviour.spreadV));
   const sagging = supplyV < SAG_V;
   const resets: Partial<Record<ResetReason, number>> = {};

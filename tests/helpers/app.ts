@@ -16,6 +16,8 @@ import { User } from '../../server/db/models';
 import { hashPassword } from '../../server/auth/passwords';
 import type { Role } from '../../schemas/auth';
 import { testEnv } from './env';
+import { startLiveDemo, type LiveDemo, type LiveDemoSettings } from '../../server/demo/live';
+import { seededRandom } from '../../scripts/simulator/random';
 
 export const testPassword = 'correct horse battery';
 
@@ -46,25 +48,29 @@ export type TestApp = Awaited<ReturnType<typeof startTestApp>>;
 /**
  * `seed: 'demo'` seeds the small demo scenario (six sites, 14 loggers, no releases) most tests build on;
  * `seedSize: 'full'` seeds the full scenario `npm start` shows (about 240 loggers, signed releases,
- * 14 days of check-ins; a few seconds more).
+ * 14 days of check-ins; a few seconds more); `seedAt` seeds it as of another time (e.g. an hour ago, as
+ * if no server had run since). The living demo stays off unless a test starts it (`startLiveDemo`).
  */
-export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?: 'small' | 'full'; now?: () => Date; webDir?: string } = {}) {
+export async function startTestApp(
+  options: { seed?: 'demo' | 'none'; seedSize?: 'small' | 'full'; seedAt?: Date; now?: () => Date; webDir?: string } = {},
+) {
   const env = testEnv();
   const db = await createDatabaseFromTemplate();
   const sequelize = createDatabase(db.url, { poolMax: 10 });
   const storeDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-store-'));
   const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-data-'));
   if (options.seed === 'demo') {
-    await seedDemo(sequelize, { password: testPassword, dataDir, storeDir, now: options.now?.() ?? new Date(), bcryptCost: 10, size: options.seedSize ?? 'small' });
+    await seedDemo(sequelize, { password: testPassword, dataDir, storeDir, now: options.seedAt ?? options.now?.() ?? new Date(), bcryptCost: 10, size: options.seedSize ?? 'small' });
   }
+  const config = appConfig({
+    demo: true,
+    devMailbox: true,
+    outboxDir: env.outboxDir,
+    storeDir,
+    webDir: options.webDir ?? path.resolve(__dirname, '../../dist'),
+  });
   const app = createApp({
-    config: appConfig({
-      demo: true,
-      devMailbox: true,
-      outboxDir: env.outboxDir,
-      storeDir,
-      webDir: options.webDir ?? path.resolve(__dirname, '../../dist'),
-    }),
+    config,
     sequelize,
     mailer: createMailer({ host: '127.0.0.1', port: env.smtpPort, secure: false, from: 'Heliodor <heliodor@localhost>' }),
     readiness: { migrated: true, seeded: options.seed === 'demo' ? 'complete' : 'skipped' },
@@ -72,6 +78,7 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
   });
 
   let server: Server | null = null;
+  let live: LiveDemo | null = null;
   const t = {
     app,
     sequelize,
@@ -98,7 +105,26 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
       });
       return `http://127.0.0.1:${(server.address() as { port: number }).port}`;
     },
+    /**
+     * Turns the living demo on (server/demo/live.ts) against the listening app, as `npm start` does in
+     * the demo; the settings default to the test configuration's (real time, 2 % failed installs) with
+     * a fixed seed. It stops with close().
+     */
+    async startLiveDemo(settings: Partial<LiveDemoSettings> = {}): Promise<LiveDemo> {
+      if (!server) throw new Error('listen() first: the living demo talks HTTP to the listening app');
+      if (live) return live;
+      live = await startLiveDemo({
+        sequelize,
+        dataDir,
+        baseUrl: `http://127.0.0.1:${(server.address() as { port: number }).port}`,
+        logger: app.services.logger,
+        settings: { speed: config.demoLive.speed, failRate: config.demoLive.failRate, ...settings },
+        random: seededRandom(7),
+      });
+      return live;
+    },
     async close() {
+      await live?.stop();
       if (server) {
         server.closeAllConnections();
         await new Promise((r) => server!.close(r));

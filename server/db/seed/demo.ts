@@ -1,6 +1,7 @@
 // Seeds the demo scenario into a new database, all in one transaction (nothing half-seeded: /api/health
-// waits for it). Logger tokens are issued like any others; their bench sheet is written to the data
-// folder (demo mode only) so the fleet simulator can check in as those loggers.
+// waits for it). Logger tokens are derived from the data folder's demo secret (server/demo/tokens.ts)
+// and stored as SHA-256 like any others, so the living demo can check in as those loggers; their bench
+// sheet is written to the data folder (demo mode only) for the fleet simulator.
 //
 // Two sizes: 'full' is PRODUCT.md's scenario at full size (about 240 loggers at 60 sites, signed
 // releases, 14 days of check-ins; see full-scenario.ts), what `npm start` seeds; 'small' is the six
@@ -10,7 +11,7 @@ import path from 'node:path';
 import type { Sequelize } from 'sequelize';
 import { Activity, Logger, LoggerModel, Site, SiteIntegrator, User } from '../models';
 import { hashPassword } from '../../auth/passwords';
-import { newToken } from '../../auth/tokens';
+import { demoTokenIssuer } from '../../demo/tokens';
 import { demoEmail, demoModel, demoPeople, demoSites } from './scenario';
 import { seedFullScenario } from './full-scenario';
 
@@ -37,6 +38,7 @@ export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Prom
   const bench: string[] = ['serial,token,model,board'];
   const size = options.size ?? 'small';
   if (size === 'full' && !options.storeDir) throw new Error('the full demo seed needs the firmware store directory');
+  const tokenFor = demoTokenIssuer(options.dataDir);
   await sequelize.transaction(async (transaction) => {
     const people = new Map<string, User>();
     for (const p of demoPeople) {
@@ -44,7 +46,7 @@ export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Prom
     }
     const model = await LoggerModel.create(demoModel, { transaction });
     if (size === 'full') {
-      await seedFullScenario({ sequelize, transaction, now, people, model, dataDir: options.dataDir, storeDir: options.storeDir!, bench });
+      await seedFullScenario({ sequelize, transaction, now, people, model, dataDir: options.dataDir, storeDir: options.storeDir!, bench, tokenFor });
       return;
     }
     let serialNo = 1;
@@ -58,7 +60,7 @@ export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Prom
       for (let k = 0; k < 2; k++) {
         const board = ['A', 'B', 'C'][(i + k) % 3];
         const serial = `FL2-${String(2400 + serialNo++).padStart(5, '0')}`;
-        const { token, digest } = newToken('hlt_');
+        const { token, digest } = tokenFor(serial);
         bench.push(`${serial},${token},${model.name},${board}`);
         const silent = i === 4 && k === 1;
         await Logger.create(
@@ -76,12 +78,12 @@ export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Prom
     // Two registered loggers waiting on the shelf for enrollment.
     for (const board of ['B', 'C']) {
       const serial = `FL2-${String(2400 + serialNo++).padStart(5, '0')}`;
-      const { token, digest } = newToken('hlt_');
+      const { token, digest } = tokenFor(serial);
       bench.push(`${serial},${token},${model.name},${board}`);
       await Logger.create({ serial, modelId: model.id, board, channel: 'stable', status: 'registered', tokenDigest: digest, tokenIssuedAt: now, registeredBy: people.get('Morgan')!.id }, { transaction });
     }
     await Activity.create(
-      { actorType: 'system', actorId: null, actorName: 'system', action: 'demo.seeded', targetType: 'system', targetId: null, summary: 'Demo scenario seeded: Fernhollow Energy Co-op', requestId: null, details: null },
+      { actorType: 'system', actorId: null, actorName: 'system', action: 'demo.seeded', targetType: 'system', targetId: null, summary: 'Demo scenario seeded: Fernhollow Energy Co-op', requestId: null, details: { scenario: 'small' } },
       { transaction },
     );
   });

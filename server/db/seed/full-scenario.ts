@@ -19,7 +19,6 @@ import {
   SiteIntegrator,
   User,
 } from '../models';
-import { newToken } from '../../auth/tokens';
 import { measurementProfile } from '../../../lib/calibration';
 import { seededRandom } from '../../../scripts/simulator/random';
 import { createDemoKey, demoImage, signDemoManifest, storeImage } from './demo-signing';
@@ -37,6 +36,8 @@ export type FullSeedContext = {
   storeDir: string;
   /** Lines of the bench sheet (header first); tokens are never stored in clear. */
   bench: string[];
+  /** Each logger's token and its SHA-256, by serial (server/demo/tokens.ts). */
+  tokenFor: (serial: string) => { token: string; digest: string };
 };
 
 /** Maximum expected current per panel size (A) with a 5 mΩ shunt: about 1.25 × the panel's current at its rated power. */
@@ -127,7 +128,7 @@ export async function seedFullScenario(ctx: FullSeedContext) {
   const loggerRows = [];
   const profiles = [];
   for (const l of plan.loggers) {
-    const { token, digest } = newToken('hlt_');
+    const { token, digest } = ctx.tokenFor(l.serial);
     if (l.status !== 'retired') ctx.bench.push(`${l.serial},${token},${model.name},${l.board},${l.firmware ?? ''},${l.firmware ? (COUNTER_OF[l.firmware] ?? 0) : ''}`);
     const site = l.siteIndex === null ? null : plan.sites[l.siteIndex];
     const integrator = l.enrolledBy ? person(l.enrolledBy) : null;
@@ -224,6 +225,8 @@ export async function seedFullScenario(ctx: FullSeedContext) {
   entries.push({
     at: now, actor: null, action: 'demo.seeded', targetType: 'system', targetId: null,
     summary: `Demo scenario seeded: Fernhollow Energy Co-op, ${plan.loggers.filter((l) => l.status === 'enrolled').length} loggers at ${plan.sites.length} sites`,
+    // The living demo plans the fleet again from this time to know which logger plays which part.
+    details: { scenario: 'full' },
   });
   await Activity.bulkCreate(
     entries
