@@ -210,6 +210,8 @@ export type LaggingSite = {
   lastContactAt: string | null;
   reasons: Partial<Record<LaggingReason, number>>;
   loggers: LaggingLogger[];
+  /** What the caller may do here (server/auth/policies.ts): retry its failed installs, add a note to the site. */
+  can: { retry: boolean; addNote: boolean };
 };
 
 // ─── Retry, notes, timeline ─────────────────────────────────────────────────

@@ -147,6 +147,11 @@ export type LoggerRow = {
   worstFlag: FleetFlag | null;
 };
 
+/** What a person may do with a logger (its answers' `can`, from server/auth/policies.ts). */
+export const LOGGER_VERBS = ['enroll', 'move', 'retire', 'rotateToken', 'editProfile', 'addNote', 'addPhoto'] as const;
+export type LoggerVerb = (typeof LOGGER_VERBS)[number];
+export type LoggerCan = Record<LoggerVerb, boolean>;
+
 export type LoggerDetail = {
   id: string;
   serial: string;
@@ -168,6 +173,8 @@ export type LoggerDetail = {
   tokenIssuedAt: string | null;
   retiredAt: string | null;
   createdAt: string;
+  /** What the caller may do with it now: its status, their role and (integrators) their sites together. */
+  can: LoggerCan;
 };
 
 /** Issued once, at registration or rotation: the token in clear and its label. */

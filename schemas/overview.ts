@@ -31,8 +31,9 @@ export const overviewSchema = z.object({
       }),
     ),
   }),
-  recentActivity: z.array(
-    z.object({ id: z.number(), at: z.string(), actorName: z.string(), action: z.string(), summary: z.string() }),
-  ),
+  /** Null for people who may not read the activity log (server/auth/policies.ts). */
+  recentActivity: z
+    .array(z.object({ id: z.number(), at: z.string(), actorName: z.string(), action: z.string(), summary: z.string() }))
+    .nullable(),
 });
 export type Overview = z.infer<typeof overviewSchema>;

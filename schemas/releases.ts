@@ -16,6 +16,14 @@ export type LiveState = (typeof LIVE_STATES)[number];
 export const RELEASE_ACTIONS = ['start_pilot', 'widen', 'complete', 'pause', 'resume', 'stop', 'withdraw'] as const;
 export type ReleaseAction = (typeof RELEASE_ACTIONS)[number];
 
+/**
+ * What a person or token may do with a release (its answers' `can`, from server/auth/policies.ts): the
+ * lifecycle actions, edit (targeting, while draft), delete (a draft) and retry (failed installs).
+ */
+export const RELEASE_VERBS = [...RELEASE_ACTIONS, 'edit', 'delete', 'retry'] as const;
+export type ReleaseVerb = (typeof RELEASE_VERBS)[number];
+export type ReleaseCan = Record<ReleaseVerb, boolean>;
+
 /** The state a paused or stopped release returns to on resume. A stop of a paused release returns to paused. */
 export type ResumeState = LiveState | 'paused';
 
@@ -145,6 +153,8 @@ export type ReleaseView = ReleaseHeading & {
   allowedActions: ReleaseAction[];
   createdAt: string;
   createdBy: { name: string };
+  /** What the caller may do with it now: the lifecycle and their role together. */
+  can: ReleaseCan;
 };
 
 /** GET /api/releases/:id/estimate: how many more loggers a share would make eligible. */

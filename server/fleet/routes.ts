@@ -85,13 +85,13 @@ export function registerFleetRoutes(api: Api, deps: FleetRouteDeps) {
 
   api.get('/api/fleet/lagging-sites', async (req, res) => {
     const query = parse(laggingQuery, req.query, 'query');
-    res.json(await laggingSites(deps, query));
+    res.json(await laggingSites(deps, contextOf(req).actor, query));
   });
 
   api.get('/api/fleet/lagging-sites/export.csv', async (req, res) => {
     const query = parse(laggingQuery, req.query, 'query');
     const write = csvStream(res, `heliodor-lagging-sites-${stamp(deps.now())}.csv`);
-    await finishStream(res, () => exportLagging(deps, query, write));
+    await finishStream(res, () => exportLagging(deps, contextOf(req).actor, query, write));
   });
 
   api.post('/api/releases/:id/retry', async (req, res) => {

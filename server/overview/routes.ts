@@ -2,10 +2,13 @@ import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import type { Api } from '../http/api';
 import type { Overview } from '../../schemas/overview';
+import type { Actor } from '../auth/actor';
+import { activity, may } from '../auth/policies';
+import { contextOf } from '../http/context';
 import { fleetOverview } from '../fleet/overview';
 
-/** Fleet numbers for the first screen, in two indexed queries. */
-export async function overview(sequelize: Sequelize, now: Date): Promise<Overview> {
+/** Fleet numbers for the first screen, in two indexed queries; recent activity for those who may read the log. */
+export async function overview(sequelize: Sequelize, actor: Actor, now: Date): Promise<Overview> {
   const [counts] = await sequelize.query<Record<string, number>>(
     `SELECT
        count(*)::int AS total,
@@ -20,10 +23,12 @@ export async function overview(sequelize: Sequelize, now: Date): Promise<Overvie
      FROM loggers l JOIN models m ON m.id = l.model_id`,
     { type: QueryTypes.SELECT, replacements: { now: now.toISOString() } },
   );
-  const recent = await sequelize.query<{ id: number; at: Date; actor_name: string; action: string; summary: string }>(
-    "SELECT id, at, actor_name, action, summary FROM activity WHERE action <> 'person.signed_in' ORDER BY at DESC, id DESC LIMIT 8",
-    { type: QueryTypes.SELECT },
-  );
+  const recent = may(actor, 'read', activity)
+    ? await sequelize.query<{ id: number; at: Date; actor_name: string; action: string; summary: string }>(
+        "SELECT id, at, actor_name, action, summary FROM activity WHERE action <> 'person.signed_in' ORDER BY at DESC, id DESC LIMIT 8",
+        { type: QueryTypes.SELECT },
+      )
+    : null;
   const fleet = await fleetOverview(sequelize, now);
   return {
     fleet,
@@ -38,12 +43,12 @@ export async function overview(sequelize: Sequelize, now: Date): Promise<Overvie
     sites: counts.sites,
     models: counts.models,
     people: counts.people,
-    recentActivity: recent.map((r) => ({ id: r.id, at: new Date(r.at).toISOString(), actorName: r.actor_name, action: r.action, summary: r.summary })),
+    recentActivity: recent?.map((r) => ({ id: r.id, at: new Date(r.at).toISOString(), actorName: r.actor_name, action: r.action, summary: r.summary })) ?? null,
   };
 }
 
 export function registerOverviewRoutes(api: Api, deps: { sequelize: Sequelize; now: () => Date }) {
-  api.get('/api/overview', async (_req, res) => {
-    res.json(await overview(deps.sequelize, deps.now()));
+  api.get('/api/overview', async (req, res) => {
+    res.json(await overview(deps.sequelize, contextOf(req).actor, deps.now()));
   });
 }
