@@ -272,9 +272,9 @@ const assignedSites = (siteIdColumn: string) => `${column(siteIdColumn)} IN (SEL
  * them, everyone else the rule admits every site. `siteIdColumn` names the site id in the query.
  */
 export function siteScope(actor: Actor, siteIdColumn: string): SqlScope {
+  column(siteIdColumn);
   if (!POLICIES.site.view.by(actor)) return NONE;
   const me = integratorId(actor);
-  column(siteIdColumn);
   if (me === null) return ALL;
   return { sql: assignedSites(siteIdColumn), replacements: { scopePersonId: me } };
 }
@@ -284,9 +284,9 @@ export function siteScope(actor: Actor, siteIdColumn: string): SqlScope {
  * they registered, everyone else the rule admits every logger. `alias` is the loggers table's alias.
  */
 export function loggerScope(actor: Actor, alias = 'l'): SqlScope {
+  const l = column(alias);
   if (!POLICIES.logger.view.by(actor)) return NONE;
   const me = integratorId(actor);
   if (me === null) return ALL;
-  const l = column(alias);
   return { sql: `(${l}.registered_by = :scopePersonId OR ${assignedSites(`${l}.site_id`)})`, replacements: { scopePersonId: me } };
 }
