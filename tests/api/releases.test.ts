@@ -109,6 +109,9 @@ describe('the lifecycle over the API', () => {
     if (status === 200) {
       expect(res.body).toMatchObject({ state, share });
       expect(res.body.allowedActions).toEqual(allowed[state!]);
+      // The engineer's can: the same lifecycle moves, retry always, edit and delete only while draft (never here).
+      const open = Object.keys(res.body.can).filter((verb) => res.body.can[verb]);
+      expect(open.sort()).toEqual([...allowed[state!], 'retry'].sort());
       expect(await ReleaseTransition.count({ where: { releaseId: release.id } })).toBe(transitionsBefore + 1);
     } else {
       expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
@@ -235,6 +238,8 @@ describe('reading releases', () => {
       );
     }
     const detail = await (await t.signedIn('support')).get(`/api/releases/${release.id}`);
+    // PRODUCT.md roles: support reads releases and changes none.
+    expect(Object.values(detail.body.can).every((may) => may === false)).toBe(true);
     expect(detail.status).toBe(200);
     expect(detail.body.counts).toEqual({
       offered: 1, downloading: 1, downloaded: 0, installing: 0, installed: 2, failed: 2,
@@ -270,6 +275,9 @@ describe('reading releases', () => {
     expect(detail.body.key).toMatchObject({ state: 'revoked', keyId: signer.keyId });
     const row = (await admin.get('/api/releases')).body.rows.find((r: { id: string }) => r.id === published.id);
     expect(row.flagged).toBe(true);
+    // The draft's answer already says so: it may be edited or deleted, not started.
+    const draftView = await (await engineer()).get(`/api/releases/${draft.id}`);
+    expect(draftView.body.can).toMatchObject({ start_pilot: false, edit: true, delete: true });
     const start = await act(draft.id, { action: 'start_pilot' });
     expect(start.status).toBe(409);
     expect(start.body.detail).toContain('revoked');

@@ -96,6 +96,8 @@ describe('using tokens', () => {
     expect((await request(t.app).get('/api/keys').set(bearer(created.token))).status).toBe(401);
     expect((await ApiToken.findByPk(created.id))?.revokedAt?.toISOString()).toBe(clock.toISOString());
     expect(await Activity.count({ where: { action: 'token.revoked', targetId: created.id } })).toBe(1);
+    const listed = (await admin.get('/api/tokens')).body.rows.find((row: { id: string }) => row.id === created.id);
+    expect(listed.can).toEqual({ revoke: false });
     expect((await admin.delete(`/api/tokens/${crypto.randomUUID()}`).set(csrf)).status).toBe(404);
   });
 
