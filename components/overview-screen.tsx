@@ -57,7 +57,7 @@ function Figure({ label, value, note, tone = 'ink', href }: { label: string; val
   );
 }
 
-/** Fleet health (issue 6 §7): flags, lagging sites and live releases, each a link into its filtered view. */
+/** Fleet health: flags, lagging sites and live releases, each a link into its filtered view. */
 function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet']; registered: number; retired: number }) {
   return (
     <View style={{ gap: space.md }}>

@@ -1,4 +1,4 @@
-// Fleet views (issue 6): the fleet table's filters, sort keys, flags and update states, the version
+// Fleet views: the fleet table's filters, sort keys, flags and update states, the version
 // matrix, lagging sites, notes, the logger timeline, sparklines and retries. Console API, camelCase.
 import { z } from 'zod';
 import semver from 'semver';
@@ -21,7 +21,7 @@ export const FLAG_LABELS: Record<FleetFlag, string> = {
   probe_fault: 'Probe fault',
 };
 
-/** Resets in 24 h at which a logger is unstable (issue 6 §1). */
+/** Watchdog and brown-out resets in 24 h at which a logger counts as unstable (the fleet flag). */
 export const UNSTABLE_RESETS_24H = 3;
 /** The temperature probe's power-on register value and valid range (probe datasheet; REFERENCE.md §9). */
 export const PROBE_POWER_ON_C = 85;

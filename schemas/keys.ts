@@ -1,4 +1,4 @@
-// Signing keys (issue 4 §1): the console holds public keys only.
+// Signing keys: the console holds public keys only.
 import { z } from 'zod';
 import { text } from './common';
 import type { SignatureAlgorithm } from './manifest';

@@ -63,14 +63,14 @@ export const measurementProfile = z.object({
 });
 export type MeasurementProfile = z.infer<typeof measurementProfile>;
 
-// ─── Console API: registry requests and views (issue 3) ─────────────────────
+// ─── Console API: registry requests and views ─────────────────────────────
 
 export const loggerStatuses = ['registered', 'enrolled', 'retired'] as const;
 export type LoggerStatus = (typeof loggerStatuses)[number];
 
 export const pageSizes = [25, 50, 100] as const;
 
-/** The fleet table's query (issue 6): filters, allow-listed sort keys, a keyset cursor or a page. */
+/** The fleet table's query: filters, allow-listed sort keys, a keyset cursor or a page. */
 export const loggersQuery = z.object({
   ...fleetFilterFields,
   status: z.enum(loggerStatuses, { message: 'must be registered, enrolled or retired' }).optional(),

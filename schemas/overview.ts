@@ -12,7 +12,7 @@ export const overviewSchema = z.object({
   sites: z.number().int(),
   models: z.number().int(),
   people: z.number().int(),
-  /** Fleet health for support and release steering (issue 6 §7); each href opens the filtered view. */
+  /** Fleet health for support and release steering; each href opens the filtered view. */
   fleet: z.object({
     silent: z.object({ count: z.number().int(), href: z.string() }),
     flags: z.array(z.object({ flag: z.enum(['silent', 'unstable', 'low_supply', 'probe_fault']), count: z.number().int(), href: z.string() })),

@@ -1,4 +1,4 @@
-// Releases (issue 4 §5): upload fields, targeting edits while draft, lifecycle transitions, list filters.
+// Releases: upload fields, targeting edits while draft, lifecycle transitions, list filters.
 import { z } from 'zod';
 import semver from 'semver';
 import { uuid } from './common';
@@ -160,7 +160,7 @@ export type ReleaseView = ReleaseHeading & {
 /** GET /api/releases/:id/estimate: how many more loggers a share would make eligible. */
 export type ReleaseEstimate = { share: number; eligibleNow: number; eligibleAtShare: number; more: number };
 
-// ─── Release dashboard (issue 6 §4) ─────────────────────────────────────────
+// ─── Release dashboard ──────────────────────────────────────────────────────
 
 export const releaseSitesQuery = z.object({
   page: z.coerce.number({ message: 'must be a number' }).int('must be a whole number').min(1, 'at least 1').max(100_000, 'at most 100 000').default(1),

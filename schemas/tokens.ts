@@ -1,4 +1,4 @@
-// API tokens for automation (issue 4 §2): shown once, stored as SHA-256, limited to their scopes.
+// API tokens for automation: shown once, stored as SHA-256, limited to their scopes.
 import { z } from 'zod';
 import { text } from './common';
 

@@ -1,4 +1,4 @@
-// Lagging sites (issue 6 §3): sites with at least one enrolled logger below the current release of its
+// Lagging sites: sites with at least one enrolled logger below the current release of its
 // channel (semantic-version precedence, in SQL on firmware_key), and for each such logger the reason from
 // the offer decision for that release — or "silent" when it has not checked in for 3 intervals, since
 // nothing can reach it until it does.

@@ -1,4 +1,4 @@
-// Fleet views (issue 6): the fleet table's CSV export, the version matrix, lagging sites, retries,
+// Fleet views: the fleet table's CSV export, the version matrix, lagging sites, retries,
 // notes, the logger timeline, sparklines and "Why no update?". GET /api/loggers itself stays with the
 // registry routes (server/loggers/routes.ts) and answers through server/fleet/table.ts.
 //

@@ -1,4 +1,4 @@
-// The release dashboard (issue 6 §4): how far a release has gone and how it is doing, beside the funnel
+// The release dashboard: how far a release has gone and how it is doing, beside the funnel
 // the release itself carries (presenter.ts installCounts).
 //
 // - Time to install: from the first offer (offered_at) to the install confirmed at a check-in on the

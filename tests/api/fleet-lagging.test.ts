@@ -1,4 +1,4 @@
-// Lagging sites (issue 6 §3) against a hand-built fleet where the reason of every logger behind is
+// Lagging sites against a hand-built fleet where the reason of every logger behind is
 // known, the retry of failed installs, the version matrix (§2) and the overview's fleet counts (§7).
 import semver from 'semver';
 import { createHash } from 'node:crypto';
@@ -21,7 +21,7 @@ const release: Record<string, string> = {};
 type Agent = Awaited<ReturnType<TestApp['signedIn']>>;
 let support: Agent;
 
-/** The reason each site's one lagging logger must show, and why (DEVICE_API.md rules; issue 6 §3). */
+/** The reason each site's one lagging logger must show, and why (DEVICE_API.md rules). */
 const expected: Record<string, string> = {
   silent: 'silent', // last check-in 3 days ago, far beyond 3 × 900 s
   lowSupply: 'low_supply', // 4.0 V below the model's 4.6 V update minimum (rule 5)

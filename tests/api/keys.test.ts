@@ -1,4 +1,4 @@
-// Signing keys (issue 4 §1). Key ids are checked against node:crypto's own SPKI DER export hashed
+// Signing keys. Key ids are checked against node:crypto's own SPKI DER export hashed
 // with SHA-256 (the definition in DEVICE_API.md "The signed manifest").
 import crypto from 'node:crypto';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';

@@ -1,4 +1,4 @@
-// Logger registration (issue 3 §3–4): one at a time and by CSV batch, tokens and labels, rotation, retirement,
+// Logger registration: one at a time and by CSV batch, tokens and labels, rotation, retirement,
 // the list and detail, roles.
 import { createHash } from 'node:crypto';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';

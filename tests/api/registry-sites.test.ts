@@ -1,4 +1,4 @@
-// Sites (issue 3 §2): who may create and edit, coordinate ranges, IANA time zones, activity rows.
+// Sites: who may create and edit, coordinate ranges, IANA time zones, activity rows.
 import { startTestApp, csrf, testPassword, type TestApp } from '../helpers/app';
 import { Activity, Site } from '../../server/db/models';
 

@@ -1,4 +1,4 @@
-// API tokens for automation (issue 4 §2). The stored digest is checked against node:crypto's SHA-256
+// API tokens for automation. The stored digest is checked against node:crypto's SHA-256
 // of the token text; the token shape (hat_ + 43 base64url characters = 32 random bytes, RFC 4648 §5).
 import crypto from 'node:crypto';
 import request from 'supertest';
