@@ -3,12 +3,18 @@ import { QueryTypes } from 'sequelize';
 import type { Api } from '../http/api';
 import type { Overview } from '../../schemas/overview';
 import type { Actor } from '../auth/actor';
-import { activity, may } from '../auth/policies';
+import { activity, loggerScope, may, siteScope } from '../auth/policies';
 import { contextOf } from '../http/context';
 import { fleetOverview } from '../fleet/overview';
 
-/** Fleet numbers for the first screen, in two indexed queries; recent activity for those who may read the log. */
+/**
+ * Fleet numbers for the first screen, in two indexed queries, counted within what the caller may read
+ * (an integrator: their sites and registrations), so each figure matches the list it links to; recent
+ * activity for those who may read the log.
+ */
 export async function overview(sequelize: Sequelize, actor: Actor, now: Date): Promise<Overview> {
+  const loggers = loggerScope(actor, 'l');
+  const sites = siteScope(actor, 's.id');
   const [counts] = await sequelize.query<Record<string, number>>(
     `SELECT
        count(*)::int AS total,
@@ -17,11 +23,11 @@ export async function overview(sequelize: Sequelize, actor: Actor, now: Date): P
        count(*) FILTER (WHERE l.status = 'enrolled' AND l.last_seen_at >= :now::timestamptz - make_interval(secs => 3 * m.check_in_interval_s))::int AS online,
        count(*) FILTER (WHERE l.status = 'enrolled' AND (l.last_seen_at IS NULL OR l.last_seen_at < :now::timestamptz - make_interval(secs => 3 * m.check_in_interval_s)))::int AS silent,
        count(*) FILTER (WHERE l.status = 'retired')::int AS retired,
-       (SELECT count(*) FROM sites)::int AS sites,
+       (SELECT count(*) FROM sites s WHERE ${sites.sql})::int AS sites,
        (SELECT count(*) FROM models)::int AS models,
        (SELECT count(*) FROM users WHERE disabled_at IS NULL)::int AS people
-     FROM loggers l JOIN models m ON m.id = l.model_id`,
-    { type: QueryTypes.SELECT, replacements: { now: now.toISOString() } },
+     FROM loggers l JOIN models m ON m.id = l.model_id WHERE ${loggers.sql}`,
+    { type: QueryTypes.SELECT, replacements: { now: now.toISOString(), ...loggers.replacements, ...sites.replacements } },
   );
   const recent = may(actor, 'read', activity)
     ? await sequelize.query<{ id: number; at: Date; actor_name: string; action: string; summary: string }>(
@@ -29,7 +35,7 @@ export async function overview(sequelize: Sequelize, actor: Actor, now: Date): P
         { type: QueryTypes.SELECT },
       )
     : null;
-  const fleet = await fleetOverview(sequelize, now);
+  const fleet = await fleetOverview(sequelize, actor, now);
   return {
     fleet,
     loggers: {

@@ -320,6 +320,13 @@ describe('overview', () => {
     const theirs = await tomasz.get('/api/overview');
     expect(theirs.status).toBe(200);
     expect(theirs.body.recentActivity).toBeNull();
+    // Each figure counts what its link opens for them: their lagging sites, their loggers, their sites.
+    const theirLagging = await tomasz.get('/api/fleet/lagging-sites');
+    expect(theirs.body.fleet.laggingSites.count).toBe(theirLagging.body.total);
+    expect(theirLagging.body.total).toBe(2);
+    expect(theirs.body.loggers.total).toBe((await tomasz.get('/api/loggers')).body.total);
+    expect(theirs.body.sites).toBe((await tomasz.get('/api/sites')).body.total);
+    expect(theirs.body.loggers.total).toBeLessThan((await support.get('/api/overview')).body.loggers.total);
     const supports = await support.get('/api/overview');
     expect(Array.isArray(supports.body.recentActivity)).toBe(true);
   });
