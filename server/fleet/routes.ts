@@ -79,8 +79,8 @@ export function registerFleetRoutes(api: Api, deps: FleetRouteDeps) {
     await finishStream(res, () => exportFleet(deps, contextOf(req).actor, query, write));
   });
 
-  api.get('/api/fleet/versions', async (_req, res) => {
-    res.json(await versionMatrix(deps));
+  api.get('/api/fleet/versions', async (req, res) => {
+    res.json(await versionMatrix(deps, contextOf(req).actor));
   });
 
   api.get('/api/fleet/lagging-sites', async (req, res) => {

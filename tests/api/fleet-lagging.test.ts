@@ -217,6 +217,18 @@ describe('lagging sites for an integrator', () => {
     expect(records.map((r) => r.serial).sort()).toEqual([logger.silent.serial, logger.offered.serial].sort());
   });
 
+  test('when an integrator opens the version matrix, then it counts only the loggers they may read', async () => {
+    const model = (await tomasz.get('/api/fleet/versions')).body.models.find((m: { modelId: string }) => m.modelId === a.model.id);
+    // Their two sites hold one logger behind each (2.1.4) and one up to date at "offered" (2.3.0).
+    expect(model.versions).toEqual([
+      { firmware: '2.3.0', total: 1, byBoard: { B: 1 } },
+      { firmware: '2.1.4', total: 2, byBoard: { B: 2 } },
+    ]);
+    expect(model.channels.find((c: { channel: string }) => c.channel === 'stable')).toMatchObject({ loggers: 3, onCurrent: 1 });
+    const adoption = model.releases.find((r: { id: string }) => r.id === release.r230).adoption;
+    expect(adoption[adoption.length - 1].cumulative).toBe(1);
+  });
+
   test('when each role reads a lagging site, then can says who retries its failed installs and who adds a note', async () => {
     const canOf = async (agent: Agent) => (await agent.get('/api/fleet/lagging-sites').query({ siteId: site.silent })).body.rows[0].can;
     const priya = await t.signedIn('release_engineer', 'Priya Engineer');
