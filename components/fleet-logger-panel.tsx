@@ -5,12 +5,11 @@ import { View } from 'react-native';
 import { NoteForm, Readings, Timeline, WhyNoUpdate } from './fleet-logger';
 import { space } from './theme';
 import { useAddNote, useSparklines, useTimeline, useWhyNoUpdate } from '../hooks/fleet';
-import type { Role } from '../schemas/auth';
 
 const DAYS = 7;
-const noteWriters: readonly Role[] = ['support', 'release_engineer', 'admin'];
 
-export function LoggerFleet({ loggerId, role }: { loggerId: string; role: Role | undefined }) {
+/** `canNote`: the logger's `can.addNote` (the server's policies say who writes notes). */
+export function LoggerFleet({ loggerId, canNote }: { loggerId: string; canNote: boolean }) {
   const why = useWhyNoUpdate(loggerId);
   const sparklines = useSparklines(loggerId, DAYS);
   const timeline = useTimeline(loggerId);
@@ -20,7 +19,7 @@ export function LoggerFleet({ loggerId, role }: { loggerId: string; role: Role |
     <View style={{ gap: space.lg }}>
       <WhyNoUpdate state={why} />
       <Readings state={sparklines} days={DAYS} />
-      {role && noteWriters.includes(role) ? (
+      {canNote ? (
         <NoteForm
           busy={note.isPending}
           error={note.error}

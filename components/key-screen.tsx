@@ -16,6 +16,7 @@ export type KeyMove = { key: SigningKey; action: 'retire' | 'revoke' };
 
 type Props = {
   state: QueryState<List<SigningKey>>;
+  /** May register keys (the session's `can.registerKey`); retiring and revoking follow each key's `can`. */
   canManage: boolean;
   onRegister: (body: { name: string; publicKeyPem: string }, done: () => void) => void;
   registering: boolean;
@@ -42,7 +43,7 @@ export function KeyScreen({ state, canManage, onRegister, registering, registerE
               data.rows.length ? (
                 <View style={{ gap: space.sm }}>
                   {data.rows.map((k) => (
-                    <KeyCard key={k.id} k={k} canManage={canManage} onPending={onPending} />
+                    <KeyCard key={k.id} k={k} onPending={onPending} />
                   ))}
                 </View>
               ) : (
@@ -65,7 +66,7 @@ export function KeyScreen({ state, canManage, onRegister, registering, registerE
   );
 }
 
-function KeyCard({ k, canManage, onPending }: { k: SigningKey; canManage: boolean; onPending: (m: KeyMove) => void }) {
+function KeyCard({ k, onPending }: { k: SigningKey; onPending: (m: KeyMove) => void }) {
   return (
     <Card testID="key-card">
       <Row style={{ justifyContent: 'space-between' }} wrap>
@@ -82,10 +83,10 @@ function KeyCard({ k, canManage, onPending }: { k: SigningKey; canManage: boolea
         {k.retiredAt ? ` · retired ${relativeTime(k.retiredAt)}` : ''}
         {k.revokedAt ? ` · revoked ${relativeTime(k.revokedAt)}` : ''}
       </Text>
-      {canManage && k.state !== 'revoked' ? (
+      {k.can.retire || k.can.revoke ? (
         <Row wrap>
-          {k.state === 'active' ? <Button label="Retire" variant="secondary" onPress={() => onPending({ key: k, action: 'retire' })} /> : null}
-          <Button label="Revoke" variant="danger" onPress={() => onPending({ key: k, action: 'revoke' })} />
+          {k.can.retire ? <Button label="Retire" variant="secondary" onPress={() => onPending({ key: k, action: 'retire' })} /> : null}
+          {k.can.revoke ? <Button label="Revoke" variant="danger" onPress={() => onPending({ key: k, action: 'revoke' })} /> : null}
         </Row>
       ) : null}
     </Card>

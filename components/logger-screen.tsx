@@ -20,14 +20,11 @@ type Action<A extends unknown[] = []> = { busy: boolean; error: unknown; run: (.
 
 type Props = {
   state: QueryState<LoggerDetail>;
-  canRotate: boolean;
-  canRetire: boolean;
-  canMove: boolean;
   rotate: Action;
   retire: Action<[reason: string]>;
   move: Action<[siteId: string]> & { sites: Site[] };
-  /** Present for people who may change the profile; limits come from the logger's model. */
-  profile?: Action<[input: ProfileInput]> & { limits?: ModelLimits };
+  /** Changing the profile (offered when the logger's `can.editProfile`); limits come from the logger's model. */
+  profile: Action<[input: ProfileInput]> & { limits?: ModelLimits };
   photoUrl: string;
   /** The fleet views' part of the page (Why no update?, readings, timeline, notes), shown below the registry's. */
   fleet?: React.ReactNode;
@@ -60,7 +57,9 @@ export function LoggerScreen(props: Props) {
   );
 }
 
-function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retire, move, profile, photoUrl, fleet }: Props & { logger: LoggerDetail }) {
+/** The registry's part of a logger's page; each control shows when the logger's `can` allows it (server policies). */
+function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fleet }: Props & { logger: LoggerDetail }) {
+  const can = logger.can;
   const [ask, setAsk] = React.useState<'rotate' | 'retire' | 'move' | null>(null);
   const [editing, setEditing] = React.useState(false);
   const [reason, setReason] = React.useState('');
@@ -71,7 +70,7 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
   // Close a dialog once its action went through (busy → idle without an error).
   useClosedWhenDone(move.busy, move.error, () => setAsk(null));
   useClosedWhenDone(retire.busy, retire.error, () => setAsk(null));
-  useClosedWhenDone(profile?.busy ?? false, profile?.error, () => setEditing(false));
+  useClosedWhenDone(profile.busy, profile.error, () => setEditing(false));
 
   return (
     <Page
@@ -116,7 +115,7 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
           ) : (
             <Text style={type.body}>Not installed yet. Scan its label with Enroll on site.</Text>
           )}
-          {canMove && logger.status === 'enrolled' ? (
+          {can.move ? (
             <View style={{ alignSelf: 'flex-start' }}>
               <Button label="Move to another site" variant="secondary" onPress={() => setAsk('move')} testID="move" />
             </View>
@@ -129,7 +128,7 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
           <Text style={type.heading}>Measurement profile</Text>
           {p ? <Badge label={`version ${p.version}`} tone="slate" /> : null}
         </Row>
-        {p && editing && profile?.limits ? (
+        {p && editing && can.editProfile && profile.limits ? (
           <ProfileForm current={p} limits={profile.limits} busy={profile.busy} error={profile.error} onSave={profile.run} onCancel={() => setEditing(false)} />
         ) : p ? (
           <View style={styles.grid}>
@@ -146,7 +145,7 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
         ) : (
           <Text style={type.body}>No profile yet: it is computed when the logger is enrolled.</Text>
         )}
-        {p && !editing && profile?.limits && logger.status === 'enrolled' ? (
+        {p && !editing && can.editProfile && profile.limits ? (
           <View style={{ alignSelf: 'flex-start' }}>
             <Button label="Change profile" variant="secondary" onPress={() => setEditing(true)} testID="change-profile" />
           </View>
@@ -165,14 +164,14 @@ function LoggerDetailView({ logger, canRotate, canRetire, canMove, rotate, retir
         </Card>
       ) : null}
 
-      {canRotate || canRetire ? (
+      {can.rotateToken || can.retire ? (
         <Card>
           <Text style={type.heading}>Token and label</Text>
           <Text style={type.small}>{logger.tokenIssuedAt ? `Current token issued ${absoluteTime(logger.tokenIssuedAt)}.` : retired ? 'No token: the logger is retired.' : ''}</Text>
           <Text style={type.body}>A lost or damaged label before enrollment means a new token: the old label stops working at once.</Text>
           <Row wrap gap={space.sm}>
-            {canRotate && !retired ? <Button label="Rotate token" variant="secondary" onPress={() => setAsk('rotate')} testID="rotate" /> : null}
-            {canRetire && !retired ? <Button label="Retire logger" variant="danger" onPress={() => setAsk('retire')} testID="retire" /> : null}
+            {can.rotateToken ? <Button label="Rotate token" variant="secondary" onPress={() => setAsk('rotate')} testID="rotate" /> : null}
+            {can.retire ? <Button label="Retire logger" variant="danger" onPress={() => setAsk('retire')} testID="retire" /> : null}
           </Row>
         </Card>
       ) : null}

@@ -15,19 +15,20 @@ type Save = { busy: boolean; error: unknown; run: (input: ModelInput, done: () =
 
 export function ModelsScreen({
   state,
-  isAdmin,
+  canCreate,
   create,
   update,
 }: {
   state: QueryState<List<Model>>;
-  isAdmin: boolean;
+  /** Whether the person may add models (the session's `can.createModel`); editing one follows its own `can`. */
+  canCreate: boolean;
   create: Save;
   update: (id: string) => Save;
 }) {
   const [creating, setCreating] = React.useState(false);
   const [editing, setEditing] = React.useState<string | null>(null);
   return (
-    <Page title="Models" subtitle="Logger hardware, its board revisions and measurement limits" actions={isAdmin && !creating ? <Button label="Add model" onPress={() => setCreating(true)} testID="add-model" /> : undefined}>
+    <Page title="Models" subtitle="Logger hardware, its board revisions and measurement limits" actions={canCreate && !creating ? <Button label="Add model" onPress={() => setCreating(true)} testID="add-model" /> : undefined}>
       {creating ? (
         <Card>
           <Text style={type.heading}>New model</Text>
@@ -45,12 +46,12 @@ export function ModelsScreen({
                     <ModelForm initial={m} submitLabel="Save changes" save={update(m.id)} onDone={() => setEditing(null)} onCancel={() => setEditing(null)} />
                   </Card>
                 ) : (
-                  <ModelCard key={m.id} model={m} onEdit={isAdmin ? () => setEditing(m.id) : undefined} />
+                  <ModelCard key={m.id} model={m} onEdit={m.can.edit ? () => setEditing(m.id) : undefined} />
                 ),
               )}
             </View>
           ) : (
-            <EmptyState title="No models yet" detail={isAdmin ? 'Add the logger model and its board revisions before registering loggers.' : 'An admin adds models.'} />
+            <EmptyState title="No models yet" detail={canCreate ? 'Add the logger model and its board revisions before registering loggers.' : 'An admin adds models.'} />
           )
         }
       </QueryView>

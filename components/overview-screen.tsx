@@ -29,26 +29,7 @@ export function OverviewScreen({ name, state }: { name: string; state: QueryStat
                 <Figure label="Sites" value={o.sites} note={`${o.models} model${o.models === 1 ? '' : 's'}, ${o.people} people`} href="/sites" />
               </View>
               {o.fleet ? <FleetHealth fleet={o.fleet} registered={o.loggers.registered} retired={o.loggers.retired} /> : null}
-              <Card>
-                <Text role="heading" aria-level={2} style={type.heading}>
-                  Recent activity
-                </Text>
-                {o.recentActivity.length === 0 ? (
-                  <Text style={type.body}>Nothing has happened yet.</Text>
-                ) : (
-                  o.recentActivity.map((a) => (
-                    <View key={a.id} style={styles.activityRow}>
-                      <Text style={[type.body, { flex: 1 }]}>{a.summary}</Text>
-                      <Text style={type.small}>
-                        {a.actorName} · {relativeTime(a.at)}
-                      </Text>
-                    </View>
-                  ))
-                )}
-                <Link href="/activity" style={[type.body, styles.link]}>
-                  All activity
-                </Link>
-              </Card>
+              {o.recentActivity ? <RecentActivity rows={o.recentActivity} /> : null}
             </View>
           )
         }
@@ -75,7 +56,7 @@ function Figure({ label, value, note, tone = 'ink', href }: { label: string; val
   );
 }
 
-/** Fleet health (issue 6 §7): flags, lagging sites and live releases, each a link into its filtered view. */
+/** Fleet health: flags, lagging sites and live releases, each a link into its filtered view. */
 function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet']; registered: number; retired: number }) {
   return (
     <View style={{ gap: space.md }}>
@@ -148,3 +129,29 @@ const styles = StyleSheet.create({
   activityRow: { borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm, gap: 2 },
   link: { textDecorationLine: 'underline', color: colors.ink, alignSelf: 'flex-start', paddingVertical: space.sm },
 });
+
+/** The latest entries of the activity log, for people who may read it (the overview answers null to others). */
+function RecentActivity({ rows }: { rows: NonNullable<Overview['recentActivity']> }) {
+  return (
+    <Card>
+      <Text role="heading" aria-level={2} style={type.heading}>
+        Recent activity
+      </Text>
+      {rows.length === 0 ? (
+        <Text style={type.body}>Nothing has happened yet.</Text>
+      ) : (
+        rows.map((a) => (
+          <View key={a.id} style={styles.activityRow}>
+            <Text style={[type.body, { flex: 1 }]}>{a.summary}</Text>
+            <Text style={type.small}>
+              {a.actorName} · {relativeTime(a.at)}
+            </Text>
+          </View>
+        ))
+      )}
+      <Link href="/activity" style={[type.body, styles.link]}>
+        All activity
+      </Link>
+    </Card>
+  );
+}

@@ -1,5 +1,5 @@
-// Release detail: state and share, the legal lifecycle moves (from allowedActions) with
-// confirmation, the install funnel, targeting, notes and the history of every transition.
+// Release detail: state and share, the moves this person may make now (the release's `can`: its
+// lifecycle and their role, from the server's policies) with confirmation, the install funnel, targeting, notes and the history of every transition.
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
 import { Page } from './shell';
@@ -13,13 +13,13 @@ import { colors, fonts, space, type } from './theme';
 import { absoluteTime, relativeTime } from './format';
 import { MAX_WIDEN_SHARE, MIN_WIDEN_SHARE } from '../lib/share';
 import type { Estimate, FailureReason, Release, ReleaseAction, TransitionRequest } from '../hooks/releases';
+import { RELEASE_ACTIONS } from '../schemas/releases';
 
 /** A move the person is about to confirm. */
 export type PendingMove = { action: ReleaseAction; share?: number } | { action: 'delete' };
 
 type Props = {
   state: QueryState<Release>;
-  canManage: boolean;
   wide: boolean;
   pending: PendingMove | null;
   onPending: (p: PendingMove | null) => void;
@@ -45,7 +45,10 @@ export function ReleaseDetailScreen(props: Props) {
   );
 }
 
-function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition, onDelete, busy, error, targeting, dashboard }: Props & { r: Release }) {
+/** The lifecycle moves the Rollout card offers (starting the pilot is the draft's targeting form). */
+const MOVES = RELEASE_ACTIONS.filter((a) => a !== 'start_pilot');
+
+function Detail({ r, wide, pending, onPending, estimate, onTransition, onDelete, busy, error, targeting, dashboard }: Props & { r: Release }) {
   const live = r.state !== 'draft';
   return (
     <Page title={`Release ${r.version}`} subtitle={`${r.modelName} · uploaded ${r.createdBy ? `by ${r.createdBy.name} ` : ''}${relativeTime(r.createdAt)}`}>
@@ -74,13 +77,13 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
         ) : null}
         {r.state === 'withdrawn' ? <Text style={type.small}>Withdrawn for good: loggers that installed it keep it.</Text> : null}
         <WhyStopped r={r} />
-        {canManage && live ? <Moves r={r} onPending={onPending} /> : null}
-        {canManage && r.state === 'draft' ? (
+        {live && MOVES.some((a) => r.can[a]) ? <Moves r={r} onPending={onPending} /> : null}
+        {r.can.delete ? (
           <Row wrap>
             <Button label="Delete draft" variant="secondary" onPress={() => onPending({ action: 'delete' })} testID="delete-draft" />
           </Row>
         ) : null}
-        {canManage && ['draft', 'pilot', 'widening'].includes(r.state) ? (
+        {r.can.edit || r.can.widen ? (
           <Notice
             tone="amber"
             title="Widen in small steps"
@@ -96,7 +99,7 @@ function Detail({ r, canManage, wide, pending, onPending, estimate, onTransition
         <View style={wide ? styles.column : undefined}>
           <Funnel r={r} />
         </View>
-        <View style={wide ? styles.column : undefined}>{live || !canManage ? <Targeting r={r} /> : <ImageCard r={r} />}</View>
+        <View style={wide ? styles.column : undefined}>{live || !r.can.edit ? <Targeting r={r} /> : <ImageCard r={r} />}</View>
       </View>
 
       {live && dashboard ? dashboard(r) : null}
@@ -127,7 +130,7 @@ function WhyStopped({ r }: { r: Release }) {
 }
 
 function Moves({ r, onPending }: { r: Release; onPending: (p: PendingMove) => void }) {
-  const can = (a: ReleaseAction) => r.allowedActions.includes(a);
+  const can = (a: ReleaseAction) => r.can[a];
   const current = Number(r.share);
   const shortcuts = can('widen') ? SHORTCUTS.filter((s) => r.state === 'pilot' || s > current) : [];
   const [custom, setCustom] = React.useState('');
@@ -168,7 +171,6 @@ function Moves({ r, onPending }: { r: Release; onPending: (p: PendingMove) => vo
         {can('stop') ? <Button label="Stop release" variant="danger" onPress={() => onPending({ action: 'stop' })} testID="stop" /> : null}
         {can('withdraw') ? <Button label="Withdraw" variant="danger" onPress={() => onPending({ action: 'withdraw' })} testID="withdraw" /> : null}
       </Row>
-      {r.allowedActions.length === 0 ? <Text style={type.small}>No moves are possible from here.</Text> : null}
     </View>
   );
 }

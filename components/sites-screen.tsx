@@ -87,7 +87,6 @@ export function SitesScreen({
 export function SiteScreen({
   state,
   loggers,
-  canEdit,
   integrators,
   save,
   onOpenLogger,
@@ -95,7 +94,7 @@ export function SiteScreen({
 }: {
   state: QueryState<Site>;
   loggers: QueryState<List<LoggerRow>>;
-  canEdit: (site: Site) => boolean;
+  /** The integrators to choose from, when the site's `can.assignIntegrators` lets the person assign them. */
   integrators?: Person[];
   save: Save;
   onOpenLogger: (id: string) => void;
@@ -105,7 +104,7 @@ export function SiteScreen({
   return (
     <QueryView state={state}>
       {(site) => (
-        <Page title={site.name} subtitle={site.customer} actions={canEdit(site) && !editing ? <Button label="Edit site" variant="secondary" onPress={() => setEditing(true)} /> : undefined}>
+        <Page title={site.name} subtitle={site.customer} actions={site.can.edit && !editing ? <Button label="Edit site" variant="secondary" onPress={() => setEditing(true)} /> : undefined}>
           {editing ? (
             <Card>
               <SiteForm

@@ -93,7 +93,7 @@ function TokenCard({ t, now, onRevoke }: { t: ApiToken; now: Date; onRevoke: () 
       <Text style={type.small}>
         {expired ? 'Expired' : 'Expires'} {absoluteTime(t.expiresAt)} · last used {t.lastUsedAt ? relativeTime(t.lastUsedAt, now) : 'never'} · created by {t.createdBy?.name ?? '—'} {relativeTime(t.createdAt, now)}
       </Text>
-      {!t.revokedAt ? (
+      {t.can.revoke ? (
         <Row>
           <Button label="Revoke" variant="danger" onPress={onRevoke} />
         </Row>

@@ -3,14 +3,14 @@ import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, STALE } from './api';
 import type { z } from 'zod';
 import type { List } from '../schemas/common';
-import type { Me } from '../schemas/auth';
+import type { Person as TeamMember } from '../schemas/auth';
 import type { createSiteRequest, SiteView } from '../schemas/sites';
 
 // Shapes from schemas/ (the server promises the answers); screens import them from here.
 export type Site = SiteView;
 export type SiteInput = z.input<typeof createSiteRequest>;
 /** A person on the team as GET /api/users answers (used to assign integrators). */
-export type Person = Me;
+export type Person = TeamMember;
 
 export const siteKeys = {
   all: ['sites'] as const,

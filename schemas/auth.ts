@@ -29,7 +29,31 @@ export const signInRequest = z.object({
 });
 export type SignInRequest = z.infer<typeof signInRequest>;
 
-export const meSchema = z.object({ id: uuid, email: z.string(), name: z.string(), role: roleSchema });
+/**
+ * What a person may start in the console, apart from any one resource (server/auth/policies.ts): the
+ * controls that create things and the activity log. Answers about a resource carry their own `can`.
+ */
+export const CONSOLE_VERBS = [
+  'createRelease',
+  'registerLoggers',
+  'enrollLoggers',
+  'createSite',
+  'assignIntegrators',
+  'createModel',
+  'registerKey',
+  'createToken',
+  'readActivity',
+] as const;
+export type ConsoleVerb = (typeof CONSOLE_VERBS)[number];
+export const consoleCanSchema = z.record(z.enum(CONSOLE_VERBS), z.boolean());
+export type ConsoleCan = z.infer<typeof consoleCanSchema>;
+
+/** A person on the team (GET /api/users). */
+export const personSchema = z.object({ id: uuid, email: z.string(), name: z.string(), role: roleSchema });
+export type Person = z.infer<typeof personSchema>;
+
+/** The signed-in person, with what they may start in the console. */
+export const meSchema = personSchema.extend({ can: consoleCanSchema });
 export type Me = z.infer<typeof meSchema>;
 
 export const signInResponse = z.object({ user: meSchema });

@@ -15,7 +15,7 @@ export type { FleetFlag, LaggingReason, UpdateState };
  * (the probe's power-on value 85 °C, or a reading outside its −55…125 °C range).
  */
 
-/** Watchdog and brown-out resets in 24 h at which a logger is unstable (the product's rule). */
+/** Watchdog and brown-out resets in 24 h at which a logger counts as unstable (the fleet flag). */
 export const UNSTABLE_RESETS_24H = 3;
 /** The temperature probe's power-on register value and valid range (probe datasheet; REFERENCE.md §9). */
 export const PROBE_POWER_ON_C = 85;
@@ -234,6 +234,8 @@ export type LaggingSite = {
   lastContactAt: string | null;
   reasons: Partial<Record<LaggingReason, number>>;
   loggers: LaggingLogger[];
+  /** What the caller may do here (server/auth/policies.ts): retry its failed installs, add a note to the site. */
+  can: { retry: boolean; addNote: boolean };
 };
 
 // ─── Retry, notes, timeline ─────────────────────────────────────────────────

@@ -1,4 +1,4 @@
-// Signing keys (issue 4 §1): the console holds public keys only.
+// Signing keys: the console holds public keys only.
 import { z } from 'zod';
 import { text } from './common';
 import type { SignatureAlgorithm } from './manifest';
@@ -13,6 +13,11 @@ export const registerKeyRequest = z.strictObject({
 });
 export type RegisterKeyRequest = z.infer<typeof registerKeyRequest>;
 
+/** What a person may do with a signing key (its answers' `can`, from server/auth/policies.ts). */
+export const KEY_VERBS = ['retire', 'revoke'] as const;
+export type KeyVerb = (typeof KEY_VERBS)[number];
+export type KeyCan = Record<KeyVerb, boolean>;
+
 export type SigningKeyView = {
   id: string;
   name: string;
@@ -24,4 +29,5 @@ export type SigningKeyView = {
   retiredAt: string | null;
   revokedAt: string | null;
   releaseCount: number;
+  can: KeyCan;
 };

@@ -123,6 +123,11 @@ export type ProfileView = MeasurementProfile & { panelWp: number | null; panelVo
 /** A row of the fleet table (GET /api/loggers): declared column by column in schemas/fleet.ts. */
 export type LoggerRow = FleetRow;
 
+/** What a person may do with a logger (its answers' `can`, from server/auth/policies.ts). */
+export const LOGGER_VERBS = ['enroll', 'move', 'retire', 'rotateToken', 'editProfile', 'addNote', 'addPhoto'] as const;
+export type LoggerVerb = (typeof LOGGER_VERBS)[number];
+export type LoggerCan = Record<LoggerVerb, boolean>;
+
 export type LoggerDetail = {
   id: string;
   serial: string;
@@ -144,6 +149,8 @@ export type LoggerDetail = {
   tokenIssuedAt: string | null;
   retiredAt: string | null;
   createdAt: string;
+  /** What the caller may do with it now: its status, their role and (integrators) their sites together. */
+  can: LoggerCan;
 };
 
 /** Issued once, at registration or rotation: the token in clear and its label. */

@@ -52,6 +52,11 @@ export const updateModelRequest = z
   .refine((body) => Object.values(body).some((v) => v !== undefined), 'change at least one field');
 export type UpdateModelRequest = z.infer<typeof updateModelRequest>;
 
+/** What a person may do with a model (its answers' `can`, from server/auth/policies.ts). */
+export const MODEL_VERBS = ['edit'] as const;
+export type ModelVerb = (typeof MODEL_VERBS)[number];
+export type ModelCan = Record<ModelVerb, boolean>;
+
 export type LoggerModelView = {
   id: string;
   name: string;
@@ -64,4 +69,5 @@ export type LoggerModelView = {
   /** Loggers of this model that are not retired. */
   loggerCount: number;
   createdAt: string;
+  can: ModelCan;
 };

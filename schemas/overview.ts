@@ -13,7 +13,7 @@ export const overviewSchema = z.object({
   sites: z.number().int(),
   models: z.number().int(),
   people: z.number().int(),
-  /** Fleet health for support and release steering (issue 6 §7); each href opens the filtered view. */
+  /** Fleet health for support and release steering; each href opens the filtered view. */
   fleet: z.object({
     silent: z.object({ count: z.number().int(), href: z.string() }),
     flags: z.array(z.object({ flag: z.enum(FLEET_FLAGS), count: z.number().int(), href: z.string() })),
@@ -32,8 +32,9 @@ export const overviewSchema = z.object({
       }),
     ),
   }),
-  recentActivity: z.array(
-    z.object({ id: z.number(), at: z.string(), actorName: z.string(), action: z.string(), summary: z.string() }),
-  ),
+  /** Null for people who may not read the activity log (server/auth/policies.ts). */
+  recentActivity: z
+    .array(z.object({ id: z.number(), at: z.string(), actorName: z.string(), action: z.string(), summary: z.string() }))
+    .nullable(),
 });
 export type Overview = z.infer<typeof overviewSchema>;

@@ -1,4 +1,4 @@
-// Releases (issue 4 §5): upload fields, targeting edits while draft, lifecycle transitions, list filters.
+// Releases: upload fields, targeting edits while draft, lifecycle transitions, list filters.
 import { z } from 'zod';
 import semver from 'semver';
 import { uuid } from './common';
@@ -27,6 +27,14 @@ export { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES };
 export type { Channel, FailureReason, InstallState, LiveState, ReleaseAction, ReleaseState, ResumeState, StoppedBy };
 
 export const channelSchema = z.enum(CHANNELS, { error: `must be ${CHANNELS.join(' or ')}` });
+
+/**
+ * What a person or token may do with a release (its answers' `can`, from server/auth/policies.ts): the
+ * lifecycle actions, edit (targeting, while draft), delete (a draft) and retry (failed installs).
+ */
+export const RELEASE_VERBS = [...RELEASE_ACTIONS, 'edit', 'delete', 'retry'] as const;
+export type ReleaseVerb = (typeof RELEASE_VERBS)[number];
+export type ReleaseCan = Record<ReleaseVerb, boolean>;
 
 export const notesSchema = z.string({ error: 'must be text' }).max(20_000, 'at most 20 000 characters');
 
@@ -148,12 +156,14 @@ export type ReleaseView = ReleaseHeading & {
   allowedActions: ReleaseAction[];
   createdAt: string;
   createdBy: { name: string };
+  /** What the caller may do with it now: the lifecycle and their role together. */
+  can: ReleaseCan;
 };
 
 /** GET /api/releases/:id/estimate: how many more loggers a share would make eligible. */
 export type ReleaseEstimate = { share: number; eligibleNow: number; eligibleAtShare: number; more: number };
 
-// ─── Release dashboard (issue 6 §4) ─────────────────────────────────────────
+// ─── Release dashboard ──────────────────────────────────────────────────────
 
 export const releaseSitesQuery = z.object({
   page: z.coerce.number({ message: 'must be a number' }).int('must be a whole number').min(1, 'at least 1').max(100_000, 'at most 100 000').default(1),

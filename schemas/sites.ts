@@ -58,6 +58,11 @@ export type UpdateSiteRequest = z.infer<typeof updateSiteRequest>;
 
 export const sitesQuery = z.object({ q: z.string().trim().max(100).optional() });
 
+/** What a person may do with a site (its answers' `can`, from server/auth/policies.ts); enroll covers moving loggers there too. */
+export const SITE_VERBS = ['edit', 'assignIntegrators', 'addNote', 'enroll'] as const;
+export type SiteVerb = (typeof SITE_VERBS)[number];
+export type SiteCan = Record<SiteVerb, boolean>;
+
 export type SiteView = {
   id: string;
   name: string;
@@ -72,4 +77,5 @@ export type SiteView = {
   /** Loggers at this site that are not retired. */
   loggerCount: number;
   createdAt: string;
+  can: SiteCan;
 };

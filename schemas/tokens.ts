@@ -1,4 +1,4 @@
-// API tokens for automation (issue 4 §2): shown once, stored as SHA-256, limited to their scopes.
+// API tokens for automation: shown once, stored as SHA-256, limited to their scopes.
 import { z } from 'zod';
 import { text } from './common';
 
@@ -18,6 +18,11 @@ export type CreateTokenRequest = z.infer<typeof createTokenRequest>;
 
 /** The answer to POST /api/tokens: the only time the token text is shown. */
 export type CreatedToken = { id: string; token: string; name: string; scopes: TokenScope[]; expiresAt: string };
+/** What a person may do with an API token (its answers' `can`, from server/auth/policies.ts). */
+export const TOKEN_VERBS = ['revoke'] as const;
+export type TokenVerb = (typeof TOKEN_VERBS)[number];
+export type TokenCan = Record<TokenVerb, boolean>;
+
 /** One row of GET /api/tokens (never the token text). */
 export type TokenView = {
   id: string;
@@ -28,4 +33,5 @@ export type TokenView = {
   createdAt: string;
   revokedAt: string | null;
   createdBy: { id: string; name: string } | null;
+  can: TokenCan;
 };

@@ -18,7 +18,7 @@ export default function Keys() {
     <KeyScreen
       state={keys}
       wide={wide}
-      canManage={me.data?.role === 'admin'}
+      canManage={me.data?.can.registerKey ?? false}
       onRegister={(body, done) => register.mutate(body, { onSuccess: done })}
       registering={register.isPending}
       registerError={register.error as ApiError | null}

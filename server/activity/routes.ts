@@ -5,6 +5,8 @@ import type { Api } from '../http/api';
 import { parse } from '../http/validate';
 import { Activity } from '../db/models';
 import type { ActivityView } from '../../schemas/activity';
+import { contextOf } from '../http/context';
+import { activity, authorize } from '../auth/policies';
 
 const activityQuery = z.object({
   targetType: z.string().max(40).optional(),
@@ -15,6 +17,7 @@ const activityQuery = z.object({
 
 export function registerActivityRoutes(api: Api, _deps: { sequelize: Sequelize }) {
   api.get('/api/activity', async (req, res) => {
+    authorize(contextOf(req).actor, 'read', activity);
     const q = parse(activityQuery, req.query, 'query');
     const where = {
       ...(q.targetType ? { targetType: q.targetType } : {}),

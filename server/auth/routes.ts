@@ -1,10 +1,10 @@
 import type { Request, Response } from 'express';
 import type { Sequelize } from 'sequelize';
-import { signInRequest, type Me, type SignInResponse } from '../../schemas/auth';
+import { signInRequest, type SignInResponse } from '../../schemas/auth';
 import type { Api } from '../http/api';
 import { parse } from '../http/validate';
 import { problems } from '../http/problem';
-import { presentUser, signIn } from './service';
+import { presentMe, presentUser, signIn } from './service';
 import { sessionCookie, sessionTtlSeconds, signSession } from './session';
 
 export function registerAuthRoutes(api: Api, deps: { sequelize: Sequelize; jwtSecret: string }) {
@@ -30,7 +30,6 @@ export function registerAuthRoutes(api: Api, deps: { sequelize: Sequelize; jwtSe
   api.get('/api/auth/me', (req: Request, res: Response) => {
     const actor = req.actor;
     if (actor?.type !== 'person') throw problems.forbidden('Only people have a profile; tokens do not.');
-    const me: Me = { id: actor.id, email: actor.email, name: actor.name, role: actor.role };
-    res.json(me);
+    res.json(presentMe(actor));
   });
 }

@@ -1,4 +1,4 @@
-// Lagging sites (issue 6 §3): sites with at least one enrolled logger below the current release of its
+// Lagging sites: sites with at least one enrolled logger below the current release of its
 // channel (semantic-version precedence, in SQL on firmware_key), and for each such logger the reason from
 // the offer decision for that release — or "silent" when it has not checked in for 3 intervals, since
 // nothing can reach it until it does.
@@ -6,7 +6,12 @@
 // The sites are grouped, sorted and paged in PostgreSQL; the decision (pure, in JS: cohort hash,
 // daylight) runs only for the loggers of the page's sites — or, when filtering by reason, for every
 // logger behind the current release (that filter needs the reason of each).
+//
+// Everything here is read through the caller's site scope (server/auth/policies.ts): an integrator
+// sees only the sites assigned to them, in the list, its CSV and a lagging site's page alike.
 import { QueryTypes } from 'sequelize';
+import type { Actor } from '../auth/actor';
+import { fleet, may, siteScope, type SqlScope } from '../auth/policies';
 import type { OfferDecision, ReasonCode } from '../device-api/decision';
 import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingQuery, type LaggingReason, type LaggingSite } from '../../schemas/fleet';
 import { likePattern } from '../sites/service';
@@ -84,10 +89,17 @@ function canLagFor(reason: LaggingReason): string {
   return [`NOT ${SILENT}`, CAN_LAG_FOR[reason]].filter(Boolean).join(' AND ');
 }
 
-async function behindLoggers(deps: FleetDeps, siteIds: string[] | null, customer: string | undefined, now: Date, reason?: LaggingReason): Promise<BehindRow[]> {
-  const conditions: string[] = [];
+async function behindLoggers(
+  deps: FleetDeps,
+  scope: SqlScope,
+  siteIds: string[] | null,
+  customer: string | undefined,
+  now: Date,
+  reason?: LaggingReason,
+): Promise<BehindRow[]> {
+  const conditions: string[] = [scope.sql];
   if (reason) conditions.push(`(${canLagFor(reason)})`);
-  const replacements: Record<string, unknown> = { ...SQL_WORDS, now: now.toISOString() };
+  const replacements: Record<string, unknown> = { ...SQL_WORDS, ...scope.replacements, now: now.toISOString() };
   if (siteIds) {
     if (siteIds.length === 0) return [];
     conditions.push('l.site_id IN (:siteIds)');
@@ -119,9 +131,16 @@ async function withReasons(deps: FleetDeps, rows: BehindRow[], now: Date): Promi
   return bySite;
 }
 
-async function siteRows(deps: FleetDeps, query: LaggingQuery, now: Date, onlySites: string[] | null, paged: boolean): Promise<{ rows: SiteRow[]; total: number }> {
-  const conditions: string[] = [];
-  const replacements: Record<string, unknown> = { ...SQL_WORDS, now: now.toISOString() };
+async function siteRows(
+  deps: FleetDeps,
+  scope: SqlScope,
+  query: LaggingQuery,
+  now: Date,
+  onlySites: string[] | null,
+  paged: boolean,
+): Promise<{ rows: SiteRow[]; total: number }> {
+  const conditions: string[] = [scope.sql];
+  const replacements: Record<string, unknown> = { ...SQL_WORDS, ...scope.replacements, now: now.toISOString() };
   if (query.customer) {
     conditions.push('s.customer ILIKE :customer');
     replacements.customer = likePattern(query.customer);
@@ -163,7 +182,7 @@ async function siteRows(deps: FleetDeps, query: LaggingQuery, now: Date, onlySit
   return { rows, total };
 }
 
-function present(r: SiteRow, loggers: LaggingLogger[]): LaggingSite {
+function present(r: SiteRow, loggers: LaggingLogger[], can: LaggingSite['can']): LaggingSite {
   const reasons: Partial<Record<LaggingReason, number>> = {};
   for (const l of loggers) reasons[l.reason] = (reasons[l.reason] ?? 0) + 1;
   return {
@@ -177,22 +196,40 @@ function present(r: SiteRow, loggers: LaggingLogger[]): LaggingSite {
     lastContactAt: r.last_contact_at ? new Date(r.last_contact_at).toISOString() : null,
     reasons,
     loggers,
+    can,
   };
 }
 
-/** Lagging sites, one page. */
-export async function laggingSites(deps: FleetDeps, query: LaggingQuery, all = false): Promise<{ rows: LaggingSite[]; total: number; nextCursor?: string }> {
+/** The integrators assigned to each of the sites (what the site policies read). */
+async function siteIntegrators(deps: FleetDeps, siteIds: string[]): Promise<Map<string, string[]>> {
+  const out = new Map<string, string[]>();
+  if (siteIds.length === 0) return out;
+  const links = await deps.sequelize.query<{ site_id: string; user_id: string }>('SELECT site_id, user_id FROM site_integrators WHERE site_id IN (:siteIds)', {
+    type: QueryTypes.SELECT,
+    replacements: { siteIds },
+  });
+  for (const l of links) out.set(l.site_id, [...(out.get(l.site_id) ?? []), l.user_id]);
+  return out;
+}
+
+/** Lagging sites the actor may see, one page (or all of them, for the CSV). */
+export async function laggingSites(deps: FleetDeps, actor: Actor, query: LaggingQuery, all = false): Promise<{ rows: LaggingSite[]; total: number; nextCursor?: string }> {
   const now = deps.now();
+  const scope = siteScope(actor, 'l.site_id');
   let onlySites: string[] | null = null;
   if (query.reason) {
     // The sites where some logger lags for the reason: decisions only for the loggers that can.
-    const candidates = await withReasons(deps, await behindLoggers(deps, query.siteId ? [query.siteId] : null, query.customer, now, query.reason), now);
+    const candidates = await withReasons(deps, await behindLoggers(deps, scope, query.siteId ? [query.siteId] : null, query.customer, now, query.reason), now);
     onlySites = [...candidates].filter(([, list]) => list.some((l) => l.reason === query.reason)).map(([site]) => site);
   }
-  const { rows, total } = await siteRows(deps, query, now, onlySites, !all);
+  const { rows, total } = await siteRows(deps, scope, query, now, onlySites, !all);
   // Every logger behind at the listed sites, each with its reason.
-  const reasonsBySite = await withReasons(deps, await behindLoggers(deps, rows.map((r) => r.site_id), undefined, now), now);
-  const presented = rows.map((r) => present(r, reasonsBySite.get(r.site_id) ?? []));
+  const reasonsBySite = await withReasons(deps, await behindLoggers(deps, scope, rows.map((r) => r.site_id), undefined, now), now);
+  const integratorsOf = await siteIntegrators(deps, rows.map((r) => r.site_id));
+  const retry = may(actor, 'retry', fleet);
+  const presented = rows.map((r) =>
+    present(r, reasonsBySite.get(r.site_id) ?? [], { retry, addNote: may(actor, 'addNote', { kind: 'site', integratorIds: integratorsOf.get(r.site_id) ?? [] }) }),
+  );
   const more = !all && query.page * query.pageSize < total;
   return { rows: presented, total, ...(more ? { nextCursor: String(query.page + 1) } : {}) };
 }
@@ -212,8 +249,8 @@ export const LAGGING_CSV_HEADER = [
 ] as const;
 
 /** Every lagging site of the filter, one record per logger behind (the site's columns repeated). */
-export async function exportLagging(deps: FleetDeps, query: LaggingQuery, write: (chunk: string) => Promise<void>): Promise<number> {
-  const { rows } = await laggingSites(deps, query, true);
+export async function exportLagging(deps: FleetDeps, actor: Actor, query: LaggingQuery, write: (chunk: string) => Promise<void>): Promise<number> {
+  const { rows } = await laggingSites(deps, actor, query, true);
   await write(csvRecord([...LAGGING_CSV_HEADER]));
   let count = 0;
   for (const site of rows) {

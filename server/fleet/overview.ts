@@ -1,25 +1,31 @@
-// The overview's fleet part (issue 6 §7): counts by flag, silent loggers, lagging sites and the live
-// releases with their share and failures — each with the console link that opens the filtered view.
+// The overview's fleet part: counts by flag, silent loggers, lagging sites and the live releases with
+// their share and failures — each with the console link that opens the filtered view. The counts read
+// through the caller's scope (server/auth/policies.ts), so each matches the view its link opens.
 import { QueryTypes, type Sequelize } from 'sequelize';
+import type { Actor } from '../auth/actor';
+import { loggerScope, siteScope } from '../auth/policies';
 import { type FleetFlag } from '../../schemas/fleet';
 import { FLEET_FLAGS } from '../../schemas/words';
 import type { Overview } from '../../schemas/overview';
 import { CURRENT_RELEASES, FLAG_SQL } from './sql';
 import { SQL_WORDS } from '../db/sql-words';
 
-export async function fleetOverview(sequelize: Sequelize, now: Date): Promise<Overview['fleet']> {
-  const replacements = { ...SQL_WORDS, now: now.toISOString() };
+export async function fleetOverview(sequelize: Sequelize, actor: Actor, now: Date): Promise<Overview['fleet']> {
+  const loggers = loggerScope(actor, 'l');
+  const sites = siteScope(actor, 'l.site_id');
+  const replacements = { ...SQL_WORDS, now: now.toISOString(), ...loggers.replacements, ...sites.replacements };
   const [[flags], [lagging], releases] = await Promise.all([
     sequelize.query<Record<FleetFlag, number>>(
       `SELECT ${FLEET_FLAGS.map((f) => `count(*) FILTER (WHERE ${FLAG_SQL[f]})::int AS ${f}`).join(', ')}
-         FROM loggers l JOIN models m ON m.id = l.model_id WHERE l.status <> :retired`,
+         FROM loggers l JOIN models m ON m.id = l.model_id WHERE l.status <> :retired AND ${loggers.sql}`,
       { type: QueryTypes.SELECT, replacements },
     ),
     sequelize.query<{ count: number }>(
       `WITH current_releases AS (${CURRENT_RELEASES})
        SELECT count(DISTINCT l.site_id)::int AS count FROM loggers l
          JOIN current_releases cr ON cr.model_id = l.model_id AND cr.channel = l.channel
-        WHERE l.status = :enrolled AND l.site_id IS NOT NULL AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key`,
+        WHERE l.status = :enrolled AND l.site_id IS NOT NULL AND l.firmware IS NOT NULL AND l.firmware_key <> '{}' AND l.firmware_key < cr.version_key
+          AND ${sites.sql}`,
       { type: QueryTypes.SELECT, replacements },
     ),
     sequelize.query<{ id: string; model_name: string; version: string; channel: 'stable' | 'early'; state: string; share: string; installed: number; failed: number }>(

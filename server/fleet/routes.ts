@@ -1,4 +1,4 @@
-// Fleet views (issue 6): the fleet table's CSV export, the version matrix, lagging sites, retries,
+// Fleet views: the fleet table's CSV export, the version matrix, lagging sites, retries,
 // notes, the logger timeline, sparklines and "Why no update?". GET /api/loggers itself stays with the
 // registry routes (server/loggers/routes.ts) and answers through server/fleet/table.ts.
 //
@@ -79,19 +79,19 @@ export function registerFleetRoutes(api: Api, deps: FleetRouteDeps) {
     await finishStream(res, () => exportFleet(deps, contextOf(req).actor, query, write));
   });
 
-  api.get('/api/fleet/versions', async (_req, res) => {
-    res.json(await versionMatrix(deps));
+  api.get('/api/fleet/versions', async (req, res) => {
+    res.json(await versionMatrix(deps, contextOf(req).actor));
   });
 
   api.get('/api/fleet/lagging-sites', async (req, res) => {
     const query = parse(laggingQuery, req.query, 'query');
-    res.json(await laggingSites(deps, query));
+    res.json(await laggingSites(deps, contextOf(req).actor, query));
   });
 
   api.get('/api/fleet/lagging-sites/export.csv', async (req, res) => {
     const query = parse(laggingQuery, req.query, 'query');
     const write = csvStream(res, `heliodor-lagging-sites-${stamp(deps.now())}.csv`);
-    await finishStream(res, () => exportLagging(deps, query, write));
+    await finishStream(res, () => exportLagging(deps, contextOf(req).actor, query, write));
   });
 
   api.post('/api/releases/:id/retry', async (req, res) => {

@@ -5,7 +5,8 @@ import type { Actor, RequestContext } from '../auth/actor';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import { loggerFor } from '../loggers/service';
-import { refuseUnassignedIntegrator } from '../sites/service';
+import { authorize } from '../auth/policies';
+import { siteResource } from '../sites/service';
 import { REASON_LABELS } from '../device-api/decision';
 import type { Note, RetryAnswer, RetryRequest, SiteNotesQuery, Sparklines, TimelineItem, WhyAnswer } from '../../schemas/fleet';
 import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C } from '../../schemas/fleet';
@@ -91,7 +92,7 @@ async function insertNote(deps: FleetDeps, ctx: RequestContext, t: Transaction, 
 
 export async function addLoggerNote(deps: FleetDeps, ctx: RequestContext, loggerId: string, text: string): Promise<Note> {
   return deps.sequelize.transaction(async (t) => {
-    const logger = await loggerFor(ctx.actor, loggerId, t);
+    const logger = await loggerFor(ctx.actor, loggerId, t, 'addNote');
     const note = await insertNote(deps, ctx, t, 'logger', logger.id, text);
     await recordActivity(t, ctx, { action: 'logger.note_added', targetType: 'logger', targetId: logger.id, summary: `Note on logger ${logger.serial}`, details: { noteId: note.id } });
     return note;
@@ -106,6 +107,7 @@ export async function addSiteNote(deps: FleetDeps, ctx: RequestContext, siteId: 
       transaction: t,
     });
     if (!site) throw problems.notFound('site');
+    authorize(ctx.actor, 'addNote', await siteResource(site.id, t));
     const note = await insertNote(deps, ctx, t, 'site', site.id, text);
     await recordActivity(t, ctx, { action: 'site.note_added', targetType: 'site', targetId: site.id, summary: `Note on site ${site.name}`, details: { noteId: note.id } });
     return note;
@@ -151,7 +153,7 @@ export async function siteNotes(deps: FleetDeps, actor: Actor, siteId: string, q
   const after = query.cursor ? decodeNoteCursor(query.cursor) : null;
   const [site] = await deps.sequelize.query<{ id: string }>('SELECT id FROM sites WHERE id = :siteId', { type: QueryTypes.SELECT, replacements: { siteId } });
   if (!site) throw problems.notFound('site');
-  await refuseUnassignedIntegrator(actor, site.id);
+  authorize(actor, 'view', await siteResource(site.id));
   const replacements = { siteId: site.id, limit: query.limit + 1, afterAt: after?.at ?? null, afterId: after?.id ?? null };
   const [rows, [{ total }]] = await Promise.all([
     deps.sequelize.query<Parameters<typeof presentNote>[0] & { at_text: string }>(

@@ -8,6 +8,7 @@
 import semver from 'semver';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
+import { loggerScope } from '../auth/policies';
 import { problems } from '../http/problem';
 import { likePattern } from '../sites/service';
 import { isStrictSemver } from '../../schemas/semver';
@@ -31,8 +32,6 @@ const CURSOR_VALUE: Record<SortType, RegExp> = {
 
 type FleetFilter = Omit<LoggersQuery, 'page' | 'pageSize' | 'cursor'>;
 type Cursor = { sort: FleetSortKey; dir: 'asc' | 'desc'; value: string; id: string };
-
-const isIntegrator = (actor: Actor) => actor.type === 'person' && actor.role === 'integrator';
 
 /** The cursor that starts a keyset walk at the first row. */
 export const KEYSET_START = 'start';
@@ -101,10 +100,10 @@ async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: D
     conditions.push(`${UPDATE_STATE} = :updateState`);
     replacements.updateState = query.updateState;
   }
-  if (isIntegrator(actor)) {
-    conditions.push('(l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))');
-    replacements.actorId = actor.id;
-  }
+  // The loggers the actor may read (server/auth/policies.ts): an integrator's sites and registrations.
+  const scope = loggerScope(actor, 'l');
+  conditions.push(scope.sql);
+  Object.assign(replacements, scope.replacements);
   return { conditions, replacements };
 }
 

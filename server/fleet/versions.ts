@@ -1,10 +1,12 @@
-// The version matrix (issue 6 §2): per model, loggers per running version × board; per channel the share
+// The version matrix: per model, loggers per running version × board; per channel the share
 // running the channel's current release (see CURRENT_RELEASES) or newer; per release, installs per day
 // since it started (confirmed_at, else finished_at, of installed reports; UTC days).
 import { QueryTypes } from 'sequelize';
 import type { VersionMatrix } from '../../schemas/fleet';
 import { CURRENT_RELEASES } from './sql';
 import type { FleetDeps } from './table';
+import type { Actor } from '../auth/actor';
+import { loggerScope } from '../auth/policies';
 import { SQL_WORDS } from '../db/sql-words';
 
 type ModelRow = { id: string; name: string; boards: { label: string }[] };
@@ -43,21 +45,23 @@ export function adoptionDays(startedAt: Date | null, installs: { day: string; n:
   return out;
 }
 
-export async function versionMatrix(deps: FleetDeps): Promise<VersionMatrix> {
-  const q = <T extends object>(sql: string) => deps.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements: SQL_WORDS });
+/** The matrix of the loggers the actor may read (server/auth/policies.ts): an integrator's counts are their own. */
+export async function versionMatrix(deps: FleetDeps, actor: Actor): Promise<VersionMatrix> {
+  const scope = loggerScope(actor, 'l');
+  const q = <T extends object>(sql: string) => deps.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, ...scope.replacements } });
   const [models, counts, channels, releases, adoption] = await Promise.all([
     q<ModelRow>('SELECT id, name, boards FROM models ORDER BY lower(name), id'),
     q<CountRow>(
-      `SELECT model_id, firmware, board, count(*)::int AS n FROM loggers WHERE status <> :retired
-        GROUP BY model_id, firmware, firmware_key, board ORDER BY model_id, firmware_key DESC, board`,
+      `SELECT l.model_id, l.firmware, l.board, count(*)::int AS n FROM loggers l WHERE l.status <> :retired AND ${scope.sql}
+        GROUP BY l.model_id, l.firmware, l.firmware_key, l.board ORDER BY l.model_id, l.firmware_key DESC, l.board`,
     ),
     q<ChannelRow>(
       `WITH current_releases AS (${CURRENT_RELEASES}),
        channels AS (SELECT m.id AS model_id, t.channel FROM models m CROSS JOIN unnest(ARRAY[:channels]::text[]) t(channel))
        SELECT t.model_id, t.channel,
-              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = :enrolled) AS loggers,
+              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = :enrolled AND ${scope.sql}) AS loggers,
               (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = :enrolled
-                  AND cr.id IS NOT NULL AND l.firmware_key >= cr.version_key) AS on_current,
+                  AND cr.id IS NOT NULL AND l.firmware_key >= cr.version_key AND ${scope.sql}) AS on_current,
               cr.id AS release_id, cr.version, cr.state, cr.share, cr.since
          FROM channels t LEFT JOIN current_releases cr ON cr.model_id = t.model_id AND cr.channel = t.channel
         ORDER BY t.model_id, t.channel DESC`,
@@ -67,8 +71,10 @@ export async function versionMatrix(deps: FleetDeps): Promise<VersionMatrix> {
          FROM releases WHERE state <> :draft ORDER BY model_id, heliodor_semver_key(version) COLLATE "C" DESC`,
     ),
     q<AdoptionRow>(
-      `SELECT release_id, to_char(date_trunc('day', COALESCE(confirmed_at, finished_at) AT TIME ZONE 'UTC'), 'YYYY-MM-DD') AS day, count(*)::int AS n
-         FROM install_reports WHERE state = :installed AND COALESCE(confirmed_at, finished_at) IS NOT NULL
+      `SELECT ir.release_id, to_char(date_trunc('day', COALESCE(ir.confirmed_at, ir.finished_at) AT TIME ZONE 'UTC'), 'YYYY-MM-DD') AS day, count(*)::int AS n
+         FROM install_reports ir
+        WHERE ir.state = :installed AND COALESCE(ir.confirmed_at, ir.finished_at) IS NOT NULL
+          ${scope.sql === 'TRUE' ? '' : `AND ir.logger_id IN (SELECT l.id FROM loggers l WHERE ${scope.sql})`}
         GROUP BY 1, 2 ORDER BY 1, 2`,
     ),
   ]);

@@ -15,8 +15,8 @@ declareAccess({
 });
 
 export function registerKeyRoutes(api: Api, deps: { sequelize: Sequelize; now: () => Date }) {
-  api.get('/api/keys', async (_req, res) => {
-    res.json(await listKeys(deps.sequelize));
+  api.get('/api/keys', async (req, res) => {
+    res.json(await listKeys(deps.sequelize, contextOf(req).actor));
   });
   api.post('/api/keys', async (req, res) => {
     const body = parse(registerKeyRequest, req.body);

@@ -4,13 +4,14 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import { SigningKey, type KeyState } from '../db/models';
 import { problems } from '../http/problem';
 import { recordActivity } from '../activity/service';
-import type { RequestContext } from '../auth/actor';
+import type { Actor, RequestContext } from '../auth/actor';
+import { canOf, stateAllows } from '../auth/policies';
 import { ManifestError, parsePublicKeyPem } from '../images/manifest';
-import type { RegisterKeyRequest, SigningKeyView } from '../../schemas/keys';
+import { KEY_VERBS, type RegisterKeyRequest, type SigningKeyView } from '../../schemas/keys';
 
 const iso = (d: Date | null | undefined) => (d ? d.toISOString() : null);
 
-export function presentKey(key: SigningKey, releaseCount: number): SigningKeyView {
+export function presentKey(actor: Actor, key: SigningKey, releaseCount: number): SigningKeyView {
   return {
     id: key.id,
     name: key.name,
@@ -22,6 +23,7 @@ export function presentKey(key: SigningKey, releaseCount: number): SigningKeyVie
     retiredAt: iso(key.retiredAt),
     revokedAt: iso(key.revokedAt),
     releaseCount,
+    can: canOf(actor, { kind: 'key', state: key.state }),
   };
 }
 
@@ -34,10 +36,10 @@ async function releaseCounts(sequelize: Sequelize, ids: string[]): Promise<Map<s
   return new Map(rows.map((r) => [r.id, r.n]));
 }
 
-export async function listKeys(sequelize: Sequelize) {
+export async function listKeys(sequelize: Sequelize, actor: Actor) {
   const keys = await SigningKey.findAll({ order: [['createdAt', 'DESC']] });
   const counts = await releaseCounts(sequelize, keys.map((k) => k.id));
-  return { rows: keys.map((k) => presentKey(k, counts.get(k.id) ?? 0)), total: keys.length };
+  return { rows: keys.map((k) => presentKey(actor, k, counts.get(k.id) ?? 0)), total: keys.length };
 }
 
 export async function registerKey(sequelize: Sequelize, ctx: RequestContext, input: RegisterKeyRequest, now: Date) {
@@ -80,12 +82,13 @@ export async function registerKey(sequelize: Sequelize, ctx: RequestContext, inp
     });
     return created;
   });
-  return presentKey(key, 0);
+  return presentKey(ctx.actor, key, 0);
 }
 
-const keyMoves: Record<'retire' | 'revoke', { from: KeyState[]; to: KeyState; verb: 'retired' | 'revoked' }> = {
-  retire: { from: ['active'], to: 'retired', verb: 'retired' },
-  revoke: { from: ['active', 'retired'], to: 'revoked', verb: 'revoked' },
+/** Where each move leads; which states allow it is the key policy's (server/auth/policies.ts). */
+const keyMoves: Record<'retire' | 'revoke', { to: KeyState; verb: 'retired' | 'revoked' }> = {
+  retire: { to: 'retired', verb: 'retired' },
+  revoke: { to: 'revoked', verb: 'revoked' },
 };
 
 export async function changeKeyState(sequelize: Sequelize, ctx: RequestContext, id: string, move: 'retire' | 'revoke', now: Date) {
@@ -93,8 +96,9 @@ export async function changeKeyState(sequelize: Sequelize, ctx: RequestContext, 
   const key = await sequelize.transaction(async (t) => {
     const found = await SigningKey.findByPk(id, { transaction: t, lock: t.LOCK.UPDATE });
     if (!found) throw problems.notFound('signing key');
-    if (!rule.from.includes(found.state)) {
-      const allowed = (Object.keys(keyMoves) as ('retire' | 'revoke')[]).filter((m) => keyMoves[m].from.includes(found.state));
+    const resource = { kind: 'key', state: found.state } as const;
+    if (!stateAllows(move, resource)) {
+      const allowed = KEY_VERBS.filter((m) => stateAllows(m, resource));
       throw problems.conflict(
         `A ${found.state} key cannot be ${rule.verb}${allowed.length ? `; allowed: ${allowed.join(', ')}` : ': revoked is final'}.`,
         { allowedActions: allowed },
@@ -113,5 +117,5 @@ export async function changeKeyState(sequelize: Sequelize, ctx: RequestContext, 
     return found;
   });
   const counts = await releaseCounts(sequelize, [key.id]);
-  return presentKey(key, counts.get(key.id) ?? 0);
+  return presentKey(ctx.actor, key, counts.get(key.id) ?? 0);
 }

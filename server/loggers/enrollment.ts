@@ -7,7 +7,8 @@ import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import type { RequestContext } from '../auth/actor';
 import { digestToken } from '../auth/tokens';
-import { refuseUnassignedIntegrator } from '../sites/service';
+import { authorize } from '../auth/policies';
+import { siteResource } from '../sites/service';
 import { measurementProfile, type ComputedProfile } from '../../lib/calibration';
 import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
 import { loggerFor, type RegistryDeps } from './service';
@@ -92,7 +93,7 @@ export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: Enro
       });
     }
     const site = await siteFor(body.siteId, transaction);
-    await refuseUnassignedIntegrator(ctx.actor, site.id, transaction);
+    authorize(ctx.actor, 'enroll', await siteResource(site.id, transaction));
     const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
     const computed = computeProfile(body, model);
 
@@ -108,20 +109,19 @@ export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: Enro
       summary: `Logger ${logger.serial} enrolled at ${site.name} (profile v${profile.version}: calibration ${profile.calibration}, ${body.panelWp} Wp panel)`,
       details: { siteId: site.id, profileVersion: profile.version },
     });
-    return { logger: await presentDetail(logger, now, transaction), profile: presentProfile(profile) };
+    return { logger: await presentDetail(ctx.actor, logger, now, transaction), profile: presentProfile(profile) };
   });
 }
 
 export async function moveLogger(deps: RegistryDeps, ctx: RequestContext, id: string, siteId: string): Promise<LoggerDetail> {
   return deps.sequelize.transaction(async (transaction) => {
-    const logger = await loggerFor(ctx.actor, id, transaction);
+    // An integrator moves a logger only from a site assigned to them (loggerFor) to another one (below).
+    const logger = await loggerFor(ctx.actor, id, transaction, 'move');
     if (logger.status === 'registered') throw problems.conflict(`Logger ${logger.serial} is not enrolled yet; enroll it by scanning its label.`);
     if (logger.status === 'retired') throw problems.conflict(`Logger ${logger.serial} is retired; it cannot be moved.`);
     const site = await siteFor(siteId, transaction);
     if (logger.siteId === site.id) throw problems.conflict(`Logger ${logger.serial} is already at ${site.name}.`);
-    // An integrator moves a logger only between sites assigned to them.
-    if (logger.siteId) await refuseUnassignedIntegrator(ctx.actor, logger.siteId, transaction);
-    await refuseUnassignedIntegrator(ctx.actor, site.id, transaction);
+    authorize(ctx.actor, 'enroll', await siteResource(site.id, transaction));
     const from = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
     await logger.update({ siteId: site.id }, { transaction });
     await recordActivity(transaction, ctx, {
@@ -131,17 +131,16 @@ export async function moveLogger(deps: RegistryDeps, ctx: RequestContext, id: st
       summary: `Logger ${logger.serial} moved from ${from?.name ?? 'no site'} to ${site.name}`,
       details: { fromSiteId: from?.id ?? null, toSiteId: site.id },
     });
-    return presentDetail(logger, deps.now(), transaction);
+    return presentDetail(ctx.actor, logger, deps.now(), transaction);
   });
 }
 
 export async function changeProfile(deps: RegistryDeps, ctx: RequestContext, id: string, body: ProfileChangeRequest): Promise<ProfileView> {
   return deps.sequelize.transaction(async (transaction) => {
-    const logger = await loggerFor(ctx.actor, id, transaction);
+    const logger = await loggerFor(ctx.actor, id, transaction, 'editProfile');
     if (logger.status !== 'enrolled') {
       throw problems.conflict(`Logger ${logger.serial} is ${logger.status}; a measurement profile belongs to an enrolled logger.`);
     }
-    if (logger.siteId) await refuseUnassignedIntegrator(ctx.actor, logger.siteId, transaction);
     const previous = await latestProfile(logger.id, transaction);
     const install = (logger.install as StoredInstall | null) ?? {};
     const panelWp = body.panelWp ?? previous?.panelWp ?? install.panelWp ?? null;

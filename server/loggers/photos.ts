@@ -6,7 +6,6 @@ import { QueryTypes } from 'sequelize';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import type { Actor, RequestContext } from '../auth/actor';
-import { refuseUnassignedIntegrator } from '../sites/service';
 import { loggerFor, type RegistryDeps } from './service';
 import type { StoredInstall } from './present';
 
@@ -29,9 +28,8 @@ export async function savePhoto(deps: RegistryDeps, ctx: RequestContext, id: str
   }
   if (bytes.length > PHOTO_LIMIT_BYTES) throw problems.tooLarge('The photo is larger than 10 MB.');
   await deps.sequelize.transaction(async (transaction) => {
-    const logger = await loggerFor(ctx.actor, id, transaction);
+    const logger = await loggerFor(ctx.actor, id, transaction, 'addPhoto');
     if (logger.status === 'retired') throw problems.conflict(`Logger ${logger.serial} is retired.`);
-    if (logger.siteId) await refuseUnassignedIntegrator(ctx.actor, logger.siteId, transaction);
     const sha256 = crypto.createHash('sha256').update(bytes).digest('hex');
     const uploadedAt = deps.now();
     await deps.sequelize.query(

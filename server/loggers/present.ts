@@ -1,7 +1,10 @@
 // Shapes the console API answers for loggers and measurement profiles (camelCase, RFC 3339 times).
 import { LoggerModel, MeasurementProfile, Site, User, type Logger } from '../db/models';
+import { siteResource } from '../sites/service';
 import type { LoggerDetail, ProfileView, TempResolutionBits } from '../../schemas/loggers';
 import type { Transaction } from 'sequelize';
+import type { Actor } from '../auth/actor';
+import { canOf, type LoggerResource } from '../auth/policies';
 
 const iso = (d: Date | null | undefined) => (d ? new Date(d).toISOString() : null);
 const numberOrNull = (x: unknown) => (x === null || x === undefined ? null : Number(x));
@@ -54,12 +57,20 @@ async function lookUp<T extends readonly (() => unknown)[]>(transaction: Transac
   return results as Settled<T>;
 }
 
-export async function presentDetail(logger: Logger, now: Date, transaction?: Transaction): Promise<LoggerDetail> {
-  const [model, site, enrolledBy, profile] = await lookUp(transaction, [
+/** What the policies read about a logger: its status, who registered it, its site and that site's integrators. */
+export async function loggerResource(logger: Logger, transaction?: Transaction): Promise<LoggerResource> {
+  const site = logger.siteId ? await siteResource(logger.siteId, transaction) : null;
+  return { kind: 'logger', status: logger.status, siteId: logger.siteId, registeredBy: logger.registeredBy, siteIntegratorIds: site?.integratorIds ?? [] };
+}
+
+/** The logger as the console shows it to the actor, with what they may do with it (`can`). */
+export async function presentDetail(actor: Actor, logger: Logger, now: Date, transaction?: Transaction): Promise<LoggerDetail> {
+  const [model, site, enrolledBy, profile, resource] = await lookUp(transaction, [
     () => LoggerModel.findByPk(logger.modelId, { transaction }),
     () => (logger.siteId ? Site.findByPk(logger.siteId, { transaction }) : null),
     () => (logger.enrolledBy ? User.findByPk(logger.enrolledBy, { attributes: ['id', 'name'], transaction }) : null),
     () => latestProfile(logger.id, transaction),
+    () => loggerResource(logger, transaction),
   ] as const);
   if (!model) throw new Error(`logger ${logger.id} names a missing model`);
   const install = logger.install as StoredInstall | null;
@@ -85,5 +96,6 @@ export async function presentDetail(logger: Logger, now: Date, transaction?: Tra
     tokenIssuedAt: iso(logger.tokenIssuedAt),
     retiredAt: iso(logger.retiredAt),
     createdAt: logger.createdAt.toISOString(),
+    can: canOf(actor, resource),
   };
 }

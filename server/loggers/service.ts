@@ -1,15 +1,16 @@
 // The logger registry: registration (one or a CSV batch), token rotation, retirement, the list and the
 // detail. Tokens are issued here and leave only in the response that issues them.
 import { fn, col, where, type Sequelize, type Transaction } from 'sequelize';
-import { Logger, LoggerModel, SiteIntegrator } from '../db/models';
+import { Logger, LoggerModel } from '../db/models';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import type { Actor, RequestContext } from '../auth/actor';
+import { authorize } from '../auth/policies';
 import { issueLoggerToken } from './tokens';
 import { parseLoggerBatch } from './batch';
 import { labelPng } from './labels';
 import { enrollmentLink } from '../../lib/label-sheet';
-import { presentDetail } from './present';
+import { loggerResource, presentDetail } from './present';
 import { listFleet } from '../fleet/table';
 import type {
   BatchRegistered,
@@ -17,13 +18,13 @@ import type {
   LoggerDetail,
   LoggerRow,
   LoggersQuery,
+  LoggerVerb,
   RegisterLoggerRequest,
   RotatedToken,
 } from '../../schemas/loggers';
 
 export type RegistryDeps = { sequelize: Sequelize; now: () => Date };
 
-const isIntegrator = (actor: Actor) => actor.type === 'person' && actor.role === 'integrator';
 const personId = (actor: Actor) => (actor.type === 'person' ? actor.id : null);
 
 /** A label for a token just issued: the QR of the enrollment link with serial, model and board beside it. */
@@ -31,20 +32,17 @@ export function labelFor(origin: string, token: string, logger: { serial: string
   return labelPng(enrollmentLink(origin, token), { serial: logger.serial, modelName, board: logger.board });
 }
 
-/** Integrators see loggers at their sites and loggers they registered; everyone else sees all. */
-export async function canSeeLogger(actor: Actor, logger: Logger, transaction?: Transaction): Promise<boolean> {
-  if (!isIntegrator(actor)) return true;
-  if (logger.registeredBy === actor.id) return true;
-  return logger.siteId !== null && (await SiteIntegrator.count({ where: { userId: actor.id!, siteId: logger.siteId }, transaction })) > 0;
-}
-
-/** The logger, or 404; 403 when an integrator may not see it. Locks the row when given a transaction. */
-export async function loggerFor(actor: Actor, id: string, transaction?: Transaction): Promise<Logger> {
+/**
+ * The logger, or 404; 403 when the actor may not see it (an integrator: not at their site, not registered by
+ * them) or may not do `verb` with it (its state is the caller's to check: 409). Locks the row when given a
+ * transaction.
+ */
+export async function loggerFor(actor: Actor, id: string, transaction?: Transaction, verb: LoggerVerb | 'view' = 'view'): Promise<Logger> {
   const logger = await Logger.findByPk(id, transaction ? { transaction, lock: transaction.LOCK.UPDATE } : {});
   if (!logger) throw problems.notFound('logger');
-  if (!(await canSeeLogger(actor, logger, transaction))) {
-    throw problems.forbidden('This logger is not at a site assigned to you and was not registered by you.');
-  }
+  const resource = await loggerResource(logger, transaction);
+  authorize(actor, 'view', resource);
+  if (verb !== 'view') authorize(actor, verb, resource);
   return logger;
 }
 
@@ -157,7 +155,7 @@ export async function registerBatch(deps: RegistryDeps, ctx: RequestContext, fil
 export async function rotateToken(deps: RegistryDeps, ctx: RequestContext, id: string, origin: string): Promise<RotatedToken> {
   const { token, digest } = issueLoggerToken();
   const { logger, model } = await deps.sequelize.transaction(async (transaction) => {
-    const logger = await loggerFor(ctx.actor, id, transaction);
+    const logger = await loggerFor(ctx.actor, id, transaction, 'rotateToken');
     if (logger.status === 'retired') throw problems.conflict(`Logger ${logger.serial} is retired; a retired logger gets no new token.`);
     // Replacing the digest revokes the old token at once: nothing else recognises it.
     await logger.update({ tokenDigest: digest, tokenIssuedAt: deps.now() }, { transaction });
@@ -174,7 +172,7 @@ export async function rotateToken(deps: RegistryDeps, ctx: RequestContext, id: s
 
 export async function retireLogger(deps: RegistryDeps, ctx: RequestContext, id: string, reason: string | undefined): Promise<LoggerDetail> {
   return deps.sequelize.transaction(async (transaction) => {
-    const logger = await loggerFor(ctx.actor, id, transaction);
+    const logger = await loggerFor(ctx.actor, id, transaction, 'retire');
     if (logger.status === 'retired') throw problems.conflict(`Logger ${logger.serial} is already retired.`);
     // Status retired revokes the token: findLoggerByToken (the device API's lookup) refuses retired loggers.
     await logger.update({ status: 'retired', retiredAt: deps.now() }, { transaction });
@@ -185,14 +183,14 @@ export async function retireLogger(deps: RegistryDeps, ctx: RequestContext, id: 
       summary: `Logger ${logger.serial} retired${reason ? `: ${reason}` : ''}`,
       details: reason ? { reason } : undefined,
     });
-    return presentDetail(logger, deps.now(), transaction);
+    return presentDetail(ctx.actor, logger, deps.now(), transaction);
   });
 }
 
 // ─── Reading ────────────────────────────────────────────────────────────────
 
 export async function getLoggerDetail(deps: RegistryDeps, actor: Actor, id: string): Promise<LoggerDetail> {
-  return presentDetail(await loggerFor(actor, id), deps.now());
+  return presentDetail(actor, await loggerFor(actor, id), deps.now());
 }
 
 /** The fleet table: filters, allow-listed sort keys and paging in PostgreSQL (server/fleet/table.ts). */

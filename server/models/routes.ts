@@ -8,13 +8,13 @@ import { createModelRequest, updateModelRequest } from '../../schemas/models';
 import { createModel, getModel, listModels, updateModel } from './service';
 
 export function registerModelRoutes(api: Api, deps: { sequelize: Sequelize }) {
-  api.get('/api/models', async (_req, res) => {
-    res.json(await listModels());
+  api.get('/api/models', async (req, res) => {
+    res.json(await listModels(contextOf(req).actor));
   });
 
   api.get('/api/models/:id', async (req, res) => {
     const { id } = parse(idParams, req.params, 'path');
-    res.json(await getModel(id));
+    res.json(await getModel(contextOf(req).actor, id));
   });
 
   api.post('/api/models', async (req, res) => {

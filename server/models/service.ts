@@ -3,10 +3,11 @@ import { fn, col, where, Op, type Sequelize } from 'sequelize';
 import { Logger, LoggerModel } from '../db/models';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
-import type { RequestContext } from '../auth/actor';
+import type { Actor, RequestContext } from '../auth/actor';
+import { canOf, model as modelResource } from '../auth/policies';
 import type { CreateModelRequest, LoggerModelView, UpdateModelRequest } from '../../schemas/models';
 
-export function presentModel(model: LoggerModel, loggerCount: number): LoggerModelView {
+export function presentModel(actor: Actor, model: LoggerModel, loggerCount: number): LoggerModelView {
   return {
     id: model.id,
     name: model.name,
@@ -18,6 +19,7 @@ export function presentModel(model: LoggerModel, loggerCount: number): LoggerMod
     tempResolutions: [...model.tempResolutions].sort((a, b) => a - b),
     loggerCount,
     createdAt: model.createdAt.toISOString(),
+    can: canOf(actor, modelResource),
   };
 }
 
@@ -33,16 +35,16 @@ async function loggerCounts(modelIds: string[]): Promise<Map<string, number>> {
   return new Map(rows.map((r) => [r.modelId, Number(r.count)]));
 }
 
-export async function listModels(): Promise<{ rows: LoggerModelView[]; total: number }> {
+export async function listModels(actor: Actor): Promise<{ rows: LoggerModelView[]; total: number }> {
   const models = await LoggerModel.findAll({ order: [['name', 'ASC']] });
   const counts = await loggerCounts(models.map((m) => m.id));
-  return { rows: models.map((m) => presentModel(m, counts.get(m.id) ?? 0)), total: models.length };
+  return { rows: models.map((m) => presentModel(actor, m, counts.get(m.id) ?? 0)), total: models.length };
 }
 
-export async function getModel(id: string): Promise<LoggerModelView> {
+export async function getModel(actor: Actor, id: string): Promise<LoggerModelView> {
   const model = await LoggerModel.findByPk(id);
   if (!model) throw problems.notFound('model');
-  return presentModel(model, (await loggerCounts([id])).get(id) ?? 0);
+  return presentModel(actor, model, (await loggerCounts([id])).get(id) ?? 0);
 }
 
 async function refuseTakenName(name: string, exceptId?: string) {
@@ -62,7 +64,7 @@ export async function createModel(sequelize: Sequelize, ctx: RequestContext, bod
     });
     return created;
   });
-  return presentModel(model, 0);
+  return presentModel(ctx.actor, model, 0);
 }
 
 export async function updateModel(sequelize: Sequelize, ctx: RequestContext, id: string, body: UpdateModelRequest): Promise<LoggerModelView> {
@@ -96,5 +98,5 @@ export async function updateModel(sequelize: Sequelize, ctx: RequestContext, id:
     });
     return model;
   });
-  return presentModel(model, (await loggerCounts([id])).get(id) ?? 0);
+  return presentModel(ctx.actor, model, (await loggerCounts([id])).get(id) ?? 0);
 }

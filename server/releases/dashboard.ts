@@ -1,4 +1,4 @@
-// The release dashboard (issue 6 §4): how far a release has gone and how it is doing, beside the funnel
+// The release dashboard: how far a release has gone and how it is doing, beside the funnel
 // the release itself carries (presenter.ts installCounts).
 //
 // - Time to install: from the first offer (offered_at) to the install confirmed at a check-in on the
@@ -13,6 +13,7 @@
 // - Adoption: confirmed installs per UTC day since the release started.
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
+import { loggerScope } from '../auth/policies';
 import { problems } from '../http/problem';
 import { failureFigures, tripGauges, resetFigures } from '../device-api/trip';
 import { retentionDays } from '../device-api/partitions';
@@ -43,13 +44,12 @@ const INSTALL_S = `EXTRACT(EPOCH FROM (${DONE_AT} - ir.offered_at))`;
 
 /**
  * Enrolled loggers of the release's model and channel, each with its report of this release (if any).
- * Integrators see only loggers they registered or at their sites, as in the fleet table.
+ * Integrators see only loggers they registered or at their sites, as in the fleet table (loggerScope).
  */
 const AUDIENCE = `
   FROM loggers l
   LEFT JOIN install_reports ir ON ir.logger_id = l.id AND ir.release_id = :releaseId
  WHERE l.model_id = :modelId AND l.channel = :channel AND l.status = :enrolled`;
-const INTEGRATOR_SCOPE = ` AND (l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))`;
 
 const TALLY = `
   count(*)::int AS loggers,
@@ -82,10 +82,10 @@ async function releaseOf(sequelize: Sequelize, id: string): Promise<ReleaseRow> 
 }
 
 function scopeOf(actor: Actor, release: ReleaseRow) {
-  const integrator = actor.type === 'person' && actor.role === 'integrator';
+  const readable = loggerScope(actor, 'l');
   return {
-    scope: integrator ? INTEGRATOR_SCOPE : '',
-    replacements: { ...SQL_WORDS, releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, actorId: integrator ? actor.id : null },
+    scope: ` AND ${readable.sql}`,
+    replacements: { ...SQL_WORDS, releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, ...readable.replacements },
   };
 }
 

@@ -1,5 +1,7 @@
-// Release JSON for the console (camelCase; the contract in issue 4 and the client hooks).
+// Release JSON for the console (camelCase; schemas/releases.ts and the client hooks).
 import { QueryTypes, type Sequelize } from 'sequelize';
+import type { Actor } from '../auth/actor';
+import { canOf } from '../auth/policies';
 import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
 import { allowedActions } from './lifecycle';
 import { renderNotes } from './notes';
@@ -28,7 +30,15 @@ export async function installCounts(sequelize: Sequelize, releaseId: string): Pr
   return counts;
 }
 
-export async function presentRelease(sequelize: Sequelize, release: Release): Promise<ReleaseView> {
+/** A release as every caller sees it; `releaseFor` adds what this caller may do with it. */
+export type ReleaseBody = Omit<ReleaseView, 'can'>;
+
+/** The answer for one caller: the release with `can` (its lifecycle and the caller's role together). */
+export function releaseFor(actor: Actor, release: ReleaseBody): ReleaseView {
+  return { ...release, can: canOf(actor, { kind: 'release', state: release.state, keyRevoked: release.key?.state === 'revoked' }) };
+}
+
+export async function presentRelease(sequelize: Sequelize, release: Release): Promise<ReleaseBody> {
   const [model, image, key, transitions, pilotSites, counts] = await Promise.all([
     LoggerModel.findByPk(release.modelId),
     Image.findByPk(release.imageSha256),

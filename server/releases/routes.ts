@@ -7,7 +7,7 @@ import { estimateQuery, patchReleaseRequest, releaseListQuery, releaseSitesQuery
 import type { AppServices } from '../app';
 import { LocalImageStore, type ImageStore } from '../images/store';
 import { releaseUploadMiddleware, uploadPartsOf } from '../images/upload';
-import { listReleaseRows } from './presenter';
+import { listReleaseRows, releaseFor } from './presenter';
 import { releaseDashboard, releaseSites } from './dashboard';
 import { createRelease, deleteRelease, estimateShare, getRelease, patchRelease, transitionRelease, type ReleaseDeps } from './service';
 
@@ -31,8 +31,8 @@ export function registerReleaseRoutes(api: Api, services: AppServices, store: Im
     const files = req.files as Record<string, { received?: { discard(): Promise<void> } }[]> | undefined;
     const image = files?.image?.[0]?.received;
     try {
-      const release = await createRelease(deps, contextOf(req), uploadPartsOf(req));
-      res.status(201).json(release);
+      const ctx = contextOf(req);
+      res.status(201).json(releaseFor(ctx.actor, await createRelease(deps, ctx, uploadPartsOf(req))));
     } finally {
       // A refused upload leaves nothing behind; after a commit this does nothing.
       await image?.discard();
@@ -45,7 +45,7 @@ export function registerReleaseRoutes(api: Api, services: AppServices, store: Im
 
   api.get('/api/releases/:id', async (req, res) => {
     const { id } = parse(idParams, req.params, 'path');
-    res.json(await getRelease(deps, id));
+    res.json(releaseFor(contextOf(req).actor, await getRelease(deps, id)));
   });
 
   api.get('/api/releases/:id/estimate', async (req, res) => {
@@ -66,7 +66,8 @@ export function registerReleaseRoutes(api: Api, services: AppServices, store: Im
 
   api.patch('/api/releases/:id', async (req, res) => {
     const { id } = parse(idParams, req.params, 'path');
-    res.json(await patchRelease(deps, contextOf(req), id, parse(patchReleaseRequest, req.body)));
+    const ctx = contextOf(req);
+    res.json(releaseFor(ctx.actor, await patchRelease(deps, ctx, id, parse(patchReleaseRequest, req.body))));
   });
 
   api.delete('/api/releases/:id', async (req, res) => {
@@ -77,6 +78,7 @@ export function registerReleaseRoutes(api: Api, services: AppServices, store: Im
 
   api.post('/api/releases/:id/transitions', async (req, res) => {
     const { id } = parse(idParams, req.params, 'path');
-    res.json(await transitionRelease(deps, contextOf(req), id, parse(transitionRequest, req.body)));
+    const ctx = contextOf(req);
+    res.json(releaseFor(ctx.actor, await transitionRelease(deps, ctx, id, parse(transitionRequest, req.body))));
   });
 }

@@ -1,29 +1,19 @@
 // Sites: where loggers are installed. Integrators create sites (and are assigned to those) and edit the
-// sites assigned to them; admins edit any.
-import { Op, fn, col, type InferAttributes, type Sequelize, type Transaction, type WhereOptions } from 'sequelize';
+// sites assigned to them; admins edit any and assign the integrators (server/auth/policies.ts).
+import { Op, fn, col, literal, type InferAttributes, type Sequelize, type Transaction, type WhereOptions } from 'sequelize';
 import { Logger, Site, SiteIntegrator, User } from '../db/models';
 import { recordActivity } from '../activity/service';
 import { problems, type FieldError } from '../http/problem';
 import type { Actor, RequestContext } from '../auth/actor';
+import { authorize, canOf, siteScope, type SiteResource } from '../auth/policies';
 import type { CreateSiteRequest, SiteView, UpdateSiteRequest } from '../../schemas/sites';
 
 const isIntegrator = (actor: Actor) => actor.type === 'person' && actor.role === 'integrator';
 
-/** Ids of the sites assigned to a person. */
-export async function assignedSiteIds(userId: string, transaction?: Transaction): Promise<string[]> {
-  const rows = await SiteIntegrator.findAll({ where: { userId }, attributes: ['siteId'], transaction });
-  return rows.map((r) => r.siteId);
-}
-
-export async function isAssigned(userId: string, siteId: string, transaction?: Transaction): Promise<boolean> {
-  return (await SiteIntegrator.count({ where: { userId, siteId }, transaction })) > 0;
-}
-
-/** Integrators act only on sites assigned to them; everyone else the route lets through acts on any. */
-export async function refuseUnassignedIntegrator(actor: Actor, siteId: string, transaction?: Transaction) {
-  if (isIntegrator(actor) && !(await isAssigned(actor.id!, siteId, transaction))) {
-    throw problems.forbidden('This site is not assigned to you; ask an admin to assign you to it.');
-  }
+/** What the policies read about a site: the integrators assigned to it. */
+export async function siteResource(siteId: string, transaction?: Transaction): Promise<SiteResource> {
+  const rows = await SiteIntegrator.findAll({ where: { siteId }, attributes: ['userId'], transaction });
+  return { kind: 'site', integratorIds: rows.map((r) => r.userId) };
 }
 
 /** Escapes LIKE wildcards so a search for "50%" finds "50%" and not everything. */
@@ -31,7 +21,7 @@ export function likePattern(q: string): string {
   return `%${q.replace(/[\\%_]/g, (c) => `\\${c}`)}%`;
 }
 
-async function present(sites: Site[], transaction?: Transaction): Promise<SiteView[]> {
+async function present(actor: Actor, sites: Site[], transaction?: Transaction): Promise<SiteView[]> {
   if (sites.length === 0) return [];
   const ids = sites.map((s) => s.id);
   const links = await SiteIntegrator.findAll({ where: { siteId: ids }, transaction });
@@ -63,26 +53,27 @@ async function present(sites: Site[], transaction?: Transaction): Promise<SiteVi
       integrators,
       loggerCount: countOf.get(s.id) ?? 0,
       createdAt: s.createdAt.toISOString(),
+      can: canOf(actor, { kind: 'site', integratorIds: integrators.map((i) => i.id) }),
     };
   });
 }
 
 export async function listSites(actor: Actor, q?: string): Promise<{ rows: SiteView[]; total: number }> {
-  const conditions: WhereOptions[] = [];
-  if (isIntegrator(actor)) conditions.push({ id: await assignedSiteIds(actor.id!) });
+  const scope = siteScope(actor, '"Site".id');
+  const conditions: WhereOptions[] = [literal(scope.sql)];
   if (q) {
     const like = likePattern(q);
     conditions.push({ [Op.or]: [{ name: { [Op.iLike]: like } }, { customer: { [Op.iLike]: like } }, { address: { [Op.iLike]: like } }] });
   }
-  const sites = await Site.findAll({ where: { [Op.and]: conditions }, order: [['name', 'ASC'], ['id', 'ASC']] });
-  return { rows: await present(sites), total: sites.length };
+  const sites = await Site.findAll({ where: { [Op.and]: conditions }, order: [['name', 'ASC'], ['id', 'ASC']], replacements: scope.replacements });
+  return { rows: await present(actor, sites), total: sites.length };
 }
 
 export async function getSite(actor: Actor, id: string): Promise<SiteView> {
   const site = await Site.findByPk(id);
   if (!site) throw problems.notFound('site');
-  await refuseUnassignedIntegrator(actor, id);
-  return (await present([site]))[0];
+  authorize(actor, 'view', await siteResource(id));
+  return (await present(actor, [site]))[0];
 }
 
 /** Every id must name an active integrator; errors point at the list position. */
@@ -95,8 +86,11 @@ async function checkIntegrators(ids: string[], transaction: Transaction) {
 
 export async function createSite(sequelize: Sequelize, ctx: RequestContext, body: CreateSiteRequest): Promise<SiteView> {
   const { actor } = ctx;
-  // An integrator who creates a site is assigned to it, so it appears in their list at once.
-  const integratorIds = [...new Set([...(body.integratorIds ?? []), ...(isIntegrator(actor) ? [actor.id!] : [])])];
+  // An integrator who creates a site is assigned to it, so it appears in their list at once; naming
+  // anyone else is assigning integrators, which only an admin does.
+  const self = isIntegrator(actor) ? [actor.id!] : [];
+  if ((body.integratorIds ?? []).some((id) => !self.includes(id))) authorize(actor, 'assignIntegrators', { kind: 'site', integratorIds: self });
+  const integratorIds = [...new Set([...(body.integratorIds ?? []), ...self])];
   return sequelize.transaction(async (transaction) => {
     await checkIntegrators(integratorIds, transaction);
     const site = await Site.create(
@@ -120,7 +114,7 @@ export async function createSite(sequelize: Sequelize, ctx: RequestContext, body
       summary: `Site ${site.name} (${site.customer}) created`,
       details: { integratorIds },
     });
-    return (await present([site], transaction))[0];
+    return (await present(actor, [site], transaction))[0];
   });
 }
 
@@ -129,7 +123,8 @@ export async function updateSite(sequelize: Sequelize, ctx: RequestContext, id: 
   return sequelize.transaction(async (transaction) => {
     const site = await Site.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE });
     if (!site) throw problems.notFound('site');
-    await refuseUnassignedIntegrator(actor, id, transaction);
+    const resource = await siteResource(id, transaction);
+    authorize(actor, 'edit', resource);
 
     const latitude = body.latitude !== undefined ? body.latitude : site.latitude;
     const longitude = body.longitude !== undefined ? body.longitude : site.longitude;
@@ -140,11 +135,8 @@ export async function updateSite(sequelize: Sequelize, ctx: RequestContext, id: 
 
     const changed: string[] = [];
     if (body.integratorIds !== undefined) {
-      if (isIntegrator(actor) && !body.integratorIds.includes(actor.id!)) {
-        throw problems.badRequest('Check the body: integratorIds.', [
-          { path: 'integratorIds', message: 'you cannot remove yourself from a site; ask an admin' },
-        ]);
-      }
+      const same = body.integratorIds.length === resource.integratorIds.length && body.integratorIds.every((i) => resource.integratorIds.includes(i));
+      if (!same) authorize(actor, 'assignIntegrators', resource);
       await checkIntegrators(body.integratorIds, transaction);
       await SiteIntegrator.destroy({ where: { siteId: id }, transaction });
       await SiteIntegrator.bulkCreate(body.integratorIds.map((userId) => ({ siteId: id, userId })), { transaction });
@@ -166,6 +158,6 @@ export async function updateSite(sequelize: Sequelize, ctx: RequestContext, id: 
       summary: `Site ${site.name} updated: ${changed.join(', ')}`,
       details: { changed },
     });
-    return (await present([site], transaction))[0];
+    return (await present(actor, [site], transaction))[0];
   });
 }

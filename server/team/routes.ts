@@ -3,7 +3,7 @@ import type { Api } from '../http/api';
 import { parse } from '../http/validate';
 import { User } from '../db/models';
 import { roleSchema } from '../../schemas/auth';
-import { presentUser } from '../auth/service';
+import { presentPerson } from '../auth/service';
 
 const usersQuery = z.object({ role: roleSchema.optional() });
 
@@ -12,6 +12,6 @@ export function registerTeamRoutes(api: Api) {
   api.get('/api/users', async (req, res) => {
     const q = parse(usersQuery, req.query, 'query');
     const rows = await User.findAll({ where: { disabledAt: null, ...(q.role ? { role: q.role } : {}) }, order: [['name', 'ASC']] });
-    res.json({ rows: rows.map(presentUser), total: rows.length });
+    res.json({ rows: rows.map(presentPerson), total: rows.length });
   });
 }

@@ -25,8 +25,8 @@ export function registerTokenRoutes(api: Api, deps: { sequelize: Sequelize; now:
     const body = parse(createTokenRequest, req.body);
     res.status(201).json(await createToken(deps.sequelize, contextOf(req), body, deps.now()));
   });
-  api.get('/api/tokens', async (_req, res) => {
-    res.json(await listTokens());
+  api.get('/api/tokens', async (req, res) => {
+    res.json(await listTokens(contextOf(req).actor));
   });
   api.delete('/api/tokens/:id', async (req, res) => {
     const { id } = parse(idParams, req.params, 'path');

@@ -6,6 +6,7 @@ import { problems } from '../http/problem';
 import { recordActivity } from '../activity/service';
 import type { Actor, RequestContext, Scope } from '../auth/actor';
 import { digestToken, newToken, tokenPattern } from '../auth/tokens';
+import { canOf } from '../auth/policies';
 import type { CreateTokenRequest, CreatedToken, TokenView } from '../../schemas/tokens';
 
 /** Last use is recorded at most once a minute per token, so busy automation does not write on every call. */
@@ -40,7 +41,7 @@ export async function createToken(sequelize: Sequelize, ctx: RequestContext, inp
   return { id: row.id, token, name: row.name, scopes: row.scopes, expiresAt: row.expiresAt.toISOString() };
 }
 
-export async function listTokens(): Promise<{ rows: TokenView[]; total: number }> {
+export async function listTokens(actor: Actor): Promise<{ rows: TokenView[]; total: number }> {
   const tokens = await ApiToken.findAll({ order: [['createdAt', 'DESC']] });
   const creatorIds = [...new Set(tokens.map((t) => t.createdBy).filter((id): id is string => id !== null))];
   const creators = new Map((await User.findAll({ where: { id: creatorIds } })).map((u) => [u.id, u.name]));
@@ -53,6 +54,7 @@ export async function listTokens(): Promise<{ rows: TokenView[]; total: number }
     createdAt: t.createdAt.toISOString(),
     revokedAt: t.revokedAt ? t.revokedAt.toISOString() : null,
     createdBy: t.createdBy ? { id: t.createdBy, name: creators.get(t.createdBy) ?? 'former member' } : null,
+    can: canOf(actor, { kind: 'token', revoked: Boolean(t.revokedAt) }),
   }));
   return { rows, total: rows.length };
 }

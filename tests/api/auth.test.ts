@@ -1,3 +1,4 @@
+import { CONSOLE_VERBS } from '../../schemas/auth';
 import { startTestApp, csrf, testPassword, type TestApp } from '../helpers/app';
 import { sessionCookie } from '../../server/auth/session';
 import { Activity } from '../../server/db/models';
@@ -20,7 +21,18 @@ describe('sign-in', () => {
     expect(cookie).toMatch(/SameSite=Lax/i);
     const me = await agent.get('/api/auth/me');
     expect(me.status).toBe(200);
-    expect(me.body).toEqual({ id: res.body.user.id, email: 'morgan@fernhollow.example', name: 'Morgan', role: 'admin' });
+    // PRODUCT.md roles: the admin may do everything, so every console verb is open to them.
+    const everything = Object.fromEntries(CONSOLE_VERBS.map((verb) => [verb, true]));
+    expect(me.body).toEqual({ id: res.body.user.id, email: 'morgan@fernhollow.example', name: 'Morgan', role: 'admin', can: everything });
+    expect(res.body.user.can).toEqual(everything);
+  });
+
+  test('when an integrator asks who they are, then can opens registering, enrolling and sites to them and nothing else', async () => {
+    const agent = await t.signedIn('integrator', 'Ade Integrator');
+    const me = await agent.get('/api/auth/me');
+    // PRODUCT.md roles: integrators register and enroll loggers and create sites; no releases, keys, team or activity.
+    const open = Object.entries(me.body.can as Record<string, boolean>).filter(([, may]) => may).map(([verb]) => verb);
+    expect(open.sort()).toEqual(['createSite', 'enrollLoggers', 'registerLoggers']);
   });
 
   test('when the e-mail is written in capitals, then it still signs in', async () => {

@@ -1,10 +1,10 @@
-// Lagging sites (issue 6 §3) against a hand-built fleet where the reason of every logger behind is
+// Lagging sites against a hand-built fleet where the reason of every logger behind is
 // known, the retry of failed installs, the version matrix (§2) and the overview's fleet counts (§7).
 import semver from 'semver';
 import { createHash } from 'node:crypto';
 import { parse as parseCsv } from 'csv-parse/sync';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
-import { Activity, Site } from '../../server/db/models';
+import { Activity, Site, SiteIntegrator, User } from '../../server/db/models';
 import { createFleet, checkInBody, bearer, type Fleet } from './device-fixtures';
 import { reached, setReported } from './fleet-fixtures';
 import type { LaggingSite } from '../../schemas/fleet';
@@ -21,7 +21,7 @@ const release: Record<string, string> = {};
 type Agent = Awaited<ReturnType<TestApp['signedIn']>>;
 let support: Agent;
 
-/** The reason each site's one lagging logger must show, and why (DEVICE_API.md rules; issue 6 §3). */
+/** The reason each site's one lagging logger must show, and why (DEVICE_API.md rules). */
 const expected: Record<string, string> = {
   silent: 'silent', // last check-in 3 days ago, far beyond 3 × 900 s
   lowSupply: 'low_supply', // 4.0 V below the model's 4.6 V update minimum (rule 5)
@@ -176,6 +176,68 @@ describe('lagging sites', () => {
   });
 });
 
+describe('lagging sites for an integrator', () => {
+  // PRODUCT.md roles: an integrator reads their sites' loggers — so of lagging sites, only the sites
+  // assigned to them, in the list, its CSV and a lagging site's own page (which reads the list by siteId).
+  let tomasz: Agent;
+  const assigned = () => [site.silent, site.offered].sort();
+  beforeAll(async () => {
+    tomasz = await t.signedIn('integrator', 'Tomasz Integrator');
+    await t.signedIn('integrator', 'Ade Integrator');
+    const [me, other] = await Promise.all([User.findOne({ where: { name: 'Tomasz Integrator' } }), User.findOne({ where: { name: 'Ade Integrator' } })]);
+    await SiteIntegrator.bulkCreate([
+      { siteId: site.silent, userId: me!.id },
+      { siteId: site.offered, userId: me!.id },
+      { siteId: site.failed, userId: other!.id },
+    ]);
+  });
+
+  test('when an integrator opens lagging sites, then only the lagging sites assigned to them are listed and counted', async () => {
+    const res = await tomasz.get('/api/fleet/lagging-sites').query({ pageSize: 100 });
+    expect(res.status).toBe(200);
+    expect(res.body.rows.map((r: LaggingSite) => r.siteId).sort()).toEqual(assigned());
+    expect(res.body.total).toBe(2);
+    // Every other lagging site is still there for support, so the scope (not the fleet) made the difference.
+    expect((await lagging()).total).toBe(Object.keys(expected).length);
+  });
+
+  test('when an integrator filters by reason or asks for a site not assigned to them, then nothing of another site comes back', async () => {
+    const failed = await tomasz.get('/api/fleet/lagging-sites').query({ reason: 'failed_awaiting_retry' });
+    expect(failed.body).toMatchObject({ rows: [], total: 0 });
+    const other = await tomasz.get('/api/fleet/lagging-sites').query({ siteId: site.failed });
+    expect(other.body).toMatchObject({ rows: [], total: 0 });
+    const own = await tomasz.get('/api/fleet/lagging-sites').query({ siteId: site.silent });
+    expect(own.body.rows.map((r: LaggingSite) => [r.siteId, r.loggers.map((l) => l.reason)])).toEqual([[site.silent, ['silent']]]);
+  });
+
+  test('when an integrator exports lagging sites, then the CSV holds only the loggers behind at their sites', async () => {
+    const res = await tomasz.get('/api/fleet/lagging-sites/export.csv');
+    expect(res.status).toBe(200);
+    const records = parseCsv(res.text, { columns: true }) as Record<string, string>[];
+    expect(records.map((r) => r.serial).sort()).toEqual([logger.silent.serial, logger.offered.serial].sort());
+  });
+
+  test('when an integrator opens the version matrix, then it counts only the loggers they may read', async () => {
+    const model = (await tomasz.get('/api/fleet/versions')).body.models.find((m: { modelId: string }) => m.modelId === a.model.id);
+    // Their two sites hold one logger behind each (2.1.4) and one up to date at "offered" (2.3.0).
+    expect(model.versions).toEqual([
+      { firmware: '2.3.0', total: 1, byBoard: { B: 1 } },
+      { firmware: '2.1.4', total: 2, byBoard: { B: 2 } },
+    ]);
+    expect(model.channels.find((c: { channel: string }) => c.channel === 'stable')).toMatchObject({ loggers: 3, onCurrent: 1 });
+    const adoption = model.releases.find((r: { id: string }) => r.id === release.r230).adoption;
+    expect(adoption[adoption.length - 1].cumulative).toBe(1);
+  });
+
+  test('when each role reads a lagging site, then can says who retries its failed installs and who adds a note', async () => {
+    const canOf = async (agent: Agent) => (await agent.get('/api/fleet/lagging-sites').query({ siteId: site.silent })).body.rows[0].can;
+    const priya = await t.signedIn('release_engineer', 'Priya Engineer');
+    expect(await canOf(support)).toEqual({ retry: false, addNote: true });
+    expect(await canOf(priya)).toEqual({ retry: true, addNote: true });
+    expect(await canOf(tomasz)).toEqual({ retry: false, addNote: false });
+  });
+});
+
 describe('why no update', () => {
   test('when support asks why a 2.0.x logger gets no 2.3.0, then every release of the model has a verdict, and 2.1.4 is the stepping stone', async () => {
     const res = await support.get(`/api/loggers/${logger.steppingStone.id}/why`);
@@ -262,5 +324,22 @@ describe('overview', () => {
     const live = res.body.fleet.liveReleases.map((r: { id: string }) => r.id).sort();
     expect(live).toEqual([release.r214, release.r230, release.r300].sort());
     expect(res.body.fleet.liveReleases.find((r: { id: string }) => r.id === release.r230)).toMatchObject({ installed: 3, failed: 1, href: `/releases/${release.r230}` });
+  });
+
+  test('when an integrator reads the overview, then it carries no recent activity (they may not read the log), while support gets it', async () => {
+    const tomasz = await t.signedIn('integrator', 'Tomasz Integrator');
+    expect((await tomasz.get('/api/activity')).status).toBe(403);
+    const theirs = await tomasz.get('/api/overview');
+    expect(theirs.status).toBe(200);
+    expect(theirs.body.recentActivity).toBeNull();
+    // Each figure counts what its link opens for them: their lagging sites, their loggers, their sites.
+    const theirLagging = await tomasz.get('/api/fleet/lagging-sites');
+    expect(theirs.body.fleet.laggingSites.count).toBe(theirLagging.body.total);
+    expect(theirLagging.body.total).toBe(2);
+    expect(theirs.body.loggers.total).toBe((await tomasz.get('/api/loggers')).body.total);
+    expect(theirs.body.sites).toBe((await tomasz.get('/api/sites')).body.total);
+    expect(theirs.body.loggers.total).toBeLessThan((await support.get('/api/overview')).body.loggers.total);
+    const supports = await support.get('/api/overview');
+    expect(Array.isArray(supports.body.recentActivity)).toBe(true);
   });
 });

@@ -1,4 +1,4 @@
-// Signing keys (issue 4 §1). Key ids are checked against node:crypto's own SPKI DER export hashed
+// Signing keys. Key ids are checked against node:crypto's own SPKI DER export hashed
 // with SHA-256 (the definition in DEVICE_API.md "The signed manifest").
 import crypto from 'node:crypto';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
@@ -19,6 +19,7 @@ describe('registering a public key', () => {
     expect(res.status).toBe(201);
     const expectedKeyId = crypto.createHash('sha256').update(crypto.createPublicKey(key.publicPem).export({ type: 'spki', format: 'der' })).digest('hex').slice(0, 16);
     expect(res.body).toMatchObject({ name: `Build key ${algorithm}`, keyId: expectedKeyId, algorithm, state: 'active', retiredAt: null, revokedAt: null, releaseCount: 0 });
+    expect(res.body.can).toEqual({ retire: true, revoke: true });
     expect(res.body.publicKeyPem).toContain('-----BEGIN PUBLIC KEY-----');
     const list = await admin.get('/api/keys');
     expect(list.body.rows.map((k: { keyId: string }) => k.keyId)).toContain(expectedKeyId);
@@ -57,7 +58,11 @@ describe('registering a public key', () => {
   test('when a release engineer registers a key, then 403; listing is allowed; an integrator may not list', async () => {
     const engineer = await t.signedIn('release_engineer');
     expect((await engineer.post('/api/keys').set(csrf).send({ name: 'Mine', publicKeyPem: keyPair().publicPem })).status).toBe(403);
-    expect((await engineer.get('/api/keys')).status).toBe(200);
+    const listed = await engineer.get('/api/keys');
+    expect(listed.status).toBe(200);
+    // PRODUCT.md roles: release engineers do no key admin, so no key offers them a move.
+    expect(listed.body.rows.length).toBeGreaterThan(0);
+    for (const k of listed.body.rows) expect(k.can).toEqual({ retire: false, revoke: false });
     expect((await (await t.signedIn('integrator')).get('/api/keys')).status).toBe(403);
   });
 });
@@ -75,12 +80,14 @@ describe('key states', () => {
     expect(retired.status).toBe(200);
     expect(retired.body.state).toBe('retired');
     expect(retired.body.retiredAt).not.toBeNull();
+    expect(retired.body.can).toEqual({ retire: false, revoke: true });
     const retireAgain = await admin.post(`/api/keys/${id}/retire`).set(csrf);
     expect(retireAgain.status).toBe(409);
     expect(retireAgain.body.allowedActions).toEqual(['revoke']);
     const revoked = await admin.post(`/api/keys/${id}/revoke`).set(csrf);
     expect(revoked.body.state).toBe('revoked');
     expect(revoked.body.revokedAt).not.toBeNull();
+    expect(revoked.body.can).toEqual({ retire: false, revoke: false });
     const revokeAgain = await admin.post(`/api/keys/${id}/revoke`).set(csrf);
     expect(revokeAgain.status).toBe(409);
     expect(revokeAgain.body.allowedActions).toEqual([]);

@@ -1,4 +1,4 @@
-// Logger registration (issue 3 §3–4): one at a time and by CSV batch, tokens and labels, rotation, retirement,
+// Logger registration: one at a time and by CSV batch, tokens and labels, rotation, retirement,
 // the list and detail, roles.
 import { createHash } from 'node:crypto';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
@@ -304,5 +304,30 @@ describe('the logger list and detail', () => {
     // Seeded as seen 5 minutes ago with a 900 s check-in interval: within three intervals, so online.
     expect(res.body.online).toBe(true);
     expect((await agent.get('/api/loggers/00000000-0000-4000-8000-000000000000')).status).toBe(404);
+  });
+});
+
+describe('what each person may do with a logger (can)', () => {
+  // PRODUCT.md roles: the admin everything; integrators enroll, place and re-profile loggers at their own
+  // sites; support and release engineers add notes. A retired logger takes no token, move or profile.
+  const open = (can: Record<string, boolean>) => Object.keys(can).filter((verb) => can[verb]).sort();
+
+  test('when each role reads an enrolled logger at Tomasz\'s site, then can follows the roles table and his sites', async () => {
+    const logger = await Logger.findOne({ where: { serial: 'FL2-02401' } }); // Aldmere Village Hall, Tomasz's site
+    const can = async (name: 'Morgan' | 'Priya' | 'Tomasz' | 'Lena') => open((await (await demoAgent(t, name)).agent.get(`/api/loggers/${logger!.id}`)).body.can);
+    expect(await can('Morgan')).toEqual(['addNote', 'addPhoto', 'editProfile', 'move', 'retire', 'rotateToken']);
+    expect(await can('Priya')).toEqual(['addNote']);
+    expect(await can('Lena')).toEqual(['addNote']);
+    expect(await can('Tomasz')).toEqual(['addPhoto', 'editProfile', 'move']);
+  });
+
+  test('when an integrator registers a logger, then its answers let them enroll it and add its photo, and a retired one offers the admin only notes', async () => {
+    const ade = await demoAgent(t, 'Ade');
+    const own = await ade.agent.post('/api/loggers').set(csrf).send({ serial: 'FL2-13101', modelId: await demoModelId(), board: 'A' });
+    expect(open((await ade.agent.get(`/api/loggers/${own.body.id}`)).body.can)).toEqual(['addPhoto', 'enroll']);
+    const morgan = await demoAgent(t, 'Morgan');
+    const retired = await morgan.agent.post(`/api/loggers/${own.body.id}/retire`).set(csrf).send({});
+    expect(retired.status).toBe(200);
+    expect(open(retired.body.can)).toEqual(['addNote']);
   });
 });

@@ -1,4 +1,4 @@
-// Sites (issue 3 §2): who may create and edit, coordinate ranges, IANA time zones, activity rows.
+// Sites: who may create and edit, coordinate ranges, IANA time zones, activity rows.
 import { startTestApp, csrf, testPassword, type TestApp } from '../helpers/app';
 import { Activity, Site } from '../../server/db/models';
 
@@ -149,5 +149,36 @@ describe('sites', () => {
     }
     const support = await t.signedIn('support');
     expect((await support.get('/api/sites')).status).toBe(200);
+  });
+});
+
+describe('assigning integrators and what each person may do with a site (can)', () => {
+  // PRODUCT.md roles: the admin keeps the team, so only the admin says who works at a site; integrators
+  // create and edit the sites assigned to them; support adds notes to sites.
+  const open = (can: Record<string, boolean>) => Object.keys(can).filter((verb) => can[verb]).sort();
+
+  test('when an integrator tries to add a colleague to their site or to a new site, then 403 and the assignment is unchanged; their own list back is fine', async () => {
+    const tomasz = await demo('Tomasz');
+    const ade = await demo('Ade');
+    const id = await siteId('Aldmere Village Hall');
+    const add = await tomasz.agent.patch(`/api/sites/${id}`).set(csrf).send({ integratorIds: [tomasz.id, ade.id] });
+    expect(add.status).toBe(403);
+    expect(add.body.detail).toBe('Only an admin assigns integrators to a site.');
+    expect((await tomasz.agent.get(`/api/sites/${id}`)).body.integratorIds).toEqual([tomasz.id]);
+    const same = await tomasz.agent.patch(`/api/sites/${id}`).set(csrf).send({ integratorIds: [tomasz.id] });
+    expect(same.status).toBe(200);
+    const created = await tomasz.agent.post('/api/sites').set(csrf).send({ ...newSite, name: 'Two-person site', integratorIds: [ade.id] });
+    expect(created.status).toBe(403);
+    expect(await Site.count({ where: { name: 'Two-person site' } })).toBe(0);
+  });
+
+  test('when each role reads a site, then can follows the roles table and the assignment', async () => {
+    const id = await siteId('Aldmere Village Hall'); // assigned to Tomasz in the demo scenario
+    const can = async (name: 'Morgan' | 'Tomasz' | 'Lena') => open((await (await demo(name)).agent.get(`/api/sites/${id}`)).body.can);
+    expect(await can('Morgan')).toEqual(['addNote', 'assignIntegrators', 'edit', 'enroll']);
+    expect(await can('Tomasz')).toEqual(['edit', 'enroll']);
+    expect(await can('Lena')).toEqual(['addNote']);
+    const list = await (await demo('Tomasz')).agent.get('/api/sites');
+    for (const row of list.body.rows) expect(open(row.can)).toEqual(['edit', 'enroll']);
   });
 });

@@ -1,7 +1,8 @@
-// Releases (issue 4 §5): the lifecycle over the API, targeting edits while draft, deleting a draft,
+// Releases: the lifecycle over the API, targeting edits while draft, deleting a draft,
 // counts from install reports, the flag for a revoked signing key, and the rollout-share estimate.
-// Lifecycle expectations are the table in issue 4 §5; the cohort bucket is checked against
-// server/device-api/cohort.ts bucketOf (itself checked against node:crypto SHA-256 in its unit tests);
+// Lifecycle expectations are the lifecycle's complete table, written out below by hand; the cohort
+// bucket is checked against server/device-api/cohort.ts bucketOf (itself checked against node:crypto
+// SHA-256 in its unit tests);
 // the notes escaping follows OWASP's XSS prevention rule of HTML-escaping & < > " '.
 import crypto from 'node:crypto';
 import fs from 'node:fs';
@@ -42,7 +43,7 @@ async function act(id: string, step: Step) {
   return (await engineer()).post(`/api/releases/${id}/transitions`).set(csrf).send(step);
 }
 
-/** Paths from draft into each state that matters (issue 4 §5). */
+/** Paths from draft into each state that matters. */
 const into: Record<string, Step[]> = {
   draft: [],
   pilot: [{ action: 'start_pilot' }],
@@ -109,6 +110,9 @@ describe('the lifecycle over the API', () => {
     if (status === 200) {
       expect(res.body).toMatchObject({ state, share });
       expect(res.body.allowedActions).toEqual(allowed[state!]);
+      // The engineer's can: the same lifecycle moves, retry always, edit and delete only while draft (never here).
+      const open = Object.keys(res.body.can).filter((verb) => res.body.can[verb]);
+      expect(open.sort()).toEqual([...allowed[state!], 'retry'].sort());
       expect(await ReleaseTransition.count({ where: { releaseId: release.id } })).toBe(transitionsBefore + 1);
     } else {
       expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
@@ -235,6 +239,8 @@ describe('reading releases', () => {
       );
     }
     const detail = await (await t.signedIn('support')).get(`/api/releases/${release.id}`);
+    // PRODUCT.md roles: support reads releases and changes none.
+    expect(Object.values(detail.body.can).every((may) => may === false)).toBe(true);
     expect(detail.status).toBe(200);
     expect(detail.body.counts).toEqual({
       offered: 1, downloading: 1, downloaded: 0, installing: 0, installed: 2, failed: 2,
@@ -270,6 +276,9 @@ describe('reading releases', () => {
     expect(detail.body.key).toMatchObject({ state: 'revoked', keyId: signer.keyId });
     const row = (await admin.get('/api/releases')).body.rows.find((r: { id: string }) => r.id === published.id);
     expect(row.flagged).toBe(true);
+    // The draft's answer already says so: it may be edited or deleted, not started.
+    const draftView = await (await engineer()).get(`/api/releases/${draft.id}`);
+    expect(draftView.body.can).toMatchObject({ start_pilot: false, edit: true, delete: true });
     const start = await act(draft.id, { action: 'start_pilot' });
     expect(start.status).toBe(409);
     expect(start.body.detail).toContain('revoked');

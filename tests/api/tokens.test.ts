@@ -1,4 +1,4 @@
-// API tokens for automation (issue 4 §2). The stored digest is checked against node:crypto's SHA-256
+// API tokens for automation. The stored digest is checked against node:crypto's SHA-256
 // of the token text; the token shape (hat_ + 43 base64url characters = 32 random bytes, RFC 4648 §5).
 import crypto from 'node:crypto';
 import request from 'supertest';
@@ -96,6 +96,8 @@ describe('using tokens', () => {
     expect((await request(t.app).get('/api/keys').set(bearer(created.token))).status).toBe(401);
     expect((await ApiToken.findByPk(created.id))?.revokedAt?.toISOString()).toBe(clock.toISOString());
     expect(await Activity.count({ where: { action: 'token.revoked', targetId: created.id } })).toBe(1);
+    const listed = (await admin.get('/api/tokens')).body.rows.find((row: { id: string }) => row.id === created.id);
+    expect(listed.can).toEqual({ revoke: false });
     expect((await admin.delete(`/api/tokens/${crypto.randomUUID()}`).set(csrf)).status).toBe(404);
   });
 

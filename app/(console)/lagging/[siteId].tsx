@@ -4,23 +4,19 @@ import { View } from 'react-native';
 import { LaggingSiteScreen } from '../../../components/fleet-lagging';
 import { SiteNotes } from '../../../components/fleet-logger';
 import { useLaggingSite, useRetryInstall, useSiteNotesPanel } from '../../../hooks/fleet';
-import { useMe } from '../../../hooks/session';
 
 export default function LaggingSitePage() {
   const { siteId } = useLocalSearchParams<{ siteId: string }>();
   const router = useRouter();
-  const me = useMe();
   const site = useLaggingSite(siteId);
-  const canRetry = me.data?.role === 'admin' || me.data?.role === 'release_engineer';
   const retry = useRetryInstall();
-  const role = me.data?.role;
   // Support reads what colleagues noted about the site (a visit booked, shading) beside the reasons.
-  const notes = useSiteNotesPanel(site.data ? siteId : undefined, role === 'support' || role === 'release_engineer' || role === 'admin');
+  const notes = useSiteNotesPanel(site.data ? siteId : undefined, site.data?.can.addNote ?? false);
   return (
     <View style={{ gap: 24 }}>
       <LaggingSiteScreen
         state={site}
-        canRetry={canRetry}
+        canRetry={site.data?.can.retry ?? false}
         retry={{
           busy: retry.isPending,
           error: retry.error,

@@ -9,21 +9,17 @@ import { consoleOrigin, useLeaveGuard } from '../../../components/web';
 import { photoUrl, useLogger, useMoveLogger, useRetireLogger, useRotateToken, useUpdateProfile } from '../../../hooks/loggers';
 import { useModel } from '../../../hooks/models';
 import { useSites } from '../../../hooks/sites';
-import { useMe } from '../../../hooks/session';
 import { LoggerFleet } from '../../../components/fleet-logger-panel';
 
 export default function LoggerPage() {
   const { id } = useLocalSearchParams<{ id: string }>();
   const router = useRouter();
-  const me = useMe();
   const logger = useLogger(id);
   const rotate = useRotateToken(id);
   const retire = useRetireLogger(id);
   const move = useMoveLogger(id);
   const changeProfile = useUpdateProfile(id);
   const model = useModel(logger.data?.modelId);
-  const role = me.data?.role;
-  const canMove = role === 'admin' || role === 'integrator';
   const sites = useSites();
   const [issued, setIssued] = React.useState<SheetToken | null>(null);
   const [asking, setAsking] = React.useState(false);
@@ -56,9 +52,6 @@ export default function LoggerPage() {
   return (
     <LoggerScreen
       state={logger}
-      canRotate={role === 'admin'}
-      canRetire={role === 'admin'}
-      canMove={canMove}
       rotate={{
         busy: rotate.isPending,
         error: rotate.error,
@@ -66,13 +59,9 @@ export default function LoggerPage() {
       }}
       retire={{ busy: retire.isPending, error: retire.error, run: (reason) => retire.mutate({ reason: reason || undefined }) }}
       move={{ busy: move.isPending, error: move.error, run: (siteId) => move.mutate({ siteId }), sites: sites.data?.rows ?? [] }}
-      profile={
-        canMove
-          ? { busy: changeProfile.isPending, error: changeProfile.error, run: (input) => changeProfile.mutate(input), limits: model.data }
-          : undefined
-      }
+      profile={{ busy: changeProfile.isPending, error: changeProfile.error, run: (input) => changeProfile.mutate(input), limits: model.data }}
       photoUrl={photoUrl(id)}
-      fleet={<LoggerFleet loggerId={id} role={role} />}
+      fleet={<LoggerFleet loggerId={id} canNote={logger.data?.can.addNote ?? false} />}
     />
   );
 }

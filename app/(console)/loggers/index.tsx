@@ -19,7 +19,6 @@ export default function Loggers() {
   const modelOptions = (models.data?.rows ?? []).map((m) => ({ value: m.id, label: m.name }));
   const boardOptions = [...new Set((models.data?.rows ?? []).flatMap((m) => m.boards.map((b) => b.label)))].sort().map((b) => ({ value: b, label: `Board ${b}` }));
   const siteOptions = (sites.data?.rows ?? []).map((s) => ({ value: s.id, label: `${s.name} · ${s.customer}` }));
-  const role = me.data?.role;
   return (
     <FleetScreen
       state={fleet}
@@ -31,7 +30,7 @@ export default function Loggers() {
       models={modelOptions}
       boards={boardOptions}
       exportHref={fleetExportUrl(filter)}
-      canRegister={role === 'admin' || role === 'integrator'}
+      canRegister={me.data?.can.registerLoggers ?? false}
       onRegister={() => router.push('/loggers/register')}
       onOpen={(id) => router.push(`/loggers/${id}` as never)}
     />

@@ -11,7 +11,7 @@ export default function Models() {
   return (
     <ModelsScreen
       state={models}
-      isAdmin={me.data?.role === 'admin'}
+      canCreate={me.data?.can.createModel ?? false}
       create={{ busy: create.isPending, error: create.error, run: (input, done) => create.mutate(input, { onSuccess: done }) }}
       update={(id) => ({
         busy: update.isPending && update.variables?.id === id,

@@ -15,14 +15,12 @@ import {
   useUpdateRelease,
   type ReleaseTargeting,
 } from '../../../hooks/releases';
-import { useMe } from '../../../hooks/session';
 import { ReleaseDashboard, SITE_PAGE_SIZE } from '../../../components/release-dashboard';
 import { useLiveRelease } from '../../../hooks/fleet';
 
 export default function ReleaseDetail() {
   const { id = '' } = useLocalSearchParams<{ id: string }>();
   const router = useRouter();
-  const me = useMe();
   const { wide } = useBreakpoints();
   const release = useRelease(id);
   const live = release.data?.state === 'pilot' || release.data?.state === 'widening';
@@ -37,10 +35,9 @@ export default function ReleaseDetail() {
   const transition = useReleaseTransition(id);
   const remove = useDeleteRelease(id);
   const update = useUpdateRelease(id);
-  const role = me.data?.role;
-  const canManage = role === 'admin' || role === 'release_engineer';
-  const isDraft = release.data?.state === 'draft';
-  const sites = useSiteChoices(canManage && isDraft);
+  // The draft's targeting is edited by those the release's `can` allows (drafts only).
+  const canEdit = release.data?.can.edit ?? false;
+  const sites = useSiteChoices(canEdit);
   const [pilotOpen, setPilotOpen] = React.useState(false);
   const [saved, setSaved] = React.useState(false);
 
@@ -63,7 +60,6 @@ export default function ReleaseDetail() {
   return (
     <ReleaseDetailScreen
       state={release}
-      canManage={canManage}
       wide={wide}
       pending={pending}
       onPending={onPending}
@@ -85,7 +81,7 @@ export default function ReleaseDetail() {
         />
       )}
       targeting={
-        canManage && release.data && isDraft ? (
+        canEdit && release.data ? (
           <ReleaseTargetingForm
             key={release.data.id}
             release={release.data}

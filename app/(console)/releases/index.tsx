@@ -13,13 +13,12 @@ export default function Releases() {
   // Filters live in the address, so a filtered list can be shared and survives a reload.
   const filter: ReleaseFilter = { state: (params.state || undefined) as ReleaseState | undefined, channel: (params.channel || undefined) as Channel | undefined };
   const state = useReleases(filter);
-  const role = me.data?.role;
   return (
     <ReleaseListScreen
       state={state}
       filter={filter}
       onFilterChange={(f) => router.setParams({ state: f.state ?? '', channel: f.channel ?? '' })}
-      canCreate={role === 'admin' || role === 'release_engineer'}
+      canCreate={me.data?.can.createRelease ?? false}
       onNew={() => router.push('/releases/new' as never)}
       wide={wide}
     />

@@ -9,16 +9,16 @@ export default function Sites() {
   const me = useMe();
   const [q, setQ] = React.useState('');
   const sites = useSites(q.trim() || undefined);
-  const role = me.data?.role;
-  const integrators = useIntegrators(role === 'admin');
+  const can = me.data?.can;
+  const integrators = useIntegrators(can?.assignIntegrators ?? false);
   const create = useCreateSite();
   return (
     <SitesScreen
       state={sites}
       q={q}
       onQ={setQ}
-      canCreate={role === 'admin' || role === 'integrator'}
-      integrators={role === 'admin' ? integrators.data?.rows ?? [] : undefined}
+      canCreate={can?.createSite ?? false}
+      integrators={can?.assignIntegrators ? integrators.data?.rows ?? [] : undefined}
       create={{ busy: create.isPending, error: create.error, run: (input, done) => create.mutate(input, { onSuccess: done }) }}
       onOpen={(id) => router.push(`/sites/${id}` as never)}
     />
