@@ -61,6 +61,7 @@ async function main() {
     server.close();
     server.closeAllConnections?.();
     smtp?.close(() => undefined);
+    await app.stop().catch(() => undefined);
     await sequelize.close().catch(() => undefined);
     process.exit(0);
   };

@@ -127,6 +127,7 @@ describe('database down', () => {
       }
       expect(status).toBe(200);
     } finally {
+      await app.stop();
       await sequelize.close().catch(() => undefined);
       await down().catch(() => undefined);
     }

@@ -103,6 +103,7 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
         server.closeAllConnections();
         await new Promise((r) => server!.close(r));
       }
+      await app.stop();
       await sequelize.close();
       await db.drop();
       fs.rmSync(storeDir, { recursive: true, force: true });
