@@ -7,7 +7,7 @@
 // daylight) runs only for the loggers of the page's sites — or, when filtering by reason, for every
 // logger behind the current release (that filter needs the reason of each).
 import { QueryTypes } from 'sequelize';
-import type { OfferDecision, ReasonCode } from '../device-api/decision';
+import type { OfferDecision, ReasonCode } from '../rollout/decision';
 import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingQuery, type LaggingReason, type LaggingSite } from '../../schemas/fleet';
 import { likePattern } from '../sites/service';
 import { csvRecord, safeText } from './csv';

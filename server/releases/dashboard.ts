@@ -1,4 +1,4 @@
-// The release dashboard (issue 6 §4): how far a release has gone and how it is doing, beside the funnel
+// The release dashboard: how far a release has gone and how it is doing, beside the funnel
 // the release itself carries (presenter.ts installCounts).
 //
 // - Time to install: from the first offer (offered_at) to the install confirmed at a check-in on the
@@ -8,15 +8,17 @@
 // - Per board and per site: the enrolled loggers of the release's model and channel (the release's
 //   audience), how many run it or newer, and the install reports in each group. Sites list failures
 //   first, then installs in progress, so support reads the trouble at the top; paged in PostgreSQL.
-// - The trip points with their current values, read by the same queries and rules as the
-//   trip (device-api/stop.ts), so the dashboard shows what the stop will decide.
+// - The trip points with their current values, read by the same queries and rules as the trip
+//   (trip.ts, rollout/trip.ts), so the dashboard shows what the trip rule will decide.
 // - Adoption: confirmed installs per UTC day since the release started.
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { problems } from '../http/problem';
-import { failureFigures, tripGauges, resetFigures } from '../device-api/trip';
-import { retentionDays } from '../device-api/partitions';
+import { tripGauges } from '../rollout/trip';
+import { retentionDays } from '../db/retention';
+import { failureFigures, resetFigures } from './trip';
 import { adoptionDays } from '../fleet/versions';
+import { UNDER_WAY_INSTALL_STATES, type InstallState, type LoggerStatus } from '../../schemas/words';
 import type { ReleaseBoardRow, ReleaseDashboard, ReleaseSiteRow, ReleaseSitesQuery } from '../../schemas/releases';
 
 export type DashboardDeps = { sequelize: Sequelize; now: () => Date };
@@ -47,17 +49,20 @@ const INSTALL_S = `EXTRACT(EPOCH FROM (${DONE_AT} - ir.offered_at))`;
 const AUDIENCE = `
   FROM loggers l
   LEFT JOIN install_reports ir ON ir.logger_id = l.id AND ir.release_id = :releaseId
- WHERE l.model_id = :modelId AND l.channel = :channel AND l.status = 'enrolled'`;
+ WHERE l.model_id = :modelId AND l.channel = :channel AND l.status = :enrolled`;
+/** The single words the queries compare with, bound like every other value. */
+const WORDS: { enrolled: LoggerStatus; installed: InstallState; failed: InstallState } = { enrolled: 'enrolled', installed: 'installed', failed: 'failed' };
+
 const INTEGRATOR_SCOPE = ` AND (l.registered_by = :actorId OR l.site_id IN (SELECT site_id FROM site_integrators WHERE user_id = :actorId))`;
 
 const TALLY = `
   count(*)::int AS loggers,
   count(*) FILTER (WHERE l.firmware_key >= heliodor_semver_key(:version) COLLATE "C")::int AS on_release,
   count(ir.logger_id)::int AS reached,
-  count(*) FILTER (WHERE ir.state IN ('offered', 'downloading', 'downloaded', 'installing'))::int AS in_progress,
-  count(*) FILTER (WHERE ir.state = 'installed')::int AS installed,
-  count(*) FILTER (WHERE ir.state = 'failed')::int AS failed,
-  percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) FILTER (WHERE ir.state = 'installed' AND ${DONE_AT} IS NOT NULL) AS median_install_s`;
+  count(*) FILTER (WHERE ir.state IN (:underWay))::int AS in_progress,
+  count(*) FILTER (WHERE ir.state = :installed)::int AS installed,
+  count(*) FILTER (WHERE ir.state = :failed)::int AS failed,
+  percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) FILTER (WHERE ir.state = :installed AND ${DONE_AT} IS NOT NULL) AS median_install_s`;
 
 const tally = (r: TallyRow) => ({
   loggers: Number(r.loggers),
@@ -84,7 +89,15 @@ function scopeOf(actor: Actor, release: ReleaseRow) {
   const integrator = actor.type === 'person' && actor.role === 'integrator';
   return {
     scope: integrator ? INTEGRATOR_SCOPE : '',
-    replacements: { releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, actorId: integrator ? actor.id : null },
+    replacements: {
+      releaseId: release.id,
+      modelId: release.model_id,
+      channel: release.channel,
+      version: release.version,
+      actorId: integrator ? actor.id : null,
+      underWay: [...UNDER_WAY_INSTALL_STATES],
+      ...WORDS,
+    },
   };
 }
 
@@ -131,7 +144,7 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
       `SELECT count(*)::int AS installs,
               percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS median_s,
               percentile_cont(0.9) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS p90_s
-         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = 'installed' AND ${DONE_AT} IS NOT NULL`,
+         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL`,
       { type: QueryTypes.SELECT, replacements },
     ),
     sequelize.query<TallyRow & { board: string }>(`SELECT l.board, ${TALLY} ${AUDIENCE} ${scope} GROUP BY l.board ORDER BY l.board`, {
@@ -143,7 +156,7 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
     resetFigures(sequelize, undefined, release, now, retentionDays()),
     sequelize.query<{ day: string; n: number }>(
       `SELECT to_char(date_trunc('day', ${DONE_AT} AT TIME ZONE 'UTC'), 'YYYY-MM-DD') AS day, count(*)::int AS n
-         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = 'installed' AND ${DONE_AT} IS NOT NULL
+         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL
         GROUP BY 1 ORDER BY 1`,
       { type: QueryTypes.SELECT, replacements },
     ),

@@ -1,11 +1,15 @@
 // Release JSON for the console (camelCase; the contract in issue 4 and the client hooks).
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
-import { allowedActions } from './lifecycle';
+import { allowedActions } from '../rollout/lifecycle';
 import { renderNotes } from './notes';
-import { installReasons, installStates, type ReleaseCounts, type ReleaseRow, type ReleaseView } from '../../schemas/releases';
+import type { InstallState } from '../../schemas/words';
+import { installReasons, installStates, type ReleaseCounts, type ReleaseRow, type ReleaseView, type TripFigures } from '../../schemas/releases';
 
 export type InstallCounts = ReleaseCounts;
+
+const INSTALLED: InstallState = 'installed';
+const FAILED: InstallState = 'failed';
 export type { ReleaseRow, ReleaseView };
 
 /** Reports by their current state; failures by reason (a missing or unknown reason counts as other). */
@@ -47,6 +51,8 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     state: release.state,
     share: release.share,
     resumeState: release.resumeState,
+    stoppedBy: release.stoppedBy ?? null,
+    tripFigures: (release.tripFigures as TripFigures | null) ?? null,
     boards: release.boards,
     manifestBoards: release.manifestBoards,
     upgradeFrom: release.upgradeFrom,
@@ -91,13 +97,13 @@ export async function listReleaseRows(sequelize: Sequelize, filter: { modelId?: 
        JOIN models m ON m.id = r.model_id
        JOIN signing_keys k ON k.id = r.signing_key_id
        LEFT JOIN LATERAL (
-         SELECT count(*) FILTER (WHERE i.state = 'installed') AS installed,
-                count(*) FILTER (WHERE i.state = 'failed') AS failed
+         SELECT count(*) FILTER (WHERE i.state = :installed) AS installed,
+                count(*) FILTER (WHERE i.state = :failed) AS failed
            FROM install_reports i WHERE i.release_id = r.id
        ) c ON TRUE
       WHERE ${where.join(' AND ')}
       ORDER BY r.created_at DESC, r.id`,
-    { type: QueryTypes.SELECT, replacements: filter },
+    { type: QueryTypes.SELECT, replacements: { ...filter, installed: INSTALLED, failed: FAILED } },
   );
   const out: ReleaseRow[] = rows.map((r) => ({ ...r, share: Number(r.share), createdAt: new Date(r.createdAt).toISOString() }));
   return { rows: out, total: out.length };

@@ -60,7 +60,8 @@ describe('trip', () => {
     expect(activity[0].actor_type).toBe('system');
 
     const admin = await app.t.signedIn('admin', 'Morgan Stop Admin');
-    const subject = `Release 7.0.0 of ${app.fleet.model.name} tripped`;
+    // 20 of 20 finished installs failed: 100 % against the release's trip point of 5 %.
+    const subject = `Release 7.0.0 of ${app.fleet.model.name} tripped: 100 % of installs failed (trip point 5 %)`;
     let mails: { to: string[]; subject: string; text: string }[] = [];
     for (let i = 0; i < 50; i++) {
       const res = await admin.get('/api/dev/outbox');

@@ -10,7 +10,7 @@ import request from 'supertest';
 import { QueryTypes } from 'sequelize';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity, Logger, LoggerModel, Release, ReleaseTransition, Site } from '../../server/db/models';
-import { bucketOf } from '../../server/device-api/cohort';
+import { bucketOf } from '../../server/rollout/cohort';
 import { demoModel, keyPair, postUpload, registerKey, signedUpload, storeEntries, type KeyPair } from './release-fixtures';
 
 let t: TestApp;
@@ -136,7 +136,7 @@ describe('the lifecycle over the API', () => {
     expect(row.stoppedAt).not.toBeNull();
     expect(row.completedAt).toBeNull();
     const activity = await Activity.findAll({ where: { targetType: 'release', targetId: release.id }, order: [['id', 'ASC']] });
-    expect(activity.map((a) => a.action)).toEqual(['release.uploaded', 'release.start_pilot', 'release.pause', 'release.resume', 'release.widen', 'release.stop']);
+    expect(activity.map((a) => a.action)).toEqual(['release.uploaded', 'release.pilot_started', 'release.paused', 'release.resumed', 'release.widened', 'release.stopped']);
     expect(activity[5].summary).toContain('watchdog resets doubled');
     expect(activity[5].actorName).toBe('Priya Test');
   });

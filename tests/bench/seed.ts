@@ -379,7 +379,7 @@ export async function seedBench(
 
     await db.query(
       `INSERT INTO activity (at, actor_type, actor_id, actor_name, action, target_type, target_id, summary)
-       SELECT ${nowLit} - make_interval(mins => i * 37), 'person', $1, 'Priya', 'release.widen', 'release', $2, 'Priya widened FL-2 field logger 2.3.0 to 25 %'
+       SELECT ${nowLit} - make_interval(mins => i * 37), 'person', $1, 'Priya', 'release.widened', 'release', $2, 'Priya widened FL-2 field logger 2.3.0 to 25 %'
          FROM generate_series(1, 200) AS i`,
       [people.Priya, plan0.r230.id],
     );

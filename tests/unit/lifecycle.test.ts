@@ -2,13 +2,12 @@ import {
   allowedActions,
   canDelete,
   isLive,
-  RELEASE_ACTIONS,
-  RELEASE_STATES,
   transition,
   type ReleaseAction,
   type ReleaseLifecycle,
   type ReleaseState,
-} from '../../server/releases/lifecycle';
+} from '../../server/rollout/lifecycle';
+import { RELEASE_ACTIONS, RELEASE_STATES } from '../../schemas/words';
 
 // Source: issue 4 §5 "Lifecycle, the complete table", written out here by hand (not read from lifecycle.ts):
 // draft → pilot (start_pilot) or deleted; pilot → widening (widen, 1–99 %), complete, paused, stopped,

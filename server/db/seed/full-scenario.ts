@@ -25,6 +25,7 @@ import { seededRandom } from '../../../scripts/simulator/random';
 import { createDemoKey, demoImage, signDemoManifest, storeImage } from './demo-signing';
 import { COUNTER_OF, DAY, HOUR, planFleet, SITE, type PlannedRelease } from './fleet-plan';
 import { seedCheckInHistory, ensureHistoryPartitions } from './history';
+import { RELEASE_EVENTS } from '../../../schemas/words';
 
 export type FullSeedContext = {
   sequelize: Sequelize;
@@ -88,13 +89,15 @@ export async function seedFullScenario(ctx: FullSeedContext) {
       issuedAt: new Date(Math.floor((r.uploadedAt.getTime() - 2 * HOUR) / 1000) * 1000),
     });
     const lastStep = r.steps[r.steps.length - 1];
+    // Who stopped a stopped release (the demo's stops are people's; a trip's figures are not replayed here).
+    const stoppedBy = r.state === 'stopped' ? (r.steps.findLast((s) => s.action === 'stop')?.actor === 'system' ? 'trip' : 'person') : null;
     const row = await Release.create(
       {
         id: r.id, modelId: model.id, version: r.version, channel: r.channel, state: r.state, share: r.share, resumeState: r.resumeState,
         boards: r.boards, manifestBoards: r.boards, upgradeFrom: r.upgradeFrom, daylightWindow: r.daylightWindow,
         securityCounter: r.securityCounter, imageSha256: image.sha256, manifest: signed.manifest, signature: signed.signature,
         signingKeyId: keyRow.id, notes: r.notes, createdBy: priya.id, createdAt: r.uploadedAt, updatedAt: lastStep.at,
-        pilotedAt: r.pilotedAt, widenedAt: r.widenedAt, completedAt: r.completedAt, stoppedAt: r.stoppedAt,
+        pilotedAt: r.pilotedAt, widenedAt: r.widenedAt, completedAt: r.completedAt, stoppedAt: r.stoppedAt, stoppedBy,
       },
       { transaction },
     );
@@ -185,8 +188,15 @@ export async function seedFullScenario(ctx: FullSeedContext) {
                 ? `${s.actor} completed the rollout of ${name}`
                 : `${s.actor} stopped ${name}${s.reason ? `: ${s.reason}` : ''}`;
       entries.push({
-        at: s.at, actor, action: s.action === 'upload' ? 'release.uploaded' : `release.${s.action}`, targetType: 'release', targetId: r.id, summary,
-        details: s.action === 'upload' ? undefined : { fromState: s.fromState, toState: s.toState, share: s.shareAfter, reason: s.reason ?? null },
+        at: s.at, actor, action: s.action === 'upload' ? 'release.uploaded' : RELEASE_EVENTS[s.action], targetType: 'release', targetId: r.id, summary,
+        details:
+          s.action === 'upload'
+            ? undefined
+            : {
+                fromState: s.fromState, toState: s.toState, share: s.shareAfter, reason: s.reason ?? null,
+                // As the writer of transitions records a stop (server/releases/transitions.ts).
+                ...(s.action === 'stop' ? { by: s.actor === 'system' ? 'trip' : 'person', rule: null, figures: null } : {}),
+              },
       });
     }
   }

@@ -1,4 +1,4 @@
-// Install reports (DEVICE_API.md "Install report"; issue 5 §4). Pure: no I/O.
+// Install reports (DEVICE_API.md "Install report"). Pure: no I/O.
 //
 // One row per (logger, release) holds where that logger stands with that release. States only move
 // forward: offered < downloading < downloaded < installing < installed, and failed ends an attempt. A
@@ -13,12 +13,12 @@
 // - installed is final for the row, except that the service may turn it into failed (other) when the
 //   bootloader rolled back (see `afterInstalled`).
 import semver from 'semver';
-import type { InstallFailureReason, ReportedInstallState } from '../../schemas/device';
-import { TRANSIENT_FAILURE_REASONS } from './decision';
+import { TRANSIENT_FAILURE_REASONS, type FailureReason, type InstallState, type ReportedInstallState } from '../../schemas/words';
 
-export type StoredState = 'offered' | ReportedInstallState;
+/** An install's state as the server keeps it (offered, then what the logger reported). */
+export type StoredState = InstallState;
 
-export const STATE_ORDER: Record<StoredState, number> = {
+export const STATE_ORDER: Record<InstallState, number> = {
   offered: 0,
   downloading: 1,
   downloaded: 2,
@@ -36,7 +36,7 @@ export type StoredReport = {
 
 export type ReportChange =
   | { apply: false; why: 'repeated' | 'older' | 'after_install' | 'failed_awaiting_retry' }
-  | { apply: true; state: ReportedInstallState; reason: InstallFailureReason | null; newAttempt: boolean };
+  | { apply: true; state: ReportedInstallState; reason: FailureReason | null; newAttempt: boolean };
 
 export const ROLLBACK_DETAIL = 'rolled back by the bootloader';
 
@@ -50,7 +50,7 @@ export function retriedSince(row: StoredReport): boolean {
 }
 
 /** What a reported state does to the stored row (null: no row yet). */
-export function applyReport(row: StoredReport | null, state: ReportedInstallState, reason?: InstallFailureReason | null): ReportChange {
+export function applyReport(row: StoredReport | null, state: ReportedInstallState, reason?: FailureReason | null): ReportChange {
   const failureReason = state === 'failed' ? (reason ?? 'other') : null;
   if (row === null) return { apply: true, state, reason: failureReason, newAttempt: true };
   if (row.state === 'failed') {
