@@ -1,4 +1,4 @@
-// Release JSON for the console (camelCase; the contract in issue 4 and the client hooks).
+// Release JSON for the console (camelCase; the shapes of schemas/releases.ts, which the client hooks read).
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
 import { allowedActions } from '../rollout/lifecycle';

@@ -65,7 +65,11 @@ async function signingKeyFor(manifestBytes: Buffer, signatureText: string): Prom
   throw refuse('signature', 'The signature does not match the manifest with any active signing key: check the key used and that the manifest file was not changed after signing.');
 }
 
-/** The checks of issue 4 §4, in order; throws the first refusal. Nothing is written here. */
+/**
+ * The upload's checks, in order: every part present, the manifest, a signature by an active key, the
+ * image's size and digest, the model and its boards, a version not uploaded before, a security counter
+ * no lower than the published ones. Throws the first refusal; nothing is written here.
+ */
 async function checkUpload(parts: UploadParts): Promise<{ manifest: Manifest; key: SigningKey; model: LoggerModel; image: NonNullable<UploadParts['image']> }> {
   const missing = (['image', 'manifest', 'signature'] as const).filter((name) => !parts[name]);
   if (missing.length) {

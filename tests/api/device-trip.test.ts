@@ -1,4 +1,4 @@
-// Trip under concurrent install reports (issue 5 §5): 50 loggers report failed at once; the
+// Trip under concurrent install reports (PRODUCT.md journey 4, "a bad release trips by itself"): 50 loggers report failed at once; the
 // release stops exactly once, one e-mail goes out, every report is counted. Threshold figures: the
 // release's own tripFailureRatio (5 %) and tripMinReports (20), as DEVICE_API.md's releases carry them.
 import { QueryTypes } from 'sequelize';
