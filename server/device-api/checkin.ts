@@ -29,7 +29,6 @@ import { checkInStore, resetsOf, type CheckInStore, type ReportRow } from './che
 import { nextCheckInSeconds } from './load';
 import type { CachedRelease, ReleaseCache } from './release-cache';
 
-export { resetsOf };
 
 export type CheckInDeps = {
   sequelize: Sequelize;
@@ -76,7 +75,8 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
   return {
     server_time: now.toISOString().replace(/\.\d{3}Z$/, 'Z'),
     next_check_in_s: nextCheckInSeconds(logger.checkInIntervalS, deps.random(), deps.stretch()),
-    ...answer,
+    config: answer.config,
+    offer: answer.offer,
   };
 }
 
@@ -165,11 +165,11 @@ function profileToSend(profile: DeviceConfig | null, running: number | undefined
   return profile && (running === undefined || running < profile.version) ? profile : null;
 }
 
-export function imageUrl(sha256: string): string {
+function imageUrl(sha256: string): string {
   return `/api/device/v1/images/${sha256}`;
 }
 
-export function offerOf(r: CachedRelease): Offer {
+function offerOf(r: CachedRelease): Offer {
   return {
     release: r.id,
     version: r.version,
