@@ -132,9 +132,31 @@ export type ReleaseTransitionView = {
   actorName: string;
 };
 
+/** The figures a trip rule judged when it stopped a release (kept on the release as trip_figures). */
+export type TripFigures =
+  | { rule: 'failure_ratio'; installed: number; failed: number; finished: number; ratio: number; tripPoint: number; minReports: number }
+  | {
+      rule: 'reset_rate';
+      loggers: number;
+      resetsAfter: number;
+      loggerDaysAfter: number;
+      resetsBefore: number;
+      loggerDaysBefore: number;
+      /** Resets per logger-day on the release, and before it as judged (with the floor). */
+      after: number;
+      before: number;
+      /** after ÷ before, against the trip point (tripResetFactor). */
+      factor: number;
+      tripPoint: number;
+    };
+
 /** A release as GET /api/releases/:id, PATCH, transitions and the upload answer it. */
 export type ReleaseView = ReleaseHeading & {
   resumeState: ResumeState | null;
+  /** Who stopped it while it is stopped (kept once withdrawn): a person, or the trip rule ("Tripped"). */
+  stoppedBy: StoppedBy | null;
+  /** For a trip, the rule and the figures that tripped it. */
+  tripFigures: TripFigures | null;
   boards: string[];
   manifestBoards: string[];
   upgradeFrom: string | null;

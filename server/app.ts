@@ -28,7 +28,7 @@ import { registerModelRoutes } from './models/routes';
 import { registerSiteRoutes } from './sites/routes';
 import { registerLoggerRoutes } from './loggers/routes';
 import { registerFleetRoutes } from './fleet/routes';
-import { registerDeviceRoutes } from './device-api/routes';
+import { createDeviceApi } from './device-api/routes';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -103,7 +103,9 @@ export function createApp(deps: AppDeps) {
   registerSiteRoutes(api, services);
   registerFleetRoutes(api, services); // before the logger routes: /api/loggers/export.csv is not a logger id
   registerLoggerRoutes(api, services);
-  registerDeviceRoutes(api, services);
+  // The device API's background work runs from here until the app is stopped.
+  const deviceApi = createDeviceApi(services);
+  deviceApi.routes(api);
   app.use(router);
 
   app.use('/api', (req: Request, _res: Response, next: NextFunction) => next(problems.notFound('endpoint', `No endpoint ${req.method} ${req.path}.`)));
@@ -119,7 +121,9 @@ export function createApp(deps: AppDeps) {
   });
 
   app.use(errorHandler);
-  return Object.assign(app, { apiRouter: router, services });
+  /** Ends the app's background work; call it before closing the database. */
+  const stop = () => deviceApi.stop();
+  return Object.assign(app, { apiRouter: router, services, stop });
 }
 
 function noCacheForHtml(res: Response, file: string) {

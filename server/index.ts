@@ -81,6 +81,7 @@ async function main() {
     server.close();
     server.closeAllConnections?.();
     smtp?.close(() => undefined);
+    await app.stop().catch(() => undefined);
     await sequelize.close().catch(() => undefined);
     logger.info('stopped');
     process.exit(0);

@@ -24,7 +24,7 @@ import { RELEASE_VERBS, type ReleaseAction, type ReleaseState, type ReleaseVerb 
 import { SITE_VERBS, type SiteVerb } from '../../schemas/sites';
 import { TOKEN_VERBS, type TokenVerb } from '../../schemas/tokens';
 import { problems } from '../http/problem';
-import { allowedActions, canDelete } from '../releases/lifecycle';
+import { allowedActions, canDelete } from '../rollout/lifecycle';
 import type { Actor, Scope } from './actor';
 
 // ─── Resources: the facts each rule reads ───────────────────────────────────

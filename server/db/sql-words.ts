@@ -10,6 +10,7 @@ import {
   REACHED_STATES,
   TRANSIENT_FAILURE_REASONS,
   UNDER_WAY_INSTALL_STATES,
+  type Channel,
   type FailureReason,
   type InstallState,
   type LoggerStatus,
@@ -19,6 +20,7 @@ import {
 } from '../../schemas/words';
 
 const release = <S extends ReleaseState>(s: S) => s;
+const channel = <S extends Channel>(s: S) => s;
 const install = <S extends InstallState>(s: S) => s;
 const status = <S extends LoggerStatus>(s: S) => s;
 const update = <S extends UpdateState>(s: S) => s;
@@ -29,8 +31,10 @@ export const SQL_WORDS = {
   liveStates: [...LIVE_STATES],
   reachedStates: [...REACHED_STATES],
   draft: release('draft'),
+  complete: release('complete'),
   withdrawn: release('withdrawn'),
   channels: [...CHANNELS],
+  stable: channel('stable'),
   // installs
   installStates: [...INSTALL_STATES],
   underWay: [...UNDER_WAY_INSTALL_STATES],

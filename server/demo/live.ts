@@ -31,6 +31,7 @@ import { boardSupplies, typicalPanel, type BoardSupply } from '../../scripts/sim
 import { parsePublicKeyPem, type SigningPublicKey } from '../images/manifest';
 import { planFleet, type Role } from '../db/seed/fleet-plan';
 import { demoLoggerToken, existingDemoSecret } from './tokens';
+import { SQL_WORDS } from '../db/sql-words';
 
 export type LiveDemoSettings = {
   /** Simulated seconds per real second (1: real time). Tests and demonstrations may run it faster. */
@@ -112,8 +113,8 @@ async function roster(sequelize: Sequelize): Promise<RosterRow[]> {
             CAST(l.install->>'panelWp' AS float8) AS panel_wp, s.latitude::float8 AS latitude, s.longitude::float8 AS longitude,
             m.check_in_interval_s AS interval_s
        FROM loggers l JOIN models m ON m.id = l.model_id LEFT JOIN sites s ON s.id = l.site_id
-      WHERE l.status = 'enrolled'`,
-    { type: QueryTypes.SELECT },
+      WHERE l.status = :enrolled`,
+    { type: QueryTypes.SELECT, replacements: SQL_WORDS },
   );
 }
 
@@ -134,8 +135,8 @@ async function trustedKeysOf(sequelize: Sequelize): Promise<SigningPublicKey[]> 
 /** What a logger enrolled from the shelf runs: the newest complete stable release of its model (as the fleet plan's factory firmware). */
 async function factoryFirmware(sequelize: Sequelize): Promise<Map<string, { version: string; securityCounter: number }>> {
   const rows = await sequelize.query<{ model_id: string; version: string; security_counter: number }>(
-    "SELECT model_id, version, security_counter FROM releases WHERE state = 'complete' AND channel = 'stable'",
-    { type: QueryTypes.SELECT },
+    "SELECT model_id, version, security_counter FROM releases WHERE state = :complete AND channel = :stable",
+    { type: QueryTypes.SELECT, replacements: SQL_WORDS },
   );
   const newest = new Map<string, { version: string; securityCounter: number }>();
   for (const r of rows) {
@@ -203,12 +204,12 @@ export function guardedFailRate(rate: number, release: ReleaseFailures | undefin
 async function releaseFailures(sequelize: Sequelize): Promise<Map<string, ReleaseFailures>> {
   const rows = await sequelize.query<ReleaseFailures & { id: string }>(
     `SELECT r.id, r.trip_failure_ratio::float8 AS "tripFailureRatio", r.trip_min_reports AS "tripMinReports",
-            count(ir.release_id) FILTER (WHERE ir.state = 'installed')::int AS installed,
-            count(ir.release_id) FILTER (WHERE ir.state = 'failed' AND COALESCE(ir.reason, 'other') NOT IN ('connection', 'low_supply'))::int AS failed
+            count(ir.release_id) FILTER (WHERE ir.state = :installed)::int AS installed,
+            count(ir.release_id) FILTER (WHERE ir.state = :failed AND COALESCE(ir.reason, :otherReason) NOT IN (:transientReasons))::int AS failed
        FROM releases r LEFT JOIN install_reports ir ON ir.release_id = r.id
-      WHERE r.state IN ('pilot', 'widening', 'complete')
+      WHERE r.state IN (:liveStates)
       GROUP BY r.id`,
-    { type: QueryTypes.SELECT },
+    { type: QueryTypes.SELECT, replacements: SQL_WORDS },
   );
   return new Map(rows.map((r) => [r.id, r]));
 }

@@ -7,7 +7,7 @@ import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import { digestToken, sameDigest, tokenPattern } from '../auth/tokens';
 import { problems } from '../http/problem';
-import type { LoggerStatus, Channel } from './decision';
+import type { Channel, LoggerStatus } from '../../schemas/words';
 
 /** The logger behind a device request, with what its model and site contribute to a check-in. */
 export type DeviceLogger = {

@@ -8,6 +8,7 @@ import type { Request, Response } from 'express';
 import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import { imageIdPattern } from '../../schemas/device';
+import { LIVE_STATES } from '../../schemas/words';
 import { Problem, problems } from '../http/problem';
 import { contentRange, ifRangeMatches, imageEtag, parseRange, unsatisfiedRange } from './ranges';
 
@@ -22,8 +23,8 @@ const notFound = () => problems.notFound('image', 'No such image for this logger
 export async function mayDownload(sequelize: Sequelize, loggerId: string, sha256: string): Promise<{ size: number } | null> {
   const rows = await sequelize.query<{ size: number }>(
     `SELECT i.size FROM install_reports ir JOIN releases r ON r.id = ir.release_id JOIN images i ON i.sha256 = r.image_sha256
-      WHERE ir.logger_id = :loggerId AND r.image_sha256 = :sha256 AND r.state IN ('pilot', 'widening', 'complete') LIMIT 1`,
-    { type: QueryTypes.SELECT, replacements: { loggerId, sha256 } },
+      WHERE ir.logger_id = :loggerId AND r.image_sha256 = :sha256 AND r.state IN (:liveStates) LIMIT 1`,
+    { type: QueryTypes.SELECT, replacements: { loggerId, sha256, liveStates: [...LIVE_STATES] } },
   );
   return rows[0] ? { size: Number(rows[0].size) } : null;
 }

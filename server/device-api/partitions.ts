@@ -5,15 +5,10 @@
 // range the DEFAULT partition already holds rows for.
 import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
+import { DEFAULT_RETENTION_DAYS, retentionDays } from '../db/retention';
 
-export const DEFAULT_RETENTION_DAYS = 30;
+export { DEFAULT_RETENTION_DAYS, retentionDays };
 export const DAYS_AHEAD = 7;
-
-export function retentionDays(env: Record<string, string | undefined> = process.env): number {
-  const raw = env.HELIODOR_CHECKIN_RETENTION_DAYS;
-  const n = raw === undefined || raw === '' ? DEFAULT_RETENTION_DAYS : Number(raw);
-  return Number.isInteger(n) && n >= 1 ? n : DEFAULT_RETENTION_DAYS;
-}
 
 const DAY_MS = 86_400_000;
 

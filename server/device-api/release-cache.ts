@@ -4,9 +4,9 @@
 //
 // Invalidation, fastest first:
 // 1. In-process: a change this process makes is dropped from its cache as soon as its transaction
-//    commits — the Release model's hooks (any service that saves a release through the model) and the
-//    trip call `invalidate` — so a transition takes effect at the very next check-in this
-//    process serves.
+//    commits — through the Release model's hooks, which every save through the model runs, the one
+//    writer of transitions (server/releases/transitions.ts) included, whether a person or the trip rule
+//    moved the release — so a transition takes effect at the very next check-in this process serves.
 // 2. Other processes: triggers from migration 0004 NOTIFY `heliodor_releases` with the model id on
 //    every change to releases, pilot sites or signing keys; each process LISTENs on a connection of
 //    its own and drops that model's entry.
@@ -14,62 +14,14 @@
 //    connection was down; it reconnects by itself every 5 s and then drops everything).
 import pg from 'pg';
 import type { Sequelize } from 'sequelize';
-import { QueryTypes } from 'sequelize';
 import { Release } from '../db/models';
-import type { ReleaseTargeting, Channel } from './decision';
-import type { ReleaseState, ResumeState } from '../releases/lifecycle';
-import type { SignatureAlgorithm } from '../../schemas/manifest';
+import { loadReleasesOfModel, type OfferableRelease } from '../releases/targeting';
 
 export const CACHE_TTL_MS = 5_000;
 const CHANNEL = 'heliodor_releases';
 
-export type CachedRelease = ReleaseTargeting & {
-  modelId: string;
-  resumeState: ResumeState | null;
-  imageSha256: string;
-  imageSize: number;
-  manifest: Buffer;
-  signature: Buffer;
-  keyId: string;
-  algorithm: SignatureAlgorithm;
-  tripFailureRatio: number;
-  tripMinReports: number;
-  tripResetFactor: number;
-};
-
-type Row = Omit<CachedRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boards' | 'keyId'> & {
-  share: number | string;
-  imageSize: number | string;
-  pilotSiteIds: string[] | null;
-  boards: string[];
-  keyId: string;
-};
-
-export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string): Promise<CachedRelease[]> {
-  const rows = await sequelize.query<Row>(
-    `SELECT r.id, r.model_id AS "modelId", r.version, r.channel, r.state, r.share, r.resume_state AS "resumeState", r.boards,
-            r.upgrade_from AS "upgradeFrom", r.security_counter AS "securityCounter", r.daylight_window AS "daylightWindow",
-            r.image_sha256 AS "imageSha256", i.size AS "imageSize", r.manifest, r.signature, k.key_id AS "keyId", k.algorithm,
-            r.trip_failure_ratio AS "tripFailureRatio", r.trip_min_reports AS "tripMinReports", r.trip_reset_factor AS "tripResetFactor",
-            (SELECT array_agg(ps.site_id::text ORDER BY ps.site_id) FROM release_pilot_sites ps WHERE ps.release_id = r.id) AS "pilotSiteIds"
-       FROM releases r JOIN images i ON i.sha256 = r.image_sha256 JOIN signing_keys k ON k.id = r.signing_key_id
-      WHERE r.model_id = :modelId AND r.state <> 'draft'`,
-    { type: QueryTypes.SELECT, replacements: { modelId } },
-  );
-  return rows.map((r) => ({
-    ...r,
-    channel: r.channel as Channel,
-    state: r.state as ReleaseState,
-    share: Number(r.share),
-    imageSize: Number(r.imageSize),
-    tripFailureRatio: Number(r.tripFailureRatio),
-    tripMinReports: Number(r.tripMinReports),
-    tripResetFactor: Number(r.tripResetFactor),
-    keyId: r.keyId.trim(),
-    imageSha256: r.imageSha256.trim(),
-    pilotSiteIds: r.pilotSiteIds ?? [],
-  }));
-}
+/** A release of a model as the check-in decides on it (server/releases/targeting.ts reads it). */
+export type CachedRelease = OfferableRelease;
 
 type Entry = { at: number; releases: Promise<CachedRelease[]> };
 

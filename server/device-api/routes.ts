@@ -11,7 +11,7 @@ import { checkInRequestSchema } from '../../schemas/device';
 import { authenticateLogger } from './auth';
 import { checkIn } from './checkin';
 import { isImageId, serveImage } from './images';
-import { createLoadControl, deviceRateLimit } from './load';
+import { createLoadControl, deviceRateLimit, type LoadControl } from './load';
 import { deviceOpenApiDocument } from './openapi';
 import { startPartitionMaintenance } from './partitions';
 import { createReleaseCache, type ReleaseCache } from './release-cache';
@@ -36,9 +36,14 @@ export type DeviceApiDeps = {
   random?: () => number;
 };
 
-export type DeviceApi = { releases: ReleaseCache; stop(): Promise<void> };
+/**
+ * The device API as the app holds it: `routes` registers its routes, `stop` ends its background work
+ * (the release cache's LISTEN connection, partition maintenance, the load sampler), which starts when
+ * the device API is created. The app stops it before it closes the database.
+ */
+export type DeviceApi = { routes(api: Api): void; stop(): Promise<void>; releases: ReleaseCache };
 
-export function registerDeviceRoutes(api: Api, deps: DeviceApiDeps): DeviceApi {
+export function createDeviceApi(deps: DeviceApiDeps): DeviceApi {
   const { sequelize } = deps;
   const releases = createReleaseCache(sequelize, { log: (msg, err) => deps.logger.warn({ err }, msg) });
   const load = createLoadControl(sequelize);
@@ -46,18 +51,19 @@ export function registerDeviceRoutes(api: Api, deps: DeviceApiDeps): DeviceApi {
     now: deps.now,
     log: (err) => deps.logger.warn({ err }, 'check-in partition maintenance failed; retrying later'),
   });
-  const stop = async () => {
-    stopPartitions();
-    load.stop();
-    await releases.stop();
-  };
-  // Background work ends with the database it uses.
-  const close = sequelize.close.bind(sequelize);
-  sequelize.close = async () => {
-    await stop();
-    return close();
-  };
+  let stopped: Promise<void> | null = null;
+  const stop = () =>
+    (stopped ??= (async () => {
+      stopPartitions();
+      load.stop();
+      await releases.stop();
+    })());
 
+  return { routes: (api) => registerRoutes(api, deps, releases, load), stop, releases };
+}
+
+function registerRoutes(api: Api, deps: DeviceApiDeps, releases: ReleaseCache, load: LoadControl) {
+  const { sequelize } = deps;
   const limit = deviceRateLimit(deps.config.deviceRatePerMinute);
   const resetChecks = new Map<string, number>();
 
@@ -85,6 +91,4 @@ export function registerDeviceRoutes(api: Api, deps: DeviceApiDeps): DeviceApi {
     res.setHeader('Cache-Control', 'public, max-age=300');
     res.json(deviceOpenApiDocument());
   });
-
-  return { releases, stop };
 }

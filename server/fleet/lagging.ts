@@ -12,7 +12,7 @@
 import { QueryTypes } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { fleet, may, siteScope, type SqlScope } from '../auth/policies';
-import type { OfferDecision, ReasonCode } from '../device-api/decision';
+import type { OfferDecision, ReasonCode } from '../rollout/decision';
 import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingQuery, type LaggingReason, type LaggingSite } from '../../schemas/fleet';
 import { likePattern } from '../sites/service';
 import { csvRecord, safeText } from './csv';

@@ -7,7 +7,7 @@ import { problems } from '../http/problem';
 import { loggerFor } from '../loggers/service';
 import { authorize } from '../auth/policies';
 import { siteResource } from '../sites/service';
-import { REASON_LABELS } from '../device-api/decision';
+import { REASON_LABELS } from '../rollout/decision';
 import type { Note, RetryAnswer, RetryRequest, SiteNotesQuery, Sparklines, TimelineItem, WhyAnswer } from '../../schemas/fleet';
 import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C } from '../../schemas/fleet';
 import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
@@ -20,7 +20,7 @@ const iso = (d: Date | string) => new Date(d).toISOString();
 
 /**
  * Clears failed installs of a release for some loggers (or a whole site): retried_at is set after the
- * failure, the check-in service then passes no report for that release to the decision (reports.ts
+ * failure, the check-in service then passes no report for that release to the decision (rollout/reports.ts
  * retriedSince), and the next check-in is offered the release again when the other rules allow.
  * Failures already retried and not failed again are not counted twice.
  */

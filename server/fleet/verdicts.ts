@@ -2,36 +2,31 @@
 // decideOffer on their model's releases with their latest reported state, so "Why no update?" and the
 // lagging sites say exactly what the next check-in would decide (at the time `now`).
 import { QueryTypes, type Sequelize } from 'sequelize';
-import { decideOffer, type LastInstallReport, type LoggerAtCheckIn, type OfferDecision } from '../device-api/decision';
-import { loadReleasesOfModel, type CachedRelease } from '../device-api/release-cache';
-import { retriedSince, type StoredState } from '../device-api/reports';
+import { decideOffer, offerInput, type LoggerFacts, type OfferDecision, type ReportFacts } from '../rollout/decision';
+import { loadReleasesOfModel, type OfferableRelease } from '../releases/targeting';
 
 /** The decision's view of a logger, read from its row: coordinates come as the site's two columns. */
-export type LoggerForDecision = Omit<LoggerAtCheckIn, 'siteCoordinates'> & {
-  modelId: string;
-  latitude: number | null;
-  longitude: number | null;
-};
+export type LoggerForDecision = LoggerFacts & { modelId: string };
 
 /** The columns a LoggerForDecision is read from (alias l = loggers, m = models, s = sites). */
 export const DECISION_COLUMNS = `l.id, l.model_id AS "modelId", l.status, l.site_id AS "siteId", COALESCE(l.reported_board, l.board) AS board,
   l.channel, l.firmware, l.security_counter AS "securityCounter", l.supply_v::float8 AS "supplyV",
   m.min_update_supply_v::float8 AS "minUpdateSupplyV", s.latitude::float8 AS latitude, s.longitude::float8 AS longitude`;
 
-type ReportRow = { loggerId: string; releaseId: string; state: StoredState; reason: string | null; updatedAt: Date; retriedAt: Date | null };
+type ReportRow = ReportFacts & { loggerId: string };
 
 /** Decisions made between two turns of the event loop (about 40 µs each on the bench machine). */
 const DECISIONS_PER_SLICE = 500;
 
 /** Decisions for many loggers: one read of each model's releases and one read of their install reports. */
-export async function decisionsFor(sequelize: Sequelize, loggers: LoggerForDecision[], now: Date): Promise<Map<string, OfferDecision<CachedRelease>>> {
-  const out = new Map<string, OfferDecision<CachedRelease>>();
+export async function decisionsFor(sequelize: Sequelize, loggers: LoggerForDecision[], now: Date): Promise<Map<string, OfferDecision<OfferableRelease>>> {
+  const out = new Map<string, OfferDecision<OfferableRelease>>();
   if (loggers.length === 0) return out;
   const models = [...new Set(loggers.map((l) => l.modelId))];
-  const releasesOf = new Map<string, CachedRelease[]>();
+  const releasesOf = new Map<string, OfferableRelease[]>();
   for (const m of models) releasesOf.set(m, await loadReleasesOfModel(sequelize, m));
 
-  const reports = new Map<string, Record<string, LastInstallReport | undefined>>();
+  const reports = new Map<string, ReportFacts[]>();
   const ids = loggers.map((l) => l.id);
   for (let i = 0; i < ids.length; i += 5000) {
     const rows = await sequelize.query<ReportRow>(
@@ -40,11 +35,8 @@ export async function decisionsFor(sequelize: Sequelize, loggers: LoggerForDecis
       { type: QueryTypes.SELECT, replacements: { ids: ids.slice(i, i + 5000) } },
     );
     for (const r of rows) {
-      const stored = { state: r.state, reason: r.reason, updatedAt: new Date(r.updatedAt), retriedAt: r.retriedAt ? new Date(r.retriedAt) : null };
-      // As the check-in service does: offered is no report yet, and a retry clears what came before it.
-      if (r.state === 'offered' || retriedSince(stored)) continue;
-      const forLogger = reports.get(r.loggerId) ?? {};
-      forLogger[r.releaseId] = { state: r.state, reason: (r.reason as LastInstallReport['reason']) ?? null };
+      const forLogger = reports.get(r.loggerId) ?? [];
+      forLogger.push({ releaseId: r.releaseId, state: r.state, reason: r.reason, updatedAt: new Date(r.updatedAt), retriedAt: r.retriedAt ? new Date(r.retriedAt) : null });
       reports.set(r.loggerId, forLogger);
     }
   }
@@ -52,26 +44,7 @@ export async function decisionsFor(sequelize: Sequelize, loggers: LoggerForDecis
   for (const [i, l] of loggers.entries()) {
     // Thousands of decisions take seconds: give way to other requests (device check-ins) between slices.
     if (i > 0 && i % DECISIONS_PER_SLICE === 0) await new Promise<void>((resolve) => setImmediate(resolve));
-    out.set(
-      l.id,
-      decideOffer({
-        logger: {
-          id: l.id,
-          status: l.status,
-          siteId: l.siteId,
-          board: l.board,
-          channel: l.channel,
-          firmware: l.firmware,
-          securityCounter: Number(l.securityCounter),
-          supplyV: l.supplyV === null ? null : Number(l.supplyV),
-          minUpdateSupplyV: Number(l.minUpdateSupplyV),
-          siteCoordinates: l.latitude !== null && l.longitude !== null ? { latitude: Number(l.latitude), longitude: Number(l.longitude) } : null,
-        },
-        releases: releasesOf.get(l.modelId) ?? [],
-        lastReports: reports.get(l.id) ?? {},
-        now,
-      }),
-    );
+    out.set(l.id, decideOffer(offerInput(l, releasesOf.get(l.modelId) ?? [], reports.get(l.id) ?? [], now)));
   }
   return out;
 }

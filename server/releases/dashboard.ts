@@ -8,16 +8,18 @@
 // - Per board and per site: the enrolled loggers of the release's model and channel (the release's
 //   audience), how many run it or newer, and the install reports in each group. Sites list failures
 //   first, then installs in progress, so support reads the trouble at the top; paged in PostgreSQL.
-// - The trip points with their current values, read by the same queries and rules as the
-//   trip (device-api/stop.ts), so the dashboard shows what the stop will decide.
+// - The trip points with their current values, read by the same queries and rules as the trip
+//   (trip.ts, rollout/trip.ts), so the dashboard shows what the trip rule will decide.
 // - Adoption: confirmed installs per UTC day since the release started.
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { loggerScope } from '../auth/policies';
 import { problems } from '../http/problem';
-import { failureFigures, tripGauges, resetFigures } from '../device-api/trip';
-import { retentionDays } from '../device-api/partitions';
+import { tripGauges } from '../rollout/trip';
+import { retentionDays } from '../db/retention';
+import { failureFigures, resetFigures } from './trip';
 import { adoptionDays } from '../fleet/versions';
+import { UNDER_WAY_INSTALL_STATES, type InstallState, type LoggerStatus } from '../../schemas/words';
 import type { ReleaseBoardRow, ReleaseDashboard, ReleaseSiteRow, ReleaseSitesQuery } from '../../schemas/releases';
 import { SQL_WORDS } from '../db/sql-words';
 

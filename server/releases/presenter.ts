@@ -1,15 +1,16 @@
-// Release JSON for the console (camelCase; schemas/releases.ts and the client hooks).
+// Release JSON for the console (camelCase; the shapes of schemas/releases.ts, which the client hooks read).
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { canOf } from '../auth/policies';
 import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
-import { allowedActions } from './lifecycle';
+import { allowedActions } from '../rollout/lifecycle';
 import { renderNotes } from './notes';
 import { FAILURE_REASONS, INSTALL_STATES } from '../../schemas/words';
-import { type ReleaseCounts, type ReleaseRow, type ReleaseView } from '../../schemas/releases';
+import { type ReleaseCounts, type ReleaseRow, type ReleaseView, type TripFigures } from '../../schemas/releases';
 import { SQL_WORDS } from '../db/sql-words';
 
 export type InstallCounts = ReleaseCounts;
+
 export type { ReleaseRow, ReleaseView };
 
 /** Reports by their current state; failures by reason (a missing or unknown reason counts as other). */
@@ -59,6 +60,8 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     state: release.state,
     share: release.share,
     resumeState: release.resumeState,
+    stoppedBy: release.stoppedBy ?? null,
+    tripFigures: (release.tripFigures as TripFigures | null) ?? null,
     boards: release.boards,
     manifestBoards: release.manifestBoards,
     upgradeFrom: release.upgradeFrom,

@@ -25,7 +25,7 @@ declareAccess({
 });
 
 export function registerReleaseRoutes(api: Api, services: AppServices, store: ImageStore = new LocalImageStore(services.config.storeDir)) {
-  const deps: ReleaseDeps = { sequelize: services.sequelize, store, now: services.now, logger: services.logger };
+  const deps: ReleaseDeps = { sequelize: services.sequelize, store, now: services.now, mailer: services.mailer, logger: services.logger };
 
   api.post('/api/releases', releaseUploadMiddleware(store, services.config.imageLimitBytes), async (req, res) => {
     const files = req.files as Record<string, { received?: { discard(): Promise<void> } }[]> | undefined;

@@ -10,15 +10,26 @@ import type { RequestContext } from '../auth/actor';
 import { decodeSignature, ManifestError, parsePublicKeyPem, parseSignedManifest, verifyManifestSignature, type Manifest } from '../images/manifest';
 import type { ImageStore } from '../images/store';
 import type { UploadParts } from '../images/upload';
-import { shareThreshold } from '../device-api/cohort';
-import { canDelete, transition, type ReleaseState } from './lifecycle';
+import type { Mailer } from '../mail/mailer';
+import { shareThreshold } from '../rollout/cohort';
+import { canDelete } from '../rollout/lifecycle';
 import { existingSiteIds, presentRelease } from './presenter';
+import { applyTransition, lockRelease } from './transitions';
+import type { LoggerStatus } from '../../schemas/words';
 import { uploadFields, type PatchReleaseRequest, type ReleaseEstimate, type TransitionRequest } from '../../schemas/releases';
 import { RELEASE_EVENTS } from '../../schemas/words';
 
-export type ReleaseDeps = { sequelize: Sequelize; store: ImageStore; now: () => Date; logger?: { warn: (o: object, msg: string) => void } };
+export type ReleaseDeps = {
+  sequelize: Sequelize;
+  store: ImageStore;
+  now: () => Date;
+  mailer: Mailer;
+  logger?: { warn(o: object, msg: string): void; error(o: object, msg: string): void };
+};
 
 const label = (release: { version: string }, modelName: string) => `${modelName} ${release.version}`;
+
+const ENROLLED: LoggerStatus = 'enrolled';
 
 function manifestProblem(error: ManifestError): Problem {
   const errors: FieldError[] = error.errors.length ? error.errors : [{ path: error.field, message: error.message }];
@@ -55,7 +66,11 @@ async function signingKeyFor(manifestBytes: Buffer, signatureText: string): Prom
   throw refuse('signature', 'The signature does not match the manifest with any active signing key: check the key used and that the manifest file was not changed after signing.');
 }
 
-/** The checks of issue 4 §4, in order; throws the first refusal. Nothing is written here. */
+/**
+ * The upload's checks, in order: every part present, the manifest, a signature by an active key, the
+ * image's size and digest, the model and its boards, a version not uploaded before, a security counter
+ * no lower than the published ones. Throws the first refusal; nothing is written here.
+ */
 async function checkUpload(parts: UploadParts): Promise<{ manifest: Manifest; key: SigningKey; model: LoggerModel; image: NonNullable<UploadParts['image']> }> {
   const missing = (['image', 'manifest', 'signature'] as const).filter((name) => !parts[name]);
   if (missing.length) {
@@ -159,7 +174,7 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
 }
 
 async function lockedRelease(t: Transaction, id: string): Promise<Release> {
-  const release = await Release.findByPk(id, { transaction: t, lock: t.LOCK.UPDATE });
+  const release = await lockRelease(t, id);
   if (!release) throw problems.notFound('release');
   return release;
 }
@@ -249,35 +264,12 @@ export async function deleteRelease(deps: ReleaseDeps, ctx: RequestContext, id: 
   });
 }
 
-const firstEntered: Partial<Record<ReleaseState, 'pilotedAt' | 'widenedAt' | 'completedAt' | 'stoppedAt'>> = {
-  pilot: 'pilotedAt',
-  widening: 'widenedAt',
-  complete: 'completedAt',
-  stopped: 'stoppedAt',
-};
-
-const actionWords: Record<string, (share: number) => string> = {
-  start_pilot: () => 'started the pilot of',
-  widen: (share) => `widened to ${share} %`,
-  complete: () => 'completed the rollout of',
-  pause: () => 'paused',
-  resume: () => 'resumed',
-  stop: () => 'stopped',
-  withdraw: () => 'withdrew',
-};
-
+/** A person's lifecycle action from the console, written by the one writer of transitions (transitions.ts). */
 export async function transitionRelease(deps: ReleaseDeps, ctx: RequestContext, id: string, input: TransitionRequest) {
   const release = await deps.sequelize.transaction(async (t) => {
     const found = await lockedRelease(t, id);
-    const share = input.share === undefined ? undefined : Math.round(input.share * 100) / 100;
-    const result = transition({ state: found.state, share: found.share, resumeState: found.resumeState }, input.action, { share, reason: input.reason });
-    if (!result.ok) {
-      const extensions = { allowedActions: result.allowedActions };
-      if (result.code === 'illegal') throw problems.conflict(result.detail, extensions);
-      const path = result.code === 'reason_required' ? 'reason' : 'share';
-      throw new Problem(400, 'invalid-request', 'The request is not valid', result.detail, { errors: [{ path, message: result.detail }], extensions });
-    }
-    if (input.action === 'start_pilot') {
+    // A draft signed by a key revoked since the upload never goes out (the lifecycle's own refusals come first).
+    if (input.action === 'start_pilot' && found.state === 'draft') {
       const key = await SigningKey.findByPk(found.signingKeyId, { transaction: t });
       if (key?.state === 'revoked') {
         throw problems.conflict(`This draft is signed by key "${key.name}" (key id ${key.keyId}), which is revoked: upload it again signed with an active key.`, {
@@ -285,34 +277,7 @@ export async function transitionRelease(deps: ReleaseDeps, ctx: RequestContext, 
         });
       }
     }
-    const now = deps.now();
-    const from: ReleaseState = found.state;
-    const to: ReleaseState = result.release.state;
-    found.state = to;
-    found.share = result.release.share;
-    found.resumeState = result.release.resumeState;
-    const stamp = firstEntered[to];
-    if (stamp && from !== to && !found.get(stamp)) found.set(stamp, now);
-    found.updatedAt = now;
-    await found.save({ transaction: t });
-    const reason = input.reason?.trim() || null;
-    await ReleaseTransition.create(
-      { releaseId: id, at: now, action: input.action, fromState: from, toState: found.state, share: found.share, reason, actorType: ctx.actor.type, actorName: ctx.actor.name },
-      { transaction: t },
-    );
-    const name = label(found, await modelName(found.modelId, t));
-    const words = actionWords[input.action](found.share);
-    await recordActivity(t, ctx, {
-      action: RELEASE_EVENTS[input.action],
-      targetType: 'release',
-      targetId: id,
-      summary:
-        input.action === 'widen'
-          ? `${ctx.actor.name} widened ${name} to ${found.share} %${reason ? `: ${reason}` : ''}`
-          : `${ctx.actor.name} ${words} ${name}${reason ? `: ${reason}` : ''}`,
-      details: { fromState: from, toState: found.state, share: found.share, reason, ...(input.action === 'stop' ? { by: 'person' } : {}) },
-    });
-    return found;
+    return applyTransition(t, found, input, { ...ctx, now: deps.now(), mailer: deps.mailer, log: deps.logger });
   });
   return presentRelease(deps.sequelize, release);
 }
@@ -327,7 +292,7 @@ export async function getRelease(deps: ReleaseDeps, id: string) {
  * How many loggers a share would reach: of the release's model, channel and boards, enrolled and not
  * retired, running an older version (by semver precedence; an unknown running version is not
  * counted). Pilot-site loggers count at every share. The cohort bucket is computed in SQL with the
- * same definition as server/device-api/cohort.ts.
+ * same definition as server/rollout/cohort.ts.
  */
 export async function estimateShare(deps: ReleaseDeps, id: string, share: number): Promise<ReleaseEstimate> {
   const release = await Release.findByPk(id);
@@ -338,8 +303,8 @@ export async function estimateShare(deps: ReleaseDeps, id: string, share: number
             (l.site_id IS NOT NULL AND l.site_id IN (SELECT site_id FROM release_pilot_sites WHERE release_id = :releaseId)) AS pilot
        FROM loggers l
       WHERE l.model_id = :modelId AND l.channel = :channel AND l.board IN (:boards)
-        AND l.status = 'enrolled' AND l.retired_at IS NULL`,
-    { type: QueryTypes.SELECT, replacements: { releaseId: release.id, modelId: release.modelId, channel: release.channel, boards: release.boards } },
+        AND l.status = :enrolled AND l.retired_at IS NULL`,
+    { type: QueryTypes.SELECT, replacements: { releaseId: release.id, modelId: release.modelId, channel: release.channel, boards: release.boards, enrolled: ENROLLED } },
   );
   const older = rows.filter((r) => r.firmware !== null && semver.valid(r.firmware) !== null && semver.lt(r.firmware, release.version));
   const reached = (percent: number) => older.filter((r) => r.pilot || r.bucket < shareThreshold(percent)).length;

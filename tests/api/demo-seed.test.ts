@@ -1,9 +1,9 @@
-// The demo scenario at full size (issue 6 §8; PRODUCT.md "Demo scenario"): counts, signed releases
+// The demo scenario at full size (PRODUCT.md "Demo scenario"): counts, signed releases
 // checked with node:crypto and the semver package, history consistent with the latest state, no logger
 // token in clear anywhere, and every blocking reason of the lagging-sites screen present in the fleet
 // by the device API's own offer decision.
 //
-// "Lagging" as issue 6 §3 defines it: an enrolled logger behind the current release of its channel by
+// "Lagging" as PRODUCT.md journey 5 has it: an enrolled logger behind the current release of its channel by
 // semver precedence. The current release of a channel is taken here as the newest release (by semver
 // precedence) that has reached widening or complete at some time — "how long the site has lagged
 // (since the release it lacks reached complete or widening)" — whatever state it is in now, so a
@@ -16,7 +16,8 @@ import semver from 'semver';
 import { startTestApp, type TestApp } from '../helpers/app';
 import { seedDemo } from '../../server/db/seed/demo';
 import { demoKeyFiles } from '../../server/db/seed/demo-signing';
-import { decideOffer, type LastInstallReport, type ReasonCode, type ReleaseTargeting } from '../../server/device-api/decision';
+import { decideOffer, offerInput, type ReasonCode, type ReleaseTargeting } from '../../server/rollout/decision';
+import type { InstallState } from '../../schemas/words';
 import { parseSignedManifest, publicKeyOfPrivatePem, verifyManifestSignature } from '../../server/images/manifest';
 
 // Evening in the Vale, after the daylight window has closed (sunset near 15:55 UTC at 52° N at the end
@@ -293,7 +294,7 @@ describe('tokens', () => {
 });
 
 describe('lagging sites', () => {
-  test('when the offer decision is asked for every lagging logger, then each blocking reason of issue 6 §3 occurs at some site', async () => {
+  test('when the offer decision is asked for every lagging logger, then each blocking reason of the lagging-sites screen occurs at some site', async () => {
     const releases = await q<ReleaseTargeting & { widenedAt: Date | null; completedAt: Date | null }>(
       `SELECT r.id, r.version, r.channel, r.state, r.share::float8 AS share, r.boards, r.upgrade_from AS "upgradeFrom",
               r.security_counter AS "securityCounter", r.daylight_window AS "daylightWindow",
@@ -324,21 +325,20 @@ describe('lagging sites', () => {
       if (now.getTime() - new Date(l.last_seen_at).getTime() > 3 * l.interval_s * 1000) {
         reason = 'offline';
       } else {
-        const lastReports: Record<string, LastInstallReport> = {};
-        for (const r of reports.filter((x) => x.logger_id === l.id && x.state !== 'offered')) {
-          if (r.retried_at && new Date(r.retried_at) >= new Date(r.updated_at)) continue;
-          lastReports[r.release_id] = { state: r.state as LastInstallReport['state'], reason: r.reason as LastInstallReport['reason'] };
-        }
-        const decision = decideOffer({
-          logger: {
-            id: l.id, status: l.status, siteId: l.site_id, board: l.board, channel: l.channel, firmware: l.firmware, securityCounter: l.security_counter,
-            supplyV: l.supply_v === null ? null : Number(l.supply_v), minUpdateSupplyV: Number(l.min_v),
-            siteCoordinates: { latitude: Number(l.latitude), longitude: Number(l.longitude) },
-          },
-          releases,
-          lastReports,
-          now,
-        });
+        const logged = reports
+          .filter((x) => x.logger_id === l.id)
+          .map((r) => ({ releaseId: r.release_id, state: r.state as InstallState, reason: r.reason, updatedAt: new Date(r.updated_at), retriedAt: r.retried_at && new Date(r.retried_at) }));
+        const decision = decideOffer(
+          offerInput(
+            {
+              id: l.id, status: l.status, siteId: l.site_id, board: l.board, channel: l.channel, firmware: l.firmware, securityCounter: l.security_counter,
+              supplyV: l.supply_v === null ? null : Number(l.supply_v), minUpdateSupplyV: Number(l.min_v), latitude: Number(l.latitude), longitude: Number(l.longitude),
+            },
+            releases,
+            logged,
+            now,
+          ),
+        );
         reason = decision.considered.find((v) => v.releaseId === target.id)!.reason;
       }
       if (!reasons.has(reason)) reasons.set(reason, new Set());

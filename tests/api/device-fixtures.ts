@@ -6,7 +6,7 @@ import path from 'node:path';
 import { Image, Logger, LoggerModel, MeasurementProfile, Release, ReleasePilotSite, SigningKey, Site } from '../../server/db/models';
 import { newToken } from '../../server/auth/tokens';
 import { canonicalManifest, publicKeyOfPrivatePem, signManifest } from '../../server/images/manifest';
-import type { ReleaseState } from '../../server/releases/lifecycle';
+import type { ReleaseState } from '../../server/rollout/lifecycle';
 import { startTestApp, type TestApp } from '../helpers/app';
 
 export type Fleet = Awaited<ReturnType<typeof createFleet>>;

@@ -1,4 +1,4 @@
-// Load manners of the device API (issue 5 §6; DEVICE_API.md "Errors": 429 and 503 carry Retry-After):
+// Load manners of the device API (server/device-api/load.ts; DEVICE_API.md "Errors": 429 and 503 carry Retry-After):
 // the per-logger rate limit, the in-flight cap, and a database that goes away and comes back.
 import net from 'node:net';
 import path from 'node:path';
@@ -127,6 +127,7 @@ describe('database down', () => {
       }
       expect(status).toBe(200);
     } finally {
+      await app.stop();
       await sequelize.close().catch(() => undefined);
       await down().catch(() => undefined);
     }

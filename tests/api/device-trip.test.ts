@@ -1,4 +1,4 @@
-// Trip under concurrent install reports (issue 5 §5): 50 loggers report failed at once; the
+// Trip under concurrent install reports (PRODUCT.md journey 4, "a bad release trips by itself"): 50 loggers report failed at once; the
 // release stops exactly once, one e-mail goes out, every report is counted. Threshold figures: the
 // release's own tripFailureRatio (5 %) and tripMinReports (20), as DEVICE_API.md's releases carry them.
 import { QueryTypes } from 'sequelize';
@@ -60,7 +60,8 @@ describe('trip', () => {
     expect(activity[0].actor_type).toBe('system');
 
     const admin = await app.t.signedIn('admin', 'Morgan Stop Admin');
-    const subject = `Release 7.0.0 of ${app.fleet.model.name} tripped`;
+    // 20 of 20 finished installs failed: 100 % against the release's trip point of 5 %.
+    const subject = `Release 7.0.0 of ${app.fleet.model.name} tripped: 100 % of installs failed (trip point 5 %)`;
     let mails: { to: string[]; subject: string; text: string }[] = [];
     for (let i = 0; i < 50; i++) {
       const res = await admin.get('/api/dev/outbox');

@@ -1,8 +1,8 @@
 // Releases: the lifecycle over the API, targeting edits while draft, deleting a draft,
 // counts from install reports, the flag for a revoked signing key, and the rollout-share estimate.
-// Lifecycle expectations are the lifecycle's complete table, written out below by hand; the cohort
-// bucket is checked against server/device-api/cohort.ts bucketOf (itself checked against node:crypto
-// SHA-256 in its unit tests);
+// Lifecycle expectations are the release lifecycle's complete table as the product specifies it (written
+// out by hand in tests/unit/lifecycle.test.ts); the cohort bucket is checked against
+// server/rollout/cohort.ts bucketOf (itself checked against node:crypto SHA-256 in its unit tests);
 // the notes escaping follows OWASP's XSS prevention rule of HTML-escaping & < > " '.
 import crypto from 'node:crypto';
 import fs from 'node:fs';
@@ -11,7 +11,7 @@ import request from 'supertest';
 import { QueryTypes } from 'sequelize';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity, Logger, LoggerModel, Release, ReleaseTransition, Site } from '../../server/db/models';
-import { bucketOf } from '../../server/device-api/cohort';
+import { bucketOf } from '../../server/rollout/cohort';
 import { demoModel, keyPair, postUpload, registerKey, signedUpload, storeEntries, type KeyPair } from './release-fixtures';
 
 let t: TestApp;
@@ -43,7 +43,7 @@ async function act(id: string, step: Step) {
   return (await engineer()).post(`/api/releases/${id}/transitions`).set(csrf).send(step);
 }
 
-/** Paths from draft into each state that matters. */
+/** Paths from draft into each state that matters (the lifecycle table). */
 const into: Record<string, Step[]> = {
   draft: [],
   pilot: [{ action: 'start_pilot' }],

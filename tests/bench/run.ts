@@ -221,6 +221,7 @@ async function main() {
   const db = await startBenchDatabase();
   const storeDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-bench-store-'));
   let server: Server | null = null;
+  let app: ReturnType<typeof createApp> | null = null;
   try {
     log(`seeding ${loggers} loggers`);
     const seedStarted = Date.now();
@@ -228,7 +229,7 @@ async function main() {
     const seedSeconds = (Date.now() - seedStarted) / 1000;
     log(`seeded ${fleet.loggers} loggers at ${fleet.sites} sites, ${fleet.installReports} install reports, ${fleet.checkIns} check-ins in ${seedSeconds.toFixed(1)} s`);
 
-    const app = createApp({
+    const started = createApp({
       config: appConfig({
         outboxDir: path.join(db.dataDir, 'outbox'),
         storeDir,
@@ -241,8 +242,9 @@ async function main() {
       mailer: createMailer({ host: '127.0.0.1', port: 9, secure: false, from: 'Heliodor <heliodor@localhost>' }),
       readiness: { migrated: true, seeded: 'complete' },
     });
+    app = started;
     server = await new Promise<Server>((resolve) => {
-      const s = app.listen(0, '127.0.0.1', () => resolve(s));
+      const s = started.listen(0, '127.0.0.1', () => resolve(s));
     });
     const base = `http://127.0.0.1:${(server.address() as { port: number }).port}`;
     const cookies = { support: await signIn(base, fleet.people.support), release: await signIn(base, fleet.people.releaseEngineer) };
@@ -342,6 +344,7 @@ async function main() {
       server.closeAllConnections();
       await new Promise((r) => server!.close(r));
     }
+    await app?.stop();
     await db.close();
     fs.rmSync(storeDir, { recursive: true, force: true });
   }

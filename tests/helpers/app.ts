@@ -129,6 +129,7 @@ export async function startTestApp(
         server.closeAllConnections();
         await new Promise((r) => server!.close(r));
       }
+      await app.stop();
       await sequelize.close();
       await db.drop();
       fs.rmSync(storeDir, { recursive: true, force: true });

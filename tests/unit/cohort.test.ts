@@ -1,6 +1,6 @@
 import { createHash } from 'node:crypto';
 import fc from 'fast-check';
-import { BUCKETS, bucketOf, inShare, shareThreshold } from '../../server/device-api/cohort';
+import { BUCKETS, bucketOf, inShare, shareThreshold } from '../../server/rollout/cohort';
 
 // Bucket formula: DEVICE_API.md "Who gets an offer", rule 3 — first 4 bytes of
 // SHA-256(`<logger id>:<release id>`) as an unsigned big-endian integer, mod 10 000.

@@ -1,5 +1,5 @@
 import { getTimes } from 'suncalc';
-import { daylightWindowAt, inDaylightWindow } from '../../server/device-api/daylight';
+import { daylightWindowAt, inDaylightWindow } from '../../server/rollout/daylight';
 
 // Reference: the suncalc package (a maintained solar-position library) computes sunrise and sunset in
 // each test; the window rule itself — sunrise + 1 h … sunset − 1 h — is DEVICE_API.md "Who gets an offer", rule 5.

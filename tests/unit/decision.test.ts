@@ -5,13 +5,13 @@ import {
   REASON_CODES,
   REASON_LABELS,
   reasonLabel,
-  type InstallFailureReason,
   type LastInstallReport,
   type LoggerAtCheckIn,
   type OfferDecision,
   type ReasonCode,
   type ReleaseTargeting,
-} from '../../server/device-api/decision';
+} from '../../server/rollout/decision';
+import type { FailureReason } from '../../schemas/words';
 
 // The rules under test are DEVICE_API.md "Who gets an offer", 1–6. Outside references used below:
 // semver.org §10–11 (REFERENCE.md §4) and the semver package for version precedence and ranges, the
@@ -352,7 +352,7 @@ describe('offer decision', () => {
       expect(d.considered[0].detail).toContain(state === 'draft' ? 'draft' : state);
     });
 
-    const permanent: Array<InstallFailureReason | undefined> = ['integrity', 'signature', 'storage', 'unsupported', 'other', undefined];
+    const permanent: Array<FailureReason | undefined> = ['integrity', 'signature', 'storage', 'unsupported', 'other', undefined];
     test.each(permanent.map((reason) => ({ reason })))('when the last report is failed with reason $reason, then the release waits for a retry', ({ reason }) => {
       const d = decide({ reports: { [R230]: { state: 'failed', reason } } });
       expect(single(d)).toEqual({ reason: 'failed_awaiting_retry', offered: false });

@@ -1,9 +1,9 @@
 // Install report order, rollback detection, trip points and load manners: the pure parts of the
 // device API service. Orders and figures come from DEVICE_API.md ("States only move forward"),
-// issue 5 §4–§6, and semantic-version precedence as the semver package (npm) computes it.
+// the product's trip points (PRODUCT.md journey 4), and semantic-version precedence as the semver package (npm) computes it.
 import semver from 'semver';
-import { afterInstalled, applyReport, isFinished, type StoredReport } from '../../server/device-api/reports';
-import { evaluateTrips, failureRatioVerdict, tripGauges, resetRateVerdict } from '../../server/device-api/trip';
+import { afterInstalled, applyReport, isFinished, type StoredReport } from '../../server/rollout/reports';
+import { evaluateTrips, failureRatioVerdict, tripGauges, resetRateVerdict } from '../../server/rollout/trip';
 import { busyness, nextCheckInSeconds, stretchFor } from '../../server/device-api/load';
 import { dayOfPartition, partitionName, retentionDays, utcDay } from '../../server/device-api/partitions';
 

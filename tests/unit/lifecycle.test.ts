@@ -2,15 +2,15 @@ import {
   allowedActions,
   canDelete,
   isLive,
-  RELEASE_ACTIONS,
-  RELEASE_STATES,
   transition,
   type ReleaseAction,
   type ReleaseLifecycle,
   type ReleaseState,
-} from '../../server/releases/lifecycle';
+} from '../../server/rollout/lifecycle';
+import { RELEASE_ACTIONS, RELEASE_STATES } from '../../schemas/words';
 
-// Source: issue 4 §5 "Lifecycle, the complete table", written out here by hand (not read from lifecycle.ts):
+// Source: the release lifecycle's complete table as the product specifies it, written out here by hand
+// (not read from lifecycle.ts):
 // draft → pilot (start_pilot) or deleted; pilot → widening (widen, 1–99 %), complete, paused, stopped,
 // withdrawn; widening → widening (larger share only), complete (= 100 %), paused, stopped, withdrawn;
 // paused → resume (to the state it was paused from), stopped, withdrawn; stopped → resume (to the state
@@ -141,7 +141,7 @@ describe('release lifecycle', () => {
       else expect(result).toMatchObject({ ok: false, code: 'invalid_share' });
     });
 
-    test('when a release goes pilot → 5 % → 25 % → 50 % → complete, then the share follows (issue 4 shortcuts)', () => {
+    test('when a release goes pilot → 5 % → 25 % → 50 % → complete, then the share follows (the staged rollout of PRODUCT.md journey 3)', () => {
       let release = start.pilot;
       for (const [action, share, expected] of [
         ['widen', 5, 5],

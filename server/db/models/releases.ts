@@ -1,7 +1,7 @@
 // Signing keys, automation tokens, firmware images, releases and their history, install reports.
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 import type { SignatureAlgorithm } from '../../../schemas/manifest';
-import type { ReleaseAction, ReleaseState, ResumeState } from '../../releases/lifecycle';
+import type { ReleaseAction, ReleaseState, ResumeState, StoppedBy } from '../../../schemas/words';
 import type { Scope } from '../../auth/actor';
 import type { ActorType } from './activity';
 import type { Channel } from './registry';
@@ -69,7 +69,7 @@ export class Release extends Model<InferAttributes<Release>, InferCreationAttrib
   declare completedAt: CreationOptional<Date | null>;
   declare stoppedAt: CreationOptional<Date | null>;
   /** Who stopped a stopped release: a person, or the trip rule. */
-  declare stoppedBy: CreationOptional<'person' | 'trip' | null>;
+  declare stoppedBy: CreationOptional<StoppedBy | null>;
   /** The figures a trip judged, kept with the release it stopped. */
   declare tripFigures: CreationOptional<Record<string, unknown> | null>;
 }

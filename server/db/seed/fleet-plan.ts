@@ -12,9 +12,9 @@
 // ids are drawn until their bucket puts them where the story needs them.
 import { randomUUID } from 'node:crypto';
 import semver from 'semver';
-import { bucketOf, inShare } from '../../device-api/cohort';
-import { daylightWindowAt } from '../../device-api/daylight';
-import { transition, type ReleaseAction, type ReleaseLifecycle, type ReleaseState, type ResumeState } from '../../releases/lifecycle';
+import { bucketOf, inShare } from '../../rollout/cohort';
+import { daylightWindowAt } from '../../rollout/daylight';
+import { transition, type ReleaseAction, type ReleaseLifecycle, type ReleaseState, type ResumeState } from '../../rollout/lifecycle';
 import { forkRandom, seededRandom, type Random } from '../../../scripts/simulator/random';
 import { integratorOf, valeSites, valeVillages, type ValeSite } from './scenario';
 

@@ -90,6 +90,7 @@ export async function seedFullScenario(ctx: FullSeedContext) {
       issuedAt: new Date(Math.floor((r.uploadedAt.getTime() - 2 * HOUR) / 1000) * 1000),
     });
     const lastStep = r.steps[r.steps.length - 1];
+    // Who stopped a stopped release (the demo's stops are people's; a trip's figures are not replayed here).
     const row = await Release.create(
       {
         id: r.id, modelId: model.id, version: r.version, channel: r.channel, state: r.state, share: r.share, resumeState: r.resumeState,
@@ -188,7 +189,14 @@ export async function seedFullScenario(ctx: FullSeedContext) {
                 : `${s.actor} stopped ${name}${s.reason ? `: ${s.reason}` : ''}`;
       entries.push({
         at: s.at, actor, action: s.action === 'upload' ? 'release.uploaded' : RELEASE_EVENTS[s.action], targetType: 'release', targetId: r.id, summary,
-        details: s.action === 'upload' ? undefined : { fromState: s.fromState, toState: s.toState, share: s.shareAfter, reason: s.reason ?? null, ...(s.action === 'stop' ? { by: s.actor === 'system' ? 'trip' : 'person' } : {}) },
+        details:
+          s.action === 'upload'
+            ? undefined
+            : {
+                fromState: s.fromState, toState: s.toState, share: s.shareAfter, reason: s.reason ?? null,
+                // As the writer of transitions records a stop (server/releases/transitions.ts).
+                ...(s.action === 'stop' ? { by: s.actor === 'system' ? 'trip' : 'person', rule: null, figures: null } : {}),
+              },
       });
     }
   }

@@ -1,21 +1,19 @@
-// The release lifecycle (issue 4 §5, "Lifecycle, the complete table"). Pure: no I/O.
+// The release lifecycle, the complete table. Pure: no I/O.
 //
 //   draft     → pilot (start_pilot); or deleted (a DELETE, not a transition: see canDelete)
 //   pilot     → widening (widen, share 1–99 %), complete, paused, stopped, withdrawn
-//   widening → widening (widen to a larger share only), complete (= 100 %), paused, stopped, withdrawn
+//   widening  → widening (widen to a larger share only), complete (= 100 %), paused, stopped, withdrawn
 //   complete  → paused, stopped, withdrawn
 //   paused    → resume (back to the state it was paused from), stopped, withdrawn
-//   stopped    → resume (back to the state before the stop; reason required), withdrawn
+//   stopped   → resume (back to the state before the stop; reason required), withdrawn
 //   withdrawn is final (loggers that installed it keep it)
 //
 // Share: pilot 0 (only pilot sites), widening 1–99, complete 100; paused and stopped keep the share
-// they had, so resuming restores the same cohort.
+// they had, so resuming restores the same cohort. A person stops a release in the console; the trip
+// rule stops it by itself (trip.ts) — the same action, written by server/releases/transitions.ts.
+import { LIVE_STATES, type LiveState, type ReleaseAction, type ReleaseState, type ResumeState } from '../../schemas/words';
 
-// The states and actions are named in schemas/releases.ts, which the console shares.
-import { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES, type LiveState, type ReleaseAction, type ReleaseState, type ResumeState } from '../../schemas/releases';
 import { MAX_WIDEN_SHARE, MIN_WIDEN_SHARE } from '../../lib/share';
-
-export { LIVE_STATES, RELEASE_ACTIONS, RELEASE_STATES };
 export type { LiveState, ReleaseAction, ReleaseState, ResumeState };
 
 export type ReleaseLifecycle = {
@@ -47,6 +45,24 @@ const TABLE: Record<ReleaseState, readonly ReleaseAction[]> = {
   stopped: ['resume', 'withdraw'],
   withdrawn: [],
 };
+
+/**
+ * The release columns stamped the first time a state is entered (never moved by a later entry):
+ * when the pilot started, the rollout first widened, completed, and first stopped.
+ */
+export const FIRST_ENTERED = {
+  pilot: 'pilotedAt',
+  widening: 'widenedAt',
+  complete: 'completedAt',
+  stopped: 'stoppedAt',
+} as const satisfies Partial<Record<ReleaseState, string>>;
+export type FirstEnteredColumn = (typeof FIRST_ENTERED)[keyof typeof FIRST_ENTERED];
+
+/** The column to stamp when a release moves from `from` to `to`, if it has not been stamped before (null: none). */
+export function firstEnteredColumn(from: ReleaseState, to: ReleaseState): FirstEnteredColumn | null {
+  if (from === to) return null;
+  return (FIRST_ENTERED as Partial<Record<ReleaseState, FirstEnteredColumn>>)[to] ?? null;
+}
 
 export function isLive(state: ReleaseState): state is LiveState {
   return (LIVE_STATES as readonly string[]).includes(state);

@@ -11,7 +11,7 @@
 //   firmware that does not report supply_v would otherwise never be updated.
 // - A `failed` report without a reason counts as `other` (permanent until an operator retries): a
 //   failure nobody can explain is not one to repeat on its own on a logger in the field.
-// - An operator's retry clears the failure: the service passes only reports made since the latest
+// - An operator's retry clears the failure: offerInput (below) passes only reports made since the latest
 //   retry of that release for that logger (or none).
 // - A last report of `installed`: when the logger already runs that version or newer, the release is
 //   not newer and so not a candidate (reason not_newer). When it still runs an older version, the
@@ -25,22 +25,16 @@
 // - A daylight window asked for by a release whose site has no coordinates is not applied.
 // - `considered` lists every release of the model, newest first by semantic-version precedence.
 import semver from 'semver';
-import { isLive, type ReleaseState } from '../releases/lifecycle';
+import { isLive, type ReleaseState } from './lifecycle';
 import { bucketOf, inShare, shareThreshold } from './cohort';
 import { daylightWindowAt } from './daylight';
+import { retriedSince, type StoredReport } from './reports';
+import { TRANSIENT_FAILURE_REASONS, type Channel, type FailureReason, type LoggerStatus, type ReportedInstallState } from '../../schemas/words';
 import { REASON_CODES, type ReasonCode } from '../../schemas/fleet';
 
 // The reason codes are named in schemas/fleet.ts: "Why no update?" sends them to the console.
 export { REASON_CODES };
 export type { ReasonCode };
-
-export type Channel = 'stable' | 'early';
-export type LoggerStatus = 'registered' | 'enrolled' | 'retired';
-export type InstallState = 'downloading' | 'downloaded' | 'installing' | 'installed' | 'failed';
-export type InstallFailureReason = 'integrity' | 'signature' | 'storage' | 'connection' | 'unsupported' | 'low_supply' | 'other';
-
-/** Failure reasons that do not exclude a release: the same image may well install next time. */
-export const TRANSIENT_FAILURE_REASONS: readonly InstallFailureReason[] = ['connection', 'low_supply'];
 
 export type SiteCoordinates = { latitude: number; longitude: number };
 
@@ -82,7 +76,7 @@ export type ReleaseTargeting = {
   daylightWindow: boolean;
 };
 
-export type LastInstallReport = { state: InstallState; reason?: InstallFailureReason | null };
+export type LastInstallReport = { state: ReportedInstallState; reason?: FailureReason | null };
 
 export type OfferInput<R extends ReleaseTargeting = ReleaseTargeting> = {
   logger: LoggerAtCheckIn;
@@ -169,10 +163,10 @@ function upgradeFromAdmits(release: ReleaseTargeting, running: string): RangeChe
     : { admits: false, why: `${running} is outside its upgrade-from range ${range}` };
 }
 
-function failedAwaitingRetry(report: LastInstallReport | undefined): InstallFailureReason | null {
+function failedAwaitingRetry(report: LastInstallReport | undefined): FailureReason | null {
   if (!report || report.state !== 'failed') return null;
   const reason = report.reason ?? 'other';
-  return TRANSIENT_FAILURE_REASONS.includes(reason) ? null : reason;
+  return (TRANSIENT_FAILURE_REASONS as readonly FailureReason[]).includes(reason) ? null : reason;
 }
 
 function formatVolts(v: number): string {
@@ -181,6 +175,49 @@ function formatVolts(v: number): string {
 
 function utcClock(d: Date): string {
   return `${d.toISOString().slice(11, 16)} UTC`;
+}
+
+// ─── The decision's input ───────────────────────────────────────────────────
+
+/**
+ * What the database knows of a logger for the decision: its row (or, at a check-in, what the check-in
+ * says and the row keeps), its model's supply guard, and its site's two coordinates.
+ */
+export type LoggerFacts = Omit<LoggerAtCheckIn, 'siteCoordinates'> & { latitude: number | null; longitude: number | null };
+
+/** One install report of the logger as stored: its state and reason, when it last changed and was retried. */
+export type ReportFacts = Pick<StoredReport, 'state' | 'reason' | 'updatedAt' | 'retriedAt'> & { releaseId: string };
+
+/**
+ * The decision's input, built in one place for the check-in, "Why no update?" and the lagging sites, so
+ * all three decide alike: the logger's reports count from an operator's latest retry on (a retried
+ * report is no report), and an offer alone is no report either.
+ */
+export function offerInput<R extends ReleaseTargeting>(logger: LoggerFacts, releases: readonly R[], reports: readonly ReportFacts[], now: Date): OfferInput<R> {
+  const lastReports: Record<string, LastInstallReport | undefined> = {};
+  for (const r of reports) {
+    if (r.state === 'offered' || retriedSince(r)) continue;
+    lastReports[r.releaseId] = { state: r.state, reason: (r.reason as FailureReason | null) ?? null };
+  }
+  const { latitude, longitude } = logger;
+  return {
+    logger: {
+      id: logger.id,
+      status: logger.status,
+      siteId: logger.siteId,
+      board: logger.board,
+      channel: logger.channel,
+      firmware: logger.firmware,
+      // Read from SQL, numbers may arrive as text (NUMERIC, BIGINT).
+      securityCounter: Number(logger.securityCounter),
+      supplyV: logger.supplyV === null ? null : Number(logger.supplyV),
+      minUpdateSupplyV: Number(logger.minUpdateSupplyV),
+      siteCoordinates: latitude !== null && longitude !== null ? { latitude: Number(latitude), longitude: Number(longitude) } : null,
+    },
+    releases,
+    lastReports,
+    now,
+  };
 }
 
 export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): OfferDecision<R> {

@@ -1,4 +1,4 @@
-// Install reports (DEVICE_API.md "Install report"; issue 5 §4). Pure: no I/O.
+// Install reports (DEVICE_API.md "Install report"). Pure: no I/O.
 //
 // One row per (logger, release) holds where that logger stands with that release. States only move
 // forward: offered < downloading < downloaded < installing < installed, and failed ends an attempt. A
@@ -13,12 +13,12 @@
 // - installed is final for the row, except that the service may turn it into failed (other) when the
 //   bootloader rolled back (see `afterInstalled`).
 import semver from 'semver';
-import type { FailureReason, ReportedInstallState } from '../../schemas/device';
-import { TRANSIENT_FAILURE_REASONS } from './decision';
+import { TRANSIENT_FAILURE_REASONS, type FailureReason, type InstallState, type ReportedInstallState } from '../../schemas/words';
 
-export type StoredState = 'offered' | ReportedInstallState;
+/** An install's state as the server keeps it (offered, then what the logger reported). */
+export type StoredState = InstallState;
 
-export const STATE_ORDER: Record<StoredState, number> = {
+export const STATE_ORDER: Record<InstallState, number> = {
   offered: 0,
   downloading: 1,
   downloaded: 2,

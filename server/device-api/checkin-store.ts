@@ -1,0 +1,176 @@
+// The check-in's named queries, all inside the check-in's transaction (the story is checkin.ts). Every
+// value, word lists included, reaches the database as a replacement (:name), never as text in the SQL.
+import type { Sequelize, Transaction } from 'sequelize';
+import { QueryTypes } from 'sequelize';
+import type { CheckInRequest, DeviceConfig, ResetCounts } from '../../schemas/device';
+import { lockRelease } from '../releases/transitions';
+import type { Release } from '../db/models';
+import { ROLLBACK_DETAIL, type ReportChange } from '../rollout/reports';
+import type { ReportFacts } from '../rollout/decision';
+import type { FailureReason, InstallState } from '../../schemas/words';
+import type { DeviceLogger } from './auth';
+
+/** One install report of this logger as stored. */
+export type ReportRow = ReportFacts & { confirmedAt: Date | null };
+
+/** What recording a visit tells: the supply the logger row now holds, its reports and its latest profile. */
+export type Visit = { supplyV: number | null; reports: ReportRow[]; profile: DeviceConfig | null };
+
+/** Boots since the previous check-in by reason (DEVICE_API.md `reset_counts`; else resets_since_last under reset_reason). */
+export function resetsOf(body: CheckInRequest): ResetCounts | null {
+  if (body.reset_counts) {
+    const entries = Object.entries(body.reset_counts).filter(([, n]) => typeof n === 'number' && n > 0);
+    return Object.fromEntries(entries);
+  }
+  if (body.resets_since_last !== undefined) {
+    return body.resets_since_last > 0 ? { [body.reset_reason ?? 'unknown']: body.resets_since_last } : {};
+  }
+  return null;
+}
+
+const REPORT_COLUMNS = `release_id AS "releaseId", state, reason, updated_at AS "updatedAt", retried_at AS "retriedAt", confirmed_at AS "confirmedAt"`;
+
+type RawReport = Omit<ReportRow, 'updatedAt' | 'retriedAt' | 'confirmedAt'> & { updatedAt: Date | string; retriedAt: Date | string | null; confirmedAt: Date | string | null };
+
+const dateOrNull = (d: Date | string | null) => (d === null ? null : new Date(d));
+const toReport = (r: RawReport): ReportRow => ({ ...r, updatedAt: new Date(r.updatedAt), retriedAt: dateOrNull(r.retriedAt), confirmedAt: dateOrNull(r.confirmedAt) });
+
+type RawProfile = Record<keyof DeviceConfig, number | string>;
+
+function toProfile(p: RawProfile | null): DeviceConfig | null {
+  if (!p) return null;
+  return {
+    version: Number(p.version),
+    shunt_ohm: Number(p.shunt_ohm),
+    max_current_a: Number(p.max_current_a),
+    current_lsb_a: Number(p.current_lsb_a),
+    calibration: Number(p.calibration),
+    power_lsb_w: Number(p.power_lsb_w),
+    bus_v_max: Number(p.bus_v_max),
+    temp_resolution_bits: Number(p.temp_resolution_bits),
+    sample_interval_s: Number(p.sample_interval_s),
+  };
+}
+
+const OFFERED: InstallState = 'offered';
+const FAILED: InstallState = 'failed';
+/** A rollback is a failure nobody can name better than other. */
+const ROLLED_BACK_REASON: FailureReason = 'other';
+
+export type CheckInStore = ReturnType<typeof checkInStore>;
+
+/** The queries of one check-in by one logger, in transaction `t`, at `now`. */
+export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: string, now: Date) {
+  const select = <T extends object>(sql: string, replacements: Record<string, unknown>) =>
+    sequelize.query<T>(sql, { transaction: t, type: QueryTypes.SELECT, replacements: { loggerId, now, ...replacements } });
+
+  return {
+    /**
+     * One statement: the logger's latest state on its row, one history row in check_ins, and what the
+     * logger has — its install reports and its latest measurement profile.
+     */
+    async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null): Promise<Visit> {
+      const resets = resetsOf(body);
+      const [row] = await select<{ supplyV: number | null; reports: RawReport[]; profile: RawProfile | null }>(
+        `WITH visit AS (
+           UPDATE loggers SET firmware = :firmware, reported_board = :board, security_counter = :securityCounter,
+                  supply_v = COALESCE(:supplyV, supply_v), readings = COALESCE(CAST(:readings AS jsonb), readings), last_ip = :ip,
+                  rssi_dbm = COALESCE(:rssi, rssi_dbm), free_heap_b = COALESCE(:heap, free_heap_b), uptime_s = COALESCE(:uptime, uptime_s),
+                  config_version = COALESCE(:configVersion, config_version), last_reset_reason = COALESCE(:resetReason, last_reset_reason),
+                  last_seen_at = :now, last_check_in_at = :now, check_in_count = check_in_count + 1, updated_at = :now
+            WHERE id = :loggerId RETURNING supply_v
+         ),
+         history AS (
+           INSERT INTO check_ins (logger_id, at, firmware, board, security_counter, supply_v, readings, reset_reason, resets, rssi_dbm, free_heap_b, uptime_s, config_version, ip)
+           VALUES (:loggerId, :now, :firmware, :board, :securityCounter, :supplyV, CAST(:readings AS jsonb), :resetReason, CAST(:resets AS jsonb), :rssi, :heap, :uptime, :configVersion, :ip)
+         )
+         SELECT (SELECT supply_v::float8 FROM visit) AS "supplyV",
+                (SELECT COALESCE(json_agg(json_build_object('releaseId', release_id, 'state', state, 'reason', reason, 'updatedAt', updated_at,
+                                                            'retriedAt', retried_at, 'confirmedAt', confirmed_at)), '[]'::json)
+                   FROM install_reports WHERE logger_id = :loggerId) AS reports,
+                (SELECT row_to_json(p) FROM (
+                   SELECT version, shunt_ohm, max_current_a, current_lsb_a, calibration, power_lsb_w, bus_v_max::float8 AS bus_v_max,
+                          temp_resolution_bits, sample_interval_s
+                     FROM measurement_profiles WHERE logger_id = :loggerId ORDER BY version DESC LIMIT 1) p) AS profile`,
+        {
+          firmware: body.firmware,
+          board: body.board,
+          securityCounter: body.security_counter,
+          supplyV: body.supply_v ?? null,
+          readings: body.readings ? JSON.stringify(body.readings) : null,
+          resetReason: body.reset_reason ?? null,
+          resets: resets ? JSON.stringify(resets) : null,
+          rssi: body.rssi_dbm ?? null,
+          heap: body.free_heap_b ?? null,
+          uptime: body.uptime_s ?? null,
+          configVersion: body.config_version ?? null,
+          ip,
+        },
+      );
+      const supplyV = row?.supplyV ?? logger.supplyV;
+      return { supplyV: supplyV === null ? null : Number(supplyV), reports: (row?.reports ?? []).map(toReport), profile: toProfile(row?.profile ?? null) };
+    },
+
+    /** Locks the releases in a fixed order (by id), so two check-ins touching the same releases cannot deadlock. */
+    async lockReleases(ids: Iterable<string>): Promise<Map<string, Release>> {
+      const locked = new Map<string, Release>();
+      for (const id of [...new Set(ids)].sort()) {
+        const release = await lockRelease(t, id);
+        if (release) locked.set(id, release);
+      }
+      return locked;
+    },
+
+    /** Locks one release unless another transaction holds it (null then: that one is judging it already). */
+    lockReleaseIfFree: (id: string) => lockRelease(t, id, { skipLocked: true }),
+
+    /** This logger's report of a release, locked for this transaction (null: none yet). */
+    async reportForUpdate(releaseId: string): Promise<ReportRow | null> {
+      const [row] = await select<RawReport>(`SELECT ${REPORT_COLUMNS} FROM install_reports WHERE logger_id = :loggerId AND release_id = :releaseId FOR UPDATE`, { releaseId });
+      return row ? toReport(row) : null;
+    },
+
+    /** Writes a reported state that moves the report forward (a new attempt clears the confirmation). */
+    async writeReport(releaseId: string, change: Extract<ReportChange, { apply: true }>, detail: string | null): Promise<ReportRow> {
+      const finished = change.state === 'installed' || change.state === FAILED;
+      const [row] = await select<RawReport>(
+        `INSERT INTO install_reports (logger_id, release_id, state, reason, detail, offered_at, updated_at, finished_at, confirmed_at)
+         VALUES (:loggerId, :releaseId, :state, :reason, :detail, :now, :now, :finishedAt, NULL)
+         ON CONFLICT (logger_id, release_id) DO UPDATE SET state = EXCLUDED.state, reason = EXCLUDED.reason, detail = EXCLUDED.detail,
+           updated_at = EXCLUDED.updated_at, finished_at = EXCLUDED.finished_at,
+           confirmed_at = CASE WHEN :newAttempt THEN NULL ELSE install_reports.confirmed_at END
+         RETURNING ${REPORT_COLUMNS}`,
+        { releaseId, state: change.state, reason: change.reason, detail, finishedAt: finished ? now : null, newAttempt: change.newAttempt },
+      );
+      return toReport(row);
+    },
+
+    /** The logger runs the installed release: the install is confirmed. */
+    async confirmInstall(releaseId: string): Promise<ReportRow> {
+      const [row] = await select<RawReport>(
+        `UPDATE install_reports SET confirmed_at = :now WHERE logger_id = :loggerId AND release_id = :releaseId RETURNING ${REPORT_COLUMNS}`,
+        { releaseId },
+      );
+      return toReport(row);
+    },
+
+    /** The logger still runs an older version after reporting installed: the bootloader rolled back. */
+    async markRolledBack(releaseId: string): Promise<ReportRow> {
+      const [row] = await select<RawReport>(
+        `UPDATE install_reports SET state = :failed, reason = :reason, detail = :detail, updated_at = :now, finished_at = :now
+          WHERE logger_id = :loggerId AND release_id = :releaseId RETURNING ${REPORT_COLUMNS}`,
+        { releaseId, failed: FAILED, reason: ROLLED_BACK_REASON, detail: ROLLBACK_DETAIL },
+      );
+      return toReport(row);
+    },
+
+    /** The offer made: the report row starts as offered (an existing row, of any state, stays as it is). */
+    async recordOffer(releaseId: string): Promise<void> {
+      await sequelize.query(
+        `INSERT INTO install_reports (logger_id, release_id, state, offered_at, updated_at) VALUES (:loggerId, :releaseId, :offered, :now, :now)
+         ON CONFLICT (logger_id, release_id) DO NOTHING`,
+        { transaction: t, replacements: { loggerId, releaseId, now, offered: OFFERED } },
+      );
+    },
+  };
+}

@@ -1,0 +1,60 @@
+// The releases of a model as the offer decision reads them: every release that left draft, with its
+// targeting (channel, state, share, boards, upgrade-from range, pilot sites, daylight window), its
+// trip points and what an offer carries (manifest, signature, key, image). The check-in reads them
+// through its per-process cache (server/device-api/release-cache.ts); "Why no update?" and the lagging
+// sites read them directly, so all three decide on the same releases.
+import type { Sequelize } from 'sequelize';
+import { QueryTypes } from 'sequelize';
+import type { ReleaseTargeting } from '../rollout/decision';
+import type { TripPoints } from '../rollout/trip';
+import type { Channel, ReleaseState, ResumeState } from '../../schemas/words';
+import type { SignatureAlgorithm } from '../../schemas/manifest';
+
+export type OfferableRelease = ReleaseTargeting &
+  TripPoints & {
+    modelId: string;
+    resumeState: ResumeState | null;
+    imageSha256: string;
+    imageSize: number;
+    manifest: Buffer;
+    signature: Buffer;
+    keyId: string;
+    algorithm: SignatureAlgorithm;
+  };
+
+type Row = Omit<OfferableRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boards' | 'keyId'> & {
+  share: number | string;
+  imageSize: number | string;
+  pilotSiteIds: string[] | null;
+  boards: string[];
+  keyId: string;
+};
+
+const DRAFT: ReleaseState = 'draft';
+
+/** Every release of the model that left draft (one indexed read). */
+export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string): Promise<OfferableRelease[]> {
+  const rows = await sequelize.query<Row>(
+    `SELECT r.id, r.model_id AS "modelId", r.version, r.channel, r.state, r.share, r.resume_state AS "resumeState", r.boards,
+            r.upgrade_from AS "upgradeFrom", r.security_counter AS "securityCounter", r.daylight_window AS "daylightWindow",
+            r.image_sha256 AS "imageSha256", i.size AS "imageSize", r.manifest, r.signature, k.key_id AS "keyId", k.algorithm,
+            r.trip_failure_ratio AS "tripFailureRatio", r.trip_min_reports AS "tripMinReports", r.trip_reset_factor AS "tripResetFactor",
+            (SELECT array_agg(ps.site_id::text ORDER BY ps.site_id) FROM release_pilot_sites ps WHERE ps.release_id = r.id) AS "pilotSiteIds"
+       FROM releases r JOIN images i ON i.sha256 = r.image_sha256 JOIN signing_keys k ON k.id = r.signing_key_id
+      WHERE r.model_id = :modelId AND r.state <> :draft`,
+    { type: QueryTypes.SELECT, replacements: { modelId, draft: DRAFT } },
+  );
+  return rows.map((r) => ({
+    ...r,
+    channel: r.channel as Channel,
+    state: r.state as ReleaseState,
+    share: Number(r.share),
+    imageSize: Number(r.imageSize),
+    tripFailureRatio: Number(r.tripFailureRatio),
+    tripMinReports: Number(r.tripMinReports),
+    tripResetFactor: Number(r.tripResetFactor),
+    keyId: r.keyId.trim(),
+    imageSha256: r.imageSha256.trim(),
+    pilotSiteIds: r.pilotSiteIds ?? [],
+  }));
+}
