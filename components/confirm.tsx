@@ -1,4 +1,4 @@
-// Confirmation before consequential actions (DESIGN.md): a modal that names the consequence.
+// Confirmation before consequential actions (docs/DESIGN.md): a modal that names the consequence.
 import React from 'react';
 import { Modal, Pressable, StyleSheet, Text, View } from 'react-native';
 import { Button, Row } from './ui';

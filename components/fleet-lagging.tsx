@@ -1,4 +1,4 @@
-// Lagging sites (issue 6 §3), support's screen: sites with loggers behind the current release of their
+// Lagging sites, support's screen: sites with loggers behind the current release of their
 // channel, how long and why; one site's loggers with each reason in plain words, and "Retry failed install".
 import React from 'react';
 import { Pressable, StyleSheet, Text, View } from 'react-native';

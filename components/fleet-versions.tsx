@@ -1,4 +1,4 @@
-// Versions (issue 6 §2): per model, loggers per firmware × board as a matrix and a stacked bar chart,
+// Versions: per model, loggers per firmware × board as a matrix and a stacked bar chart,
 // each channel's share on its current release, and the adoption of each release over time.
 import React from 'react';
 import { ScrollView, StyleSheet, Text, View } from 'react-native';

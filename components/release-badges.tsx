@@ -1,4 +1,4 @@
-// Release words and colours: every state is a coloured word, never colour alone (DESIGN.md).
+// Release words and colours: every state is a coloured word, never colour alone (docs/DESIGN.md).
 import React from 'react';
 import { Text, View } from 'react-native';
 import { Badge, ProgressBar } from './ui';

@@ -1,4 +1,4 @@
-// The rollout dashboard on a release's page (issue 6 §4): the trip points beside their current
+// The rollout dashboard on a release's page: the trip points beside their current
 // values ("failure ratio 1.8 % of 5 %") as the trip judges them, the time to install, the
 // breakdown per board revision and per site (failures first), and the adoption chart. The page
 // refreshes itself every 15 s while the release is live.

@@ -1,4 +1,4 @@
-// The signed-in frame: a sidebar on wide screens, a bottom tab bar on phones (DESIGN.md).
+// The signed-in frame: a sidebar on wide screens, a bottom tab bar on phones (docs/DESIGN.md).
 import React from 'react';
 import { Pressable, ScrollView, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';

@@ -1,6 +1,6 @@
 import type { TextStyle } from 'react-native';
 
-// Heliodor's design tokens (DESIGN.md). Components take colours, spacing and type from here only.
+// Heliodor's design tokens (docs/DESIGN.md). Components take colours, spacing and type from here only.
 export const colors = {
   ink: '#1E2A2F',
   paper: '#F7F5EE',
@@ -44,7 +44,7 @@ export const type = {
   mono: { fontFamily: fonts.mono, fontSize: 14, lineHeight: 20, color: colors.ink },
 } satisfies Record<string, TextStyle>;
 
-/** Minimum touch target (DESIGN.md: 44 px; gloves on a roof). */
+/** Minimum touch target (docs/DESIGN.md: 44 px; gloves on a roof). */
 export const touchTarget = 44;
 
 export type Tone = 'moss' | 'ember' | 'amber' | 'slate' | 'ink';

@@ -1,6 +1,6 @@
 // What the console calls each domain value, and its colour: one Record per list of schemas/words.ts,
 // so a new state, reason or flag is a compile error here until it has its word. Status is always a
-// word with its colour, never colour alone (DESIGN.md). Tones: moss = as planned, slate = waiting or
+// word with its colour, never colour alone (docs/DESIGN.md). Tones: moss = as planned, slate = waiting or
 // under way, amber = needs a look, ember = something went wrong, ink = over for good.
 import type { Tone } from './theme';
 import type {
@@ -39,16 +39,8 @@ export const RELEASE_STEP_WORDS: Record<ReleaseAction | 'upload', string> = {
   withdraw: 'Withdrew',
 };
 
-/** The button or confirmation word of each action, as the release page offers it. */
-export const RELEASE_ACTION_WORDS: Record<ReleaseAction, string> = {
-  start_pilot: 'Start pilot',
-  widen: 'Widen',
-  complete: 'Complete',
-  pause: 'Pause',
-  resume: 'Resume',
-  stop: 'Stop',
-  withdraw: 'Withdraw',
-};
+/** The button word of each action (shared with the server's refusals). */
+export { RELEASE_ACTION_WORDS } from '../schemas/words';
 
 export const CHANNEL_WORDS: Record<Channel, Word> = {
   stable: { label: 'Stable channel', tone: 'ink' },

@@ -1,4 +1,4 @@
-// Fleet views (issue 6): the fleet table's query as URL search params, the version matrix, lagging
+// Fleet views: the fleet table's query as URL search params, the version matrix, lagging
 // sites, retries, notes, a logger's timeline, sparklines and "Why no update?". Every list is sorted,
 // filtered and paged by the server; the client only carries the query.
 import React from 'react';

@@ -1,4 +1,4 @@
-// Releases: signed images uploaded as drafts, their targeting, and the lifecycle (issue 4).
+// Releases: signed images uploaded as drafts, their targeting, and the lifecycle.
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { api, query, upload, STALE } from './api';
 import type { z } from 'zod';
@@ -44,7 +44,7 @@ export const releaseKeys = {
   sites: (id: string, page: number, pageSize: number) => ['releases', 'sites', id, page, pageSize] as const,
 };
 
-/** How often a live release's page refreshes (issue 6 §4); interval refetches stop while the tab is hidden. */
+/** How often a live release's page refreshes; interval refetches stop while the tab is hidden. */
 export const LIVE_REFRESH_MS = 15_000;
 
 export function useReleases(filter: ReleaseFilter = {}) {

@@ -17,7 +17,7 @@ export type { FleetFlag, LaggingReason, UpdateState };
 
 /** Watchdog and brown-out resets in 24 h at which a logger counts as unstable (the fleet flag). */
 export const UNSTABLE_RESETS_24H = 3;
-/** The temperature probe's power-on register value and valid range (probe datasheet; REFERENCE.md §9). */
+/** The temperature probe's power-on register value and valid range (probe datasheet; docs/SOURCES.md §9). */
 export const PROBE_POWER_ON_C = 85;
 export const PROBE_MIN_C = -55;
 export const PROBE_MAX_C = 125;

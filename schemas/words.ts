@@ -23,6 +23,17 @@ export const REACHED_STATES = ['widening', 'complete'] as const satisfies readon
 export const RELEASE_ACTIONS = ['start_pilot', 'widen', 'complete', 'pause', 'resume', 'stop', 'withdraw'] as const;
 export type ReleaseAction = (typeof RELEASE_ACTIONS)[number];
 
+/** Each action as the release page's buttons name it; refusals speak in the same words. */
+export const RELEASE_ACTION_WORDS = {
+  start_pilot: 'Start pilot',
+  widen: 'Widen',
+  complete: 'Complete',
+  pause: 'Pause',
+  resume: 'Resume',
+  stop: 'Stop',
+  withdraw: 'Withdraw',
+} as const satisfies Record<ReleaseAction, string>;
+
 /** The activity code each action records: one code per event, whoever causes it. */
 export const RELEASE_EVENTS = {
   start_pilot: 'release.pilot_started',

@@ -1,4 +1,4 @@
-// Chart colours from the theme only (DESIGN.md), in an order that keeps neighbours apart; the legend
+// Chart colours from the theme only (docs/DESIGN.md), in an order that keeps neighbours apart; the legend
 // beside every chart carries the words, so no series is told by colour alone.
 import { colors } from '../theme';
 

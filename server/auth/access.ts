@@ -23,7 +23,7 @@ export const access: Record<string, Rule> = {
   'GET /api/activity': people(['admin', 'release_engineer', 'support']),
   'GET /api/dev/outbox': people(['admin']),
   'GET /api/users': people(['admin', 'release_engineer', 'support', 'integrator']),
-  // Registry (issue 3): models, sites, loggers, enrollment
+  // Registry: models, sites, loggers, enrollment
   'GET /api/models': people(everyone),
   'GET /api/models/:id': people(everyone),
   'POST /api/models': people(['admin']),

@@ -1,4 +1,4 @@
-// Load manners (issue 5 §6): how a busy server keeps a fleet of loggers from piling up on it.
+// Load manners: how a busy server keeps a fleet of loggers from piling up on it.
 //
 // - next_check_in_s: the model's interval with ±10 % uniform jitter (randomness injected), so loggers
 //   that booted together drift apart, multiplied by a stretch factor when the server is busy.

@@ -1,4 +1,4 @@
-// HTTP range requests for firmware images (RFC 9110 §14, §13.1.5, §8.8.3; REFERENCE.md §10). Pure.
+// HTTP range requests for firmware images (RFC 9110 §14, §13.1.5, §8.8.3; docs/SOURCES.md §10). Pure.
 //
 // A logger on a weak link resumes an interrupted download with `Range: bytes=<received>-`, usually with
 // `If-Range: "<sha256>"` so that it never splices two different images. This module only reads the

@@ -1,4 +1,4 @@
-// The releases a check-in decides among, cached per model in each process (ARCHITECTURE.md: "cached
+// The releases a check-in decides among, cached per model in each process (DEVELOPERS.md: "cached
 // in each process and invalidated through PostgreSQL LISTEN/NOTIFY, so a check-in needs one indexed
 // read and one write").
 //

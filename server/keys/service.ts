@@ -100,7 +100,7 @@ export async function changeKeyState(sequelize: Sequelize, ctx: RequestContext, 
     if (!stateAllows(move, resource)) {
       const allowed = KEY_VERBS.filter((m) => stateAllows(m, resource));
       throw problems.conflict(
-        `A ${found.state} key cannot be ${rule.verb}${allowed.length ? `; allowed: ${allowed.join(', ')}` : ': revoked is final'}.`,
+        `A ${found.state} key cannot be ${rule.verb}${allowed.length ? `; it can be: ${allowed.map((m) => (m === 'retire' ? '“Retire”' : '“Revoke”')).join(', ')}` : ': revoked is final'}.`,
         { allowedActions: allowed },
       );
     }

@@ -126,15 +126,12 @@ export type OfferDecision<R extends ReleaseTargeting = ReleaseTargeting> = {
   considered: ReleaseVerdict[];
 };
 
-const STATE_PHRASE: Record<ReleaseState, string> = {
-  draft: 'is still a draft',
-  pilot: 'is in pilot',
-  widening: 'is widening',
-  complete: 'is complete',
-  paused: 'is paused',
-  stopped: 'is stopped',
-  withdrawn: 'was withdrawn',
-};
+/** How a refusal names a release's state ("The release is paused."); a new state reads "is <state>". */
+function statePhrase(state: ReleaseState): string {
+  if (state === 'draft') return 'is still a draft';
+  if (state === 'withdrawn') return 'was withdrawn';
+  return `is ${state}`;
+}
 
 /** Newest first by semantic-version precedence; versions that do not parse go last; ties by id. */
 function newestFirst(a: ReleaseTargeting, b: ReleaseTargeting): number {
@@ -254,7 +251,7 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
     if (r.channel !== logger.channel) {
       refuse(r, 'wrong_channel', `The release is on the ${r.channel} channel; the logger follows ${logger.channel}.`);
     } else if (!isLive(r.state)) {
-      refuse(r, 'not_live', `The release ${STATE_PHRASE[r.state]}.`);
+      refuse(r, 'not_live', `The release ${statePhrase(r.state)}.`);
     } else if (!r.boards.includes(logger.board)) {
       refuse(r, 'board_not_supported', `Board ${logger.board} is not among the release's boards (${r.boards.join(', ') || 'none'}).`);
     } else if (version === null || !semver.gt(version, running)) {

@@ -11,7 +11,7 @@
 // Share: pilot 0 (only pilot sites), widening 1–99, complete 100; paused and stopped keep the share
 // they had, so resuming restores the same cohort. A person stops a release in the console; the trip
 // rule stops it by itself (trip.ts) — the same action, written by server/releases/transitions.ts.
-import { LIVE_STATES, type LiveState, type ReleaseAction, type ReleaseState, type ResumeState } from '../../schemas/words';
+import { LIVE_STATES, RELEASE_ACTION_WORDS, type LiveState, type ReleaseAction, type ReleaseState, type ResumeState } from '../../schemas/words';
 
 import { MAX_WIDEN_SHARE, MIN_WIDEN_SHARE } from '../../lib/share';
 export type { LiveState, ReleaseAction, ReleaseState, ResumeState };
@@ -95,7 +95,7 @@ export function transition(release: ReleaseLifecycle, action: ReleaseAction, opt
     const detail =
       allowed.length === 0
         ? `A ${release.state} release is final: no action is possible.`
-        : `A ${release.state} release cannot ${action.replace('_', ' ')}; allowed: ${allowed.join(', ')}.`;
+        : `${RELEASE_ACTION_WORDS[action]} is not possible for a ${release.state} release; it can: ${allowed.map((a) => `“${RELEASE_ACTION_WORDS[a]}”`).join(', ')}.`;
     return { ok: false, code: 'illegal', detail, allowedActions: allowed };
   }
 
@@ -111,7 +111,7 @@ export function transition(release: ReleaseLifecycle, action: ReleaseAction, opt
     case 'widen': {
       const share = options.share;
       if (typeof share !== 'number' || !Number.isFinite(share) || share < MIN_WIDEN_SHARE || share > MAX_WIDEN_SHARE) {
-        return refuseShare(`Widen needs a share from ${MIN_WIDEN_SHARE} to ${MAX_WIDEN_SHARE} %; use complete for 100 %.`, allowed);
+        return refuseShare(`Widen needs a share from ${MIN_WIDEN_SHARE} to ${MAX_WIDEN_SHARE} %; use “Complete” for 100 %.`, allowed);
       }
       if (release.state === 'widening' && share <= release.share) {
         return refuseShare(`The share can only grow: it is ${release.share} % now, so widen needs more than that.`, allowed);

@@ -1,5 +1,5 @@
-// The signing CLI end to end against a listening console: keys new → manifest → sign → verify → push
-// (issue 4 §3). The CLI's own functions run in-process (scripts/cli/commands.ts); the console is the
+// The signing CLI end to end against a listening console: keys new → manifest → sign → verify → push.
+// The CLI's own functions run in-process (scripts/cli/commands.ts); the console is the
 // real app on its own port, reached over HTTP with an API token.
 import crypto from 'node:crypto';
 import fs from 'node:fs';

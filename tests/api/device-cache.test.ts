@@ -1,5 +1,5 @@
-// The releases cache of the device API (ARCHITECTURE.md: cached per process, invalidated through
-// PostgreSQL LISTEN/NOTIFY; issue 5: "A transition takes effect at the very next check-in served by
+// The releases cache of the device API (DEVELOPERS.md: cached per process, invalidated through
+// PostgreSQL LISTEN/NOTIFY; the rule: "A transition takes effect at the very next check-in served by
 // the same process").
 import { csrf } from '../helpers/app';
 import { bearer, CHECK_IN, checkInBody, fleetApp } from './device-fixtures';

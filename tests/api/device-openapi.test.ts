@@ -1,6 +1,6 @@
 // The device API's OpenAPI 3.1 document (DEVICE_API.md: "publishes it as OpenAPI 3.1 at
 // /api/device/v1/openapi.json, generated from the same schemas that validate requests") and the
-// check-in history partitions (ARCHITECTURE.md: partitioned by day with a retention window).
+// check-in history partitions (DEVELOPERS.md: partitioned by day with a retention window).
 import { QueryTypes } from 'sequelize';
 import { startTestApp, type TestApp } from '../helpers/app';
 import { bearer, checkInBody, createFleet } from './device-fixtures';

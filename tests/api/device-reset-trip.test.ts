@@ -1,4 +1,4 @@
-// Trip by reset rate (issue 5 §5: "the watchdog/brown-out reset rate of loggers on the new
+// Trip by reset rate (the rule: "the watchdog/brown-out reset rate of loggers on the new
 // version against the same loggers before it (default: more than double, over at least 20 loggers and
 // 24 h)"), read from the check-in history. The clock is injected so that a day can pass.
 import { QueryTypes } from 'sequelize';

@@ -1,4 +1,4 @@
-// How much a quiet check-in asks of the database (ARCHITECTURE.md, "Growing past one machine": a
+// How much a quiet check-in asks of the database (DEVELOPERS.md, "Growing past one machine": a
 // check-in needs one indexed read and one write). A quiet check-in brings no install report, is
 // offered nothing and already runs its measurement profile; counted here are the SQL statements the
 // app's own Sequelize sends for it (Sequelize's `logging` hook sees every statement), besides the

@@ -1,4 +1,4 @@
-// Notes on loggers and sites (issue 6 §5) and the logger timeline (§6): one list, newest first, paged
+// Notes on loggers and sites and the logger timeline (§6): one list, newest first, paged
 // by cursor; sparklines of supply and probe temperature.
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity } from '../../server/db/models';

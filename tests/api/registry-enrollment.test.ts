@@ -1,4 +1,4 @@
-// Enrollment on site (issue 3 §5–6): label lookup, enrollment with the measurement profile, refusals that name
+// Enrollment on site: label lookup, enrollment with the measurement profile, refusals that name
 // the limit, moving, profile versions, the install photo.
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity, Logger, MeasurementProfile } from '../../server/db/models';
@@ -19,7 +19,7 @@ async function freshLogger(modelId?: string, board = 'B') {
   return { id: res.body.id as string, token: res.body.token as string, serial: res.body.serial as string };
 }
 
-// INA226 data sheet SBOS547, Table 1 worked example (REFERENCE.md §8): R_SHUNT = 2 mΩ with Current_LSB = 1 mA
+// INA226 data sheet SBOS547, Table 1 worked example (docs/SOURCES.md §8): R_SHUNT = 2 mΩ with Current_LSB = 1 mA
 // gives CAL = 0.00512 / (0.001 × 0.002) = 2560 (A00h) and Power_LSB = 25 × 1 mA = 25 mW. A maximum expected
 // current of 32.768 A makes Eq. 2 (max / 2^15) land exactly on that 1 mA LSB.
 const tableOneInstall = { panelWp: 400, panelVocV: 22.4, shuntOhm: 0.002, maxCurrentA: 32.768, tempResolutionBits: 12, notes: 'Leads fused at the combiner box' };
@@ -97,7 +97,7 @@ describe('enrollment', () => {
     expect(profile.calibration).toBe(0xa00);
     expect(profile.powerLsbW).toBe(0.025); // Power_LSB = 25 × Current_LSB; Table 1: 25 mW
     expect(profile).toMatchObject({ version: 1, shuntOhm: 0.002, maxCurrentA: 32.768, busVMax: 36, tempResolutionBits: 12, panelWp: 400, panelVocV: 22.4 });
-    // DS18B20 data sheet (REFERENCE.md §9): 750 ms maximum conversion at 12 bits; sampling at least 4× that long is our rule.
+    // DS18B20 data sheet (docs/SOURCES.md §9): 750 ms maximum conversion at 12 bits; sampling at least 4× that long is our rule.
     expect(profile.sampleIntervalS * 1000).toBeGreaterThanOrEqual(4 * 750);
     expect(res.body.logger).toMatchObject({
       id: logger.id,

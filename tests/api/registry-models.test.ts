@@ -1,4 +1,4 @@
-// Models and board revisions (issue 3 §1): CRUD, validation, roles, activity rows.
+// Models and board revisions: CRUD, validation, roles, activity rows.
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity } from '../../server/db/models';
 
@@ -8,8 +8,8 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-// Limits of the usual power-monitor chip: INA226 data sheet SBOS547 (REFERENCE.md §8): shunt full scale
-// 81.92 mV, bus 0–36 V. Probe resolutions 9–12 bits: DS18B20 data sheet (REFERENCE.md §9).
+// Limits of the usual power-monitor chip: INA226 data sheet SBOS547 (docs/SOURCES.md §8): shunt full scale
+// 81.92 mV, bus 0–36 V. Probe resolutions 9–12 bits: DS18B20 data sheet (docs/SOURCES.md §9).
 const fl3 = {
   name: 'FL-3 field logger',
   boards: [

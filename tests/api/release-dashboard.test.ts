@@ -1,4 +1,4 @@
-// The release dashboard (issue 6 §4) against a hand-built rollout where every report, board, site and
+// The release dashboard against a hand-built rollout where every report, board, site and
 // install time is known: the per-board and per-site breakdown, the time to install, the trip points
 // with their current values, adoption per day, paging, and who sees which sites.
 import { startTestApp, csrf, type TestApp } from '../helpers/app';

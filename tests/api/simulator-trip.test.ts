@@ -1,5 +1,5 @@
 // The fleet simulator's --fail-rate against the real app: when a share of installs fail, the release's
-// trip (issue 5 §5: failure ratio over a minimum number of finished installs) stops the
+// trip (the rule: failure ratio over a minimum number of finished installs) stops the
 // rollout, and from then on no logger is offered it. Sources: DEVICE_API.md rule 6 (a stopped release
 // offers nothing; a logger whose install failed for integrity, storage or other is not offered it again).
 import crypto from 'node:crypto';

@@ -1,4 +1,4 @@
-// Notes on a site read back (issue 6 §5): GET /api/sites/:id/notes, newest first, keyset-paged by an
+// Notes on a site read back: GET /api/sites/:id/notes, newest first, keyset-paged by an
 // opaque cursor, for everyone who may see the site (integrators only their assigned sites, as
 // GET /api/sites/:id decides).
 import { startTestApp, csrf, type TestApp } from '../helpers/app';

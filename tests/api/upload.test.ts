@@ -1,4 +1,4 @@
-// Verified upload into the firmware store (issue 4 §4). Every refusal asserts that the store
+// Verified upload into the firmware store. Every refusal asserts that the store
 // directory holds no new entry (hidden temporary files included) and that no release or image row
 // was written. Signatures are made with node:crypto (RFC 8032 Ed25519; ECDSA P-256/SHA-256 as raw
 // r‖s); image digests with node:crypto SHA-256 (FIPS 180-4); versions per semver.org 2.0.0.

@@ -1,4 +1,4 @@
-// Renders a component into jsdom with react-dom (the web target), as STACK.md recommends, and
+// Renders a component into jsdom with react-dom (the web target), as server-side rendering under jsdom fails (MessageChannel), and
 // offers the few interactions screen tests need. React Native Web maps testID to data-testid.
 import React from 'react';
 import { act } from 'react';

@@ -36,7 +36,7 @@ describe('sign-in screen', () => {
 });
 
 describe('layout and formatting helpers', () => {
-  test('when the window is narrower than 900 px, then the phone layout applies (DESIGN.md)', () => {
+  test('when the window is narrower than 900 px, then the phone layout applies (docs/DESIGN.md)', () => {
     expect(getBreakpoints(390).wide).toBe(false);
     expect(getBreakpoints(899).wide).toBe(false);
     expect(getBreakpoints(900).wide).toBe(true);

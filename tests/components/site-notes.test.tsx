@@ -1,4 +1,4 @@
-// The site's notes card (issue 6 §5) in its states: loading, failed, empty, a page with older notes to
+// The site's notes card in its states: loading, failed, empty, a page with older notes to
 // fetch, and read-only for roles that may not write. Times are shown as absoluteTime formats them.
 import React from 'react';
 import { render } from './render';

@@ -1,4 +1,4 @@
-// Settings → Device API in the browser, at phone and wide sizes (DESIGN.md: 390×844 and 1280×800).
+// Settings → Device API in the browser, at phone and wide sizes (docs/DESIGN.md: 390×844 and 1280×800).
 import { testPassword } from '../helpers/app';
 import { browserApp, screenshot, signIn, viewports } from '../helpers/browser';
 

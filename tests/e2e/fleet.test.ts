@@ -1,4 +1,4 @@
-// Support's fleet journey in the browser (issue 6 tests), at phone and wide sizes: filter the fleet to
+// Support's fleet journey in the browser, at phone and wide sizes: filter the fleet to
 // low-supply loggers of one customer with the screen's own controls, check the URL carries the filter
 // and the rows are the API's answer to the same query, export that filter as CSV, then open the lagging
 // sites, open one, and read a logger's reason in plain words. Expected values come from the API at run

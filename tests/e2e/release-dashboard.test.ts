@@ -1,4 +1,4 @@
-// The rollout dashboard in the browser (issue 6 §4), at phone and wide sizes, on the full demo scenario's
+// The rollout dashboard in the browser, at phone and wide sizes, on the full demo scenario's
 // live 2.3.0 release: a release engineer reads the trip points with their current values, the time
 // to install, each board revision and the sites (failures first) as the API answers them; the page
 // refreshes itself while the release is live (a report written straight into install_reports shows up

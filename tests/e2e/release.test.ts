@@ -1,4 +1,4 @@
-// The release engineer's journey in the browser (issue 4 tests): upload a signed image, see the
+// The release engineer's journey in the browser: upload a signed image, see the
 // progress bar and the draft, start the pilot, widen to 25 %. Signing happens here, offline, with
 // the CLI's own functions (node:crypto underneath); the console only ever sees the public key.
 import crypto from 'node:crypto';
@@ -183,7 +183,7 @@ test('when an admin opens signing keys and creates an API token, then the key is
     await page.getByTestId('create-token').click();
     const token = page.getByTestId('new-token');
     await token.waitFor();
-    // Issue 4 §2: `hat_` followed by 43 base64url characters.
+    // API tokens: `hat_` followed by 43 base64url characters.
     expect(await token.innerText()).toMatch(/^hat_[A-Za-z0-9_-]{43}$/);
     await page.getByTestId('token-card').first().waitFor();
     await screenshot(page, `tokens-${name}`);

@@ -1,4 +1,4 @@
-// Site notes in the browser (issue 6 §5), at phone and wide sizes: support opens a site from the sites
+// Site notes in the browser, at phone and wide sizes: support opens a site from the sites
 // list, adds a note, reloads the page and still reads it (the list comes from the server, not from this
 // visit); older notes come a page at a time; an integrator assigned to the site reads the notes without
 // the form. Expected notes come from the API at run time.

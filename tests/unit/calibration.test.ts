@@ -11,7 +11,7 @@ import {
 } from '../../lib/calibration';
 import { installDetails, measurementProfile as measurementProfileSchema, registerLoggerRequest } from '../../schemas/loggers';
 
-// Check values: INA226 data sheet SBOS547 (REFERENCE.md §8): shunt full scale 81.92 mV, bus range 0–36 V,
+// Check values: INA226 data sheet SBOS547 (docs/SOURCES.md §8): shunt full scale 81.92 mV, bus range 0–36 V,
 // Eq. 1 CAL = 0.00512 / (Current_LSB × R_SHUNT), Eq. 2 Current_LSB = max / 2^15, Eq. 3 Current = Shunt × CAL / 2048,
 // Eq. 4 Power = Current × Bus / 20 000, Power_LSB = 25 × Current_LSB, Table 1 worked example,
 // calibration register top bit unused (1 ≤ CAL ≤ 32767).
@@ -215,10 +215,10 @@ describe('measurement profile', () => {
   });
 });
 
-// Source of the conversion times: DS18B20 data sheet, resolution table (REFERENCE.md §9).
+// Source of the conversion times: DS18B20 data sheet, resolution table (docs/SOURCES.md §9).
 describe('sample interval (from the temperature probe datasheet conversion times)', () => {
   test('when the probe resolution is 9, 10, 11 or 12 bits, then the interval is whole seconds, at least 1 s and at least 4× the conversion time', () => {
-    // Max conversion time: 9-bit 93.75 ms, 10-bit 187.5 ms, 11-bit 375 ms, 12-bit 750 ms (REFERENCE.md §9).
+    // Max conversion time: 9-bit 93.75 ms, 10-bit 187.5 ms, 11-bit 375 ms, 12-bit 750 ms (docs/SOURCES.md §9).
     const conversionMs: Record<number, number> = { 9: 93.75, 10: 187.5, 11: 375, 12: 750 };
     for (const bits of [9, 10, 11, 12]) {
       const seconds = sampleIntervalFor(bits);
@@ -235,7 +235,7 @@ describe('shared install and registration schemas', () => {
   const typical = { panelWp: 400, panelVocV: 22.4, shuntOhm: 0.002, maxCurrentA: 15, tempResolutionBits: 12 };
 
   test('when install details are typed, then the form schema takes the probe family\'s 9–12 bits and refuses zero or out-of-range values', () => {
-    // Probe resolutions 9 to 12 bits: DS18B20 data sheet (REFERENCE.md §9).
+    // Probe resolutions 9 to 12 bits: DS18B20 data sheet (docs/SOURCES.md §9).
     expect(installDetails.safeParse(typical).success).toBe(true);
     expect(installDetails.safeParse({ ...typical, tempResolutionBits: 9 }).success).toBe(true);
     expect(installDetails.safeParse({ ...typical, tempResolutionBits: 8 }).success).toBe(false);

@@ -14,7 +14,7 @@ import {
 import type { FailureReason } from '../../schemas/words';
 
 // The rules under test are DEVICE_API.md "Who gets an offer", 1–6. Outside references used below:
-// semver.org §10–11 (REFERENCE.md §4) and the semver package for version precedence and ranges, the
+// semver.org §10–11 (docs/SOURCES.md §4) and the semver package for version precedence and ranges, the
 // bucket formula recomputed with node:crypto in cohort.test.ts (values repeated here as literals), and
 // suncalc for sunrise and sunset. Demo data: PRODUCT.md (Fernhollow Energy Co-op, FL-2 field logger).
 
@@ -133,7 +133,7 @@ describe('offer decision', () => {
       expect(single(d)).toEqual({ reason, offered: reason === 'offered' });
     });
 
-    // semver.org §11 (REFERENCE.md §4) precedence: pre-releases rank below the normal version;
+    // semver.org §11 (docs/SOURCES.md §4) precedence: pre-releases rank below the normal version;
     // semver.org §10: build metadata is ignored for precedence.
     test.each([
       { channel: 'early' as const, running: '3.0.0-rc.1', version: '3.0.0', offered: true },

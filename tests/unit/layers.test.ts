@@ -1,4 +1,4 @@
-// The server's layers (ARCHITECTURE.md, "rollout/ … the pure rollout core, no I/O … device-api/ is only
+// The server's layers (DEVELOPERS.md, "rollout/ … the pure rollout core, no I/O … device-api/ is only
 // the transport; fleet/ and releases/ import rollout/, never device-api/"), checked on the source
 // text: every import specifier of the files, and for rollout/ every module it reaches.
 import fs from 'node:fs';

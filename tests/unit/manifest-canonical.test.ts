@@ -1,7 +1,7 @@
 import { canonicalJson, canonicalManifest, ManifestError, parseSignedManifest } from '../../server/images/manifest';
 
 // A manifest for the FL-2 field logger of the demo scenario (PRODUCT.md); the digest is SHA-256("abc"),
-// FIPS 180-4 / NIST one-block example (REFERENCE.md §3), standing in for an image.
+// FIPS 180-4 / NIST one-block example (docs/SOURCES.md §3), standing in for an image.
 const fl2Model = '6f1c2a3e-9b4d-4c1e-8a7f-2d3b4c5d6e7f';
 const abcDigest = 'ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad';
 const manifest = {

@@ -1,7 +1,7 @@
 import { passwordSchema } from '../../schemas/auth';
 import { bcryptCost, checkPassword, hashPassword } from '../../server/auth/passwords';
 
-describe('passwords (OWASP Password Storage Cheat Sheet, REFERENCE.md §12)', () => {
+describe('passwords (OWASP Password Storage Cheat Sheet, docs/SOURCES.md §12)', () => {
   test('when hashing, then the bcrypt work factor is at least 10', async () => {
     expect(bcryptCost(false)).toBeGreaterThanOrEqual(10);
     expect(bcryptCost(true)).toBeGreaterThanOrEqual(10);

@@ -1,6 +1,6 @@
 import { decodeProbeRaw, probeReadingFault } from '../../lib/calibration';
 
-// Source: DS18B20 data sheet, Table 1 "Temperature/Data Relationship" (REFERENCE.md §9).
+// Source: DS18B20 data sheet, Table 1 "Temperature/Data Relationship" (docs/SOURCES.md §9).
 const table1: Array<[number, number]> = [
   [0x07d0, 125],
   [0x0550, 85],
@@ -10,7 +10,7 @@ const table1: Array<[number, number]> = [
   [0x0000, 0],
   [0xfff8, -0.5],
   [0xff5e, -10.125],
-  [0xfe6f, -25.0625], // the old Dallas edition misprints this as FF6Fh (REFERENCE.md §9)
+  [0xfe6f, -25.0625], // the old Dallas edition misprints this as FF6Fh (docs/SOURCES.md §9)
   [0xfc90, -55],
 ];
 
@@ -22,7 +22,7 @@ describe('temperature probe readings', () => {
   });
 
   test('when the register reads FFFFh (an open 1-Wire bus), then it decodes to −0.0625 °C as 16-bit two\'s complement / 16', () => {
-    // REFERENCE.md §9 [D]: derived from the register format of the DS18B20 data sheet.
+    // docs/SOURCES.md §9 [D]: derived from the register format of the DS18B20 data sheet.
     expect(decodeProbeRaw(0xffff)).toBe(-0.0625);
   });
 
@@ -46,7 +46,7 @@ describe('temperature probe readings', () => {
     expect(probeReadingFault(decodeProbeRaw(0x07d0))).toBeNull(); // +125 °C
     expect(probeReadingFault(decodeProbeRaw(0xfc8f))).toBe('out_of_range'); // −55.0625 °C
     expect(probeReadingFault(decodeProbeRaw(0x07d1))).toBe('out_of_range'); // +125.0625 °C
-    // A sentinel some probe libraries return for a missing probe (from memory, REFERENCE.md §9 [M]).
+    // A sentinel some probe libraries return for a missing probe (from memory, docs/SOURCES.md §9 [M]).
     expect(probeReadingFault(-127)).toBe('out_of_range');
     expect(probeReadingFault(Number.NaN)).toBe('out_of_range');
   });

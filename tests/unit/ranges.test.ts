@@ -1,6 +1,6 @@
 import { contentRange, ifRangeMatches, imageEtag, parseRange, unsatisfiedRange } from '../../server/device-api/ranges';
 
-// Source: RFC 9110 (REFERENCE.md §10). §14.1.2 examples are on a representation of length 10000.
+// Source: RFC 9110 (docs/SOURCES.md §10). §14.1.2 examples are on a representation of length 10000.
 const SIZE = 10_000;
 
 describe('Range header', () => {
@@ -121,7 +121,7 @@ describe('Content-Range', () => {
 });
 
 describe('If-Range', () => {
-  const sha = 'ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad'; // SHA-256("abc"), FIPS 180-4 (REFERENCE.md §3)
+  const sha = 'ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad'; // SHA-256("abc"), FIPS 180-4 (docs/SOURCES.md §3)
   const etag = imageEtag(sha);
 
   test('when the image ETag is built, then it is the SHA-256 hex as a strong entity-tag (DEVICE_API.md)', () => {

@@ -1,7 +1,7 @@
 import semver from 'semver';
 import { isStrictSemver, semverProblem, strictSemver } from '../../schemas/semver';
 
-// Source: semver.org spec v2.0.0 item 11 (precedence example chain), REFERENCE.md §4 [S, V].
+// Source: semver.org spec v2.0.0 item 11 (precedence example chain), docs/SOURCES.md §4 [S, V].
 const chain = ['1.0.0-alpha', '1.0.0-alpha.1', '1.0.0-alpha.beta', '1.0.0-beta', '1.0.0-beta.2', '1.0.0-beta.11', '1.0.0-rc.1', '1.0.0'];
 
 const messageOf = (text: string) => {
@@ -34,7 +34,7 @@ describe('semantic versions (semver.org 2.0.0)', () => {
   );
 
   test.each(['1.0.0-0', '1.0.0-0a', '1.0.0+001', '1.0.0-x-y-z.--'])(
-    'when %s is checked, then the grammar accepts it (REFERENCE.md §4, semver.org FAQ regex)',
+    'when %s is checked, then the grammar accepts it (docs/SOURCES.md §4, semver.org FAQ regex)',
     (version) => {
       expect(isStrictSemver(version)).toBe(true);
     },
@@ -46,7 +46,7 @@ describe('semantic versions (semver.org 2.0.0)', () => {
   });
 
   // Source: semver.org item 2 (no leading zeroes), item 9 (pre-release identifiers), FAQ ("v1.2.3" is not a
-  // semantic version); REFERENCE.md §4 "Rejected by the grammar".
+  // semantic version); docs/SOURCES.md §4 "Rejected by the grammar".
   const refused: [string, RegExp][] = [
     ['v2.4.0', /^2\.4\.0 is a semantic version; 'v2\.4\.0' has a leading v$/],
     [' 2.4.0', /^2\.4\.0 is a semantic version; ' 2\.4\.0' has spaces$/],

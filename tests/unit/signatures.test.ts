@@ -23,7 +23,7 @@ function refusal(run: () => unknown): ManifestError {
 const hex = (text: string) => Buffer.from(text, 'hex');
 const b64url = (bytes: Buffer) => bytes.toString('base64url');
 
-// Source: RFC 8032 §7.1 "Test Vectors for Ed25519", TEST 1–3 (REFERENCE.md §1, [V]).
+// Source: RFC 8032 §7.1 "Test Vectors for Ed25519", TEST 1–3 (docs/SOURCES.md §1, [V]).
 const rfc8032 = [
   {
     name: 'TEST 1',
@@ -51,7 +51,7 @@ const rfc8032 = [
   },
 ];
 
-/** SPKI DER of a raw Ed25519 public key (REFERENCE.md §1 [D]: the RFC 8410 prefix, as pyca writes it). */
+/** SPKI DER of a raw Ed25519 public key (docs/SOURCES.md §1 [D]: the RFC 8410 prefix, as pyca writes it). */
 const ed25519Spki = (publicKey: string) => Buffer.concat([hex('302a300506032b6570032100'), hex(publicKey)]);
 const spkiPem = (der: Buffer) => String(createPublicKey({ key: der, format: 'der', type: 'spki' }).export({ type: 'spki', format: 'pem' }));
 
@@ -99,7 +99,7 @@ describe('Ed25519 (RFC 8032)', () => {
   });
 });
 
-// Source: RFC 6979 Appendix A.2.5 "ECDSA, 256 Bits (Prime Field)", SHA-256, message "sample" (REFERENCE.md §2, [V]).
+// Source: RFC 6979 Appendix A.2.5 "ECDSA, 256 Bits (Prime Field)", SHA-256, message "sample" (docs/SOURCES.md §2, [V]).
 const p256 = {
   x: 'C9AFA9D845BA75166B5C215767B1D6934E50C3DB36E89B127B8A622B120F6721',
   ux: '60FED4BA255A9D31C961EB74C6356D68C049B8923B61FA6CE669622E60F29FB6',
@@ -142,7 +142,7 @@ describe('ECDSA P-256 with SHA-256 (RFC 6979)', () => {
   });
 
   test('when the A.2.5 signature arrives DER-encoded (72 bytes), then it is refused as the wrong length', () => {
-    // REFERENCE.md §2 [D]: r and s each get a 00 prefix, so the DER form is 30 46 02 21 00‖r 02 21 00‖s.
+    // docs/SOURCES.md §2 [D]: r and s each get a 00 prefix, so the DER form is 30 46 02 21 00‖r 02 21 00‖s.
     const der = Buffer.concat([hex('3046022100'), hex(p256.r), hex('022100'), hex(p256.s)]);
     expect(der).toHaveLength(72);
     const error = refusal(() => decodeSignature(der.toString('base64'), 'ecdsa-p256-sha256'));
@@ -186,7 +186,7 @@ describe('signing and verifying manifests', () => {
     expect(verifyManifestSignature(manifest, signature, key)).toBe(true);
     const tampered = Buffer.from(manifest.toString('utf8').replace('"security_counter":5', '"security_counter":4'));
     expect(verifyManifestSignature(tampered, signature, key)).toBe(false);
-    // node:crypto's own verifier agrees (reference; for ECDSA with the IEEE P1363 raw r‖s encoding, REFERENCE.md §2).
+    // node:crypto's own verifier agrees (reference; for ECDSA with the IEEE P1363 raw r‖s encoding, docs/SOURCES.md §2).
     const raw = Buffer.from(signature, 'base64');
     const nodeSays =
       key.algorithm === 'ed25519'

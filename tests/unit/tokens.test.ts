@@ -10,7 +10,7 @@ describe('bearer tokens', () => {
   });
 
   test('when digests are computed, then they match FIPS 180-4 SHA-256 values (NIST "abc" and CAVP empty message)', () => {
-    // Source: REFERENCE.md §3 (NIST one-block example; CAVP SHA256ShortMsg Len = 0)
+    // Source: docs/SOURCES.md §3 (NIST one-block example; CAVP SHA256ShortMsg Len = 0)
     expect(digestToken('abc')).toBe('ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad');
     expect(digestToken('')).toBe('e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855');
   });

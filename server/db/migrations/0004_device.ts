@@ -1,7 +1,7 @@
 import type { Sequelize, Transaction } from 'sequelize';
 
 // The device API: each logger's latest reported state on its row (what the fleet views read), and the
-// check-in history in a table partitioned by day (ARCHITECTURE.md: "partitioned by day with a
+// check-in history in a table partitioned by day (DEVELOPERS.md: "partitioned by day with a
 // retention window"). Daily partitions are created ahead by the partition service
 // (server/device-api/partitions.ts) at boot and daily; a DEFAULT partition catches anything outside
 // them (a clock far off, a maintenance run missed), so an insert never fails for want of a partition.

@@ -1,6 +1,6 @@
 import type { Sequelize, Transaction } from 'sequelize';
 
-// Registry additions for issue 3:
+// Registry additions:
 // - serials are unique without regard to case ("fl2-0001" and "FL2-0001" read as the same logger on a label);
 // - install photos live in the database beside their logger, so a photo and its metadata in loggers.install
 //   are written in one transaction (nothing half-written) and go with every database backup. At ≤ 10 MB

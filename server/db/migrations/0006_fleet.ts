@@ -1,6 +1,6 @@
 import type { Sequelize, Transaction } from 'sequelize';
 
-// Fleet views (issue 6): what the fleet table, the lagging sites and the timeline need to stay fast
+// Fleet views: what the fleet table, the lagging sites and the timeline need to stay fast
 // at 100 000 loggers.
 // - firmware_key: the running version's semantic-version precedence (semver.org §11) as a text array
 //   compared byte by byte (COLLATE "C"), kept by PostgreSQL itself as a generated column, so the

@@ -65,10 +65,13 @@ export async function up(sequelize: Sequelize, transaction: Transaction) {
   // Who stopped a stopped release, and the figures a trip judged.
   await q(`ALTER TABLE releases ADD COLUMN stopped_by text CHECK (stopped_by IN ('person', 'trip')),
                                 ADD COLUMN trip_figures jsonb`);
+  // Only where the stop still stands: a resume clears who stopped the release, a withdrawal keeps it.
   await q(`UPDATE releases r SET stopped_by = CASE WHEN last.actor_type = 'system' THEN 'trip' ELSE 'person' END
              FROM (SELECT DISTINCT ON (release_id) release_id, actor_type FROM release_transitions
                     WHERE action = 'stop' ORDER BY release_id, at DESC, id DESC) last
-            WHERE last.release_id = r.id AND r.stopped_at IS NOT NULL`);
+            WHERE last.release_id = r.id AND r.stopped_at IS NOT NULL
+              AND NOT EXISTS (SELECT 1 FROM release_transitions x WHERE x.release_id = r.id AND x.action = 'resume'
+                                 AND (x.at, x.id) > (SELECT max(y.at), max(y.id) FROM release_transitions y WHERE y.release_id = r.id AND y.action = 'stop'))`);
 
   await renameWords(sequelize, transaction, ACTIVITY, (a, b) => `UPDATE activity SET action = '${b}' WHERE action = '${a}'`);
   await q(`UPDATE activity SET action = 'release.stopped', details = COALESCE(details, '{}'::jsonb) || '{"by": "person"}'::jsonb WHERE action = 'release.halt'`);
