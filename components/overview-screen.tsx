@@ -3,7 +3,7 @@ import { Pressable, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
 import { Page } from './shell';
 import { Badge, Card, EmptyState, ProgressBar, Row } from './ui';
-import { FLAG_WORDS, NOT_HEARD_FROM } from './words';
+import { FLAG_WORDS, NOT_HEARD_FROM, RELEASE_STATE_WORDS } from './words';
 import { QueryView, type QueryState } from './query-state';
 import { useBreakpoints } from './breakpoints';
 import { colors, space, type, toneColors, type Tone } from './theme';
@@ -104,7 +104,7 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
                     <Text style={type.body}>
                       {r.modelName} <Text style={type.mono}>{r.version}</Text> · {r.channel}
                     </Text>
-                    <Badge label={`${r.state} · ${r.share} %`} tone={r.state === 'stopped' ? 'ember' : r.state === 'paused' ? 'amber' : 'slate'} />
+                    <Badge label={`${RELEASE_STATE_WORDS[r.state].label} · ${r.share} %`} tone={RELEASE_STATE_WORDS[r.state].tone} />
                   </Row>
                   <ProgressBar value={r.share} tone={r.state === 'stopped' ? 'ember' : 'moss'} />
                   <Text style={type.small}>

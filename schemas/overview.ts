@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { CHANNELS, FLEET_FLAGS } from './words';
+import { CHANNELS, FLEET_FLAGS, RELEASE_STATES } from './words';
 
 export const overviewSchema = z.object({
   loggers: z.object({
@@ -24,7 +24,7 @@ export const overviewSchema = z.object({
         modelName: z.string(),
         version: z.string(),
         channel: z.enum(CHANNELS),
-        state: z.string(),
+        state: z.enum(RELEASE_STATES),
         share: z.number(),
         installed: z.number().int(),
         failed: z.number().int(),

@@ -5,7 +5,7 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { loggerScope, siteScope } from '../auth/policies';
 import { type FleetFlag } from '../../schemas/fleet';
-import { FLEET_FLAGS } from '../../schemas/words';
+import { FLEET_FLAGS, type Channel, type ReleaseState } from '../../schemas/words';
 import type { Overview } from '../../schemas/overview';
 import { CURRENT_RELEASES, FLAG_SQL } from './sql';
 import { SQL_WORDS } from '../db/sql-words';
@@ -28,7 +28,7 @@ export async function fleetOverview(sequelize: Sequelize, actor: Actor, now: Dat
           AND ${sites.sql}`,
       { type: QueryTypes.SELECT, replacements },
     ),
-    sequelize.query<{ id: string; model_name: string; version: string; channel: 'stable' | 'early'; state: string; share: string; installed: number; failed: number }>(
+    sequelize.query<{ id: string; model_name: string; version: string; channel: Channel; state: ReleaseState; share: string; installed: number; failed: number }>(
       `SELECT r.id, m.name AS model_name, r.version, r.channel, r.state, r.share,
               (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = :installed) AS installed,
               (SELECT count(*)::int FROM install_reports ir WHERE ir.release_id = r.id AND ir.state = :failed) AS failed
