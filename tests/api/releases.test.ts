@@ -13,6 +13,7 @@ import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Activity, Logger, LoggerModel, Release, ReleaseTransition, Site } from '../../server/db/models';
 import { bucketOf } from '../../server/rollout/cohort';
 import { demoModel, keyPair, postUpload, registerKey, signedUpload, storeEntries, type KeyPair } from './release-fixtures';
+import { ALLOWED_ACTIONS } from '../helpers/lifecycle-table';
 
 let t: TestApp;
 let key: KeyPair;
@@ -54,15 +55,7 @@ const into: Record<string, Step[]> = {
   withdrawn: [{ action: 'start_pilot' }, { action: 'withdraw', reason: 'wrong image' }],
 };
 
-const allowed: Record<string, string[]> = {
-  draft: ['start_pilot'],
-  pilot: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
-  widening: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
-  complete: ['pause', 'stop', 'withdraw'],
-  paused: ['resume', 'stop', 'withdraw'],
-  stopped: ['resume', 'withdraw'],
-  withdrawn: [],
-};
+const allowed: Record<string, readonly string[]> = ALLOWED_ACTIONS;
 
 // [from state, step, expected status, expected state, expected share]
 const table: [string, Step, number, string | null, number | null][] = [

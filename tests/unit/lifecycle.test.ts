@@ -8,6 +8,7 @@ import {
   type ReleaseState,
 } from '../../server/rollout/lifecycle';
 import { RELEASE_ACTIONS, RELEASE_STATES } from '../../schemas/words';
+import { ALLOWED_ACTIONS } from '../helpers/lifecycle-table';
 
 // Source: the release lifecycle's complete table as the product specifies it, written out here by hand
 // (not read from lifecycle.ts):
@@ -27,15 +28,7 @@ const start: Record<ReleaseState, ReleaseLifecycle> = {
   withdrawn: { state: 'withdrawn', share: 25, resumeState: null },
 };
 
-const allowed: Record<ReleaseState, ReleaseAction[]> = {
-  draft: ['start_pilot'],
-  pilot: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
-  widening: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
-  complete: ['pause', 'stop', 'withdraw'],
-  paused: ['resume', 'stop', 'withdraw'],
-  stopped: ['resume', 'withdraw'],
-  withdrawn: [],
-};
+const allowed = ALLOWED_ACTIONS;
 
 /** Expected result of each legal pair, given the start rows above, share 50 for widen and a reason. */
 const legal: Partial<Record<`${ReleaseState}:${ReleaseAction}`, ReleaseLifecycle>> = {

@@ -43,6 +43,7 @@ import '../../server/releases/routes';
 import '../../server/fleet/routes';
 import '../../server/keys/routes';
 import '../../server/tokens/routes';
+import { ALLOWED_ACTIONS } from '../helpers/lifecycle-table';
 
 // ─── The actors ─────────────────────────────────────────────────────────────
 
@@ -89,16 +90,8 @@ const RELEASE_WHO: Record<(typeof RELEASE_VERBS)[number] | 'view', readonly Acto
   retry: ['admin', 'release_engineer'],
 };
 
-/** The lifecycle's complete table, by hand. */
-const LIFECYCLE: Record<ReleaseState, readonly string[]> = {
-  draft: ['start_pilot', 'edit', 'delete'],
-  pilot: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
-  widening: ['widen', 'complete', 'pause', 'stop', 'withdraw'],
-  complete: ['pause', 'stop', 'withdraw'],
-  paused: ['resume', 'stop', 'withdraw'],
-  stopped: ['resume', 'withdraw'],
-  withdrawn: [],
-};
+/** The lifecycle's complete table, by hand (tests/helpers/lifecycle-table.ts), with a draft's edit and delete. */
+const LIFECYCLE: Record<ReleaseState, readonly string[]> = { ...ALLOWED_ACTIONS, draft: [...ALLOWED_ACTIONS.draft, 'edit', 'delete'] };
 const STATELESS_RELEASE_VERBS = ['view', 'retry'];
 
 describe('release policies', () => {
