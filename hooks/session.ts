@@ -27,9 +27,11 @@ export function useSignIn() {
   const qc = useQueryClient();
   return useMutation({
     mutationFn: (body: SignInRequest) => api<SignInResponse>('/api/auth/sign-in', { body }),
-    onSuccess: ({ user }) => {
+    onSuccess: (answer) => {
+      // With a second factor on, the password step signs in no one yet: the code step follows.
+      if (answer.step !== 'signed_in') return;
       qc.clear();
-      qc.setQueryData(sessionKeys.me, user);
+      qc.setQueryData(sessionKeys.me, answer.user);
     },
   });
 }

@@ -7,13 +7,14 @@ import path from 'node:path';
 import type { Server } from 'node:http';
 import { Sequelize } from 'sequelize';
 import request from 'supertest';
-import { createApp } from '../../server/app';
+import type { Logger } from 'pino';
+import { createApp, type AppDeps } from '../../server/app';
 import { appConfig } from './config';
 import { createDatabase } from '../../server/db';
 import { createMailer } from '../../server/mail/mailer';
 import { seedDemo } from '../../server/db/seed/demo';
 import { User } from '../../server/db/models';
-import { hashPassword } from '../../server/auth/passwords';
+import { hashPassword, stopPasswordWorkers } from '../../server/auth/passwords';
 import type { Role } from '../../schemas/auth';
 import { testEnv } from './env';
 
@@ -48,7 +49,18 @@ export type TestApp = Awaited<ReturnType<typeof startTestApp>>;
  * `seedSize: 'full'` seeds the full scenario `npm start` shows (about 240 loggers, signed releases,
  * 14 days of check-ins; a few seconds more).
  */
-export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?: 'small' | 'full'; now?: () => Date; webDir?: string } = {}) {
+export async function startTestApp(
+  options: {
+    seed?: 'demo' | 'none';
+    seedSize?: 'small' | 'full';
+    now?: () => Date;
+    webDir?: string;
+    /** Settings beyond the test defaults, e.g. `{ production: true }` for the production rules. */
+    config?: Partial<AppDeps['config']>;
+    /** Where the app logs (tests that scan the log for secrets); silent otherwise. */
+    logger?: Logger;
+  } = {},
+) {
   const env = testEnv();
   const db = await createDatabaseFromTemplate();
   const sequelize = createDatabase(db.url, { poolMax: 10 });
@@ -64,11 +76,13 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
       outboxDir: env.outboxDir,
       storeDir,
       webDir: options.webDir ?? path.resolve(__dirname, '../../dist'),
+      ...options.config,
     }),
     sequelize,
     mailer: createMailer({ host: '127.0.0.1', port: env.smtpPort, secure: false, from: 'Heliodor <heliodor@localhost>' }),
     readiness: { migrated: true, seeded: options.seed === 'demo' ? 'complete' : 'skipped' },
     now: options.now,
+    logger: options.logger,
   });
 
   let server: Server | null = null;
@@ -99,6 +113,7 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
       return `http://127.0.0.1:${(server.address() as { port: number }).port}`;
     },
     async close() {
+      await app.later.settled();
       if (server) {
         server.closeAllConnections();
         await new Promise((r) => server!.close(r));
@@ -107,6 +122,7 @@ export async function startTestApp(options: { seed?: 'demo' | 'none'; seedSize?:
       await db.drop();
       fs.rmSync(storeDir, { recursive: true, force: true });
       fs.rmSync(dataDir, { recursive: true, force: true });
+      await stopPasswordWorkers();
     },
   };
   return t;

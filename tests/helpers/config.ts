@@ -8,6 +8,7 @@ type AppConfig = AppDeps['config'];
 export function appConfig(given: Pick<AppConfig, 'outboxDir' | 'storeDir' | 'webDir'> & Partial<AppConfig>): AppConfig {
   return {
     jwtSecret: crypto.randomBytes(32).toString('base64url'),
+    dataKey: crypto.randomBytes(32).toString('base64url'),
     demo: false,
     devMailbox: false,
     production: false,
