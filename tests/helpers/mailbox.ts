@@ -6,7 +6,7 @@ import { testEnv } from './env';
 export async function waitForMail(to: string, subject: string, since = new Date(0)): Promise<OutboxMessage> {
   const deadline = Date.now() + 15_000;
   for (;;) {
-    const found = readOutbox(testEnv().outboxDir, 500).find((m) => m.to.includes(to) && m.subject.includes(subject) && Date.parse(m.sentAt) >= since.getTime() - 1000);
+    const found = readOutbox(testEnv().outboxDir, 500).find((m) => m.to.includes(to) && m.subject.includes(subject) && Date.parse(m.sentAt) >= since.getTime());
     if (found) return found;
     if (Date.now() > deadline) throw new Error(`no mail to ${to} about "${subject}"`);
     await new Promise((r) => setTimeout(r, 100));
