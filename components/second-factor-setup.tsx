@@ -104,7 +104,7 @@ export function RecoveryCodes({ codes, onDone, doneLabel = 'I have stored them' 
 
 const styles = StyleSheet.create({
   qr: { alignSelf: 'flex-start', padding: space.sm, backgroundColor: colors.surface, borderColor: colors.line, borderWidth: 1, borderRadius: radii.md },
-  secret: { backgroundColor: colors.paperDeep, padding: space.sm, borderRadius: radii.sm, letterSpacing: 1, wordBreak: 'break-all' } as object,
+  secret: { backgroundColor: colors.paperDeep, padding: space.sm, borderRadius: radii.sm, letterSpacing: 1 },
   codes: { flexDirection: 'row', flexWrap: 'wrap', gap: space.sm, backgroundColor: colors.surface, borderColor: colors.line, borderWidth: 1, borderRadius: radii.sm, padding: space.sm },
   code: { width: 170 },
 });

@@ -44,6 +44,8 @@ export function TeamScreen(p: Props) {
   return (
     <Page title="Team" subtitle="People who use this console, their roles and their access">
       {p.act.notice ? <Notice tone="moss" title={p.act.notice} /> : null}
+      {/* Phones: the invitation form first, above a list that grows with the team. */}
+      {p.wide ? null : <InviteForm {...p.invite} />}
       <View style={p.wide ? styles.columns : styles.stack}>
         <View style={p.wide ? { flex: 3, minWidth: 0 } : undefined}>
           <QueryView state={p.state} rows={5}>
@@ -62,9 +64,11 @@ export function TeamScreen(p: Props) {
             }
           </QueryView>
         </View>
-        <View style={p.wide ? { flex: 2, minWidth: 0 } : undefined}>
-          <InviteForm {...p.invite} />
-        </View>
+        {p.wide ? (
+          <View style={{ flex: 2, minWidth: 0 }}>
+            <InviteForm {...p.invite} />
+          </View>
+        ) : null}
       </View>
       {p.act.pending ? <ActionDialog action={p.act.pending} busy={p.act.busy} error={p.act.error} onCancel={() => p.act.ask(null)} onConfirm={p.act.run} /> : null}
     </Page>

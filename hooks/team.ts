@@ -12,7 +12,8 @@ const invitationAnswer = z.object({ member: teamMemberSchema, mailed: z.boolean(
 export type InvitationAnswer = z.infer<typeof invitationAnswer>;
 
 export function useTeam() {
-  return useQuery({ queryKey: teamKeys.list(), queryFn: () => api('/api/team', {}, teamList), staleTime: STALE.SECONDS.THIRTY });
+  // Always fresh when opened: invitations are accepted elsewhere, and people sign in all day.
+  return useQuery({ queryKey: teamKeys.list(), queryFn: () => api('/api/team', {}, teamList), staleTime: 0, refetchInterval: STALE.SECONDS.THIRTY });
 }
 
 function useTeamMutation<V, T>(fn: (v: V) => Promise<T>) {
