@@ -16,7 +16,15 @@ export const roleNames: Record<Role, string> = {
 export const SECOND_FACTOR_ROLES = ['admin', 'release_engineer'] as const satisfies readonly Role[];
 export const needsSecondFactor = (role: Role) => (SECOND_FACTOR_ROLES as readonly Role[]).includes(role);
 
-const utf8Bytes = (s: string) => new TextEncoder().encode(s).length;
+/** Length in UTF-8 bytes (RFC 3629), counted by code point so it needs no TextEncoder. */
+export function utf8Bytes(s: string): number {
+  let n = 0;
+  for (const ch of s) {
+    const c = ch.codePointAt(0)!;
+    n += c < 0x80 ? 1 : c < 0x800 ? 2 : c < 0x10000 ? 3 : 4;
+  }
+  return n;
+}
 
 /**
  * OWASP ASVS 4.0 §2.1: at least 12 characters (2.1.1), long passphrases allowed (2.1.2; bcrypt reads at

@@ -32,7 +32,7 @@ export default function SecondFactorFirst() {
     <AuthFrame
       wide
       title="Set up a second factor"
-      intro={`As ${roleNames[me.data.role].toLowerCase()}, ${me.data.name}, you can ship firmware or signing keys to loggers wired to live PV circuits. Before anything else, set up a second factor: after your password, Heliodor will also ask for a code from your phone.`}
+      intro={`${me.data.name}, your role (${roleNames[me.data.role].toLowerCase()}) can ship firmware or signing keys to loggers wired to live PV circuits, so a second factor comes first: after your password, Heliodor will also ask for a code from your phone.`}
     >
       {codes ? (
         <RecoveryCodes codes={codes} onDone={() => router.replace('/')} doneLabel="I have stored them: open the console" />

@@ -1,6 +1,8 @@
 // With production settings, at phone and wide sizes: a release engineer without a second factor who
 // signs in is sent to set it up before anything else — other pages send her back and the API refuses
 // her with 403 — and once it is on, the console opens.
+import jsQR from 'jsqr';
+import { PNG } from 'pngjs';
 import { testPassword } from '../helpers/app';
 import { browserApp, screenshot, signIn, viewports } from '../helpers/browser';
 import { codeFor } from '../helpers/totp';
@@ -31,6 +33,14 @@ test.each(Object.entries(viewports))('when a release engineer without a second f
   await page.getByTestId('second-factor-qr').waitFor();
   await screenshot(page, `production-second-factor-first-${size}`);
   const secret = (await page.getByTestId('second-factor-secret').innerText()).replace(/\s+/g, '');
+  // The QR code on screen, read back by reference decoders (pngjs, jsqr), carries the same secret.
+  const png = PNG.sync.read(await page.getByTestId('second-factor-qr').screenshot());
+  const qr = jsQR(new Uint8ClampedArray(png.data), png.width, png.height);
+  expect(qr).not.toBeNull();
+  const uri = new URL(qr!.data);
+  expect(uri.protocol).toBe('otpauth:');
+  expect(uri.searchParams.get('secret')).toBe(secret);
+  expect(decodeURIComponent(uri.pathname)).toContain(`Heliodor:${email}`);
   await page.getByTestId('second-factor-confirm-code').fill(codeFor(secret));
   await page.getByTestId('second-factor-confirm').click();
   await page.getByTestId('recovery-codes').waitFor();

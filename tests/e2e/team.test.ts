@@ -100,6 +100,41 @@ describe.each(Object.entries(viewports))('team and accounts at %s size', (size, 
     await invitee.context.close();
   });
 
+  test('when someone forgot their password, then the link from the Mailbox lets them choose a new one and sign in with it', async () => {
+    const email = `wren.${size}.${Date.now()}@fernhollow.example`;
+    await User.create({ email, name: `Wren ${size}`, role: 'support', passwordHash: await hashPassword('the password wren forgot', 10) });
+    const p = await newPage(session.browser, viewport);
+    await p.page.goto(`${session.base}/sign-in`);
+    await p.page.getByTestId('forgot-password').click();
+    await p.page.getByRole('heading', { name: 'Forgotten password' }).waitFor();
+    await p.page.getByTestId('reset-email').fill(email);
+    await p.page.getByTestId('reset-send').click();
+    await p.page.getByText('Check your e-mail').waitFor();
+    await screenshot(p.page, `forgot-password-${size}`);
+
+    const admin = await newPage(session.browser, viewport);
+    await signIn(admin.page, session.base, 'morgan@fernhollow.example', testPassword);
+    await admin.page.getByRole('heading', { name: 'Overview' }).waitFor();
+    await open(admin.page, wide, 'Mailbox');
+    const card = admin.page.getByText(`To ${email}`).locator('xpath=..');
+    const link = await card.getByTestId('mail-link').first().getAttribute('href');
+    expect(link).toMatch(/\/reset-password#t=hpr_/);
+    await admin.context.close();
+
+    await p.page.goto(link!);
+    await p.page.getByRole('heading', { name: 'Choose a new password' }).waitFor();
+    await p.page.getByTestId('new-password').fill('wren remembers this one');
+    await p.page.getByTestId('new-password-repeat').fill('wren remembers this one');
+    await screenshot(p.page, `reset-password-${size}`);
+    await p.page.getByTestId('reset-confirm').click();
+    await p.page.getByRole('heading', { name: 'Password changed' }).waitFor();
+    await p.page.getByTestId('reset-sign-in').click();
+    await signIn(p.page, session.base, email, 'wren remembers this one');
+    await p.page.getByRole('heading', { name: 'Overview' }).waitFor();
+    expect(p.errors).toEqual([]);
+    await p.context.close();
+  });
+
   test('when a release engineer turns the second factor on from the Account page, then the next sign-in asks for a code and one computed from the shown secret signs her in', async () => {
     const email = `rafa.${size}.${Date.now()}@fernhollow.example`;
     await User.create({ email, name: `Rafa ${size}`, role: 'release_engineer', passwordHash: await hashPassword(testPassword, 10) });
@@ -140,7 +175,7 @@ describe.each(Object.entries(viewports))('team and accounts at %s size', (size, 
 test('when the team tests are done, then the Activity screen shows a sentence for every team change they made', async () => {
   const rows = await Activity.findAll({ where: { action: { [Op.in]: [...TEAM_ACTIVITY_ACTIONS] }, at: { [Op.gte]: started } }, order: [['id', 'DESC']] });
   const actions = new Set(rows.map((r) => r.action));
-  for (const a of ['person.invited', 'person.joined', 'person.disabled', 'person.second_factor_on']) expect(actions).toContain(a);
+  for (const a of ['person.invited', 'person.joined', 'person.disabled', 'person.second_factor_on', 'person.password_reset']) expect(actions).toContain(a);
   const p = await newPage(session.browser, viewports.wide);
   await signIn(p.page, session.base, 'morgan@fernhollow.example', testPassword);
   await p.page.getByRole('heading', { name: 'Overview' }).waitFor();

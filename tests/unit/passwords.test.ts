@@ -1,5 +1,5 @@
 import bcrypt from 'bcryptjs';
-import { passwordSchema } from '../../schemas/auth';
+import { passwordSchema, utf8Bytes } from '../../schemas/auth';
 import { bcryptCost, checkPassword, costOf, decoyHash, hashPassword, passwordWork, stopPasswordWorkers } from '../../server/auth/passwords';
 import { commonPasswordCount, isCommonPassword } from '../../server/auth/common-passwords';
 
@@ -54,6 +54,12 @@ describe('new passwords follow OWASP ASVS 4.0 §2.1', () => {
     // 24 characters but 72 bytes: each "€" is 3 bytes in UTF-8
     expect(passwordSchema.safeParse('€'.repeat(24)).success).toBe(true);
     expect(passwordSchema.safeParse('€'.repeat(25)).success).toBe(false);
+  });
+
+  test('when bytes are counted, then they agree with Node\'s own UTF-8 encoder (RFC 3629: 1 to 4 bytes per code point)', () => {
+    for (const s of ['plain ascii', 'Sonnenstrom über Aldmere', '€uro', 'sun ☀️ and 🌞', 'lone \ud800 half']) {
+      expect(utf8Bytes(s)).toBe(Buffer.byteLength(s, 'utf8'));
+    }
   });
 
   test('when the password has spaces, Unicode or emoji, then it is accepted as typed (ASVS 4.0 §2.1.4)', () => {
