@@ -40,8 +40,9 @@ export function authenticate(deps: { jwtSecret: string; production: boolean; seq
       }
       const cookie = req.cookies?.[sessionCookie];
       if (typeof cookie === 'string' && cookie) {
-        const claims = verifySession(deps.jwtSecret, cookie);
-        const session = claims ? await findLiveSession(deps.sequelize, claims.sid, claims.sub, deps.now()) : null;
+        const now = deps.now();
+        const claims = verifySession(deps.jwtSecret, cookie, now);
+        const session = claims ? await findLiveSession(deps.sequelize, claims.sid, claims.sub, now) : null;
         if (session?.stage === 'full') {
           req.actor = {
             type: 'person',

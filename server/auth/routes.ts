@@ -47,7 +47,7 @@ export function setSessionCookie(req: Request, res: Response, session: IssuedSes
     httpOnly: true,
     sameSite: 'lax',
     secure: req.secure,
-    maxAge: Math.max(0, session.expiresAt.getTime() - Date.now()),
+    maxAge: session.ttlS * 1000,
     path: '/',
   });
 }

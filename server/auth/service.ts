@@ -43,8 +43,8 @@ export type AccountDeps = {
   passwordCost: number;
 };
 
-/** A session to hand to the browser as its cookie. */
-export type IssuedSession = { token: string; expiresAt: Date; stage: SessionStage };
+/** A session to hand to the browser as its cookie (kept for `ttlS` seconds). */
+export type IssuedSession = { token: string; ttlS: number; stage: SessionStage };
 
 export const presentPerson = (user: User): Person => ({ id: user.id, email: user.email, name: user.name, role: user.role });
 
@@ -87,7 +87,7 @@ async function issue(deps: AccountDeps, user: User, stage: SessionStage, t?: Tra
   const now = deps.now();
   const ttl = stage === 'full' ? sessionTtlSeconds : pendingSessionTtlSeconds;
   const session = await createSession(deps.sequelize, user.id, stage, now, ttl, t);
-  return { token: signSession(deps.config.jwtSecret, user.id, session.id, session.expiresAt), expiresAt: session.expiresAt, stage };
+  return { token: signSession(deps.config.jwtSecret, user.id, session.id, session.expiresAt), ttlS: ttl, stage };
 }
 
 // ─── Signing in and out ─────────────────────────────────────────────────────

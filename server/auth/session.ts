@@ -22,10 +22,13 @@ export function signSession(secret: string, userId: string, sessionId: string, e
   });
 }
 
-/** The claims of a well-formed, unexpired session token, or null. A token without `exp` never counts (RFC 7519 §4.1.4). */
-export function verifySession(secret: string, token: string): SessionClaims | null {
+/**
+ * The claims of a well-formed, unexpired session token, or null. A token without `exp` never counts
+ * (RFC 7519 §4.1.4). Expiry is judged by the app's clock, the same clock the session rows are kept by.
+ */
+export function verifySession(secret: string, token: string, now: Date = new Date()): SessionClaims | null {
   try {
-    const claims = jwt.verify(token, secret, { algorithms: ['HS256'], issuer, audience, clockTolerance: 30 });
+    const claims = jwt.verify(token, secret, { algorithms: ['HS256'], issuer, audience, clockTolerance: 30, clockTimestamp: Math.floor(now.getTime() / 1000) });
     if (typeof claims !== 'object' || claims.typ !== 'session') return null;
     if (typeof claims.exp !== 'number') return null;
     if (typeof claims.sub !== 'string' || !uuidPattern.test(claims.sub)) return null;

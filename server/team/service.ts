@@ -270,6 +270,6 @@ export async function acceptInvitation(deps: AccountDeps, input: { token: string
       details: { role: person.role },
     });
     const session = await createSession(deps.sequelize, person.id, 'full', now, sessionTtlSeconds, t);
-    return { user: person, session: { token: signSession(deps.config.jwtSecret, person.id, session.id, session.expiresAt), expiresAt: session.expiresAt, stage: 'full' } };
+    return { user: person, session: { token: signSession(deps.config.jwtSecret, person.id, session.id, session.expiresAt), ttlS: sessionTtlSeconds, stage: 'full' } };
   });
 }
