@@ -11,6 +11,8 @@ const serverTransform = {
     },
   ],
 };
+// ESM-only packages the server imports (otplib's Base32 and hash plugins); jest runs CommonJS, so they are transformed.
+const serverEsm = '/node_modules/(?!(canonicalize|@scure|@noble|@otplib)/)';
 const esmPackages = ['@tanstack', 'react-native', '@react-native', 'expo', '@expo', 'expo-.*', '@expo-google-fonts', '@react-navigation', 'react-native-.*', 'canonicalize', 'standard-navigation'];
 
 module.exports = {
@@ -23,14 +25,14 @@ module.exports = {
       testEnvironment: 'node',
       roots: ['<rootDir>/tests/unit'],
       transform: serverTransform,
-      transformIgnorePatterns: ['/node_modules/(?!(canonicalize)/)'],
+      transformIgnorePatterns: [serverEsm],
     },
     {
       displayName: 'api',
       testEnvironment: 'node',
       roots: ['<rootDir>/tests/api'],
       transform: serverTransform,
-      transformIgnorePatterns: ['/node_modules/(?!(canonicalize)/)'],
+      transformIgnorePatterns: [serverEsm],
       globalSetup: '<rootDir>/tests/setup/global-setup.ts',
       globalTeardown: '<rootDir>/tests/setup/global-teardown.ts',
     },
@@ -45,6 +47,7 @@ module.exports = {
       testEnvironment: 'node',
       roots: ['<rootDir>/tests/e2e'],
       transform: serverTransform,
+      transformIgnorePatterns: [serverEsm],
       globalSetup: '<rootDir>/tests/setup/global-setup.ts',
       globalTeardown: '<rootDir>/tests/setup/global-teardown.ts',
     },

@@ -2,7 +2,7 @@
 import React from 'react';
 import { Slot } from 'expo-router';
 import { useFonts } from 'expo-font';
-import { QueryClient, QueryClientProvider, focusManager } from '@tanstack/react-query';
+import { MutationCache, QueryCache, QueryClient, QueryClientProvider, focusManager } from '@tanstack/react-query';
 import { SafeAreaProvider } from 'react-native-safe-area-context';
 import { Platform, Text, View } from 'react-native';
 import { IBMPlexSans_400Regular } from '@expo-google-fonts/ibm-plex-sans/400Regular';
@@ -13,8 +13,17 @@ import { IBMPlexMono_400Regular } from '@expo-google-fonts/ibm-plex-mono/400Regu
 import { IBMPlexMono_500Medium } from '@expo-google-fonts/ibm-plex-mono/500Medium';
 import { colors, type } from '../components/theme';
 import { ApiError } from '../hooks/api';
+import { sessionKeys } from '../hooks/session';
 
-const queryClient = new QueryClient({
+// A session the server has ended (sign-out elsewhere, disabled, role changed) answers 401 to the next
+// request: the console then forgets the person, and the console's gate sends the page to sign-in.
+const sessionEnded = (err: unknown) => {
+  if (err instanceof ApiError && err.status === 401 && queryClient.getQueryData(sessionKeys.me)) queryClient.setQueryData(sessionKeys.me, null);
+};
+
+const queryClient: QueryClient = new QueryClient({
+  queryCache: new QueryCache({ onError: sessionEnded }),
+  mutationCache: new MutationCache({ onError: sessionEnded }),
   defaultOptions: {
     queries: {
       retry: (count, err) => !(err instanceof ApiError && err.status >= 400 && err.status < 500) && count < 2,

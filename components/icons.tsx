@@ -2,7 +2,7 @@
 import React from 'react';
 import Svg, { Circle, Line, Path, Rect } from 'react-native-svg';
 
-export type IconName = 'overview' | 'loggers' | 'sites' | 'releases' | 'enroll' | 'more' | 'activity' | 'mail' | 'keys' | 'settings' | 'lagging' | 'models' | 'team' | 'signout';
+export type IconName = 'overview' | 'loggers' | 'sites' | 'releases' | 'enroll' | 'more' | 'activity' | 'mail' | 'keys' | 'settings' | 'lagging' | 'models' | 'team' | 'account' | 'signout';
 
 export function Icon({ name, color, size = 22 }: { name: IconName; color: string; size?: number }) {
   const p = { stroke: color, strokeWidth: 1.8, fill: 'none', strokeLinecap: 'round' as const, strokeLinejoin: 'round' as const };
@@ -92,6 +92,12 @@ export function Icon({ name, color, size = 22 }: { name: IconName; color: string
           <Path d="M3.5 19c.8-3.3 3-5 5.5-5s4.7 1.7 5.5 5" {...p} />
           <Circle cx="17" cy="9.5" r="2.3" {...p} />
           <Path d="M16 14.3c2.3.1 3.8 1.7 4.5 4.2" {...p} />
+        </>
+      )}
+      {name === 'account' && (
+        <>
+          <Circle cx="12" cy="8.5" r="3.5" {...p} />
+          <Path d="M5 20c1-3.8 3.8-6 7-6s6 2.2 7 6" {...p} />
         </>
       )}
       {name === 'signout' && (

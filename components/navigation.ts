@@ -27,6 +27,8 @@ export const destinations: Destination[] = [
   { href: '/activity', label: 'Activity', icon: 'activity', roles: ['admin', 'release_engineer', 'support'] },
   { href: '/keys', label: 'Signing keys', icon: 'keys', roles: ['admin', 'release_engineer'] },
   { href: '/tokens', label: 'API tokens', icon: 'settings', roles: ['admin'] },
+  { href: '/team', label: 'Team', icon: 'team', roles: ['admin'] },
+  { href: '/account', label: 'Account', icon: 'account', roles: everyone },
   { href: '/settings/device-api', label: 'Settings · Device API', icon: 'settings', roles: everyone },
   { href: '/mailbox', label: 'Mailbox', icon: 'mail', roles: ['admin'], devOnly: true },
 ];

@@ -4,9 +4,9 @@ import { Button, Field, Notice } from './ui';
 import { colors, fonts, radii, space, type } from './theme';
 import type { ApiError } from '../hooks/api';
 
-type Props = { busy: boolean; error: ApiError | null; onSubmit: (email: string, password: string) => void };
+type Props = { busy: boolean; error: ApiError | null; onSubmit: (email: string, password: string) => void; footer?: React.ReactNode };
 
-export function SignInScreen({ busy, error, onSubmit }: Props) {
+export function SignInScreen({ busy, error, onSubmit, footer }: Props) {
   const [email, setEmail] = React.useState('');
   const [password, setPassword] = React.useState('');
   const [missing, setMissing] = React.useState<{ email?: string; password?: string }>({});
@@ -46,6 +46,7 @@ export function SignInScreen({ busy, error, onSubmit }: Props) {
           onSubmitEditing={submit}
         />
         <Button label="Sign in" onPress={submit} busy={busy} testID="sign-in" />
+        {footer}
       </View>
     </KeyboardAvoidingView>
   );

@@ -3,6 +3,7 @@
 // word with its colour, never colour alone (docs/DESIGN.md). Tones: moss = as planned, slate = waiting or
 // under way, amber = needs a look, ember = something went wrong, ink = over for good.
 import type { Tone } from './theme';
+import type { PersonStatus } from '../schemas/team';
 import type {
   ActivityAction,
   Channel,
@@ -101,6 +102,13 @@ export const LAGGING_REASON_WORDS: Record<LaggingReason, Word> = {
   other: { label: 'Other', tone: 'ink' },
 };
 
+/** A person's standing on the team. */
+export const PERSON_STATUS_WORDS: Record<PersonStatus, Word> = {
+  invited: { label: 'Invited', tone: 'slate' },
+  active: { label: 'Active', tone: 'moss' },
+  disabled: { label: 'Disabled', tone: 'ink' },
+};
+
 /** What happened, in a few words, for each activity code (the row's summary says the rest). */
 export const ACTIVITY_WORDS: Record<ActivityAction, string> = {
   'demo.seeded': 'Demo fleet seeded',
@@ -136,6 +144,22 @@ export const ACTIVITY_WORDS: Record<ActivityAction, string> = {
   'release.resumed': 'Release resumed',
   'release.stopped': 'Release stopped',
   'release.withdrawn': 'Release withdrawn',
+  'person.invited': 'Person invited',
+  'person.invitation_resent': 'Invitation sent again',
+  'person.invitation_revoked': 'Invitation withdrawn',
+  'person.joined': 'Person joined the team',
+  'person.role_changed': 'Role changed',
+  'person.disabled': 'Person disabled',
+  'person.enabled': 'Person enabled again',
+  'person.renamed': 'Name changed',
+  'person.password_reset_requested': 'Password reset asked for',
+  'person.password_reset': 'Password reset',
+  'person.password_changed': 'Password changed',
+  'person.second_factor_on': 'Second factor turned on',
+  'person.second_factor_off': 'Second factor turned off',
+  'person.recovery_code_used': 'Recovery code used',
+  'person.signed_out': 'Signed out',
+  'person.sessions_revoked': 'Signed out everywhere',
 };
 
 /** The activity word for a code, and the code itself for one this console does not know yet. */

@@ -116,6 +116,29 @@ export const LAGGING_REASONS = [
 ] as const;
 export type LaggingReason = (typeof LAGGING_REASONS)[number];
 
+// ─── Team and accounts ──────────────────────────────────────────────────────
+
+/** What the activity log records about people and their access (one code per event). */
+export const TEAM_ACTIVITY_ACTIONS = [
+  'person.invited',
+  'person.invitation_resent',
+  'person.invitation_revoked',
+  'person.joined',
+  'person.role_changed',
+  'person.disabled',
+  'person.enabled',
+  'person.renamed',
+  'person.password_reset_requested',
+  'person.password_reset',
+  'person.password_changed',
+  'person.second_factor_on',
+  'person.second_factor_off',
+  'person.recovery_code_used',
+  'person.signed_out',
+  'person.sessions_revoked',
+] as const;
+export type TeamActivityAction = (typeof TEAM_ACTIVITY_ACTIONS)[number];
+
 // ─── Activity ───────────────────────────────────────────────────────────────
 
 /** Every event the activity log records: one code per event, whoever caused it (details say who or what). */
@@ -147,5 +170,6 @@ export const ACTIVITY_ACTIONS = [
   'release.deleted',
   'release.retried',
   ...Object.values(RELEASE_EVENTS),
+  ...TEAM_ACTIVITY_ACTIONS,
 ] as const;
 export type ActivityAction = (typeof ACTIVITY_ACTIONS)[number];

@@ -6,7 +6,7 @@ import { loadConfig } from '../server/config';
 import { createDatabase, migrate } from '../server/db';
 import { User } from '../server/db/models';
 import { emailSchema, passwordSchema } from '../schemas/auth';
-import { bcryptCost, hashPassword } from '../server/auth/passwords';
+import { bcryptCost, hashPassword, stopPasswordWorkers } from '../server/auth/passwords';
 import { recordActivity } from '../server/activity/service';
 import { systemContext } from '../server/auth/actor';
 
@@ -49,6 +49,7 @@ async function main() {
     process.stdout.write(`Admin ${email} created.\n`);
   } finally {
     await sequelize.close();
+    await stopPasswordWorkers();
   }
 }
 

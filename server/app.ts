@@ -12,6 +12,8 @@ import type { Config } from './config';
 import type { Mailer } from './mail/mailer';
 import { requestLogLevel } from './logging';
 import { authenticate } from './auth/middleware';
+import { createLater } from './auth/later';
+import { bcryptCost } from './auth/passwords';
 import { createApi } from './http/api';
 import { errorHandler } from './http/errors';
 import { problems } from './http/problem';
@@ -31,7 +33,7 @@ import { registerFleetRoutes } from './fleet/routes';
 import { createDeviceApi } from './device-api/routes';
 
 export type AppDeps = {
-  config: Pick<Config, 'jwtSecret' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
+  config: Pick<Config, 'jwtSecret' | 'dataKey' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
   sequelize: Sequelize;
   mailer: Mailer;
   readiness: Readiness;
@@ -86,16 +88,27 @@ export function createApp(deps: AppDeps) {
   // Device API bodies are limited to 16 KiB; the console API to 1 MiB (uploads use multipart).
   app.use('/api/device', express.json({ limit: '16kb', type: ['application/json', 'application/*+json'] }));
   app.use('/api', express.json({ limit: '1mb' }));
-  app.use('/api', authenticate(services.config.jwtSecret));
+  app.use('/api', authenticate({ jwtSecret: services.config.jwtSecret, production: services.config.production, sequelize: services.sequelize, now: services.now }));
 
   const router = express.Router();
   const api = createApi(router);
   registerHealthRoutes(api, services);
-  registerAuthRoutes(api, { sequelize: services.sequelize, jwtSecret: services.config.jwtSecret });
+  // Accounts and the team share one set of dependencies; `later` runs work after an answer (reset e-mails).
+  const later = createLater(services.logger);
+  const accounts = {
+    sequelize: services.sequelize,
+    config: services.config,
+    mailer: services.mailer,
+    logger: services.logger,
+    now: services.now,
+    later,
+    passwordCost: bcryptCost(services.config.production),
+  };
+  registerAuthRoutes(api, accounts);
   registerMailRoutes(api, services.config);
   registerOverviewRoutes(api, services);
   registerActivityRoutes(api, services);
-  registerTeamRoutes(api);
+  registerTeamRoutes(api, accounts);
   registerReleaseRoutes(api, services);
   registerKeyRoutes(api, services);
   registerTokenRoutes(api, services);
@@ -123,7 +136,7 @@ export function createApp(deps: AppDeps) {
   app.use(errorHandler);
   /** Ends the app's background work; call it before closing the database. */
   const stop = () => deviceApi.stop();
-  return Object.assign(app, { apiRouter: router, services, stop });
+  return Object.assign(app, { apiRouter: router, services, stop, later });
 }
 
 function noCacheForHtml(res: Response, file: string) {

@@ -18,6 +18,7 @@ const envSchema = z.object({
   HELIODOR_DEMO: z.enum(['0', '1']).default('1'),
   HELIODOR_DEMO_PASSWORD: z.string().min(12).max(72).default('fernhollow-demo'),
   HELIODOR_JWT_SECRET: z.string().min(32).optional(),
+  HELIODOR_DATA_KEY: z.string().min(32).optional(),
   HELIODOR_PUBLIC_URL: z.string().url().optional(),
   HELIODOR_IMAGE_LIMIT: z.coerce.number().int().min(1024).default(16 * 1024 * 1024),
   HELIODOR_DEVICE_RATE: z.coerce.number().int().min(1).default(60),
@@ -80,6 +81,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     databaseUrl,
     dbPool: e.HELIODOR_DB_POOL,
     jwtSecret: e.HELIODOR_JWT_SECRET ?? readSecret(dataDir, 'jwt-secret'),
+    /** Seals secrets the server must read back (second-factor secrets); kept outside the database. */
+    dataKey: e.HELIODOR_DATA_KEY ?? readSecret(dataDir, 'data-key'),
     publicUrl: e.HELIODOR_PUBLIC_URL,
     demoPassword: e.HELIODOR_DEMO_PASSWORD,
     imageLimitBytes: e.HELIODOR_IMAGE_LIMIT,

@@ -8,6 +8,7 @@ import { useBreakpoints } from '../../components/breakpoints';
 import { Notice, Skeleton } from '../../components/ui';
 import { colors, space } from '../../components/theme';
 import { useMe, useSignOut } from '../../hooks/session';
+import { SecondFactorInvite } from '../../components/second-factor-invite';
 
 export default function ConsoleLayout() {
   const me = useMe();
@@ -44,6 +45,8 @@ export default function ConsoleLayout() {
     return <Redirect href={`/sign-in${next}` as never} />;
   }
   redirectFrom.current = null;
+  // Production: admins and release engineers set up a second factor before anything else.
+  if (me.data.secondFactor.setupNeeded) return <Redirect href="/second-factor" />;
   return (
     <Shell
       me={me.data}
@@ -52,6 +55,7 @@ export default function ConsoleLayout() {
       destinations={destinationsFor(me.data.role)}
       onSignOut={() => signOut.mutate(undefined, { onSettled: () => router.replace('/sign-in') })}
     >
+      {me.data.secondFactor.suggested && !pathname.startsWith('/account') ? <SecondFactorInvite /> : null}
       <Slot />
     </Shell>
   );

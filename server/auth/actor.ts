@@ -4,7 +4,15 @@ import type { Role } from '../../schemas/auth';
 export type Scope = 'images:write' | 'releases:write' | 'fleet:read';
 
 export type Actor =
-  | { type: 'person'; id: string; name: string; email: string; role: Role }
+  | {
+      type: 'person';
+      id: string;
+      name: string;
+      email: string;
+      role: Role;
+      /** Production asks this person for a second factor they have not set up: only setting it up is allowed. */
+      mustSetUpSecondFactor?: boolean;
+    }
   | { type: 'token'; id: string; name: string; scopes: Scope[] }
   | { type: 'logger'; id: string; name: string }
   | { type: 'system'; id: null; name: 'system' };

@@ -1,9 +1,11 @@
 // Resolves the actor of each request and enforces the CSRF header on cookie-authenticated writes.
 import type { NextFunction, Request, RequestHandler, Response } from 'express';
-import { User } from '../db/models';
+import type { Sequelize } from 'sequelize';
+import { needsSecondFactor } from '../../schemas/auth';
 import { problems } from '../http/problem';
 import type { Actor } from './actor';
 import { sessionCookie, verifySession } from './session';
+import { findLiveSession } from './store';
 
 /** Resolves "Authorization: Bearer <token>" for tokens with a known prefix (e.g. hat_ automation tokens). */
 export type BearerResolver = (token: string) => Promise<Actor | null>;
@@ -15,7 +17,13 @@ export function registerBearerResolver(prefix: string, resolve: BearerResolver) 
 
 const writeMethods = new Set(['POST', 'PUT', 'PATCH', 'DELETE']);
 
-export function authenticate(jwtSecret: string): RequestHandler {
+/**
+ * The session cookie counts only while its server-side session is live and its person joined and is not
+ * disabled: signing out, disabling, a role change, a new password or a second factor turned off end it
+ * at the next request. A malformed, unsigned, expired or `exp`-less token, or one naming an unknown
+ * person, is simply no session (so people routes answer 401).
+ */
+export function authenticate(deps: { jwtSecret: string; production: boolean; sequelize: Sequelize; now: () => Date }): RequestHandler {
   return async (req: Request, _res: Response, next: NextFunction) => {
     try {
       const header = req.get('authorization');
@@ -32,13 +40,23 @@ export function authenticate(jwtSecret: string): RequestHandler {
       }
       const cookie = req.cookies?.[sessionCookie];
       if (typeof cookie === 'string' && cookie) {
-        const claims = verifySession(jwtSecret, cookie);
-        if (claims) {
-          const user = await User.findByPk(claims.sub);
-          if (user && !user.disabledAt) {
-            req.actor = { type: 'person', id: user.id, name: user.name, email: user.email, role: user.role };
-            req.viaSessionCookie = true;
-          }
+        const now = deps.now();
+        const claims = verifySession(deps.jwtSecret, cookie, now);
+        const session = claims ? await findLiveSession(deps.sequelize, claims.sid, claims.sub, now) : null;
+        if (session?.stage === 'full') {
+          req.actor = {
+            type: 'person',
+            id: session.userId,
+            name: session.name,
+            email: session.email,
+            role: session.role,
+            ...(deps.production && needsSecondFactor(session.role) && !session.secondFactorOn ? { mustSetUpSecondFactor: true } : {}),
+          };
+          req.sessionId = session.sessionId;
+          req.viaSessionCookie = true;
+        } else if (session?.stage === 'second_factor') {
+          req.pendingSignIn = { sessionId: session.sessionId, userId: session.userId };
+          req.viaSessionCookie = true;
         }
       }
       if (req.viaSessionCookie && writeMethods.has(req.method) && req.get('x-requested-with') !== 'heliodor') {

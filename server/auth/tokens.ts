@@ -2,7 +2,8 @@
 // after the prefix, shown once, stored only as the SHA-256 digest (hex).
 import crypto from 'node:crypto';
 
-export type TokenPrefix = 'hlt_' | 'hat_';
+// One-time links use the same shape: hiv_ (invitations) and hpr_ (password resets).
+export type TokenPrefix = 'hlt_' | 'hat_' | 'hiv_' | 'hpr_';
 
 export const tokenPattern = (prefix: TokenPrefix) => new RegExp(`^${prefix}[A-Za-z0-9_-]{43}$`);
 

@@ -6,6 +6,10 @@ declare global {
       actor?: Actor;
       /** true when the actor came from the session cookie (CSRF header required on writes) */
       viaSessionCookie?: boolean;
+      /** The server-side session behind the cookie, when it is live. */
+      sessionId?: string;
+      /** The password was right but the second-factor code is still to come (no actor until it is). */
+      pendingSignIn?: { sessionId: string; userId: string };
     }
   }
 }

@@ -1,5 +1,6 @@
 // Outgoing mail over SMTP (nodemailer). In demo and test modes it goes to the local mail fake.
 import nodemailer from 'nodemailer';
+import { withHtml } from './compose';
 
 export type Mail = { to: string[]; subject: string; text: string; html?: string };
 export type Mailer = { send(mail: Mail): Promise<void> };
@@ -22,7 +23,9 @@ export function createMailer(options: {
   return {
     async send(mail) {
       if (mail.to.length === 0) return;
-      await transport.sendMail({ from: options.from, to: mail.to.join(', '), subject: mail.subject, text: mail.text, html: mail.html });
+      // Every message leaves with a plain-text and an HTML part (server/mail/compose.ts).
+      const whole = withHtml(mail);
+      await transport.sendMail({ from: options.from, to: whole.to.join(', '), subject: whole.subject, text: whole.text, html: whole.html });
     },
   };
 }

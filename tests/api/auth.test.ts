@@ -14,7 +14,7 @@ describe('sign-in', () => {
     const agent = t.agent();
     const res = await agent.post('/api/auth/sign-in').send({ email: 'morgan@fernhollow.example', password: testPassword });
     expect(res.status).toBe(200);
-    expect(res.body.user).toMatchObject({ email: 'morgan@fernhollow.example', name: 'Morgan', role: 'admin' });
+    expect(res.body).toMatchObject({ step: 'signed_in', user: { email: 'morgan@fernhollow.example', name: 'Morgan', role: 'admin' } });
     const cookie = String(res.headers['set-cookie']);
     expect(cookie).toContain(`${sessionCookie}=`);
     expect(cookie).toMatch(/HttpOnly/i);
@@ -23,7 +23,15 @@ describe('sign-in', () => {
     expect(me.status).toBe(200);
     // PRODUCT.md roles: the admin may do everything, so every console verb is open to them.
     const everything = Object.fromEntries(CONSOLE_VERBS.map((verb) => [verb, true]));
-    expect(me.body).toEqual({ id: res.body.user.id, email: 'morgan@fernhollow.example', name: 'Morgan', role: 'admin', can: everything });
+    // The demo keeps one-step sign-in and invites an admin to set up a second factor; it does not insist.
+    expect(me.body).toEqual({
+      id: res.body.user.id,
+      email: 'morgan@fernhollow.example',
+      name: 'Morgan',
+      role: 'admin',
+      can: everything,
+      secondFactor: { on: false, required: false, setupNeeded: false, suggested: true },
+    });
     expect(res.body.user.can).toEqual(everything);
   });
 

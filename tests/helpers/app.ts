@@ -7,13 +7,14 @@ import path from 'node:path';
 import type { Server } from 'node:http';
 import { Sequelize } from 'sequelize';
 import request from 'supertest';
-import { createApp } from '../../server/app';
+import type { Logger } from 'pino';
+import { createApp, type AppDeps } from '../../server/app';
 import { appConfig } from './config';
 import { createDatabase } from '../../server/db';
 import { createMailer } from '../../server/mail/mailer';
 import { seedDemo } from '../../server/db/seed/demo';
 import { User } from '../../server/db/models';
-import { hashPassword } from '../../server/auth/passwords';
+import { hashPassword, stopPasswordWorkers } from '../../server/auth/passwords';
 import type { Role } from '../../schemas/auth';
 import { testEnv } from './env';
 import { startLiveDemo, type LiveDemo, type LiveDemoSettings } from '../../server/demo/live';
@@ -52,7 +53,17 @@ export type TestApp = Awaited<ReturnType<typeof startTestApp>>;
  * if no server had run since). The living demo stays off unless a test starts it (`startLiveDemo`).
  */
 export async function startTestApp(
-  options: { seed?: 'demo' | 'none'; seedSize?: 'small' | 'full'; seedAt?: Date; now?: () => Date; webDir?: string } = {},
+  options: {
+    seed?: 'demo' | 'none';
+    seedSize?: 'small' | 'full';
+    seedAt?: Date;
+    now?: () => Date;
+    webDir?: string;
+    /** Settings beyond the test defaults, e.g. `{ production: true }` for the production rules. */
+    config?: Partial<AppDeps['config']>;
+    /** Where the app logs (tests that scan the log for secrets); silent otherwise. */
+    logger?: Logger;
+  } = {},
 ) {
   const env = testEnv();
   const db = await createDatabaseFromTemplate();
@@ -68,6 +79,7 @@ export async function startTestApp(
     outboxDir: env.outboxDir,
     storeDir,
     webDir: options.webDir ?? path.resolve(__dirname, '../../dist'),
+    ...options.config,
   });
   const app = createApp({
     config,
@@ -75,6 +87,7 @@ export async function startTestApp(
     mailer: createMailer({ host: '127.0.0.1', port: env.smtpPort, secure: false, from: 'Heliodor <heliodor@localhost>' }),
     readiness: { migrated: true, seeded: options.seed === 'demo' ? 'complete' : 'skipped' },
     now: options.now,
+    logger: options.logger,
   });
 
   let server: Server | null = null;
@@ -125,6 +138,7 @@ export async function startTestApp(
     },
     async close() {
       await live?.stop();
+      await app.later.settled();
       if (server) {
         server.closeAllConnections();
         await new Promise((r) => server!.close(r));
@@ -134,6 +148,7 @@ export async function startTestApp(
       await db.drop();
       fs.rmSync(storeDir, { recursive: true, force: true });
       fs.rmSync(dataDir, { recursive: true, force: true });
+      await stopPasswordWorkers();
     },
   };
   return t;

@@ -11,6 +11,7 @@ export function appConfig(given: Pick<AppConfig, 'outboxDir' | 'storeDir' | 'web
   return {
     demoLive: { enabled: false, speed: 1, failRate: 0.02 },
     jwtSecret: crypto.randomBytes(32).toString('base64url'),
+    dataKey: crypto.randomBytes(32).toString('base64url'),
     demo: false,
     devMailbox: false,
     production: false,

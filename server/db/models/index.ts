@@ -6,7 +6,7 @@ import { initRegistryModels } from './registry';
 import { initReleaseModels } from './releases';
 import { initDeviceModels } from './device';
 
-export { User } from './user';
+export { User, personStatus } from './user';
 export { Activity } from './activity';
 export * from './registry';
 export * from './releases';
