@@ -52,7 +52,7 @@ export type LiveBehaviour = {
   interruptRate: number;
 };
 
-/** Power-on value of the temperature register, 0550h = 85 °C (DS18B20 data sheet): what a probe that never converts reads. */
+/** Power-on value of the temperature register, 0550h = 85 °C (the probe data sheet, docs/SOURCES.md §9): what a probe that never converts reads. */
 export const PROBE_POWER_ON_C = 85;
 /** Supply of the logger beside the new pump controller: about 4.44 V, below the FL-2's 4.6 V update minimum (as the seeded history). */
 const SAGGING_SUPPLY_V = 4.44;
