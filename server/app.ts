@@ -10,7 +10,7 @@ import pino, { type Logger as Pino } from 'pino';
 import type { Sequelize } from 'sequelize';
 import type { Config } from './config';
 import type { Mailer } from './mail/mailer';
-import { requestLogLevel } from './logging';
+import { requestLogLevel, requestSerializers } from './logging';
 import { authenticate } from './auth/middleware';
 import { createApi } from './http/api';
 import { errorHandler } from './http/errors';
@@ -56,8 +56,8 @@ export function createApp(deps: AppDeps) {
         res.setHeader('X-Request-Id', id);
         return id;
       },
-      // Never log credentials: cookies, bearer tokens.
-      redact: ['req.headers.authorization', 'req.headers.cookie', 'res.headers["set-cookie"]'],
+      // Never log credentials: cookies, bearer tokens, a label link's token in the URL (server/logging.ts).
+      serializers: requestSerializers,
       autoLogging: { ignore: (req) => req.url === '/api/health' },
       // Requests at debug outside production: the living demo checks in every second or so.
       customLogLevel: requestLogLevel(services.config.production),

@@ -6,6 +6,7 @@ import os from 'node:os';
 import path from 'node:path';
 import type { Server } from 'node:http';
 import { Sequelize } from 'sequelize';
+import type { Logger as Pino } from 'pino';
 import request from 'supertest';
 import { createApp } from '../../server/app';
 import { appConfig } from './config';
@@ -21,7 +22,7 @@ import { seededRandom } from '../../scripts/simulator/random';
 
 export const testPassword = 'correct horse battery';
 
-async function createDatabaseFromTemplate(): Promise<{ url: string; drop: () => Promise<void> }> {
+export async function createDatabaseFromTemplate(): Promise<{ url: string; drop: () => Promise<void> }> {
   const env = testEnv();
   const name = `t_${crypto.randomBytes(6).toString('hex')}`;
   const admin = new Sequelize(env.adminUrl, { logging: false });
@@ -52,7 +53,7 @@ export type TestApp = Awaited<ReturnType<typeof startTestApp>>;
  * if no server had run since). The living demo stays off unless a test starts it (`startLiveDemo`).
  */
 export async function startTestApp(
-  options: { seed?: 'demo' | 'none'; seedSize?: 'small' | 'full'; seedAt?: Date; now?: () => Date; webDir?: string } = {},
+  options: { seed?: 'demo' | 'none'; seedSize?: 'small' | 'full'; seedAt?: Date; now?: () => Date; webDir?: string; logger?: Pino } = {},
 ) {
   const env = testEnv();
   const db = await createDatabaseFromTemplate();
@@ -75,6 +76,7 @@ export async function startTestApp(
     mailer: createMailer({ host: '127.0.0.1', port: env.smtpPort, secure: false, from: 'Heliodor <heliodor@localhost>' }),
     readiness: { migrated: true, seeded: options.seed === 'demo' ? 'complete' : 'skipped' },
     now: options.now,
+    logger: options.logger,
   });
 
   let server: Server | null = null;
