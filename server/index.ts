@@ -9,6 +9,7 @@ import { createDatabase, migrate } from './db';
 import { databaseIsNew, seedDemo } from './db/seed/demo';
 import { demoEmail, demoPeople } from './db/seed/scenario';
 import { createApp } from './app';
+import { LocalImageStore } from './images/store';
 import { createMailer } from './mail/mailer';
 import { startFakeSmtp } from './mail/fake-smtp';
 import { bcryptCost } from './auth/passwords';
@@ -28,6 +29,9 @@ async function main() {
       })
     : null;
   const mailer = createMailer({ ...config.smtp, from: config.mailFrom });
+  // Uploads cut off by an earlier process's end leave their temporary files behind: remove them before serving.
+  const swept = await new LocalImageStore(config.storeDir).sweepIncoming();
+  if (swept.length) logger.warn(`removed ${swept.length} unfinished upload${swept.length === 1 ? '' : 's'} from the firmware store`);
   const app = createApp({ config, sequelize, mailer, readiness, logger });
 
   const server: Server = await new Promise((resolve) => {
