@@ -9,6 +9,7 @@ import { createDatabase, migrate } from './db';
 import { databaseIsNew, seedDemo } from './db/seed/demo';
 import { demoEmail, demoPeople } from './db/seed/scenario';
 import { createApp } from './app';
+import { closeGracefully } from './shutdown';
 import { LocalImageStore } from './images/store';
 import { createMailer } from './mail/mailer';
 import { startFakeSmtp } from './mail/fake-smtp';
@@ -76,14 +77,16 @@ async function main() {
     }
   }
 
+  // Stopping: the living demo stops, new connections are refused, requests in flight get the grace period
+  // to finish (HELIODOR_SHUTDOWN_GRACE_S), then the mail fake and the database pool close.
   let stopping = false;
   const stop = async (signal: string) => {
     if (stopping) return;
     stopping = true;
-    logger.info(`${signal}: stopping`);
-    await live?.stop();
-    server.close();
-    server.closeAllConnections?.();
+    logger.info(`${signal}: stopping; requests in flight have ${config.shutdownGraceMs / 1000} s to finish`);
+    await live?.stop(); // aborts its own check-ins at once, so they do not count as requests in flight
+    const { drained } = await closeGracefully(server, config.shutdownGraceMs);
+    if (!drained) logger.warn(`requests still running after ${config.shutdownGraceMs / 1000} s were cut off`);
     smtp?.close(() => undefined);
     await sequelize.close().catch(() => undefined);
     logger.info('stopped');
