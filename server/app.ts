@@ -29,6 +29,7 @@ import { registerSiteRoutes } from './sites/routes';
 import { registerLoggerRoutes } from './loggers/routes';
 import { registerFleetRoutes } from './fleet/routes';
 import { registerDeviceRoutes } from './device-api/routes';
+import { measurePoolWaits, registerMetricsRoutes, requestMetrics } from './metrics';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -58,11 +59,13 @@ export function createApp(deps: AppDeps) {
       },
       // Never log credentials: cookies, bearer tokens, a label link's token in the URL (server/logging.ts).
       serializers: requestSerializers,
-      autoLogging: { ignore: (req) => req.url === '/api/health' },
+      autoLogging: { ignore: (req) => req.url === '/api/health' || req.url === '/api/health/live' || req.url === '/api/health/ready' },
       // Requests at debug outside production: the living demo checks in every second or so.
       customLogLevel: requestLogLevel(services.config.production),
     }),
   );
+  app.use(requestMetrics());
+  measurePoolWaits(services.sequelize);
   app.use(
     helmet({
       contentSecurityPolicy: {
@@ -87,10 +90,12 @@ export function createApp(deps: AppDeps) {
   app.use('/api/device', express.json({ limit: '16kb', type: ['application/json', 'application/*+json'] }));
   app.use('/api', express.json({ limit: '1mb' }));
   app.use('/api', authenticate(services.config.jwtSecret));
+  app.use('/metrics', authenticate(services.config.jwtSecret));
 
   const router = express.Router();
   const api = createApi(router);
   registerHealthRoutes(api, services);
+  registerMetricsRoutes(api, services);
   registerAuthRoutes(api, { sequelize: services.sequelize, jwtSecret: services.config.jwtSecret });
   registerMailRoutes(api, services.config);
   registerOverviewRoutes(api, services);

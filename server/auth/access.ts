@@ -16,6 +16,10 @@ const people = (roles: readonly Role[], scopes?: readonly Scope[]): Rule => ({ k
 export const access: Record<string, Rule> = {
   // Foundation
   'GET /api/health': publicRule,
+  // Operations: liveness and readiness for supervisors and load balancers; metrics for an admin or a scraper's token.
+  'GET /api/health/live': publicRule,
+  'GET /api/health/ready': publicRule,
+  'GET /metrics': people(['admin'], ['metrics:read']),
   'POST /api/auth/sign-in': publicRule,
   'POST /api/auth/sign-out': publicRule,
   'GET /api/auth/me': people(everyone),
