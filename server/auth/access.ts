@@ -41,6 +41,7 @@ export const access: Record<string, Rule> = {
   'POST /api/loggers': people(['admin', 'integrator']),
   'POST /api/loggers/batch': people(['admin', 'integrator']),
   'POST /api/loggers/:id/token': people(['admin']),
+  'POST /api/batches/:id/labels': people(['admin']),
   'POST /api/loggers/:id/retire': people(['admin']),
   'POST /api/enrollments/lookup': people(['admin', 'integrator']),
   'POST /api/enrollments': people(['admin', 'integrator']),

@@ -1,7 +1,7 @@
 // Shapes the console API answers for loggers and measurement profiles (camelCase, RFC 3339 times).
-import { LoggerModel, MeasurementProfile, Site, User, type Logger } from '../db/models';
-import type { LoggerDetail, ProfileView, TempResolutionBits } from '../../schemas/loggers';
-import type { Transaction } from 'sequelize';
+import { Logger, LoggerModel, MeasurementProfile, Site, User } from '../db/models';
+import type { BatchSummary, LoggerDetail, ProfileView, TempResolutionBits } from '../../schemas/loggers';
+import { QueryTypes, type Transaction } from 'sequelize';
 
 const iso = (d: Date | null | undefined) => (d ? new Date(d).toISOString() : null);
 const numberOrNull = (x: unknown) => (x === null || x === undefined ? null : Number(x));
@@ -55,11 +55,12 @@ async function lookUp<T extends readonly (() => unknown)[]>(transaction: Transac
 }
 
 export async function presentDetail(logger: Logger, now: Date, transaction?: Transaction): Promise<LoggerDetail> {
-  const [model, site, enrolledBy, profile] = await lookUp(transaction, [
+  const [model, site, enrolledBy, profile, batch] = await lookUp(transaction, [
     () => LoggerModel.findByPk(logger.modelId, { transaction }),
     () => (logger.siteId ? Site.findByPk(logger.siteId, { transaction }) : null),
     () => (logger.enrolledBy ? User.findByPk(logger.enrolledBy, { attributes: ['id', 'name'], transaction }) : null),
     () => latestProfile(logger.id, transaction),
+    () => (logger.batchId ? batchOf(logger.batchId, transaction) : null),
   ] as const);
   if (!model) throw new Error(`logger ${logger.id} names a missing model`);
   const install = logger.install as StoredInstall | null;
@@ -85,5 +86,17 @@ export async function presentDetail(logger: Logger, now: Date, transaction?: Tra
     tokenIssuedAt: iso(logger.tokenIssuedAt),
     retiredAt: iso(logger.retiredAt),
     createdAt: logger.createdAt.toISOString(),
+    batch,
   };
+}
+
+/** A batch with how many of its loggers still wait for enrollment (status registered). */
+export async function batchOf(id: string, transaction?: Transaction): Promise<(BatchSummary & { waiting: number }) | null> {
+  const [row] = await Logger.sequelize!.query<{ id: string; file_name: string; created_at: Date; count: number; waiting: number }>(
+    `SELECT b.id, b.file_name, b.created_at, b.count,
+            (SELECT count(*)::int FROM loggers l WHERE l.batch_id = b.id AND l.status = 'registered') AS waiting
+       FROM logger_batches b WHERE b.id = :id`,
+    { type: QueryTypes.SELECT, replacements: { id }, transaction },
+  );
+  return row ? { id: row.id, fileName: row.file_name, registeredAt: new Date(row.created_at).toISOString(), count: row.count, waiting: row.waiting } : null;
 }

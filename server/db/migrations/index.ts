@@ -8,6 +8,7 @@ import * as m0005 from './0005_registry_more';
 import * as m0006 from './0006_fleet';
 import * as m0007 from './0007_own_words';
 import * as m0008 from './0008_metrics_scope';
+import * as m0009 from './0009_logger_batches';
 
 export type Migration = {
   name: string;
@@ -24,4 +25,5 @@ export const migrations: Migration[] = [
   { name: '0006_fleet', ...m0006 },
   { name: '0007_own_words', ...m0007 },
   { name: '0008_metrics_scope', ...m0008 },
+  { name: '0009_logger_batches', ...m0009 },
 ];
