@@ -21,6 +21,9 @@ type Action<A extends unknown[] = []> = { busy: boolean; error: unknown; run: (.
 type Props = {
   state: QueryState<LoggerDetail>;
   rotate: Action;
+  /** Admins: new labels for every logger of this logger's batch still waiting for enrollment. */
+  canIssueBatchLabels?: boolean;
+  batchLabels?: Action<[batchId: string]>;
   retire: Action<[reason: string]>;
   move: Action<[siteId: string]> & { sites: Site[] };
   /** Changing the profile (offered when the logger's `can.editProfile`); limits come from the logger's model. */
@@ -58,9 +61,9 @@ export function LoggerScreen(props: Props) {
 }
 
 /** The registry's part of a logger's page; each control shows when the logger's `can` allows it (server policies). */
-function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fleet }: Props & { logger: LoggerDetail }) {
+function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fleet, canIssueBatchLabels, batchLabels }: Props & { logger: LoggerDetail }) {
   const can = logger.can;
-  const [ask, setAsk] = React.useState<'rotate' | 'retire' | 'move' | null>(null);
+  const [ask, setAsk] = React.useState<'rotate' | 'retire' | 'move' | 'batch' | null>(null);
   const [editing, setEditing] = React.useState(false);
   const [reason, setReason] = React.useState('');
   const [target, setTarget] = React.useState<string | undefined>();
@@ -176,7 +179,44 @@ function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fle
         </Card>
       ) : null}
 
+      {logger.batch ? (
+        <Card testID="batch">
+          <Text style={type.heading}>Batch {logger.batch.fileName}</Text>
+          <Text style={type.body}>
+            {`Registered ${absoluteTime(logger.batch.registeredAt)} with ${logger.batch.count} ${logger.batch.count === 1 ? 'logger' : 'loggers'}; `}
+            {logger.batch.waiting === 0 ? 'all are enrolled or retired.' : `${logger.batch.waiting} still ${logger.batch.waiting === 1 ? 'waits' : 'wait'} for enrollment.`}
+          </Text>
+          {canIssueBatchLabels && batchLabels && logger.batch.waiting > 0 ? (
+            <>
+              <Text style={type.small}>Lost the batch's labels or bench sheet? Issue new ones for every logger of the batch not yet enrolled.</Text>
+              <View style={{ alignSelf: 'flex-start' }}>
+                <Button label="Issue new labels for this batch" variant="secondary" onPress={() => setAsk('batch')} testID="batch-labels" />
+              </View>
+            </>
+          ) : null}
+        </Card>
+      ) : null}
+
       {fleet}
+
+      {logger.batch && batchLabels ? (
+        <ConfirmDialog
+          visible={ask === 'batch'}
+          title={`Issue new labels for the batch ${logger.batch.fileName}?`}
+          detail={
+            `Each of its ${logger.batch.waiting} ${logger.batch.waiting === 1 ? 'logger' : 'loggers'} still waiting for enrollment gets a new token. ` +
+            'Their old labels and bench sheet rows stop working at once: boards already flashed from the old bench sheet must be flashed again. ' +
+            'Enrolled loggers keep their tokens. The new labels and bench sheet are shown once, right after.'
+          }
+          confirmLabel="Issue new labels"
+          danger
+          busy={batchLabels.busy}
+          onCancel={() => setAsk(null)}
+          onConfirm={() => batchLabels.run(logger.batch!.id)}
+        >
+          {batchLabels.error ? <Notice title={asApi(batchLabels.error)!.title} detail={asApi(batchLabels.error)!.detail} /> : null}
+        </ConfirmDialog>
+      ) : null}
 
       <ConfirmDialog
         visible={ask === 'rotate'}

@@ -34,6 +34,7 @@ const scopeWords: Record<TokenScope, string> = {
   'images:write': 'Upload signed images (create drafts)',
   'releases:write': 'Change releases: targeting and lifecycle',
   'fleet:read': 'Read loggers and releases',
+  'metrics:read': 'Read the server metrics (for a monitoring scraper)',
 };
 
 function isoDate(d: Date) {

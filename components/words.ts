@@ -126,6 +126,7 @@ export const ACTIVITY_WORDS: Record<ActivityAction, string> = {
   'site.note_added': 'Note on a site',
   'logger.registered': 'Logger registered',
   'logger.batch_registered': 'Batch of loggers registered',
+  'logger.batch_labels_issued': 'New labels for a batch',
   'logger.enrolled': 'Logger enrolled',
   'logger.moved': 'Logger moved',
   'logger.retired': 'Logger retired',

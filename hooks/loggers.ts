@@ -5,6 +5,7 @@ import { api, query, STALE, upload } from './api';
 import type { List } from '../schemas/common';
 import type { z } from 'zod';
 import type {
+  BatchLabelsIssued,
   BatchRegistered,
   Enrolled,
   EnrollmentLookup,
@@ -26,6 +27,7 @@ export type { LoggerStatus, LoggerRow, LoggerDetail } from '../schemas/loggers';
 export type Profile = ProfileView;
 export type Registered = IssuedLogger;
 export type BatchResult = BatchRegistered;
+export type BatchLabels = BatchLabelsIssued;
 export type Rotated = RotatedToken;
 export type Lookup = EnrollmentLookup;
 
@@ -97,6 +99,16 @@ export function useRotateToken(id: string) {
   return useMutation({
     mutationFn: () => api<Rotated>(`/api/loggers/${id}/token`, { method: 'POST' }),
     onSuccess: () => invalidate(id),
+  });
+}
+
+/** New labels for every logger of a batch still waiting for enrollment; the answer is shown once. */
+export function useIssueBatchLabels() {
+  const qc = useQueryClient();
+  const invalidate = useInvalidateRegistry();
+  return useMutation({
+    mutationFn: (batchId: string) => api<BatchLabels>(`/api/batches/${batchId}/labels`, { method: 'POST' }),
+    onSuccess: () => Promise.all([invalidate(), qc.invalidateQueries({ queryKey: loggerKeys.all })]),
   });
 }
 

@@ -10,6 +10,12 @@ export const CURRENT_STEPS = 2 ** 15;
 /** The calibration register's top bit is unused, so the value must fit 15 bits. */
 export const CALIBRATION_MIN = 1;
 export const CALIBRATION_MAX = 32767;
+/**
+ * The shunt voltage register is 16-bit two's complement over ± full scale, so its largest code, 7FFFh, is
+ * one step below full scale: 81.92 mV × 32767 / 32768 = 81.9175 mV on the usual chip. A shunt voltage at or
+ * above full scale does not fit the register.
+ */
+export const SHUNT_REGISTER_MAX_CODE = 0x7fff;
 /** Power LSB is a fixed multiple of the current LSB. */
 export const POWER_LSB_PER_CURRENT_LSB = 25;
 
@@ -76,13 +82,13 @@ function truncQuotient(a: number, b: number, c: number): number {
   return Number(numerator / denominator);
 }
 
-/** Sign of (a × b − limit), exactly on the decimals. */
-function compareProduct(a: number, b: number, limit: number): -1 | 0 | 1 {
+/** Sign of (a × b − limit × numerator / denominator), exactly on the decimals (numerator, denominator whole). */
+function compareProduct(a: number, b: number, limit: number, numerator = 1, denominator = 1): -1 | 0 | 1 {
   const [da, db, dl] = [decimalOf(a), decimalOf(b), decimalOf(limit)];
   const productExponent = da.exponent + db.exponent;
   const low = Math.min(productExponent, dl.exponent);
-  const product = da.digits * db.digits * pow10(productExponent - low);
-  const bound = dl.digits * pow10(dl.exponent - low);
+  const product = da.digits * db.digits * pow10(productExponent - low) * BigInt(denominator);
+  const bound = dl.digits * pow10(dl.exponent - low) * BigInt(numerator);
   return product === bound ? 0 : product > bound ? 1 : -1;
 }
 
@@ -91,10 +97,15 @@ function tidy(x: number): number {
   return Number(x.toPrecision(12));
 }
 
-/** "62.5 mV", "81.92 mV", "36 V": at most 4 significant digits, no trailing zeros. */
-export function formatVolts(v: number): string {
-  if (Math.abs(v) < 1) return `${Number((v * 1000).toPrecision(4))} mV`;
-  return `${Number(v.toPrecision(4))} V`;
+/** "62.5 mV", "81.92 mV", "36 V": at most 4 significant digits (or `digits`), no trailing zeros. */
+export function formatVolts(v: number, digits = 4): string {
+  if (Math.abs(v) < 1) return `${Number((v * 1000).toPrecision(digits))} mV`;
+  return `${Number(v.toPrecision(digits))} V`;
+}
+
+/** The largest shunt voltage the register holds (code 7FFFh) for a full scale: full scale × 32767 / 32768. */
+export function shuntRegisterMaxV(shuntFullScaleV: number): number {
+  return tidy((shuntFullScaleV * SHUNT_REGISTER_MAX_CODE) / (SHUNT_REGISTER_MAX_CODE + 1));
 }
 
 function formatAmps(a: number): string {
@@ -195,12 +206,14 @@ export function measurementProfile(install: InstallForProfile, modelLimits: Mode
   let calibration: number | undefined;
   if (isPositive(shuntOhm) && isPositive(maxCurrentA)) {
     const fullScaleV = tidy(maxCurrentA * shuntOhm);
-    if (compareProduct(maxCurrentA, shuntOhm, modelLimits.shuntFullScaleV) > 0) {
+    // Allowed up to the register's top code (7FFFh), one step below the full scale.
+    if (compareProduct(maxCurrentA, shuntOhm, modelLimits.shuntFullScaleV, SHUNT_REGISTER_MAX_CODE, SHUNT_REGISTER_MAX_CODE + 1) > 0) {
       errors.push({
         path: 'shuntOhm',
         message:
-          `shunt voltage at ${formatAmps(maxCurrentA)} would be ${formatVolts(fullScaleV)}; the power-monitor chip measures ` +
-          `at most ${formatVolts(modelLimits.shuntFullScaleV)} — use a smaller shunt or a lower maximum current`,
+          `shunt voltage at ${formatAmps(maxCurrentA)} would be ${formatVolts(fullScaleV, 6)}; the power-monitor chip measures ` +
+          `at most ${formatVolts(shuntRegisterMaxV(modelLimits.shuntFullScaleV), 6)} (its register's top code, just under the ` +
+          `${formatVolts(modelLimits.shuntFullScaleV)} full scale) — use a smaller shunt or a lower maximum current`,
       });
     }
     currentLsbA = convenientCurrentLsb(maxCurrentA);
@@ -270,16 +283,29 @@ function listChoices(values: readonly number[]): string {
 
 // ─── Temperature probe readings ─────────────────────────────────────────────
 
-/** Temperature register (16-bit two's complement, 1/16 °C per count) to °C. */
-export function decodeProbeRaw(raw16: number): number {
+/**
+ * The temperature register (16-bit two's complement, 1/16 °C per count) at the probe's resolution. Below
+ * 12 bits the lowest bits are undefined and are cleared before decoding: bit 0 at 11 bits, bits 1–0 at
+ * 10 bits, bits 2–0 at 9 bits (0.125, 0.25 and 0.5 °C steps).
+ */
+export function decodeProbeRaw(raw16: number, resolutionBits: TempResolutionBits): ProbeReading {
   if (!Number.isInteger(raw16) || raw16 < 0 || raw16 > 0xffff) {
     throw new RangeError(`a probe register value is 0 to 0xFFFF, got ${raw16}`);
   }
-  const signed = raw16 >= 0x8000 ? raw16 - 0x10000 : raw16;
-  return signed / 16;
+  if (probeConversionMs[resolutionBits] === undefined) throw new RangeError(`a probe resolution is 9 to 12 bits, got ${resolutionBits}`);
+  // FFFFh is what a 1-Wire read returns when nothing answers (the bus idles high): no temperature at all,
+  // though as a number it would read −0.0625 °C.
+  if (raw16 === 0xffff) return { tempC: null, fault: 'open_bus' };
+  const masked = raw16 & (0xffff << (12 - resolutionBits)) & 0xffff;
+  const signed = masked >= 0x8000 ? masked - 0x10000 : masked;
+  const tempC = signed / 16;
+  return { tempC, fault: probeReadingFault(tempC) };
 }
 
-export type ProbeFault = 'power_on_value' | 'out_of_range';
+export type ProbeFault = 'power_on_value' | 'out_of_range' | 'open_bus';
+
+/** A decoded probe register: the temperature (null when the register holds none) and why not to trust it, if so. */
+export type ProbeReading = { tempC: number | null; fault: ProbeFault | null };
 
 export const PROBE_MIN_C = -55;
 export const PROBE_MAX_C = 125;

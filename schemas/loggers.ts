@@ -151,12 +151,22 @@ export type LoggerDetail = {
   createdAt: string;
   /** What the caller may do with it now: its status, their role and (integrators) their sites together. */
   can: LoggerCan;
+  /** The CSV batch it was registered in, with how many of its loggers still wait for enrollment; null when registered alone. */
+  batch: (BatchSummary & { waiting: number }) | null;
 };
+
+/** A CSV batch of loggers as registered. */
+export type BatchSummary = { id: string; fileName: string; registeredAt: string; count: number };
 
 /** Issued once, at registration or rotation: the token in clear and its label. */
 export type IssuedLogger = { id: string; serial: string; board: string; channel: Channel; modelId: string; modelName: string; token: string; labelPng: string };
 export type RotatedToken = { token: string; labelPng: string; serial: string; modelName: string; board: string };
-export type BatchRegistered = { rows: { id: string; serial: string; token: string; board: string; channel: Channel; modelName: string }[]; total: number };
+export type BatchRegistered = { rows: { id: string; serial: string; token: string; board: string; channel: Channel; modelName: string }[]; total: number; batch: BatchSummary };
+/**
+ * The answer to issuing a batch's labels again: a new token for every logger of the batch still waiting
+ * for enrollment (shown once, as at registration), and the loggers left as they were (enrolled or retired).
+ */
+export type BatchLabelsIssued = BatchRegistered & { skipped: { serial: string; status: LoggerStatus }[] };
 /** The answer to POST /api/enrollments: the enrolled logger and its first measurement profile. */
 export type Enrolled = { logger: LoggerDetail; profile: ProfileView };
 export type EnrollmentLookup = {

@@ -16,6 +16,9 @@ export const boardLabel = z
   .string(say('must be a board revision label such as "B"'))
   .regex(/^[A-Za-z0-9][A-Za-z0-9._-]{0,31}$/, "must be a board revision label: 1–32 letters, digits, '.', '_' or '-', e.g. \"B\"");
 
+/** The largest security counter a manifest may carry: what the releases table holds (PostgreSQL integer). */
+export const securityCounterMax = 2 ** 31 - 1;
+
 export const manifestSchema = z.strictObject(
   {
     board_revisions: z
@@ -37,7 +40,9 @@ export const manifestSchema = z.strictObject(
       .number(say('must be the security counter, a whole number of 0 or more'))
       .int('must be a whole number')
       .nonnegative('must be 0 or more')
-      .max(Number.MAX_SAFE_INTEGER, 'is too large'),
+      // The releases table keeps it as a PostgreSQL integer (2^31 − 1 at most); an epoch-seconds counter
+      // (RFC 9124 §4.3.1 allows time-based sequence numbers) fits until 2038.
+      .max(securityCounterMax, `is larger than ${securityCounterMax} (2^31 − 1), the largest security counter Heliodor keeps`),
     version: z.string(say('must be a semantic version such as 2.4.0')).pipe(strictSemver),
   },
   {

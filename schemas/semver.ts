@@ -6,8 +6,30 @@ import { z } from 'zod';
 export const semverPattern =
   /^(0|[1-9]\d*)\.(0|[1-9]\d*)\.(0|[1-9]\d*)(?:-((?:0|[1-9]\d*|\d*[a-zA-Z-][0-9a-zA-Z-]*)(?:\.(?:0|[1-9]\d*|\d*[a-zA-Z-][0-9a-zA-Z-]*))*))?(?:\+([0-9a-zA-Z-]+(?:\.[0-9a-zA-Z-]+)*))?$/;
 
+/**
+ * Heliodor's bounds on a version the grammar admits: at most 256 characters, and every number (major,
+ * minor, patch, numeric pre-release identifiers) at most 2^53 − 1 — the largest integer a JSON number
+ * carries exactly between implementations (I-JSON, RFC 7493 §2.2), so every part of Heliodor (the
+ * server, the console, the CLI, a logger's JSON parser) orders versions alike.
+ */
+export const semverMaxLength = 256;
+
+const numberNames = ['major', 'minor', 'patch'] as const;
+
+function boundsProblem(text: string): string | undefined {
+  if (text.length > semverMaxLength) return `is ${text.length} characters long: a version has at most ${semverMaxLength}`;
+  const m = semverPattern.exec(text)!;
+  const tooLarge = (digits: string) => digits.length > 16 || Number(digits) > Number.MAX_SAFE_INTEGER;
+  const big = [m[1], m[2], m[3]].findIndex(tooLarge);
+  if (big !== -1) return `'${text}' has a ${numberNames[big]} number above ${Number.MAX_SAFE_INTEGER} (2^53 − 1), the largest Heliodor compares`;
+  const pre = m[4]?.split('.').find((id) => /^\d+$/.test(id) && tooLarge(id));
+  if (pre !== undefined) return `'${text}' has the numeric pre-release identifier ${pre}, above ${Number.MAX_SAFE_INTEGER} (2^53 − 1), the largest Heliodor compares`;
+  return undefined;
+}
+
+/** Whether the text is a semantic version (semver.org 2.0.0 grammar) within Heliodor's bounds. */
 export function isStrictSemver(text: string): boolean {
-  return semverPattern.test(text);
+  return semverPattern.test(text) && boundsProblem(text) === undefined;
 }
 
 const identifierChars = /^[0-9A-Za-z-]+$/;
@@ -15,7 +37,7 @@ const partNames = ['major', 'minor', 'patch'] as const;
 
 /** What a release engineer should fix, or undefined when the text is a semantic version. */
 export function semverProblem(text: string): string | undefined {
-  if (isStrictSemver(text)) return undefined;
+  if (semverPattern.test(text)) return boundsProblem(text);
   const shown = `'${text}'`;
   const hint = (fixed: string) => (isStrictSemver(fixed) ? `${fixed} is a semantic version; ` : '');
 

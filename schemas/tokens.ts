@@ -2,7 +2,7 @@
 import { z } from 'zod';
 import { text } from './common';
 
-export const tokenScopes = ['images:write', 'releases:write', 'fleet:read'] as const;
+export const tokenScopes = ['images:write', 'releases:write', 'fleet:read', 'metrics:read'] as const;
 export type TokenScope = (typeof tokenScopes)[number];
 export const tokenScopeSchema = z.enum(tokenScopes, { error: `must be one of ${tokenScopes.join(', ')}` });
 

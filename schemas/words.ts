@@ -158,6 +158,7 @@ export const ACTIVITY_ACTIONS = [
   'site.note_added',
   'logger.registered',
   'logger.batch_registered',
+  'logger.batch_labels_issued',
   'logger.enrolled',
   'logger.moved',
   'logger.retired',

@@ -10,7 +10,7 @@ import pino, { type Logger as Pino } from 'pino';
 import type { Sequelize } from 'sequelize';
 import type { Config } from './config';
 import type { Mailer } from './mail/mailer';
-import { requestLogLevel } from './logging';
+import { requestLogLevel, requestSerializers } from './logging';
 import { authenticate } from './auth/middleware';
 import { createLater } from './auth/later';
 import { bcryptCost } from './auth/passwords';
@@ -31,6 +31,7 @@ import { registerSiteRoutes } from './sites/routes';
 import { registerLoggerRoutes } from './loggers/routes';
 import { registerFleetRoutes } from './fleet/routes';
 import { createDeviceApi } from './device-api/routes';
+import { measurePoolWaits, registerMetricsRoutes, requestMetrics } from './metrics';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'dataKey' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -58,13 +59,15 @@ export function createApp(deps: AppDeps) {
         res.setHeader('X-Request-Id', id);
         return id;
       },
-      // Never log credentials: cookies, bearer tokens.
-      redact: ['req.headers.authorization', 'req.headers.cookie', 'res.headers["set-cookie"]'],
-      autoLogging: { ignore: (req) => req.url === '/api/health' },
+      // Never log credentials: cookies, bearer tokens, a label link's token in the URL (server/logging.ts).
+      serializers: requestSerializers,
+      autoLogging: { ignore: (req) => req.url === '/api/health' || req.url === '/api/health/live' || req.url === '/api/health/ready' },
       // Requests at debug outside production: the living demo checks in every second or so.
       customLogLevel: requestLogLevel(services.config.production),
     }),
   );
+  app.use(requestMetrics());
+  measurePoolWaits(services.sequelize);
   app.use(
     helmet({
       contentSecurityPolicy: {
@@ -89,10 +92,12 @@ export function createApp(deps: AppDeps) {
   app.use('/api/device', express.json({ limit: '16kb', type: ['application/json', 'application/*+json'] }));
   app.use('/api', express.json({ limit: '1mb' }));
   app.use('/api', authenticate({ jwtSecret: services.config.jwtSecret, production: services.config.production, sequelize: services.sequelize, now: services.now }));
+  app.use('/metrics', authenticate({ jwtSecret: services.config.jwtSecret, production: services.config.production, sequelize: services.sequelize, now: services.now }));
 
   const router = express.Router();
   const api = createApi(router);
   registerHealthRoutes(api, services);
+  registerMetricsRoutes(api, services);
   // Accounts and the team share one set of dependencies; `later` runs work after an answer (reset e-mails).
   const later = createLater(services.logger);
   const accounts = {

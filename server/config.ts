@@ -23,6 +23,7 @@ const envSchema = z.object({
   HELIODOR_IMAGE_LIMIT: z.coerce.number().int().min(1024).default(16 * 1024 * 1024),
   HELIODOR_DEVICE_RATE: z.coerce.number().int().min(1).default(60),
   HELIODOR_DB_POOL: z.coerce.number().int().min(1).max(200).default(20),
+  HELIODOR_SHUTDOWN_GRACE_S: z.coerce.number().min(0).max(3600).default(20),
   HELIODOR_LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info'),
   HELIODOR_LOG_FORMAT: z.enum(['pretty', 'json']).optional(),
   HELIODOR_DEMO_LIVE: z.enum(['0', '1']).default('1'),
@@ -80,6 +81,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     outboxDir: path.join(dataDir, 'outbox'),
     databaseUrl,
     dbPool: e.HELIODOR_DB_POOL,
+    /** On SIGTERM or SIGINT: how long requests in flight may take to finish before their connections are cut. */
+    shutdownGraceMs: e.HELIODOR_SHUTDOWN_GRACE_S * 1000,
     jwtSecret: e.HELIODOR_JWT_SECRET ?? readSecret(dataDir, 'jwt-secret'),
     /** Seals secrets the server must read back (second-factor secrets); kept outside the database. */
     dataKey: e.HELIODOR_DATA_KEY ?? readSecret(dataDir, 'data-key'),

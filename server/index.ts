@@ -9,6 +9,8 @@ import { createDatabase, migrate } from './db';
 import { databaseIsNew, seedDemo } from './db/seed/demo';
 import { demoEmail, demoPeople } from './db/seed/scenario';
 import { createApp } from './app';
+import { closeGracefully } from './shutdown';
+import { LocalImageStore } from './images/store';
 import { createMailer } from './mail/mailer';
 import { startFakeSmtp } from './mail/fake-smtp';
 import { bcryptCost } from './auth/passwords';
@@ -28,6 +30,9 @@ async function main() {
       })
     : null;
   const mailer = createMailer({ ...config.smtp, from: config.mailFrom });
+  // Uploads cut off by an earlier process's end leave their temporary files behind: remove them before serving.
+  const swept = await new LocalImageStore(config.storeDir).sweepIncoming();
+  if (swept.length) logger.warn(`removed ${swept.length} unfinished upload${swept.length === 1 ? '' : 's'} from the firmware store`);
   const app = createApp({ config, sequelize, mailer, readiness, logger });
 
   const server: Server = await new Promise((resolve) => {
@@ -72,14 +77,16 @@ async function main() {
     }
   }
 
+  // Stopping: the living demo stops, new connections are refused, requests in flight get the grace period
+  // to finish (HELIODOR_SHUTDOWN_GRACE_S), then the mail fake and the database pool close.
   let stopping = false;
   const stop = async (signal: string) => {
     if (stopping) return;
     stopping = true;
-    logger.info(`${signal}: stopping`);
-    await live?.stop();
-    server.close();
-    server.closeAllConnections?.();
+    logger.info(`${signal}: stopping; requests in flight have ${config.shutdownGraceMs / 1000} s to finish`);
+    await live?.stop(); // aborts its own check-ins at once, so they do not count as requests in flight
+    const { drained } = await closeGracefully(server, config.shutdownGraceMs);
+    if (!drained) logger.warn(`requests still running after ${config.shutdownGraceMs / 1000} s were cut off`);
     smtp?.close(() => undefined);
     await app.stop().catch(() => undefined);
     await sequelize.close().catch(() => undefined);

@@ -25,6 +25,10 @@ const ownAccountFirst = (): Rule => ({ kind: 'people', roles: everyone, beforeSe
 export const access: Record<string, Rule> = {
   // Foundation
   'GET /api/health': publicRule,
+  // Operations: liveness and readiness for supervisors and load balancers; metrics for an admin or a scraper's token.
+  'GET /api/health/live': publicRule,
+  'GET /api/health/ready': publicRule,
+  'GET /metrics': people(['admin'], ['metrics:read']),
   'POST /api/auth/sign-in': publicRule,
   'POST /api/auth/sign-out': publicRule,
   'GET /api/auth/me': ownAccountFirst(),
@@ -46,6 +50,7 @@ export const access: Record<string, Rule> = {
   'POST /api/loggers': people(['admin', 'integrator']),
   'POST /api/loggers/batch': people(['admin', 'integrator']),
   'POST /api/loggers/:id/token': people(['admin']),
+  'POST /api/batches/:id/labels': people(['admin']),
   'POST /api/loggers/:id/retire': people(['admin']),
   'POST /api/enrollments/lookup': people(['admin', 'integrator']),
   'POST /api/enrollments': people(['admin', 'integrator']),

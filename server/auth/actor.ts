@@ -1,7 +1,7 @@
 // Who is acting on a request: a person (session), an automation token, a logger, or the system.
 import type { Role } from '../../schemas/auth';
 
-export type Scope = 'images:write' | 'releases:write' | 'fleet:read';
+export type Scope = 'images:write' | 'releases:write' | 'fleet:read' | 'metrics:read';
 
 export type Actor =
   | {

@@ -4,6 +4,7 @@ import { QueryTypes, type Transaction } from 'sequelize';
 import type { Actor, RequestContext } from '../auth/actor';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
+import { decodeCursorParts, encodeCursorParts, isTimestampText, UUID_TEXT } from '../http/cursor';
 import { loggerFor } from '../loggers/service';
 import { authorize } from '../auth/policies';
 import { siteResource } from '../sites/service';
@@ -116,31 +117,13 @@ export async function addSiteNote(deps: FleetDeps, ctx: RequestContext, siteId: 
 
 /** A page cursor for a site's notes: the last note's time (as PostgreSQL wrote it, microseconds kept) and id. */
 function encodeNoteCursor(at: string, id: string) {
-  return Buffer.from(JSON.stringify([at, id]), 'utf8').toString('base64url');
-}
-
-const UUID_TEXT = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
-const TIMESTAMP_TEXT = /^(\d{4})-(\d{2})-(\d{2})[ T](\d{2}):(\d{2}):(\d{2})(\.\d{1,6})?(?:[+-](\d{2})(?::?(\d{2}))?|Z)?$/;
-
-/** A timestamp PostgreSQL accepts: a real calendar day and clock time, an offset within ±15:59 (a forged cursor must be a 400, not a database error). */
-function isTimestampText(at: string): boolean {
-  const m = TIMESTAMP_TEXT.exec(at);
-  if (!m) return false;
-  const [year, month, day, hour, minute, second, offsetHour, offsetMinute] = [m[1], m[2], m[3], m[4], m[5], m[6], m[8] ?? '0', m[9] ?? '0'].map(Number);
-  const date = new Date(Date.UTC(year, month - 1, day));
-  return year >= 1 && date.getUTCMonth() === month - 1 && date.getUTCDate() === day && hour < 24 && minute < 60 && second < 60 && offsetHour < 16 && offsetMinute < 60;
+  return encodeCursorParts([at, id]);
 }
 
 function decodeNoteCursor(text: string): { at: string; id: string } {
-  try {
-    const parsed = JSON.parse(Buffer.from(text, 'base64url').toString('utf8')) as unknown;
-    if (Array.isArray(parsed) && parsed.length === 2) {
-      const [at, id] = parsed as unknown[];
-      if (typeof at === 'string' && typeof id === 'string' && isTimestampText(at) && UUID_TEXT.test(id)) return { at, id };
-    }
-  } catch {
-    // fall through
-  }
+  const parts = decodeCursorParts(text, 2);
+  // A real calendar day and clock time and a UUID: a forged cursor must be a 400, not a database error.
+  if (parts && isTimestampText(parts[0]) && UUID_TEXT.test(parts[1])) return { at: parts[0], id: parts[1] };
   throw problems.badRequest('Check the query: cursor.', [{ path: 'cursor', message: 'is not a cursor from this list of notes' }]);
 }
 
@@ -175,16 +158,16 @@ export async function siteNotes(deps: FleetDeps, actor: Actor, siteId: string, q
 type TimelineRow = { at: Date; at_text: string; key: string; kind: TimelineItem['kind']; payload: Record<string, unknown> };
 
 function encodeTimelineCursor(at: string, key: string) {
-  return Buffer.from(JSON.stringify([at, key]), 'utf8').toString('base64url');
+  return encodeCursorParts([at, key]);
 }
 
+/** The tie-break keys the timeline writes: check-in, reset, install report by release, activity by id, note by id. */
+const TIMELINE_KEY = /^(c|r|i:[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}|a:\d{20}|n:[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12})$/;
+
 function decodeTimelineCursor(text: string): { at: string; key: string } {
-  try {
-    const [at, key] = JSON.parse(Buffer.from(text, 'base64url').toString('utf8')) as unknown[];
-    if (typeof at === 'string' && typeof key === 'string' && /^\d{4}-\d{2}-\d{2}[ T]\d{2}:\d{2}:\d{2}(\.\d{1,6})?([+-]\d{2}(:?\d{2})?|Z)?$/.test(at)) return { at, key };
-  } catch {
-    // fall through
-  }
+  const parts = decodeCursorParts(text, 2);
+  // A real calendar day and clock time (2026-02-30 is not one) and a key of the timeline's own form.
+  if (parts && isTimestampText(parts[0]) && TIMELINE_KEY.test(parts[1])) return { at: parts[0], key: parts[1] };
   throw problems.badRequest('Check the query: cursor.', [{ path: 'cursor', message: 'is not a cursor from this timeline' }]);
 }
 

@@ -10,6 +10,7 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { loggerScope } from '../auth/policies';
 import { problems } from '../http/problem';
+import { decodeCursorParts, encodeCursorParts, isTimestampText, UUID_TEXT } from '../http/cursor';
 import { likePattern } from '../sites/service';
 import { isStrictSemver } from '../../schemas/semver';
 import type { FleetSortKey } from '../../schemas/fleet';
@@ -21,13 +22,18 @@ import { SQL_WORDS } from '../db/sql-words';
 
 export type FleetDeps = { sequelize: Sequelize; now: () => Date };
 
-/** The form a keyset cursor value must have for each sort type. */
-const CURSOR_VALUE: Record<SortType, RegExp> = {
-  text: /^[\s\S]{0,400}$/,
-  'text[]': /^\{[\s\S]{0,400}\}$/,
-  integer: /^-?\d{1,9}$/,
-  numeric: /^-?\d{1,12}(\.\d{1,6})?$/,
-  timestamptz: /^(-infinity|\d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2}(\.\d{1,6})?[+-]\d{2}(:\d{2})?)$/,
+/**
+ * Whether a keyset cursor value has the form PostgreSQL writes for each sort type, so that reading it
+ * back (CAST(:afterValue AS type)) cannot fail: a forged cursor is a 400, never a database error.
+ */
+const CURSOR_VALUE: Record<SortType, (value: string) => boolean> = {
+  text: (v) => v.length <= 400,
+  // firmware_key: semantic-version key elements are letters, digits and '-' (migration 0006), unquoted in array text.
+  'text[]': (v) => /^\{(?:[0-9A-Za-z-]{1,300}(?:,[0-9A-Za-z-]{1,300}){0,40})?\}$/.test(v),
+  // integer: within PostgreSQL's int4 (−2^31 … 2^31 − 1).
+  integer: (v) => /^-?\d{1,10}$/.test(v) && Math.abs(Number(v)) <= 2 ** 31 - 1,
+  numeric: (v) => /^-?\d{1,12}(\.\d{1,6})?$/.test(v),
+  timestamptz: (v) => v === '-infinity' || isTimestampText(v),
 };
 
 type FleetFilter = Omit<LoggersQuery, 'page' | 'pageSize' | 'cursor'>;
@@ -37,23 +43,18 @@ type Cursor = { sort: FleetSortKey; dir: 'asc' | 'desc'; value: string; id: stri
 export const KEYSET_START = 'start';
 
 export function encodeCursor(c: Cursor): string {
-  return Buffer.from(JSON.stringify([c.sort, c.dir, c.value, c.id]), 'utf8').toString('base64url');
+  return encodeCursorParts([c.sort, c.dir, c.value, c.id]);
 }
 
 function decodeCursor(text: string, query: FleetFilter): Cursor {
   const bad = () => problems.badRequest('Check the query: cursor.', [{ path: 'cursor', message: 'is not a cursor from this list; start again from the first page' }]);
-  let parsed: unknown;
-  try {
-    parsed = JSON.parse(Buffer.from(text, 'base64url').toString('utf8'));
-  } catch {
-    throw bad();
-  }
-  if (!Array.isArray(parsed) || parsed.length !== 4 || !parsed.every((p) => typeof p === 'string')) throw bad();
-  const [sort, dir, value, id] = parsed as string[];
+  const parts = decodeCursorParts(text, 4);
+  if (!parts) throw bad();
+  const [sort, dir, value, id] = parts;
   // A cursor belongs to one sort and direction; its id must be a UUID (it is bound, never interpolated).
-  if (sort !== query.sort || dir !== query.dir || !/^[0-9a-f-]{36}$/.test(id)) throw bad();
+  if (sort !== query.sort || dir !== query.dir || !UUID_TEXT.test(id)) throw bad();
   // The value is bound too; checking its form keeps a hand-edited cursor a 400 rather than a database error.
-  if (!CURSOR_VALUE[SORTS[query.sort].type].test(value)) throw bad();
+  if (!CURSOR_VALUE[SORTS[query.sort].type](value)) throw bad();
   return { sort: query.sort, dir: query.dir, value, id };
 }
 

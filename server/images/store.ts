@@ -41,6 +41,8 @@ export interface ImageStore {
 }
 
 const digestPattern = /^[0-9a-f]{64}$/;
+/** Names of uploads in progress: hidden, and never a digest. */
+const incomingPrefix = '.incoming-';
 
 function assertDigest(sha256: string) {
   if (!digestPattern.test(sha256)) throw new Error(`not an image digest: ${sha256}`);
@@ -63,7 +65,7 @@ export class LocalImageStore implements ImageStore {
   }
 
   receive(source: Readable): IncomingImage {
-    const temp = path.join(this.dir, `.incoming-${crypto.randomBytes(12).toString('hex')}`);
+    const temp = path.join(this.dir, `${incomingPrefix}${crypto.randomBytes(12).toString('hex')}`);
     const hash = crypto.createHash('sha256');
     let size = 0;
     let aborted = false;
@@ -166,5 +168,17 @@ export class LocalImageStore implements ImageStore {
 
   async remove(sha256: string): Promise<void> {
     await unlinkQuietly(this.pathOf(sha256));
+  }
+
+  /**
+   * Removes the temporary files of uploads that never finished: a process that dies mid-upload (a crash,
+   * kill -9, power loss) cannot remove its own. Run at start, before this process receives anything, so
+   * every `.incoming-*` file found belongs to an upload that is over. Answers the names removed.
+   */
+  async sweepIncoming(): Promise<string[]> {
+    const names = (await fsp.readdir(this.dir)).filter((name) => name.startsWith(incomingPrefix));
+    for (const name of names) await unlinkQuietly(path.join(this.dir, name));
+    if (names.length) await this.syncDir();
+    return names;
   }
 }

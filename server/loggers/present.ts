@@ -1,8 +1,9 @@
 // Shapes the console API answers for loggers and measurement profiles (camelCase, RFC 3339 times).
-import { LoggerModel, MeasurementProfile, Site, User, type Logger } from '../db/models';
+import { Logger, LoggerModel, MeasurementProfile, Site, User } from '../db/models';
+import { SQL_WORDS } from '../db/sql-words';
 import { siteResource } from '../sites/service';
-import type { LoggerDetail, ProfileView, TempResolutionBits } from '../../schemas/loggers';
-import type { Transaction } from 'sequelize';
+import type { BatchSummary, LoggerDetail, ProfileView, TempResolutionBits } from '../../schemas/loggers';
+import { QueryTypes, type Transaction } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { canOf, type LoggerResource } from '../auth/policies';
 
@@ -65,12 +66,13 @@ export async function loggerResource(logger: Logger, transaction?: Transaction):
 
 /** The logger as the console shows it to the actor, with what they may do with it (`can`). */
 export async function presentDetail(actor: Actor, logger: Logger, now: Date, transaction?: Transaction): Promise<LoggerDetail> {
-  const [model, site, enrolledBy, profile, resource] = await lookUp(transaction, [
+  const [model, site, enrolledBy, profile, resource, batch] = await lookUp(transaction, [
     () => LoggerModel.findByPk(logger.modelId, { transaction }),
     () => (logger.siteId ? Site.findByPk(logger.siteId, { transaction }) : null),
     () => (logger.enrolledBy ? User.findByPk(logger.enrolledBy, { attributes: ['id', 'name'], transaction }) : null),
     () => latestProfile(logger.id, transaction),
     () => loggerResource(logger, transaction),
+    () => (logger.batchId ? batchOf(logger.batchId, transaction) : null),
   ] as const);
   if (!model) throw new Error(`logger ${logger.id} names a missing model`);
   const install = logger.install as StoredInstall | null;
@@ -97,5 +99,17 @@ export async function presentDetail(actor: Actor, logger: Logger, now: Date, tra
     retiredAt: iso(logger.retiredAt),
     createdAt: logger.createdAt.toISOString(),
     can: canOf(actor, resource),
+    batch,
   };
+}
+
+/** A batch with how many of its loggers still wait for enrollment (status registered). */
+export async function batchOf(id: string, transaction?: Transaction): Promise<(BatchSummary & { waiting: number }) | null> {
+  const [row] = await Logger.sequelize!.query<{ id: string; file_name: string; created_at: Date; count: number; waiting: number }>(
+    `SELECT b.id, b.file_name, b.created_at, b.count,
+            (SELECT count(*)::int FROM loggers l WHERE l.batch_id = b.id AND l.status = :registered) AS waiting
+       FROM logger_batches b WHERE b.id = :id`,
+    { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, id }, transaction },
+  );
+  return row ? { id: row.id, fileName: row.file_name, registeredAt: new Date(row.created_at).toISOString(), count: row.count, waiting: row.waiting } : null;
 }

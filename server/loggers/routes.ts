@@ -18,7 +18,7 @@ import {
   registerLoggerRequest,
   retireLoggerRequest,
 } from '../../schemas/loggers';
-import { getLoggerDetail, listLoggers, registerBatch, registerLogger, retireLogger, rotateToken } from './service';
+import { getLoggerDetail, issueBatchLabels, listLoggers, registerBatch, registerLogger, retireLogger, rotateToken } from './service';
 import { changeProfile, enroll, lookupLabel, moveLogger } from './enrollment';
 import { PHOTO_LIMIT_BYTES, readPhoto, savePhoto } from './photos';
 
@@ -56,6 +56,12 @@ export function registerLoggerRoutes(api: Api, deps: LoggerRouteDeps) {
       throw problems.badRequest('Attach the CSV file as the multipart field "file".', [{ path: 'file', message: 'is required' }]);
     }
     res.status(201).json(await registerBatch(deps, contextOf(req), req.file.buffer, req.file.originalname ?? ''));
+  });
+
+  // New labels for every logger of a batch still waiting for enrollment (the first answer was lost).
+  api.post('/api/batches/:id/labels', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    res.json(await issueBatchLabels(deps, contextOf(req), id));
   });
 
   api.post('/api/loggers/:id/token', async (req, res) => {

@@ -1,7 +1,7 @@
 // The logger registry: registration (one or a CSV batch), token rotation, retirement, the list and the
 // detail. Tokens are issued here and leave only in the response that issues them.
-import { fn, col, where, type Sequelize, type Transaction } from 'sequelize';
-import { Logger, LoggerModel } from '../db/models';
+import { fn, col, where, QueryTypes, type Sequelize, type Transaction } from 'sequelize';
+import { Logger, LoggerModel, SiteIntegrator } from '../db/models';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import type { Actor, RequestContext } from '../auth/actor';
@@ -13,6 +13,7 @@ import { enrollmentLink } from '../../lib/label-sheet';
 import { loggerResource, presentDetail } from './present';
 import { listFleet } from '../fleet/table';
 import type {
+  BatchLabelsIssued,
   BatchRegistered,
   IssuedLogger,
   LoggerDetail,
@@ -116,7 +117,12 @@ export async function registerBatch(deps: RegistryDeps, ctx: RequestContext, fil
   const modelName = new Map(models.map((m) => [m.id, m.name]));
   const issued = result.rows.map((row) => ({ row, ...issueLoggerToken() }));
   const issuedAt = deps.now();
-  const created = await deps.sequelize.transaction(async (transaction) => {
+  const { loggers: created, batch } = await deps.sequelize.transaction(async (transaction) => {
+    // The batch is kept, so its labels can be issued again as one if this answer is lost.
+    const [batch] = await deps.sequelize.query<{ id: string; created_at: Date }>(
+      'INSERT INTO logger_batches (file_name, count, registered_by, created_at) VALUES (:fileName, :count, :by, :at) RETURNING id, created_at',
+      { transaction, type: QueryTypes.SELECT, replacements: { fileName: fileName || 'a CSV file', count: issued.length, by: personId(ctx.actor), at: issuedAt } },
+    );
     const loggers = await Logger.bulkCreate(
       issued.map(({ row, digest }) => ({
         serial: row.serial,
@@ -126,17 +132,18 @@ export async function registerBatch(deps: RegistryDeps, ctx: RequestContext, fil
         tokenDigest: digest,
         tokenIssuedAt: issuedAt,
         registeredBy: personId(ctx.actor),
+        batchId: batch.id,
       })),
       { transaction, returning: ['id', 'serial'] },
     );
     await recordActivity(transaction, ctx, {
       action: 'logger.batch_registered',
-      targetType: 'logger',
-      targetId: null,
+      targetType: 'batch',
+      targetId: batch.id,
       summary: `${loggers.length} loggers registered from ${fileName || 'a CSV file'} (${loggers[0].serial} … ${loggers[loggers.length - 1].serial})`,
       details: { count: loggers.length, fileName, first: loggers[0].serial, last: loggers[loggers.length - 1].serial },
     });
-    return loggers;
+    return { loggers, batch };
   });
   const idOf = new Map(created.map((l) => [l.serial, l.id]));
   const rows = issued.map(({ row, token }) => ({
@@ -147,7 +154,51 @@ export async function registerBatch(deps: RegistryDeps, ctx: RequestContext, fil
     channel: row.channel,
     modelName: modelName.get(row.modelId) ?? '',
   }));
-  return { rows, total: rows.length };
+  return { rows, total: rows.length, batch: { id: batch.id, fileName: fileName || 'a CSV file', registeredAt: new Date(batch.created_at).toISOString(), count: rows.length } };
+}
+
+/**
+ * New labels for a whole batch (admin): every logger of the batch still waiting for enrollment gets a new
+ * token, so the labels and bench sheet of the first answer stop working at once, and the answer is a new
+ * bench sheet and label sheet, shown once. Enrolled loggers keep theirs (their boards run on them in the
+ * field) and retired ones have none; both are listed as skipped. One transaction, one activity row.
+ */
+export async function issueBatchLabels(deps: RegistryDeps, ctx: RequestContext, batchId: string): Promise<BatchLabelsIssued> {
+  return deps.sequelize.transaction(async (transaction) => {
+    const [batch] = await deps.sequelize.query<{ id: string; file_name: string; created_at: Date; count: number }>(
+      'SELECT id, file_name, created_at, count FROM logger_batches WHERE id = :batchId FOR UPDATE',
+      { transaction, type: QueryTypes.SELECT, replacements: { batchId } },
+    );
+    if (!batch) throw problems.notFound('batch');
+    const loggers = await Logger.findAll({ where: { batchId }, order: [['serial', 'ASC']], transaction, lock: transaction.LOCK.UPDATE });
+    const waiting = loggers.filter((l) => l.status === 'registered');
+    const skipped = loggers.filter((l) => l.status !== 'registered').map((l) => ({ serial: l.serial, status: l.status }));
+    if (waiting.length === 0) {
+      throw problems.conflict(`Every logger of the batch ${batch.file_name} is enrolled or retired: there is no label left to replace.`, { skipped: skipped.length });
+    }
+    const models = new Map((await LoggerModel.findAll({ transaction })).map((m) => [m.id, m.name]));
+    const issuedAt = deps.now();
+    const rows: BatchRegistered['rows'] = [];
+    for (const logger of waiting) {
+      const { token, digest } = issueLoggerToken();
+      // Replacing the digest revokes the old token at once: nothing else recognises it.
+      await logger.update({ tokenDigest: digest, tokenIssuedAt: issuedAt }, { transaction });
+      rows.push({ id: logger.id, serial: logger.serial, token, board: logger.board, channel: logger.channel, modelName: models.get(logger.modelId) ?? '' });
+    }
+    await recordActivity(transaction, ctx, {
+      action: 'logger.batch_labels_issued',
+      targetType: 'batch',
+      targetId: batch.id,
+      summary: `New labels for ${rows.length} loggers of the batch ${batch.file_name} (${rows[0].serial} … ${rows[rows.length - 1].serial}); their old labels no longer work`,
+      details: { count: rows.length, skipped: skipped.length, fileName: batch.file_name, first: rows[0].serial, last: rows[rows.length - 1].serial },
+    });
+    return {
+      rows,
+      total: rows.length,
+      skipped,
+      batch: { id: batch.id, fileName: batch.file_name, registeredAt: new Date(batch.created_at).toISOString(), count: batch.count },
+    };
+  });
 }
 
 // ─── Token rotation and retirement (admin) ──────────────────────────────────

@@ -18,16 +18,17 @@ describe('check-in', () => {
     // DEVICE_API.md: the model interval (900 s) jittered ±10 %; an idle test server does not stretch it.
     expect(res.body.next_check_in_s).toBeGreaterThanOrEqual(810);
     expect(res.body.next_check_in_s).toBeLessThanOrEqual(990 * 4);
+    // The fixture's profile: INA226 data sheet SBOS547 Table 1 (2 mΩ, 1 mA/bit, CAL A00h = 2560, 25 mW/bit), 12-bit probe.
     expect(res.body.config).toEqual({
       version: 1,
-      shunt_ohm: 0.1,
-      max_current_a: 3.2,
-      current_lsb_a: 0.0001,
-      calibration: 4096,
-      power_lsb_w: 0.002,
+      shunt_ohm: 0.002,
+      max_current_a: 32.768,
+      current_lsb_a: 0.001,
+      calibration: 2560,
+      power_lsb_w: 0.025,
       bus_v_max: 36,
       temp_resolution_bits: 12,
-      sample_interval_s: 60,
+      sample_interval_s: 3,
     });
     expect(res.body.offer).toBeNull();
   });

@@ -8,6 +8,7 @@ import { newToken } from '../../server/auth/tokens';
 import { canonicalManifest, publicKeyOfPrivatePem, signManifest } from '../../server/images/manifest';
 import type { ReleaseState } from '../../server/rollout/lifecycle';
 import { startTestApp, type TestApp } from '../helpers/app';
+import { measurementProfile } from '../../lib/calibration';
 
 export type Fleet = Awaited<ReturnType<typeof createFleet>>;
 
@@ -26,6 +27,37 @@ export function fleetApp(options?: Parameters<typeof startTestApp>[0]) {
 }
 
 let serialSeq = 0;
+
+/**
+ * The measurement profile of every enrolled fixture logger, in figures the power-monitor data sheet itself
+ * gives (TI INA226 SBOS547, Table 1 worked example, REFERENCE.md §8): R_SHUNT = 2 mΩ and Current_LSB = 1 mA,
+ * so CAL = 0.00512 / (0.001 × 0.002) = 2560 (A00h, Eq. 1) and Power_LSB = 25 × 1 mA = 25 mW. A maximum
+ * expected current of 32.768 A makes Eq. 2 (max / 2^15) give exactly that 1 mA; 32.768 A × 2 mΩ = 65.536 mV
+ * stays under the shunt register's 81.9175 mV top. The probe at 12 bits converts in at most 750 ms (DS18B20
+ * data sheet); Heliodor samples at least 4× that, in whole seconds: 3 s.
+ */
+export const tableOneProfile = {
+  shuntOhm: 0.002,
+  maxCurrentA: 32.768,
+  currentLsbA: 0.001,
+  calibration: 2560,
+  powerLsbW: 0.025,
+  busVMax: 36,
+  tempResolutionBits: 12,
+  sampleIntervalS: 3,
+} as const;
+
+// The calibration module must agree with the data sheet's figures, or every device test would run on a
+// profile Heliodor itself would refuse at enrollment.
+{
+  const computed = measurementProfile(
+    { shuntOhm: tableOneProfile.shuntOhm, maxCurrentA: tableOneProfile.maxCurrentA, panelVocV: 22, tempResolutionBits: 12 },
+    { busVMax: 36, shuntFullScaleV: 0.08192, tempResolutions: [9, 10, 11, 12] },
+  );
+  if (!computed.ok || JSON.stringify(computed.profile) !== JSON.stringify(tableOneProfile)) {
+    throw new Error(`lib/calibration.ts disagrees with SBOS547 Table 1: ${JSON.stringify(computed)}`);
+  }
+}
 
 export async function createFleet(t: TestApp, options: { modelName?: string; checkInIntervalS?: number } = {}) {
   const model = await LoggerModel.create({
@@ -64,22 +96,7 @@ export async function createFleet(t: TestApp, options: { modelName?: string; che
       registeredBy: null,
     });
     if (opts.profile !== false && status === 'enrolled') {
-      // Figures of the calibration module for a 0.1 Ω shunt and 3.2 A (power-monitor datasheet equations).
-      await MeasurementProfile.create({
-        loggerId: row.id,
-        version: 1,
-        panelWp: 100,
-        panelVocV: 22,
-        shuntOhm: 0.1,
-        maxCurrentA: 3.2,
-        currentLsbA: 0.0001,
-        calibration: 4096,
-        powerLsbW: 0.002,
-        busVMax: 36,
-        tempResolutionBits: 12,
-        sampleIntervalS: 60,
-        createdBy: null,
-      });
+      await MeasurementProfile.create({ loggerId: row.id, version: 1, panelWp: 100, panelVocV: 22, ...tableOneProfile, createdBy: null });
     }
     return { id: row.id, token, serial: row.serial };
   }

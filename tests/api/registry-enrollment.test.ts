@@ -244,15 +244,16 @@ describe('profile changes', () => {
   test('when the shunt is changed, then a version 2 profile is stored, the detail shows it, and profile.changed is written', async () => {
     const logger = await enrolledLogger();
     const { agent } = await demoAgent(t, 'Tomasz');
-    // 16.384 A on 5 mΩ: Eq. 2 gives exactly 0.5 mA; Eq. 1 gives 0.00512 / (0.0005 × 0.005) = 2048 (by hand).
-    const res = await agent.patch(`/api/loggers/${logger.id}/profile`).set(csrf).send({ shuntOhm: 0.005, maxCurrentA: 16.384, tempResolutionBits: 10 });
+    // 16.384 A on 4 mΩ: Eq. 2 gives exactly 0.5 mA; Eq. 1 gives 0.00512 / (0.0005 × 0.004) = 2560 (by hand);
+    // 16.384 A × 4 mΩ = 65.536 mV, under the shunt register's 7FFFh = 81.9175 mV (SBOS547).
+    const res = await agent.patch(`/api/loggers/${logger.id}/profile`).set(csrf).send({ shuntOhm: 0.004, maxCurrentA: 16.384, tempResolutionBits: 10 });
     expect(res.status).toBe(200);
-    expect(res.body).toMatchObject({ version: 2, shuntOhm: 0.005, maxCurrentA: 16.384, currentLsbA: 0.0005, calibration: 2048, powerLsbW: 0.0125, tempResolutionBits: 10, panelWp: 400, panelVocV: 22.4 });
+    expect(res.body).toMatchObject({ version: 2, shuntOhm: 0.004, maxCurrentA: 16.384, currentLsbA: 0.0005, calibration: 2560, powerLsbW: 0.0125, tempResolutionBits: 10, panelWp: 400, panelVocV: 22.4 });
     const detail = await agent.get(`/api/loggers/${logger.id}`);
     expect(detail.body.profile).toEqual(res.body);
     expect(await MeasurementProfile.count({ where: { loggerId: logger.id } })).toBe(2);
     expect(await Activity.count({ where: { action: 'profile.changed', targetId: logger.id } })).toBe(1);
-    const third = await agent.patch(`/api/loggers/${logger.id}/profile`).set(csrf).send({ shuntOhm: 0.005, maxCurrentA: 16.384, tempResolutionBits: 12, panelVocV: 37 });
+    const third = await agent.patch(`/api/loggers/${logger.id}/profile`).set(csrf).send({ shuntOhm: 0.004, maxCurrentA: 16.384, tempResolutionBits: 12, panelVocV: 37 });
     expect(third.status).toBe(400);
     expect(third.body.errors[0].path).toBe('panelVocV');
     expect(await MeasurementProfile.count({ where: { loggerId: logger.id } })).toBe(2);
@@ -349,9 +350,10 @@ describe('with the device API', () => {
     // DEVICE_API.md `config`: the same values as the console profile, in snake_case (Table 1 values, SBOS547).
     expect(first.body.config).toMatchObject({ version: 1, shunt_ohm: 0.002, max_current_a: 32.768, current_lsb_a: 0.001, calibration: 2560, power_lsb_w: 0.025, bus_v_max: 36, temp_resolution_bits: 12 });
     const { agent } = await demoAgent(t, 'Morgan');
-    await agent.patch(`/api/loggers/${logger.id}/profile`).set(csrf).send({ shuntOhm: 0.005, maxCurrentA: 16.384, tempResolutionBits: 12 });
+    const changed = await agent.patch(`/api/loggers/${logger.id}/profile`).set(csrf).send({ shuntOhm: 0.004, maxCurrentA: 16.384, tempResolutionBits: 12 });
+    expect(changed.status).toBe(200);
     const second = await checkIn(logger.token, 1);
-    expect(second.body.config).toMatchObject({ version: 2, shunt_ohm: 0.005, calibration: 2048 });
+    expect(second.body.config).toMatchObject({ version: 2, shunt_ohm: 0.004, calibration: 2560 });
   });
 
   test('when a token is rotated, then the old one is refused with 401 at once and the new one checks in; once retired, 401', async () => {

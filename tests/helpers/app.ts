@@ -22,7 +22,7 @@ import { seededRandom } from '../../scripts/simulator/random';
 
 export const testPassword = 'correct horse battery';
 
-async function createDatabaseFromTemplate(): Promise<{ url: string; drop: () => Promise<void> }> {
+export async function createDatabaseFromTemplate(): Promise<{ url: string; drop: () => Promise<void> }> {
   const env = testEnv();
   const name = `t_${crypto.randomBytes(6).toString('hex')}`;
   const admin = new Sequelize(env.adminUrl, { logging: false });

@@ -109,7 +109,8 @@ describe('current LSB choice (Eq. 2 lower bound; the 1-2-5 rounding is our choic
           // Eq. 1 with floating point; the exact decimal result may differ by at most one count from binary rounding.
           expect(Math.abs(profile.calibration - 0.00512 / (profile.currentLsbA * shuntOhm))).toBeLessThan(1 + 1e-6);
           expect(profile.powerLsbW).toBeCloseTo(25 * profile.currentLsbA, 12);
-          expect(maxCurrentA * shuntOhm).toBeLessThanOrEqual(0.08192 * (1 + 1e-12));
+          // The shunt register's top code: 7FFFh × 2.5 µV = 81.9175 mV (SBOS547: shunt LSB 2.5 µV, 16-bit two's complement).
+          expect(maxCurrentA * shuntOhm).toBeLessThanOrEqual(0x7fff * 2.5e-6 * (1 + 1e-12));
         },
       ),
     );
@@ -145,19 +146,23 @@ describe('measurement profile', () => {
     expect(profile.calibration).toBe(25000);
   });
 
-  test('when the shunt voltage at full scale is exactly 81.92 mV, then it is accepted, and just above it is refused naming the limit', () => {
-    // 40.96 A × 2 mΩ = 81.92 mV, the chip's shunt full scale (SBOS547).
-    expect(measurementProfile(install({ shuntOhm: 0.002, maxCurrentA: 40.96 }), chipLimits).ok).toBe(true);
-    const errors = errorsOf({ shuntOhm: 0.002, maxCurrentA: 40.961 });
+  test('when the shunt voltage at full current is exactly 81.92 mV, then it is refused: the register tops out at 7FFFh = 81.9175 mV', () => {
+    // SBOS547: shunt LSB 2.5 µV, 16-bit two's complement, so the largest code 7FFFh = 32767 × 2.5 µV = 81.9175 mV;
+    // 81.92 mV itself (8000h) is not a positive value of the register. 40.96 A × 2 mΩ = 81.92 mV.
+    const errors = errorsOf({ shuntOhm: 0.002, maxCurrentA: 40.96 });
     expect(errors).toHaveLength(1);
     expect(errors[0].path).toBe('shuntOhm');
-    expect(errors[0].message).toContain('81.92 mV');
+    expect(errors[0].message).toContain('at most 81.9175 mV');
+    // 32.767 A × 2.5 mΩ = 81.9175 mV exactly: the top code, accepted.
+    expect(measurementProfile(install({ shuntOhm: 0.0025, maxCurrentA: 32.767 }), chipLimits).ok).toBe(true);
+    // 32.7671 A × 2.5 mΩ = 81.91775 mV: above the top code by a quarter of a step, refused.
+    expect(errorsOf({ shuntOhm: 0.0025, maxCurrentA: 32.7671 }).map((e) => e.path)).toEqual(['shuntOhm']);
   });
 
-  test('when 20 A flows through 5 mΩ, then the message says 100 mV against 81.92 mV and what to change', () => {
+  test('when 20 A flows through 5 mΩ, then the message says 100 mV against the register\'s 81.9175 mV and what to change', () => {
     const [error] = errorsOf({ shuntOhm: 0.005, maxCurrentA: 20 });
     expect(error.message).toBe(
-      'shunt voltage at 20 A would be 100 mV; the power-monitor chip measures at most 81.92 mV — use a smaller shunt or a lower maximum current',
+      'shunt voltage at 20 A would be 100 mV; the power-monitor chip measures at most 81.9175 mV (its register\'s top code, just under the 81.92 mV full scale) — use a smaller shunt or a lower maximum current',
     );
   });
 

@@ -1,4 +1,5 @@
-// A logger's page; after a token rotation, the new label is shown once (leaving asks first).
+// A logger's page; after a token rotation, or new labels for its batch, the new labels are shown once
+// (leaving asks first).
 import React from 'react';
 import { useLocalSearchParams, useRouter } from 'expo-router';
 import { LoggerScreen } from '../../../components/logger-screen';
@@ -6,7 +7,7 @@ import { TokenSheet, type SheetToken } from '../../../components/label-sheet';
 import { ConfirmDialog } from '../../../components/confirm';
 import { Page } from '../../../components/shell';
 import { consoleOrigin, useLeaveGuard } from '../../../components/web';
-import { photoUrl, useLogger, useMoveLogger, useRetireLogger, useRotateToken, useUpdateProfile } from '../../../hooks/loggers';
+import { photoUrl, useIssueBatchLabels, useLogger, useMoveLogger, useRetireLogger, useRotateToken, useUpdateProfile } from '../../../hooks/loggers';
 import { useModel } from '../../../hooks/models';
 import { useSites } from '../../../hooks/sites';
 import { LoggerFleet } from '../../../components/fleet-logger-panel';
@@ -16,23 +17,28 @@ export default function LoggerPage() {
   const router = useRouter();
   const logger = useLogger(id);
   const rotate = useRotateToken(id);
+  const batchLabels = useIssueBatchLabels();
   const retire = useRetireLogger(id);
   const move = useMoveLogger(id);
   const changeProfile = useUpdateProfile(id);
   const model = useModel(logger.data?.modelId);
   const sites = useSites();
-  const [issued, setIssued] = React.useState<SheetToken | null>(null);
+  const [issued, setIssued] = React.useState<{ title: string; subtitle: string; tokens: SheetToken[] } | null>(null);
   const [asking, setAsking] = React.useState(false);
   const guard = useLeaveGuard(Boolean(issued), (href) => router.push(href as never));
 
   if (issued) {
     return (
-      <Page title={`New label for ${issued.serial}`} subtitle="The previous label no longer works">
-        <TokenSheet tokens={[issued]} origin={consoleOrigin()} title="Label" onDone={() => setAsking(true)} />
+      <Page title={issued.title} subtitle={issued.subtitle}>
+        <TokenSheet tokens={issued.tokens} origin={consoleOrigin()} title={issued.tokens.length === 1 ? 'Label' : 'Labels'} onDone={() => setAsking(true)} />
         <ConfirmDialog
           visible={asking || guard.held !== null}
-          title="Leave the new label?"
-          detail="This token cannot be shown again. Leave only after the label is printed and the bench sheet row is saved."
+          title={issued.tokens.length === 1 ? 'Leave the new label?' : 'Leave the new labels?'}
+          detail={
+            issued.tokens.length === 1
+              ? 'This token cannot be shown again. Leave only after the label is printed and the bench sheet row is saved.'
+              : 'These tokens cannot be shown again. Leave only after the labels are printed and the bench sheet is saved.'
+          }
           confirmLabel="Leave"
           danger
           onCancel={() => {
@@ -55,7 +61,25 @@ export default function LoggerPage() {
       rotate={{
         busy: rotate.isPending,
         error: rotate.error,
-        run: () => rotate.mutate(undefined, { onSuccess: (r) => setIssued({ serial: r.serial, token: r.token, modelName: r.modelName, board: r.board }) }),
+        run: () =>
+          rotate.mutate(undefined, {
+            onSuccess: (r) =>
+              setIssued({ title: `New label for ${r.serial}`, subtitle: 'The previous label no longer works', tokens: [{ serial: r.serial, token: r.token, modelName: r.modelName, board: r.board }] }),
+          }),
+      }}
+      canIssueBatchLabels={Boolean(logger.data?.can.rotateToken)}
+      batchLabels={{
+        busy: batchLabels.isPending,
+        error: batchLabels.error,
+        run: (batchId) =>
+          batchLabels.mutate(batchId, {
+            onSuccess: (r) =>
+              setIssued({
+                title: `New labels for the batch ${r.batch.fileName}`,
+                subtitle: `${r.total} ${r.total === 1 ? 'logger' : 'loggers'}; the previous labels no longer work${r.skipped.length ? ` (${r.skipped.length} enrolled or retired kept theirs)` : ''}`,
+                tokens: r.rows.map((row) => ({ ...row })),
+              }),
+          }),
       }}
       retire={{ busy: retire.isPending, error: retire.error, run: (reason) => retire.mutate({ reason: reason || undefined }) }}
       move={{ busy: move.isPending, error: move.error, run: (siteId) => move.mutate({ siteId }), sites: sites.data?.rows ?? [] }}

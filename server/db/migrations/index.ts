@@ -7,7 +7,9 @@ import * as m0004 from './0004_device';
 import * as m0005 from './0005_registry_more';
 import * as m0006 from './0006_fleet';
 import * as m0007 from './0007_own_words';
+import * as m0008 from './0008_metrics_scope';
 import * as m0009 from './0009_team';
+import * as m0010 from './0010_logger_batches';
 
 export type Migration = {
   name: string;
@@ -23,5 +25,7 @@ export const migrations: Migration[] = [
   { name: '0005_registry_more', ...m0005 },
   { name: '0006_fleet', ...m0006 },
   { name: '0007_own_words', ...m0007 },
+  { name: '0008_metrics_scope', ...m0008 },
   { name: '0009_team', ...m0009 },
+  { name: '0010_logger_batches', ...m0010 },
 ];

@@ -51,6 +51,8 @@ export class Logger extends Model<InferAttributes<Logger>, InferCreationAttribut
   declare enrolledBy: CreationOptional<string | null>;
   declare install: CreationOptional<Record<string, unknown> | null>;
   declare registeredBy: string | null;
+  /** The CSV batch it was registered in (null: registered one at a time, or before batches were kept). */
+  declare batchId: CreationOptional<string | null>;
   declare retiredAt: CreationOptional<Date | null>;
   declare firmware: CreationOptional<string | null>;
   declare supplyV: CreationOptional<number | null>;
@@ -134,6 +136,7 @@ export function initRegistryModels(sequelize: Sequelize) {
       enrolledBy: { type: DataTypes.UUID, allowNull: true },
       install: { type: DataTypes.JSONB, allowNull: true },
       registeredBy: { type: DataTypes.UUID, allowNull: true },
+      batchId: { type: DataTypes.UUID, allowNull: true },
       retiredAt: { type: DataTypes.DATE, allowNull: true },
       firmware: { type: DataTypes.TEXT, allowNull: true },
       supplyV: num(true),
