@@ -9,6 +9,7 @@ import * as m0006 from './0006_fleet';
 import * as m0007 from './0007_own_words';
 import * as m0008 from './0008_metrics_scope';
 import * as m0009 from './0009_logger_batches';
+import * as m0010 from './0010_function_search_path';
 
 export type Migration = {
   name: string;
@@ -26,4 +27,5 @@ export const migrations: Migration[] = [
   { name: '0007_own_words', ...m0007 },
   { name: '0008_metrics_scope', ...m0008 },
   { name: '0009_logger_batches', ...m0009 },
+  { name: '0010_function_search_path', ...m0010 },
 ];
