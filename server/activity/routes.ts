@@ -11,7 +11,13 @@ import { activity, authorize } from '../auth/policies';
 const activityQuery = z.object({
   targetType: z.string().max(40).optional(),
   targetId: z.string().max(80).optional(),
-  before: z.coerce.number().int().positive().optional(), // cursor: rows with a smaller id
+  // The cursor: rows with a smaller id, written as the id the previous page ended on (digits, no sign or exponent).
+  before: z
+    .string()
+    .regex(/^[1-9]\d{0,15}$/, 'must be the nextCursor of the previous page')
+    .transform(Number)
+    .refine(Number.isSafeInteger, 'must be the nextCursor of the previous page')
+    .optional(),
   pageSize: z.coerce.number().int().min(1).max(200).default(50),
 });
 

@@ -3,7 +3,7 @@
 // for the forged dates: the Gregorian calendar (February has 28 days in 2026, a common year: ISO 8601 /
 // RFC 3339 §5.7 "date-mday" limits by month and year); array text form: PostgreSQL manual §8.15.6
 // "Array Input and Output Syntax"; base64url: RFC 4648 §5.
-import { startTestApp, type TestApp } from '../helpers/app';
+import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { Logger, Site } from '../../server/db/models';
 
 let t: TestApp;
@@ -78,5 +78,25 @@ describe('the site notes cursor', () => {
   test('when the cursor holds 29 February of a leap year (2028), then it is a cursor PostgreSQL reads (200)', async () => {
     const res = await support.get(`/api/sites/${siteId}/notes`).query({ cursor: forge(['2028-02-29 10:00:00+00', someId]) });
     expect(res.status).toBe(200);
+  });
+});
+
+describe('the activity log cursor', () => {
+  test('when the cursor is the id a page ended on, then the next page follows; written any other way (exponent, sign, beyond 2^53), then 400 names it', async () => {
+    // Three notes make three activity rows, so there is a second page.
+    for (const text of ['Gate code changed', 'Ladder kept in the shed', 'Dog on site']) {
+      expect((await support.post(`/api/sites/${siteId}/notes`).set(csrf).send({ text })).status).toBe(201);
+    }
+    const first = await support.get('/api/activity').query({ pageSize: 2 });
+    expect(first.body.nextCursor).toMatch(/^[1-9]\d*$/);
+    expect(first.status).toBe(200);
+    const next = await support.get('/api/activity').query({ pageSize: 2, before: first.body.nextCursor });
+    expect(next.status).toBe(200);
+    expect(next.body.rows[0].id).toBeLessThan(first.body.rows[1].id);
+    for (const before of ['1e3', '+5', '-1', '0', '9007199254740993', '12 ', '0x10']) {
+      const res = await support.get('/api/activity').query({ before });
+      expect(res.status).toBe(400);
+      expect(res.body.errors[0].path).toBe('before');
+    }
   });
 });

@@ -10,6 +10,7 @@ import * as m0007 from './0007_own_words';
 import * as m0008 from './0008_metrics_scope';
 import * as m0009 from './0009_team';
 import * as m0010 from './0010_logger_batches';
+import * as m0011 from './0011_function_search_path';
 
 export type Migration = {
   name: string;
@@ -28,4 +29,5 @@ export const migrations: Migration[] = [
   { name: '0008_metrics_scope', ...m0008 },
   { name: '0009_team', ...m0009 },
   { name: '0010_logger_batches', ...m0010 },
+  { name: '0011_function_search_path', ...m0011 },
 ];
