@@ -5,7 +5,7 @@ import path from 'node:path';
 import crypto from 'node:crypto';
 import { Piscina } from 'piscina';
 
-/** OWASP Password Storage Cheat Sheet: bcrypt work factor 10 or more (REFERENCE.md §12). */
+/** OWASP Password Storage Cheat Sheet: bcrypt work factor 10 or more (docs/SOURCES.md §12). */
 export const bcryptCost = (production: boolean) => (production ? 12 : 10);
 
 type Task = { op: 'hash'; password: string; cost: number } | { op: 'compare'; password: string; hash: string };

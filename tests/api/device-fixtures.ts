@@ -30,7 +30,7 @@ let serialSeq = 0;
 
 /**
  * The measurement profile of every enrolled fixture logger, in figures the power-monitor data sheet itself
- * gives (TI INA226 SBOS547, Table 1 worked example, REFERENCE.md §8): R_SHUNT = 2 mΩ and Current_LSB = 1 mA,
+ * gives (INA226 data sheet SBOS547, Table 1 worked example, docs/SOURCES.md §8): R_SHUNT = 2 mΩ and Current_LSB = 1 mA,
  * so CAL = 0.00512 / (0.001 × 0.002) = 2560 (A00h, Eq. 1) and Power_LSB = 25 × 1 mA = 25 mW. A maximum
  * expected current of 32.768 A makes Eq. 2 (max / 2^15) give exactly that 1 mA; 32.768 A × 2 mΩ = 65.536 mV
  * stays under the shunt register's 81.9175 mV top. The probe at 12 bits converts in at most 750 ms (DS18B20
