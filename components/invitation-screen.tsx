@@ -6,7 +6,7 @@ import { AuthFrame, AuthLink } from './auth-frame';
 import { Badge, Button, Field, Notice, Skeleton } from './ui';
 import { space, type } from './theme';
 import { messageFor, sentence, useForm } from './form-state';
-import { PASSWORD_HINT } from './password-screens';
+import { NewPasswordFields } from './password-screens';
 import { absoluteTime } from './format';
 import { passwordSchema, personNameSchema, roleNames } from '../schemas/auth';
 import type { InvitationView } from '../schemas/team';
@@ -60,26 +60,7 @@ export function InvitationScreen({ hasToken, invitation, busy, error, onJoin }: 
       </View>
       {error ? <Notice title={error.title} detail={error.detail} /> : null}
       <Field label="Your name, as the team will see it" value={form.values.name} onChangeText={(v) => form.set('name', v)} autoComplete="name" error={sentence(messageFor(form.errors, error, 'name'))} testID="join-name" />
-      <Field
-        label="Password"
-        value={form.values.password}
-        onChangeText={(v) => form.set('password', v)}
-        secureTextEntry
-        autoComplete="new-password"
-        hint={PASSWORD_HINT}
-        error={sentence(messageFor(form.errors, error, 'password'))}
-        testID="join-password"
-      />
-      <Field
-        label="Password again"
-        value={form.values.repeat}
-        onChangeText={(v) => form.set('repeat', v)}
-        secureTextEntry
-        autoComplete="new-password"
-        error={sentence(form.errors.repeat)}
-        testID="join-password-repeat"
-        onSubmitEditing={submit}
-      />
+      <NewPasswordFields form={form} error={error} label="Password" testID="join-password" onSubmit={submit} />
       <Button label="Join the team" onPress={submit} busy={busy} testID="join" />
     </AuthFrame>
   );

@@ -5,7 +5,7 @@ import { z } from 'zod';
 import { AuthFrame, AuthLink } from './auth-frame';
 import { Button, Field, Notice } from './ui';
 import { type } from './theme';
-import { messageFor, sentence, useForm } from './form-state';
+import { messageFor, sentence, useForm, type FieldErrors } from './form-state';
 import { emailSchema, passwordSchema } from '../schemas/auth';
 import type { ApiError } from '../hooks/api';
 
@@ -32,6 +32,36 @@ export function ForgotPasswordScreen({ busy, error, sent, onSubmit }: { busy: bo
       <Button label={sent ? 'Send another link' : 'Send the link'} onPress={submit} busy={busy} testID="reset-send" />
       <AuthLink href="/sign-in" label="Back to sign-in" />
     </AuthFrame>
+  );
+}
+
+type PasswordPair = { values: { password: string; repeat: string }; errors: FieldErrors; set: (name: 'password' | 'repeat', value: string) => void };
+
+/** A new password typed twice, with the password rule as its hint; the server's field error lands on the first. */
+export function NewPasswordFields({ form, error, label, testID, onSubmit }: { form: PasswordPair; error: ApiError | null; label: string; testID: string; onSubmit: () => void }) {
+  return (
+    <>
+      <Field
+        label={label}
+        value={form.values.password}
+        onChangeText={(v) => form.set('password', v)}
+        secureTextEntry
+        autoComplete="new-password"
+        hint={PASSWORD_HINT}
+        error={sentence(messageFor(form.errors, error, 'password'))}
+        testID={testID}
+      />
+      <Field
+        label={`${label} again`}
+        value={form.values.repeat}
+        onChangeText={(v) => form.set('repeat', v)}
+        secureTextEntry
+        autoComplete="new-password"
+        error={sentence(form.errors.repeat)}
+        testID={`${testID}-repeat`}
+        onSubmitEditing={onSubmit}
+      />
+    </>
   );
 }
 
@@ -62,26 +92,7 @@ export function ResetPasswordScreen({ hasToken, busy, error, done, onSubmit }: {
     <AuthFrame title="Choose a new password" intro="Setting a new password signs you out wherever you are signed in.">
       {error ? <Notice title={error.title} detail={error.detail} /> : null}
       {expired ? <AuthLink href="/forgot-password" label="Ask for a new link" /> : null}
-      <Field
-        label="New password"
-        value={form.values.password}
-        onChangeText={(v) => form.set('password', v)}
-        secureTextEntry
-        autoComplete="new-password"
-        hint={PASSWORD_HINT}
-        error={sentence(messageFor(form.errors, error, 'password'))}
-        testID="new-password"
-      />
-      <Field
-        label="New password again"
-        value={form.values.repeat}
-        onChangeText={(v) => form.set('repeat', v)}
-        secureTextEntry
-        autoComplete="new-password"
-        error={sentence(form.errors.repeat)}
-        testID="new-password-repeat"
-        onSubmitEditing={submit}
-      />
+      <NewPasswordFields form={form} error={error} label="New password" testID="new-password" onSubmit={submit} />
       <Button label="Set the new password" onPress={submit} busy={busy} testID="reset-confirm" />
       <Text style={type.small}>A second factor, if you have one, stays on.</Text>
     </AuthFrame>
