@@ -5,7 +5,7 @@
 // sites read them directly, so all three decide on the same releases.
 import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
-import type { ReleaseTargeting } from '../rollout/decision';
+import { parseTargeting, type ReleaseTargeting } from '../rollout/decision';
 import type { TripPoints } from '../rollout/trip';
 import type { Channel, ReleaseState, ResumeState } from '../../schemas/words';
 import type { SignatureAlgorithm } from '../../schemas/manifest';
@@ -32,7 +32,10 @@ type Row = Omit<OfferableRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boar
 
 const DRAFT: ReleaseState = 'draft';
 
-/** Every release of the model that left draft (one indexed read). */
+/**
+ * Every release of the model that left draft (one indexed read), with its version and upgrade-from range
+ * parsed once here (`parsed`), so a decision on them parses only the logger's running version.
+ */
 export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string): Promise<OfferableRelease[]> {
   const rows = await sequelize.query<Row>(
     `SELECT r.id, r.model_id AS "modelId", r.version, r.channel, r.state, r.share, r.resume_state AS "resumeState", r.boards,
@@ -46,6 +49,7 @@ export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string)
   );
   return rows.map((r) => ({
     ...r,
+    parsed: parseTargeting(r),
     channel: r.channel as Channel,
     state: r.state as ReleaseState,
     share: Number(r.share),
