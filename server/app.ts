@@ -31,6 +31,7 @@ import { registerSiteRoutes } from './sites/routes';
 import { registerLoggerRoutes } from './loggers/routes';
 import { registerFleetRoutes } from './fleet/routes';
 import { createDeviceApi } from './device-api/routes';
+import { LocalImageStore, type ImageStore } from './images/store';
 import { measurePoolWaits, registerMetricsRoutes, requestMetrics } from './metrics';
 
 export type AppDeps = {
@@ -41,12 +42,19 @@ export type AppDeps = {
   /** The clock; tests inject a fixed one. */
   now?: () => Date;
   logger?: Pino;
+  /** Where release images live (server/images/select.ts); the local folder config.storeDir when absent. */
+  images?: ImageStore;
 };
 
 export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Readiness };
 
 export function createApp(deps: AppDeps) {
-  const services: AppServices = { ...deps, now: deps.now ?? (() => new Date()), logger: deps.logger ?? pino({ level: 'silent' }) };
+  const services: AppServices = {
+    ...deps,
+    now: deps.now ?? (() => new Date()),
+    logger: deps.logger ?? pino({ level: 'silent' }),
+    images: deps.images ?? new LocalImageStore(deps.config.storeDir),
+  };
   const app = express();
   app.disable('x-powered-by');
   app.set('trust proxy', 'loopback');
@@ -114,7 +122,7 @@ export function createApp(deps: AppDeps) {
   registerOverviewRoutes(api, services);
   registerActivityRoutes(api, services);
   registerTeamRoutes(api, accounts);
-  registerReleaseRoutes(api, services);
+  registerReleaseRoutes(api, services, services.images);
   registerKeyRoutes(api, services);
   registerTokenRoutes(api, services);
   registerModelRoutes(api, services);

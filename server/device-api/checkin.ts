@@ -1,6 +1,8 @@
 // POST /api/device/v1/check-in, the story (DEVICE_API.md). One transaction per check-in, in this order:
-//   1. record the visit: the logger's latest state on its row, one history row in check_ins, and what
-//      the logger has (its install reports, its measurement profile) — one statement;
+//   1. count the check-in against the per-logger rate limit (shared by every process, in PostgreSQL) and,
+//      within it, record the visit: the logger's latest state on its row, one history row in check_ins,
+//      and what the logger has (its install reports, its measurement profile) — one statement; over the
+//      limit nothing else is written and the answer is 429 with Retry-After;
 //   2. settle the report, applied forward-only (rollout/reports.ts), and the installs the running
 //      version now confirms or rolls back — each release whose figures may change is locked first
 //      (SELECT … FOR UPDATE), so concurrent check-ins serialise on it and the trip rules see every
@@ -15,6 +17,7 @@
 import type { Sequelize, Transaction } from 'sequelize';
 import type pino from 'pino';
 import type { CheckInRequest, CheckInResponse, DeviceConfig, Offer } from '../../schemas/device';
+import { problems } from '../http/problem';
 import { COUNTED_RESET_REASONS } from '../../schemas/words';
 import { systemContext } from '../auth/actor';
 import type { Release } from '../db/models';
@@ -38,6 +41,10 @@ export type CheckInDeps = {
   now: () => Date;
   random: () => number;
   stretch: () => number;
+  /** The per-logger rate limit, check-ins a minute (HELIODOR_DEVICE_RATE). */
+  ratePerMinute: number;
+  /** Where an offer's image is fetched from (the image store: a path on this server, or a presigned URL). */
+  imageUrl: (sha256: string) => Promise<string> | string;
   /** When the reset rate of each release was last judged at a check-in with resets (ms, by `now`). */
   resetChecks?: Map<string, number>;
 };
@@ -52,8 +59,9 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
   const releases = await deps.releases.get(logger.modelId);
   const answer = await deps.sequelize.transaction(async (t) => {
     const store = checkInStore(deps.sequelize, t, logger.id, now);
-    // 1. Record the visit.
-    const visit = await store.recordVisit(logger, body, ctx.ip);
+    // 1. Count the check-in and, within the rate limit, record the visit (the limit's minutes are wall-clock minutes).
+    const visit = await store.recordVisit(logger, body, ctx.ip, { perMinute: deps.ratePerMinute, now: new Date() });
+    if ('refused' in visit) return visit;
     // 2. Settle the report, and the installs the running version confirms or rolls back.
     const settled = await settleReports(store, releases, visit.reports, body);
     // 3. Judge the trip rules.
@@ -70,13 +78,15 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
     const decision = decideOffer(offerInput(facts, asLeft(releases, tripped), [...settled.reports.values()], now));
     if (decision.offer) await store.recordOffer(decision.offer.id);
     // 5. Answer.
-    return { offer: decision.offer ? offerOf(decision.offer) : null, config: profileToSend(visit.profile, body.config_version) };
+    return { offer: decision.offer ?? null, config: profileToSend(visit.profile, body.config_version) };
   });
+  // Over the limit: the count is kept (committed), nothing else was written.
+  if ('refused' in answer) throw problems.tooManyRequests(answer.retryAfterS);
   return {
     server_time: now.toISOString().replace(/\.\d{3}Z$/, 'Z'),
     next_check_in_s: nextCheckInSeconds(logger.checkInIntervalS, deps.random(), deps.stretch()),
     config: answer.config,
-    offer: answer.offer,
+    offer: answer.offer ? offerOf(answer.offer, await deps.imageUrl(answer.offer.imageSha256)) : null,
   };
 }
 
@@ -165,11 +175,7 @@ function profileToSend(profile: DeviceConfig | null, running: number | undefined
   return profile && (running === undefined || running < profile.version) ? profile : null;
 }
 
-function imageUrl(sha256: string): string {
-  return `/api/device/v1/images/${sha256}`;
-}
-
-function offerOf(r: CachedRelease): Offer {
+function offerOf(r: CachedRelease, url: string): Offer {
   return {
     release: r.id,
     version: r.version,
@@ -178,6 +184,6 @@ function offerOf(r: CachedRelease): Offer {
     signature: r.signature.toString('base64'),
     key_id: r.keyId,
     algorithm: r.algorithm,
-    image: { url: imageUrl(r.imageSha256), sha256: r.imageSha256, size: r.imageSize },
+    image: { url, sha256: r.imageSha256, size: r.imageSize },
   };
 }
