@@ -62,6 +62,11 @@ export class S3ImageStore implements ImageStore {
     const config: S3ClientConfig = {
       region: settings.region,
       forcePathStyle: settings.forcePathStyle,
+      // Checksums only where the API requires them: with the SDK's default, a streamed body is sent
+      // aws-chunked with a trailing checksum, which S3-compatible servers do not all understand (one
+      // stored the chunk framing as part of the image).
+      requestChecksumCalculation: 'WHEN_REQUIRED',
+      responseChecksumValidation: 'WHEN_REQUIRED',
       ...(settings.endpoint ? { endpoint: settings.endpoint } : {}),
       ...(settings.credentials ? { credentials: settings.credentials } : {}),
     };
