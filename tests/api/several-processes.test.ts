@@ -52,7 +52,7 @@ beforeAll(async () => {
   const c = t.sequelize.config;
   const url = `postgres://${encodeURIComponent(c.username)}:${encodeURIComponent(c.password ?? '')}@${c.host}:${c.port}/${c.database}`;
   servers.push(...(await Promise.all([startServer(url), startServer(url)])));
-}, 120_000);
+}, 300_000);
 
 afterAll(async () => {
   await Promise.all(
