@@ -341,7 +341,7 @@ async function main() {
     // Scale: the offer decision alone, and check-in throughput with one and with several processes.
     const scale: ScaleResult[] = [];
     const checkIn = results.find((r) => r.name === 'device check-in');
-    if (!only || only.test('decision')) {
+    if (!only || only.test('decision') || only.test('device check-in')) {
       const d = await decisionBench(db.sequelize, fleet, int('decision-seconds', args['decision-seconds'], 1));
       scale.push({ name: 'offer decision (releases parsed once, as cached)', figure: `${Math.round(d.parsed).toLocaleString('en')} decisions/s (${(1e6 / d.parsed).toFixed(1)} µs each)` });
       scale.push({ name: 'offer decision (parsing every version and range, as before)', figure: `${Math.round(d.unparsed).toLocaleString('en')} decisions/s (${(1e6 / d.unparsed).toFixed(1)} µs each)` });
