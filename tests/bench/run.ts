@@ -348,7 +348,7 @@ async function main() {
       if (checkIn) scale.push({ name: 'beside it, the check-in', figure: `p50 ${checkIn.p50.toFixed(1)} ms at ${checkIn.concurrency} concurrent, ${(checkIn.n / (checkIn.mean * checkIn.n / checkIn.concurrency / 1000)).toFixed(0)} check-ins/s` });
     }
     const workers = int('workers', args.workers, 0);
-    if (workers >= 2 && (!only || only.test('workers') || only.test('check-in'))) {
+    if (workers >= 2 && (!only || only.test('workers') || only.test('device check-in'))) {
       const one = await processThroughput(db.url, storeDir, fleet, 1, log);
       const many = await processThroughput(db.url, storeDir, fleet, workers, log);
       errors.push(...one.errors, ...many.errors);
