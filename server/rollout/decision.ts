@@ -26,7 +26,7 @@
 // - `considered` lists every release of the model, newest first by semantic-version precedence.
 import semver from 'semver';
 import { isLive, type ReleaseState } from './lifecycle';
-import { bucketOf, inShare, shareThreshold } from './cohort';
+import { bucketOf, inShare, wholeShareIncluding } from './cohort';
 import { daylightWindowAt } from './daylight';
 import { retriedSince, type StoredReport } from './reports';
 import { TRANSIENT_FAILURE_REASONS, type Channel, type FailureReason, type LoggerStatus, type ReportedInstallState } from '../../schemas/words';
@@ -286,7 +286,7 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
         eligible.push(r);
         basis.set(r.id, `bucket ${bucket} is below ${r.share} % × 100`);
       } else {
-        refuse(r, 'outside_share', `Bucket ${bucket} is not below ${r.share} % × 100 = ${shareThreshold(r.share)}; a wider share may include it.`);
+        refuse(r, 'outside_share', `Later in the rollout order: it will be offered once the share reaches ${wholeShareIncluding(bucket)} % (today ${r.share} %; place ${bucket} of 10 000).`);
       }
     } else {
       eligible.push(r);
