@@ -57,8 +57,10 @@ export async function serveImage(
   res.setHeader('Cache-Control', 'private, no-transform');
   res.setHeader('Content-Type', 'application/octet-stream');
 
-  // If-Range with another validator: the whole image (RFC 9110 §13.1.5).
-  const range = ifRangeMatches(req.get('if-range'), etag) ? parseRange(req.get('range'), size) : { kind: 'none' as const };
+  // Range is defined for GET only: on any other method (HEAD included) it is ignored (RFC 9110 §14.2,
+  // docs/SOURCES.md §10). If-Range with another validator: the whole image (RFC 9110 §13.1.5).
+  const honoured = req.method === 'GET' && ifRangeMatches(req.get('if-range'), etag);
+  const range = honoured ? parseRange(req.get('range'), size) : { kind: 'none' as const };
   if (range.kind === 'unsatisfiable') {
     throw new Problem(416, 'range-not-satisfiable', 'Range not satisfiable', `The image has ${size} bytes; ask for a range that starts below that.`, {
       headers: { 'Content-Range': unsatisfiedRange(size) },
