@@ -99,11 +99,12 @@ async function settleReports(store: CheckInStore, releases: CachedRelease[], sto
   const reports = new Map(stored.map((r) => [r.releaseId, r]));
   const known = new Set(releases.map((r) => r.id));
   const report = body.report;
-  if (report) {
+  // A report counts only for a release offered to this logger (its report row exists, whatever this
+  // process's release cache holds yet) or the release it runs; anything else is refused, and the
+  // transaction rolls back the visit with it.
+  if (report && !reports.has(report.release)) {
     const release = releases.find((r) => r.id === report.release);
-    // A report counts only for a release offered to this logger (its report row exists) or the one it
-    // runs; anything else is refused, and the transaction rolls back the visit with it.
-    if (!release || !(reports.has(release.id) || runs(body.firmware, release.version))) throw notOffered(report.release);
+    if (!release || !runs(body.firmware, release.version)) throw notOffered(report.release);
   }
   const pending = stored.filter((r) => r.state === 'installed' && r.confirmedAt === null && known.has(r.releaseId)).map((r) => r.releaseId);
   const locked = await store.lockReleases(report ? [report.release, ...pending] : pending);
