@@ -166,8 +166,9 @@ function failedAwaitingRetry(report: LastInstallReport | undefined): FailureReas
   return (TRANSIENT_FAILURE_REASONS as readonly FailureReason[]).includes(reason) ? null : reason;
 }
 
+/** Volts to a tenth of a millivolt, so a supply just under the minimum never reads as equal to it. */
 function formatVolts(v: number): string {
-  return `${Number(v.toFixed(3))} V`;
+  return `${Number(v.toFixed(4))} V`;
 }
 
 function utcClock(d: Date): string {
