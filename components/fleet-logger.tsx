@@ -5,7 +5,7 @@ import React from 'react';
 import { Text, View } from 'react-native';
 import { Badge, Button, Card, Mono, Notice, Row, Skeleton } from './ui';
 import { FormField, useSchemaForm, useServerErrors, whenValid } from './form';
-import { Sparkline } from './charts/line';
+import { Sparkline } from './charts/lazy';
 import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, space, type } from './theme';
 import { noteRequest, type Note, type Sparklines, type TimelineItem } from '../schemas/fleet';
