@@ -46,7 +46,8 @@ export function sqlStateOf(err: unknown): string | undefined {
  * A database failure as a problem, classified by SQLSTATE (PostgreSQL manual, Appendix A "PostgreSQL
  * Error Codes") and by the driver's error class — never by message text, which may echo the request:
  * - class 08 (connection exception), 57P01 admin_shutdown, 57P02 crash_shutdown, 57P03 cannot_connect_now,
- *   53300 too_many_connections → 503 with Retry-After;
+ *   53300 too_many_connections, and class 40's 40001 serialization_failure and 40P01 deadlock_detected (the
+ *   transaction was rolled back whole and may simply be sent again) → 503 with Retry-After;
  * - 22003 numeric_value_out_of_range, 22P02 invalid_text_representation and the other data exceptions a
  *   value from a request can cause (22001 string too long, 22007/22008 bad or overflowing date and time,
  *   22021 a character the encoding refuses) → 400;
@@ -60,7 +61,7 @@ function databaseProblem(err: unknown): Problem | undefined {
     return problems.badRequest('Check the highlighted fields.', err.errors.map((x) => ({ path: x.path ?? '', message: x.message })));
   const state = sqlStateOf(err);
   if (state) {
-    if (state.startsWith('08') || ['57P01', '57P02', '57P03', '53300'].includes(state)) return unreachable();
+    if (state.startsWith('08') || ['57P01', '57P02', '57P03', '53300', '40001', '40P01'].includes(state)) return unreachable();
     if (['22001', '22003', '22007', '22008', '22021', '22P02'].includes(state))
       return problems.badRequest('A value in the request is out of range or not in the form expected; check the values sent.');
     if (state === '23505') {
