@@ -18,7 +18,6 @@ import type {
   BatchRegistered,
   IssuedLogger,
   LoggerDetail,
-  LoggerRow,
   LoggersQuery,
   LoggerVerb,
   RegisterLoggerRequest,
