@@ -12,6 +12,7 @@ import { CHANNELS, FLEET_FLAGS, LAGGING_REASONS, LOGGER_STATUSES, UPDATE_STATES 
 import {
   fleetSortKeys,
   type FleetFlag,
+  type FleetList,
   type FleetSortKey,
   type LaggingReason,
   type LaggingSite,
@@ -117,7 +118,7 @@ export function useFleet(f: FleetQuery) {
     queryKey: [...loggerKeys.lists(), 'fleet', path],
     staleTime: STALE.SECONDS.THIRTY,
     placeholderData: keepPreviousData,
-    queryFn: () => api<List<FleetRow>>(path),
+    queryFn: () => api<FleetList>(path),
   });
 }
 
