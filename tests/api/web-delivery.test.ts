@@ -148,7 +148,7 @@ describe('choosing a coding from Accept-Encoding (RFC 9110 §12.5.3 and its exam
 
 describe('Vary (RFC 9110 §12.5.5)', () => {
   test('when a file has compressed copies, then every answer for it, compressed or not, says Vary: Accept-Encoding', async () => {
-    for (const headers of [{ 'Accept-Encoding': 'br' }, { 'Accept-Encoding': 'gzip' }, {}]) {
+    for (const headers of [{ 'Accept-Encoding': 'br' }, { 'Accept-Encoding': 'gzip' }, {}] as Record<string, string>[]) {
       const r = await rawGet(base, '/sw.js', headers);
       expect(varyList(r)).toContain('accept-encoding');
     }
