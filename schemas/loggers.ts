@@ -104,7 +104,13 @@ export const loggerTokenInput = z
 
 export const enrollmentLookupRequest = z.object({ token: loggerTokenInput });
 
-export const enrollRequest = installDetails.extend({ token: loggerTokenInput, siteId: uuid });
+/**
+ * An enrollment. `enrollmentId` is the phone's own id for it (a UUID made when the integrator presses
+ * Enroll): sending the same enrollment again, as a phone does when it cannot tell whether its first try
+ * arrived, gets the first answer back instead of a second enrollment; the same id with different
+ * contents is refused (422). Without it every request is a new attempt.
+ */
+export const enrollRequest = installDetails.extend({ token: loggerTokenInput, siteId: uuid, enrollmentId: uuid.optional() });
 export type EnrollRequest = z.infer<typeof enrollRequest>;
 
 export const moveLoggerRequest = z.object({ siteId: uuid });
