@@ -144,7 +144,8 @@ export type LoggerDetail = {
   status: LoggerStatus;
   /** Enrolled and seen within three check-in intervals. */
   online: boolean;
-  site: { id: string; name: string; customer: string } | null;
+  /** `timeZone`: the site's IANA zone, in which the logger's timeline is shown (lib/site-time.ts). */
+  site: { id: string; name: string; customer: string; timeZone: string } | null;
   enrolledAt: string | null;
   enrolledBy: { id: string; name: string } | null;
   install: { panelWp: number | null; panelVocV: number | null; notes: string; photo: boolean } | null;

@@ -85,7 +85,7 @@ async function siteFor(siteId: string, transaction: Transaction): Promise<Site> 
   return site;
 }
 
-/** What an enrollment asked for, as a digest (SHA-256 of its RFC 8785 canonical JSON): the label's token is never stored. */
+/** What an enrollment asked for, as a digest (SHA-256 of its RFC 8785 canonical JSON, docs/SOURCES.md §16): the label's token is never stored. */
 function requestDigest(body: EnrollRequest): string {
   const { enrollmentId: _id, ...asked } = body;
   return crypto.createHash('sha256').update(canonicalJson({ ...asked, notes: asked.notes ?? '' }), 'utf8').digest('hex');
