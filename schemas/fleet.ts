@@ -232,6 +232,8 @@ export type LaggingSite = {
   siteId: string;
   siteName: string;
   customer: string;
+  /** The site's IANA time zone: its times are shown in it (lib/site-time.ts). */
+  timeZone: string;
   /** Enrolled loggers below the current release of their channel. */
   behind: number;
   /** Enrolled loggers at the site. */

@@ -104,7 +104,13 @@ export const loggerTokenInput = z
 
 export const enrollmentLookupRequest = z.object({ token: loggerTokenInput });
 
-export const enrollRequest = installDetails.extend({ token: loggerTokenInput, siteId: uuid });
+/**
+ * An enrollment. `enrollmentId` is the phone's own id for it (a UUID made when the integrator presses
+ * Enroll): sending the same enrollment again, as a phone does when it cannot tell whether its first try
+ * arrived, gets the first answer back instead of a second enrollment; the same id with different
+ * contents is refused (422). Without it every request is a new attempt.
+ */
+export const enrollRequest = installDetails.extend({ token: loggerTokenInput, siteId: uuid, enrollmentId: uuid.optional() });
 export type EnrollRequest = z.infer<typeof enrollRequest>;
 
 export const moveLoggerRequest = z.object({ siteId: uuid });
@@ -138,7 +144,8 @@ export type LoggerDetail = {
   status: LoggerStatus;
   /** Enrolled and seen within three check-in intervals. */
   online: boolean;
-  site: { id: string; name: string; customer: string } | null;
+  /** `timeZone`: the site's IANA zone, in which the logger's timeline is shown (lib/site-time.ts). */
+  site: { id: string; name: string; customer: string; timeZone: string } | null;
   enrolledAt: string | null;
   enrolledBy: { id: string; name: string } | null;
   install: { panelWp: number | null; panelVocV: number | null; notes: string; photo: boolean } | null;

@@ -50,6 +50,7 @@ type SiteRow = {
   site_id: string;
   site_name: string;
   customer: string;
+  time_zone: string;
   behind: number;
   total: number;
   oldest_version: string | null;
@@ -166,7 +167,7 @@ async function siteRows(
         ${BEHIND_FROM} ${conditions.map((c) => `AND ${c}`).join(' ')}
        GROUP BY l.site_id
     )
-    SELECT g.site_id, s.name AS site_name, s.customer, g.behind, g.lagging_since, g.oldest_version,
+    SELECT g.site_id, s.name AS site_name, s.customer, s.time_zone, g.behind, g.lagging_since, g.oldest_version,
            t.total, t.last_contact_at
       FROM lagging g JOIN sites s ON s.id = g.site_id
       CROSS JOIN LATERAL (SELECT count(*)::int AS total, max(x.last_seen_at) AS last_contact_at
@@ -189,6 +190,7 @@ function present(r: SiteRow, loggers: LaggingLogger[], can: LaggingSite['can']):
     siteId: r.site_id,
     siteName: r.site_name,
     customer: r.customer,
+    timeZone: r.time_zone,
     behind: r.behind,
     total: r.total,
     oldestVersion: r.oldest_version,

@@ -1,7 +1,8 @@
 // Enrollment on site: the label's token names the logger, the integrator binds it to a site with the
 // install details, and the server computes the measurement profile from the power-monitor equations.
 // Later: moving to another site and profile changes (each a new profile version, delivered at check-in).
-import type { Transaction } from 'sequelize';
+import crypto from 'node:crypto';
+import { QueryTypes, type Transaction } from 'sequelize';
 import { Logger, LoggerModel, MeasurementProfile, Site } from '../db/models';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
@@ -9,6 +10,7 @@ import type { RequestContext } from '../auth/actor';
 import { digestToken } from '../auth/tokens';
 import { authorize } from '../auth/policies';
 import { siteResource } from '../sites/service';
+import { canonicalJson } from '../images/manifest';
 import { measurementProfile, type ComputedProfile } from '../../lib/calibration';
 import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
 import { loggerFor, type RegistryDeps } from './service';
@@ -83,8 +85,51 @@ async function siteFor(siteId: string, transaction: Transaction): Promise<Site> 
   return site;
 }
 
+/** What an enrollment asked for, as a digest (SHA-256 of its RFC 8785 canonical JSON, docs/SOURCES.md §17): the label's token is never stored. */
+function requestDigest(body: EnrollRequest): string {
+  const { enrollmentId: _id, ...asked } = body;
+  return crypto.createHash('sha256').update(canonicalJson({ ...asked, notes: asked.notes ?? '' }), 'utf8').digest('hex');
+}
+
+/**
+ * Claims the phone's enrollment id for this person inside the enrollment's transaction. A concurrent
+ * claim of the same id waits for this transaction (the primary key), then finds the row committed.
+ * Answers the first enrollment's answer when the id was already used for the same request.
+ */
+async function claimEnrollment(
+  sequelize: RegistryDeps['sequelize'],
+  personId: string,
+  body: EnrollRequest & { enrollmentId: string },
+  transaction: Transaction,
+): Promise<Enrolled | null> {
+  const digest = requestDigest(body);
+  const claimed = await sequelize.query<{ enrollment_id: string }>(
+    `INSERT INTO enrollment_requests (person_id, enrollment_id, request_digest) VALUES (:personId, :enrollmentId, :digest)
+     ON CONFLICT (person_id, enrollment_id) DO NOTHING RETURNING enrollment_id`,
+    { replacements: { personId, enrollmentId: body.enrollmentId, digest }, type: QueryTypes.SELECT, transaction },
+  );
+  if (claimed.length) return null;
+  const [first] = await sequelize.query<{ request_digest: string; answer: Enrolled }>(
+    'SELECT request_digest, answer FROM enrollment_requests WHERE person_id = :personId AND enrollment_id = :enrollmentId',
+    { replacements: { personId, enrollmentId: body.enrollmentId }, type: QueryTypes.SELECT, transaction },
+  );
+  if (first.request_digest !== digest) {
+    throw problems.unprocessable(
+      'This enrollment id was already used for a different enrollment (another label, site or install details); a new enrollment needs a new id.',
+      [{ path: 'enrollmentId', message: 'was already used for a different enrollment' }],
+    );
+  }
+  return first.answer;
+}
+
 export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: EnrollRequest): Promise<Enrolled> {
   return deps.sequelize.transaction(async (transaction) => {
+    const person = personId(ctx);
+    const enrollmentId = body.enrollmentId;
+    if (person && enrollmentId) {
+      const first = await claimEnrollment(deps.sequelize, person, { ...body, enrollmentId }, transaction);
+      if (first) return first;
+    }
     const logger = await loggerByToken(body.token, transaction);
     if (logger.status === 'enrolled') {
       const at = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
@@ -109,7 +154,15 @@ export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: Enro
       summary: `Logger ${logger.serial} enrolled at ${site.name} (profile v${profile.version}: calibration ${profile.calibration}, ${body.panelWp} Wp panel)`,
       details: { siteId: site.id, profileVersion: profile.version },
     });
-    return { logger: await presentDetail(ctx.actor, logger, now, transaction), profile: presentProfile(profile) };
+    const answer: Enrolled = { logger: await presentDetail(ctx.actor, logger, now, transaction), profile: presentProfile(profile) };
+    if (person && enrollmentId) {
+      await deps.sequelize.query(
+        `UPDATE enrollment_requests SET logger_id = :loggerId, status = 201, answer = CAST(:answer AS jsonb)
+         WHERE person_id = :person AND enrollment_id = :enrollmentId`,
+        { replacements: { loggerId: logger.id, answer: JSON.stringify(answer), person, enrollmentId }, transaction },
+      );
+    }
+    return answer;
   });
 }
 

@@ -85,7 +85,7 @@ export async function presentDetail(actor: Actor, logger: Logger, now: Date, tra
     channel: logger.channel,
     status: logger.status,
     online: isOnline(logger, model, now),
-    site: site ? { id: site.id, name: site.name, customer: site.customer } : null,
+    site: site ? { id: site.id, name: site.name, customer: site.customer, timeZone: site.timeZone } : null,
     enrolledAt: iso(logger.enrolledAt),
     enrolledBy: enrolledBy ? { id: enrolledBy.id, name: enrolledBy.name } : null,
     install: install
