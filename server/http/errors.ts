@@ -14,6 +14,10 @@ function toProblem(err: unknown): Problem {
   if (e?.type === 'entity.too.large') return problems.tooLarge('The request body is larger than this endpoint accepts.');
   if (e?.type === 'encoding.unsupported' || e?.type === 'charset.unsupported')
     return problems.badRequest('Unsupported body encoding; send UTF-8 JSON.');
+  // The router could not percent-decode a path parameter (its URIError carries status 400 but is not
+  // marked for exposure): percent-encoded octets that are not UTF-8 are the request's fault (RFC 3986 §2.5).
+  // The detail does not repeat the path.
+  if (err instanceof URIError && e.status === 400) return problems.badRequest('A percent-encoded part of the path is not valid UTF-8.');
   // multer errors
   if (e?.code === 'LIMIT_FILE_SIZE') return problems.tooLarge(`The file in "${e.field}" is larger than allowed.`);
   if (typeof e?.code === 'string' && e.code.startsWith('LIMIT_'))
