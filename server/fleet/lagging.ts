@@ -14,12 +14,11 @@
 import { QueryTypes } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { fleet, may, siteScope } from '../auth/policies';
-import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingQuery, type LaggingReason, type LaggingSite } from '../../schemas/fleet';
-import type { List } from '../../schemas/common';
+import { LAGGING_REASON_LABELS, type LaggingList, type LaggingLogger, type LaggingQuery, type LaggingReason, type LaggingSite } from '../../schemas/fleet';
 import { likePattern } from '../sites/service';
 import { csvRecord, safeText } from './csv';
 import type { FleetDeps } from './table';
-import type { Freshness, Summaries } from './summaries';
+import type { Summaries } from './summaries';
 import { SQL_WORDS } from '../db/sql-words';
 
 export type LaggingDeps = FleetDeps & { summaries: Summaries };
@@ -139,7 +138,7 @@ export async function laggingSites(
   actor: Actor,
   query: LaggingQuery,
   all = false,
-): Promise<List<LaggingSite> & Freshness> {
+): Promise<LaggingList> {
   const fresh = await deps.summaries.freshen();
   const { rows, total } = await siteRows(deps, actor, query, !all);
   const siteIds = rows.map((r) => r.site_id);

@@ -22,6 +22,7 @@ import type { Logger as Pino } from 'pino';
 import type { SqlScope } from '../auth/policies';
 import { daylightWindowAt } from '../rollout/daylight';
 import { SQL_WORDS } from '../db/sql-words';
+import type { SummaryFreshness } from '../../schemas/fleet';
 import { CURRENT_RELEASES, SILENT } from './sql';
 import { DECISION_COLUMNS, decisionsFor, type LoggerForDecision } from './verdicts';
 import { reasonOf, type BehindFacts } from './reasons';
@@ -274,7 +275,7 @@ export async function laggingAsOf(sequelize: Sequelize): Promise<Date | null> {
 }
 
 /** What a summary answer says about its freshness: when it was caught up and how many seconds before the answer that was. */
-export type Freshness = { asOf: string | null; ageS: number | null };
+export type Freshness = SummaryFreshness;
 
 export function freshness(asOf: Date | null, now: Date): Freshness {
   return { asOf: asOf?.toISOString() ?? null, ageS: asOf ? Math.max(0, Math.round((now.getTime() - asOf.getTime()) / 1000)) : null };
