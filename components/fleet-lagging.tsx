@@ -6,13 +6,12 @@ import { Page } from './shell';
 import { Badge, Button, Card, EmptyState, Field, Mono, Notice, Row, Skeleton } from './ui';
 import { ConfirmDialog } from './confirm';
 import { DownloadLink, Pager, Select } from './fleet-controls';
-import { relativeTime } from './format';
+import { relativeTime, summaryAge } from './format';
 import { SiteTime, siteTimeWords } from './site-time';
 import { colors, fonts, space, touchTarget, type, type Tone } from './theme';
-import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingReason, type LaggingSite, type RetryOrder } from '../schemas/fleet';
+import { LAGGING_REASON_LABELS, type LaggingList, type LaggingLogger, type LaggingReason, type LaggingSite, type RetryOrder } from '../schemas/fleet';
 import { LAGGING_REASONS } from '../schemas/words';
 import { LAGGING_REASON_WORDS } from './words';
-import type { List } from '../schemas/common';
 import type { LaggingFilter } from '../hooks/fleet';
 
 /** Short words and tones for the badges (components/words.ts); the site view spells each reason out in full. */
@@ -36,7 +35,7 @@ function ReasonBadges({ reasons }: { reasons: LaggingSite['reasons'] }) {
 }
 
 type ListProps = {
-  state: { data?: List<LaggingSite>; isPending: boolean; isFetching?: boolean; error: Error | null; refetch: () => unknown };
+  state: { data?: LaggingList; isPending: boolean; isFetching?: boolean; error: Error | null; refetch: () => unknown };
   filter: LaggingFilter;
   onFilter: (f: LaggingFilter) => void;
   exportHref: string;
@@ -53,10 +52,13 @@ export function LaggingSitesScreen({ state, filter, onFilter, exportHref, wide, 
     return () => clearTimeout(t);
   }, [customer]); // eslint-disable-line react-hooks/exhaustive-deps
   const total = state.data?.total;
+  const age = summaryAge(state.data?.ageS);
   return (
     <Page
       title="Lagging sites"
-      subtitle={total === undefined ? 'Sites with loggers behind their channel’s current release' : `${total} ${total === 1 ? 'site' : 'sites'} lagging`}
+      subtitle={
+        total === undefined ? 'Sites with loggers behind their channel’s current release' : `${total} ${total === 1 ? 'site' : 'sites'} lagging${age ? ` · ${age}` : ''}`
+      }
       actions={<DownloadLink href={exportHref} label="Export CSV" testID="lagging-export" />}
     >
       <Card style={{ gap: space.md }}>

@@ -228,6 +228,12 @@ export type LaggingLogger = {
   detail: string;
 };
 
+/**
+ * How fresh an answer read from a summary the worker keeps is (server/fleet/summaries.ts): when it was last
+ * caught up, and how many seconds before the answer that was (null before its first run).
+ */
+export type SummaryFreshness = { asOf: string | null; ageS: number | null };
+
 export type LaggingSite = {
   siteId: string;
   siteName: string;
@@ -247,6 +253,9 @@ export type LaggingSite = {
   /** What the caller may do here (server/auth/policies.ts): retry its failed installs, add a note to the site. */
   can: { retry: boolean; addNote: boolean };
 };
+
+/** GET /api/fleet/lagging-sites: a page of lagging sites, with the lagging summary's freshness. */
+export type LaggingList = { rows: LaggingSite[]; total: number; nextCursor?: string } & SummaryFreshness;
 
 // ─── Retry, notes, timeline ─────────────────────────────────────────────────
 

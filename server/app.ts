@@ -31,6 +31,7 @@ import { registerFleetRoutes } from './fleet/routes';
 import { apiCompression, webApp } from './http/web';
 import { createDeviceApi } from './device-api/routes';
 import { measurePoolWaits, registerMetricsRoutes, requestMetrics } from './metrics';
+import { createSummaries, type Summaries } from './fleet/summaries';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'dataKey' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -42,10 +43,15 @@ export type AppDeps = {
   logger?: Pino;
 };
 
-export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Readiness };
+export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Readiness; summaries: Summaries };
 
 export function createApp(deps: AppDeps) {
-  const services: AppServices = { ...deps, now: deps.now ?? (() => new Date()), logger: deps.logger ?? pino({ level: 'silent' }) };
+  const now = deps.now ?? (() => new Date());
+  const logger = deps.logger ?? pino({ level: 'silent' });
+  // The fleet summaries' worker (server/fleet/summaries.ts): runs from here until the app is stopped.
+  const summaries = createSummaries({ sequelize: deps.sequelize, now, logger });
+  summaries.start();
+  const services: AppServices = { ...deps, now, logger, summaries };
   const app = express();
   app.disable('x-powered-by');
   app.set('trust proxy', 'loopback');
@@ -133,6 +139,8 @@ export function createApp(deps: AppDeps) {
 
   app.use(errorHandler);
   /** Ends the app's background work; call it before closing the database. */
-  const stop = () => deviceApi.stop();
+  const stop = async () => {
+    await Promise.all([deviceApi.stop(), summaries.stop()]);
+  };
   return Object.assign(app, { apiRouter: router, services, stop, later });
 }

@@ -13,6 +13,7 @@ import * as m0010 from './0010_logger_batches';
 import * as m0011 from './0011_function_search_path';
 import * as m0012 from './0012_device_bounds';
 import * as m0013 from './0013_fleet_keys';
+import * as m0014 from './0014_summaries';
 import * as m0017 from './0017_enrollment_requests';
 
 export type Migration = {
@@ -35,5 +36,6 @@ export const migrations: Migration[] = [
   { name: '0011_function_search_path', ...m0011 },
   { name: '0012_device_bounds', ...m0012 },
   { name: '0013_fleet_keys', ...m0013 },
+  { name: '0014_summaries', ...m0014 },
   { name: '0017_enrollment_requests', ...m0017 },
 ];
