@@ -38,6 +38,21 @@ const REQUEST_BUDGET = 500;
 /** A sited logger's reason is rechecked at least this often (the daylight window moves day by day). */
 const DAYLIGHT_RECHECK_MS = 60 * 60 * 1000;
 
+/** The summary tables (migration 0014_summaries): derived from loggers, install reports and releases. */
+export const SUMMARY_TABLES = [
+  'logger_count_changes',
+  'site_logger_counts',
+  'fleet_logger_counts',
+  'report_count_changes',
+  'site_report_counts',
+  'release_report_counts',
+  'lagging_loggers',
+  'lagging_sites',
+  'summary_dirty_loggers',
+  'summary_dirty_models',
+  'summary_state',
+] as const;
+
 export type SummaryDeps = { sequelize: Sequelize; now: () => Date; logger?: Pino };
 
 // ─── Counts ─────────────────────────────────────────────────────────────────
