@@ -12,6 +12,7 @@ import * as m0009 from './0009_team';
 import * as m0010 from './0010_logger_batches';
 import * as m0011 from './0011_function_search_path';
 import * as m0012 from './0012_device_bounds';
+import * as m0018 from './0018_site_min_temp';
 
 export type Migration = {
   name: string;
@@ -32,4 +33,5 @@ export const migrations: Migration[] = [
   { name: '0010_logger_batches', ...m0010 },
   { name: '0011_function_search_path', ...m0011 },
   { name: '0012_device_bounds', ...m0012 },
+  { name: '0018_site_min_temp', ...m0018 },
 ];
