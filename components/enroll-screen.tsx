@@ -11,6 +11,7 @@ import { QrScanner, type ScannerProblem } from './qr-scanner';
 import { readEnrollmentCode } from './enroll-code';
 import { CalibrationPreview, liveProfile, withProfileCheck } from './calibration-preview';
 import { SiteForm } from './site-form';
+import { WiringCautions } from './wiring-cautions';
 import { loggerStatus } from './status';
 import { pickFile } from './web';
 import { colors, fonts, radii, space, touchTarget, type } from './theme';
@@ -20,7 +21,7 @@ import type { QueuedEnrollment } from '../hooks/enrollment-queue';
 import type { Enrolled } from '../schemas/loggers';
 import type { Site, SiteInput } from '../hooks/sites';
 import { enrollRequest } from '../schemas/loggers';
-import type { InstallForProfile } from '../lib/calibration';
+import type { InstallForProfile, ProfileError } from '../lib/calibration';
 
 const errorOf = (e: unknown) => e as (ApiError & Error) | null;
 
@@ -128,6 +129,7 @@ const enrollForm = formSchema(
       siteId: z.string().optional(),
       panelWp: decimalText(),
       panelVocV: decimalText(),
+      vocTempCoeffPctPerC: decimalText(null),
       shuntOhm: z.string(),
       shuntUnit: z.enum(shuntUnits),
       maxCurrentA: decimalText(),
@@ -158,12 +160,14 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
   const [photo, setPhoto] = React.useState<File | null>(null);
   const [photoUrl, setPhotoUrl] = React.useState<string | null>(null);
   const [photoError, setPhotoError] = React.useState<string | undefined>();
-  const schema = React.useMemo(() => withProfileCheck(enrollForm, limits), [limits]);
+  const siteMinTempC = chosenSite && 'minTempC' in chosenSite ? chosenSite.minTempC : null;
+  const schema = React.useMemo(() => withProfileCheck(enrollForm, limits, siteMinTempC), [limits, siteMinTempC]);
   const form = useSchemaForm(schema, {
     defaultValues: {
       siteId: logger.site?.id,
       panelWp: '',
       panelVocV: '',
+      vocTempCoeffPctPerC: '',
       shuntOhm: '',
       shuntUnit: 'mΩ',
       maxCurrentA: '',
@@ -183,10 +187,12 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
     shuntOhm: shuntInOhm(typed.shuntOhm, typed.shuntUnit),
     maxCurrentA: decimal(typed.maxCurrentA),
     panelVocV: decimal(typed.panelVocV),
+    vocTempCoeffPctPerC: decimal(typed.vocTempCoeffPctPerC, null),
+    siteMinTempC,
     tempResolutionBits: typed.tempResolutionBits,
   };
   const result = liveProfile(install, limits);
-  const filled = (path: keyof InstallForProfile) => path === 'tempResolutionBits' || typed[path].trim() !== '';
+  const filled = (path: ProfileError['path']) => path === 'tempResolutionBits' || typed[path].trim() !== '';
 
   const chooseSite = (site: Site | { id: string; name: string }) => {
     form.setValue('siteId', site.id);
@@ -206,7 +212,7 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
 
   // The profile's own figures are sent, as the server computes them from the same function.
   const submit = whenValid(form, (details) => {
-    const computed = liveProfile(details, limits);
+    const computed = liveProfile({ ...details, siteMinTempC }, limits);
     if (!computed?.ok) return;
     const { shuntOhm, maxCurrentA, tempResolutionBits } = computed.profile;
     enroll.run({ ...details, token, shuntOhm, maxCurrentA, tempResolutionBits }, photo, chosenSite?.name ?? 'the site');
@@ -313,16 +319,7 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
       )}
     </Card>
   );
-  const cautions = (
-    <Notice title="Before you connect the logger" tone="amber">
-      <Text style={type.body}>• Isolate the array first: panels make voltage whenever light falls on them, and a DC arc does not put itself out.</Text>
-      <Text style={type.body}>• Fuse the measurement leads close to where they connect to the array.</Text>
-      <Text style={type.body}>
-        • Respect the monitor's limits: at most {limits.busVMax} V on the bus input and {Number((limits.shuntFullScaleV * 1000).toPrecision(4))} mV across the shunt.
-      </Text>
-      <Text style={type.body}>• Follow the local electrical codes; wiring work is for licensed practice.</Text>
-    </Notice>
-  );
+  const cautions = <WiringCautions limits={limits} />;
   const details = (
     <Card>
       <Text role="heading" aria-level={2} style={type.heading}>
@@ -336,6 +333,14 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
           <FormField control={control} name="panelVocV" label="Open-circuit voltage (V)" inputMode="decimal" testID="panel-voc" />
         </View>
       </Row>
+      <FormField
+        control={control}
+        name="vocTempCoeffPctPerC"
+        label="Voltage change with temperature (%/°C, optional)"
+        hint="From the panel data sheet: the temperature coefficient of Voc, e.g. -0.30"
+        inputMode="decimal"
+        testID="panel-voc-coeff"
+      />
       <Row gap={space.sm} style={{ alignItems: 'flex-end' }}>
         <View style={{ flex: 1 }}>
           <FormField control={control} name="shuntOhm" showError={false} label={`Shunt resistance (${typed.shuntUnit})`} inputMode="decimal" testID="shunt" />

@@ -11,7 +11,7 @@ import { digestToken } from '../auth/tokens';
 import { authorize } from '../auth/policies';
 import { siteResource } from '../sites/service';
 import { canonicalJson } from '../images/manifest';
-import { measurementProfile, type ComputedProfile } from '../../lib/calibration';
+import { ABOVE_RATING, coldVoc, measurementProfile, type ComputedProfile, type InstallForProfile } from '../../lib/calibration';
 import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
 import { loggerFor, type RegistryDeps } from './service';
 import type { Enrolled, EnrollmentLookup, EnrollRequest, LoggerDetail, ProfileChangeRequest, ProfileView } from '../../schemas/loggers';
@@ -50,15 +50,16 @@ export async function lookupLabel(token: string): Promise<EnrollmentLookup> {
       modelName: model!.name,
       board: logger.board,
       status: logger.status,
-      site: site ? { id: site.id, name: site.name } : null,
+      site: site ? { id: site.id, name: site.name, minTempC: site.minTempC === null ? null : Number(site.minTempC) } : null,
     },
     limits: limitsOf(model!),
   };
 }
 
 /** The profile for the install, or 400 whose field errors name the limit that refuses it. */
-function computeProfile(install: { shuntOhm: number; maxCurrentA: number; panelVocV: number; tempResolutionBits: number }, model: LoggerModel): ComputedProfile {
-  const result = measurementProfile(install, limitsOf(model));
+function computeProfile(install: InstallForProfile, model: LoggerModel, site: Site | null): ComputedProfile {
+  const siteMinTempC = site && site.minTempC !== null && site.minTempC !== undefined ? Number(site.minTempC) : null;
+  const result = measurementProfile({ ...install, siteMinTempC }, limitsOf(model));
   if (!result.ok) {
     throw problems.badRequest(`The measurement profile cannot be set up: ${result.errors.map((e) => e.message).join('; ')}.`, result.errors);
   }
@@ -140,11 +141,17 @@ export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: Enro
     const site = await siteFor(body.siteId, transaction);
     authorize(ctx.actor, 'enroll', await siteResource(site.id, transaction));
     const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
-    const computed = computeProfile(body, model);
+    const computed = computeProfile(body, model, site);
 
     const now = deps.now();
     const previous = (logger.install as StoredInstall | null) ?? {};
-    const install: StoredInstall = { ...previous, panelWp: body.panelWp, panelVocV: body.panelVocV, notes: body.notes ?? '' };
+    const install: StoredInstall = {
+      ...previous,
+      panelWp: body.panelWp,
+      panelVocV: body.panelVocV,
+      vocTempCoeffPctPerC: body.vocTempCoeffPctPerC ?? null,
+      notes: body.notes ?? '',
+    };
     await logger.update({ status: 'enrolled', siteId: site.id, enrolledAt: now, enrolledBy: personId(ctx), install }, { transaction });
     const profile = await storeProfile(ctx, logger, computed, { panelWp: body.panelWp, panelVocV: body.panelVocV }, transaction);
     await recordActivity(transaction, ctx, {
@@ -175,6 +182,16 @@ export async function moveLogger(deps: RegistryDeps, ctx: RequestContext, id: st
     const site = await siteFor(siteId, transaction);
     if (logger.siteId === site.id) throw problems.conflict(`Logger ${logger.serial} is already at ${site.name}.`);
     authorize(ctx.actor, 'enroll', await siteResource(site.id, transaction));
+    // The new site may be colder: its lowest temperature raises the panel's open-circuit voltage (NEC 2023 690.7(A)).
+    const stored = (logger.install as StoredInstall | null) ?? {};
+    if (stored.panelVocV != null) {
+      const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
+      const cold = coldVoc(Number(stored.panelVocV), stored.vocTempCoeffPctPerC, site.minTempC === null ? null : Number(site.minTempC));
+      const message = 'error' in cold ? cold.error : cold.vocMaxV > Number(model.busVMax)
+        ? `${ABOVE_RATING}: at ${site.name} the panel's open-circuit voltage in the cold is ${cold.vocMaxV} V, above this model's panel voltage limit of ${Number(model.busVMax)} V`
+        : null;
+      if (message) throw problems.badRequest(`The logger cannot be moved with this wiring: ${message}.`, [{ path: 'siteId', message }]);
+    }
     const from = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
     await logger.update({ siteId: site.id }, { transaction });
     await recordActivity(transaction, ctx, {
@@ -200,13 +217,15 @@ export async function changeProfile(deps: RegistryDeps, ctx: RequestContext, id:
     const panelVocV = body.panelVocV ?? previous?.panelVocV ?? install.panelVocV ?? null;
     if (panelVocV === null) {
       throw problems.badRequest('Check the body: panelVocV.', [
-        { path: 'panelVocV', message: 'give the panel open-circuit voltage: it is checked against the bus limit' },
+        { path: 'panelVocV', message: 'give the panel open-circuit voltage: it is checked against the panel voltage limit' },
       ]);
     }
+    const vocTempCoeffPctPerC = body.vocTempCoeffPctPerC !== undefined ? body.vocTempCoeffPctPerC : (install.vocTempCoeffPctPerC ?? null);
     const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
-    const computed = computeProfile({ ...body, panelVocV: Number(panelVocV) }, model);
+    const site = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
+    const computed = computeProfile({ ...body, panelVocV: Number(panelVocV), vocTempCoeffPctPerC }, model, site);
     const profile = await storeProfile(ctx, logger, computed, { panelWp: panelWp === null ? null : Number(panelWp), panelVocV: Number(panelVocV) }, transaction);
-    await logger.update({ install: { ...install, panelWp, panelVocV } }, { transaction });
+    await logger.update({ install: { ...install, panelWp, panelVocV, vocTempCoeffPctPerC } }, { transaction });
     await recordActivity(transaction, ctx, {
       action: 'profile.changed',
       targetType: 'logger',

@@ -173,7 +173,7 @@ test("when a signed-out integrator opens a label's link, then after sign-in the 
   await page.getByTestId('panel-voc').fill('48');
   // 10 A × 100 mΩ = 1 V across the shunt, far above the 81.92 mV full scale; 48 V is above the model's 36 V bus limit.
   await page.getByText('the power-monitor chip measures at most 81.9175 mV', { exact: false }).waitFor();
-  await page.getByText("above this model's bus limit of 36 V", { exact: false }).waitFor();
+  await page.getByText("above this model's panel voltage limit of 36 V", { exact: false }).waitFor();
   await screenshot(page, 'enroll-refusals-wide');
   await context.close();
 });
