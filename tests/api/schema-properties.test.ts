@@ -212,7 +212,7 @@ const validCheckInArb = fc.record(
 );
 
 describe('valid check-ins (fast-check)', () => {
-  test('when a logger sends check-ins generated within the device contract, then each is accepted with 200 and an answer the reference client reads', async () => {
+  test('when a logger sends check-ins generated within the device contract, then each is accepted with 200 and an answer the reference client reads, or its report on a release never offered is refused with a 409 problem', async () => {
     await fc.assert(
       fc.asyncProperty(validCheckInArb, async (generated) => {
         const body = JSON.parse(JSON.stringify(generated)) as Record<string, unknown>; // optional fields left out, as a logger would
@@ -220,6 +220,12 @@ describe('valid check-ins (fast-check)', () => {
         if (report?.release === '__release__') report.release = ids.release;
         expect(checkInRequestSchema.safeParse(body).success).toBe(true);
         const res = await t.request().post('/api/device/v1/check-in').set('Authorization', `Bearer ${token}`).send(body);
+        // An install report counts only for a release offered to this logger or the one it runs
+        // (DEVICE_API.md, install reports); any other is refused whole with a 409 problem.
+        if (report && res.status === 409) {
+          expect(res.headers['content-type']).toMatch(/^application\/problem\+json/);
+          return;
+        }
         if (res.status !== 200) throw new Error(`${res.status} for ${JSON.stringify(body)}: ${JSON.stringify(res.body)}`);
         expect(checkInResponseSchema.safeParse(res.body).success).toBe(true);
       }),
