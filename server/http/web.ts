@@ -128,6 +128,12 @@ export function webApp(webDir: string) {
   router.use((req, res, next) => {
     if (req.method !== 'GET' && req.method !== 'HEAD') return next();
     if (req.path === '/api' || req.path.startsWith('/api/')) return next();
+    // A path whose percent-encoding is not UTF-8 names no page (RFC 3986 §2.1): a 400, like the API's routes.
+    try {
+      decodeURIComponent(req.path);
+    } catch {
+      return next(problems.badRequest('The address holds a percent-encoding that is not UTF-8.'));
+    }
     const rel = fileOf(req.path);
     if (rel) return send(req, res, next, rel);
     if (!fs.existsSync(path.join(root, 'index.html'))) return next(problems.notFound('page', 'The web app is not built yet: run npm start.'));
