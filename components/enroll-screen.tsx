@@ -11,7 +11,7 @@ import { QrScanner, type ScannerProblem } from './qr-scanner';
 import { readEnrollmentCode } from './enroll-code';
 import { CalibrationPreview, liveProfile, withProfileCheck } from './calibration-preview';
 import { SiteForm } from './site-form';
-import { WiringCautions } from './wiring-cautions';
+import { WiringCautions, vocCoeffField } from './wiring-cautions';
 import { loggerStatus } from './status';
 import { pickFile } from './web';
 import { colors, fonts, radii, space, touchTarget, type } from './theme';
@@ -336,9 +336,7 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
       <FormField
         control={control}
         name="vocTempCoeffPctPerC"
-        label="Voltage change with temperature (%/°C, optional)"
-        hint="From the panel data sheet: the temperature coefficient of Voc, e.g. -0.30"
-        inputMode="decimal"
+        {...vocCoeffField}
         testID="panel-voc-coeff"
       />
       <Row gap={space.sm} style={{ alignItems: 'flex-end' }}>

@@ -4,7 +4,7 @@ import React from 'react';
 import { Text, View } from 'react-native';
 import { z } from 'zod';
 import { Button, Notice, Row } from './ui';
-import { WiringCautions } from './wiring-cautions';
+import { WiringCautions, vocCoeffField } from './wiring-cautions';
 import { CalibrationPreview, liveProfile, withProfileCheck } from './calibration-preview';
 import { decimal, FormChoices, FormField, formSchema, useSchemaForm, useServerErrors, whenValid } from './form';
 import { colors, space, type } from './theme';
@@ -101,9 +101,7 @@ export function ProfileForm({
       <FormField
         control={control}
         name="vocTempCoeffPctPerC"
-        label="Voltage change with temperature (%/°C, optional)"
-        hint="From the panel data sheet: the temperature coefficient of Voc, e.g. -0.30"
-        inputMode="decimal"
+        {...vocCoeffField}
       />
       <Row gap={space.sm} style={{ alignItems: 'flex-start' }}>
         <View style={{ flex: 1 }}>

@@ -22,3 +22,10 @@ export function WiringCautions({ limits, title = 'Before you connect the logger'
     </Notice>
   );
 }
+
+/** The panel's temperature coefficient of Voc, asked the same way wherever wiring figures are typed. */
+export const vocCoeffField = {
+  label: 'Voltage change with temperature (%/°C, optional)',
+  hint: 'From the panel data sheet: the temperature coefficient of Voc, e.g. -0.30',
+  inputMode: 'decimal',
+} as const;

@@ -11,7 +11,7 @@
 //   reaches PostgreSQL through a TCP relay that resets every connection and refuses new ones (proxy.ts).
 import { spawn, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';
-import net from 'node:net';
+import { freePort } from '../bench/database';
 import os from 'node:os';
 import path from 'node:path';
 import crypto from 'node:crypto';
@@ -38,16 +38,8 @@ export const SOAK_DB = 'heliodor_soak';
 /** Every demo person's password in the soak's database (PRODUCT.md's people, seeded by seedDemo). */
 export const SOAK_PASSWORD = 'soak-run-fernhollow-2026';
 
-export function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const srv = net.createServer();
-    srv.once('error', reject);
-    srv.listen(0, '127.0.0.1', () => {
-      const { port } = srv.address() as net.AddressInfo;
-      srv.close(() => resolve(port));
-    });
-  });
-}
+/** A free loopback port, as the bench finds one. */
+export { freePort };
 
 const sleep = (ms: number) => new Promise<void>((resolve) => setTimeout(resolve, ms));
 
