@@ -76,7 +76,7 @@ function ModelCard({ model, onEdit }: { model: Model; onEdit?: () => void }) {
       <View style={styles.facts}>
         <Fact label="Supply guard">{`${model.minUpdateSupplyV} V minimum to update`}</Fact>
         <Fact label="Check-in every">{`${model.checkInIntervalS / 60} min`}</Fact>
-        <Fact label="Bus limit">{`${model.busVMax} V`}</Fact>
+        <Fact label="Panel voltage limit">{`${model.busVMax} V`}</Fact>
         <Fact label="Shunt full scale">{`${Number((model.shuntFullScaleV * 1000).toPrecision(4))} mV`}</Fact>
         <Fact label="Probe resolutions">{`${model.tempResolutions.join(', ')} bits`}</Fact>
       </View>

@@ -5,7 +5,8 @@
 // process then does the once-only work — sweeping unfinished uploads, migrating, seeding, the mail fake
 // and the living demo — and serves nothing itself; each worker serves the whole app. Work that runs in
 // every worker is safe there: the release cache listens for changes on its own connection, and
-// check-in partition maintenance takes a PostgreSQL advisory lock, so one process at a time does it.
+// check-in partition maintenance and the fleet summaries' worker (server/fleet/summaries.ts) take
+// PostgreSQL advisory locks, so one process at a time does each.
 // A worker that dies is replaced.
 import cluster from 'node:cluster';
 import type { Server } from 'node:http';
