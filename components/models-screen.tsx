@@ -75,6 +75,7 @@ function ModelCard({ model, onEdit }: { model: Model; onEdit?: () => void }) {
       </View>
       <View style={styles.facts}>
         <Fact label="Supply guard">{`${model.minUpdateSupplyV} V minimum to update`}</Fact>
+        <Fact label="Signing rule">{`${model.signingThreshold} signature${model.signingThreshold === 1 ? '' : 's'} by distinct keys per release`}</Fact>
         <Fact label="Check-in every">{`${model.checkInIntervalS / 60} min`}</Fact>
         <Fact label="Bus limit">{`${model.busVMax} V`}</Fact>
         <Fact label="Shunt full scale">{`${Number((model.shuntFullScaleV * 1000).toPrecision(4))} mV`}</Fact>
@@ -108,6 +109,7 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
   const [bus, setBus] = React.useState(String(initial?.busVMax ?? '36'));
   const [shuntMv, setShuntMv] = React.useState(initial ? String(Number((initial.shuntFullScaleV * 1000).toPrecision(6))) : '81.92');
   const [bits, setBits] = React.useState<number[]>(initial?.tempResolutions ?? [9, 10, 11, 12]);
+  const [threshold, setThreshold] = React.useState(String(initial?.signingThreshold ?? 1));
   const [local, setLocal] = React.useState<Record<string, string>>({});
   const error = save.error as ApiError | null;
   const fe = (p: string) => local[p] ?? error?.field?.(p);
@@ -120,6 +122,7 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
       if (!(num(v) > 0)) problems[k] = 'must be a number above 0';
     }
     if (!bits.length) problems.tempResolutions = 'allow at least one resolution';
+    if (initial && !(Number.isInteger(num(threshold)) && num(threshold) >= 1)) problems.signingThreshold = 'must be a whole number of keys, 1 or more';
     setLocal(problems);
     if (Object.keys(problems).length) return;
     save.run(
@@ -131,6 +134,8 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
         busVMax: num(bus),
         shuntFullScaleV: Number((num(shuntMv) / 1000).toPrecision(12)),
         tempResolutions: [...bits].sort((a, b) => a - b),
+        // Changing the signing rule asks for a new trust set; only a change is sent.
+        ...(initial && num(threshold) !== initial.signingThreshold ? { signingThreshold: num(threshold) } : {}),
       },
       onDone,
     );
@@ -170,6 +175,18 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
         <Half>
           <Field label="Shunt full scale (mV)" value={shuntMv} onChangeText={setShuntMv} inputMode="decimal" error={fe('shuntFullScaleV')} />
         </Half>
+        {initial ? (
+          <Half>
+            <Field
+              label="Signatures each release needs"
+              value={threshold}
+              onChangeText={setThreshold}
+              inputMode="numeric"
+              error={fe('signingThreshold')}
+              hint="Distinct registered keys, not revoked; a change waits for the signers"
+            />
+          </Half>
+        ) : null}
       </View>
       <View style={{ gap: space.xs }}>
         <Text style={type.label}>Probe resolutions allowed</Text>

@@ -8,7 +8,7 @@ import type { BoardRevision, LoggerModelView } from '../schemas/models';
 export type Board = BoardRevision;
 export type Model = LoggerModelView;
 /** What the model form sends (the server checks it against createModelRequest). */
-export type ModelInput = Omit<Model, 'id' | 'loggerCount' | 'createdAt' | 'can'>;
+export type ModelInput = Omit<Model, 'id' | 'loggerCount' | 'createdAt' | 'can' | 'signingThreshold'> & { signingThreshold?: number };
 
 export const modelKeys = {
   all: ['models'] as const,

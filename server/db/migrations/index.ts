@@ -11,6 +11,7 @@ import * as m0008 from './0008_metrics_scope';
 import * as m0009 from './0009_team';
 import * as m0010 from './0010_logger_batches';
 import * as m0011 from './0011_function_search_path';
+import * as m0016 from './0016_release_trust';
 
 export type Migration = {
   name: string;
@@ -30,4 +31,5 @@ export const migrations: Migration[] = [
   { name: '0009_team', ...m0009 },
   { name: '0010_logger_batches', ...m0010 },
   { name: '0011_function_search_path', ...m0011 },
+  { name: '0016_release_trust', ...m0016 },
 ];
