@@ -98,6 +98,7 @@ export const LAGGING_REASON_WORDS: Record<LaggingReason, Word> = {
   failed_awaiting_retry: { label: 'Failed, awaiting retry', tone: 'ember' },
   needs_stepping_stone: { label: 'Needs stepping stone', tone: 'amber' },
   security_counter_too_low: { label: 'Security counter', tone: 'ember' },
+  manifest_expired: { label: 'Manifest expired', tone: 'ember' },
   offered: { label: 'Installing', tone: 'moss' },
   other: { label: 'Other', tone: 'ink' },
 };

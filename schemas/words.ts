@@ -111,6 +111,7 @@ export const LAGGING_REASONS = [
   'failed_awaiting_retry',
   'needs_stepping_stone',
   'security_counter_too_low',
+  'manifest_expired',
   'offered',
   'other',
 ] as const;
