@@ -161,7 +161,11 @@ export const trustSetSchema = z
         'Signatures over the RFC 8785 canonical form of this object without signatures, by keys of the PREVIOUS version. Accept it only when signatures from the threshold of the set you hold verify, each key counted once.',
     }),
   })
-  .meta({ id: 'TrustSet', description: 'The next version of the model’s trust set: the keys loggers trust and how many must sign.' });
+  .meta({
+    id: 'TrustSet',
+    description:
+      'The next version of the model’s trust set (the keys loggers trust and how many must sign); sent only when trust_version is behind and that version is signed, one version per check-in.',
+  });
 export type TrustSetWire = z.infer<typeof trustSetSchema>;
 
 export const checkInResponseSchema = z
@@ -172,7 +176,8 @@ export const checkInResponseSchema = z
     }),
     config: deviceConfigSchema.nullable(),
     offer: offerSchema.nullable(),
-    trust_set: trustSetSchema.optional().meta({ description: 'Sent when trust_version is behind and the next version is signed: one version per check-in.' }),
+    // Sent only when trust_version is behind and the next version is signed: one version per check-in.
+    trust_set: trustSetSchema.optional(),
   })
   .meta({ id: 'CheckInResponse' });
 export type CheckInResponse = z.infer<typeof checkInResponseSchema>;
