@@ -25,7 +25,8 @@ export type OfferableRelease = ReleaseTargeting &
   };
 
 type Row = Omit<OfferableRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boards' | 'keyId' | 'signatures'> & {
-  signatures: OfferableRelease['signatures'] | null;
+  /** [key id, algorithm, base64 signature] per signature. */
+  signatures: [string, SignatureAlgorithm, string][] | null;
   share: number | string;
   imageSize: number | string;
   pilotSiteIds: string[] | null;
@@ -45,7 +46,7 @@ export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string)
             (SELECT array_agg(ps.site_id::text ORDER BY ps.site_id) FROM release_pilot_sites ps WHERE ps.release_id = r.id) AS "pilotSiteIds",
             r.expires_at AS "expiresAt",
             -- base64 without the line breaks PostgreSQL's encode() puts every 76 characters
-            (SELECT json_agg(json_build_object('key_id', sk.key_id, 'algorithm', sk.algorithm, 'signature', translate(encode(rs.signature, 'base64'), E'\n', ''))
+            (SELECT json_agg(json_build_array(sk.key_id, sk.algorithm, translate(encode(rs.signature, 'base64'), E'\n', ''))
                              ORDER BY rs.seq)
                FROM release_signatures rs JOIN signing_keys sk ON sk.id = rs.signing_key_id WHERE rs.release_id = r.id) AS signatures
        FROM releases r JOIN images i ON i.sha256 = r.image_sha256 JOIN signing_keys k ON k.id = r.signing_key_id
@@ -65,6 +66,6 @@ export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string)
     imageSha256: r.imageSha256.trim(),
     pilotSiteIds: r.pilotSiteIds ?? [],
     expiresAt: r.expiresAt ? new Date(r.expiresAt) : null,
-    signatures: (r.signatures ?? []).map((s) => ({ ...s, key_id: s.key_id.trim() })),
+    signatures: (r.signatures ?? []).map(([keyId, algorithm, signature]) => ({ key_id: keyId.trim(), algorithm, signature })),
   }));
 }
