@@ -1,7 +1,8 @@
-// Providers only: fonts shipped with the app, TanStack Query, safe areas.
+// Providers only: fonts shipped with the app, TanStack Query, safe areas; the offline banner and the
+// service worker (web).
 import React from 'react';
 import { Slot } from 'expo-router';
-import { useFonts } from 'expo-font';
+import { FontDisplay, useFonts } from 'expo-font';
 import { MutationCache, QueryCache, QueryClient, QueryClientProvider, focusManager } from '@tanstack/react-query';
 import { SafeAreaProvider } from 'react-native-safe-area-context';
 import { Platform, Text, View } from 'react-native';
@@ -14,6 +15,9 @@ import { IBMPlexMono_500Medium } from '@expo-google-fonts/ibm-plex-mono/500Mediu
 import { colors, type } from '../components/theme';
 import { ApiError } from '../hooks/api';
 import { sessionKeys } from '../hooks/session';
+import { useOnline } from '../hooks/online';
+import { registerServiceWorker } from '../hooks/service-worker';
+import { OfflineBanner } from '../components/offline-banner';
 
 // A session the server has ended (sign-out elsewhere, disabled, role changed) answers 401 to the next
 // request: the console then forgets the person, and the console's gate sends the page to sign-in.
@@ -41,20 +45,36 @@ if (Platform.OS === 'web' && typeof document !== 'undefined') {
   });
 }
 
+registerServiceWorker();
+
+const shippedFonts = {
+  IBMPlexSans_400Regular,
+  IBMPlexSans_500Medium,
+  IBMPlexSans_600SemiBold,
+  IBMPlexSans_700Bold,
+  IBMPlexMono_400Regular,
+  IBMPlexMono_500Medium,
+};
+// On the web the screen does not wait for the fonts (over a megabyte on a weak link): text shows in the
+// fallback of components/theme.ts and swaps to the shipped face as each arrives (CSS font-display: swap).
+const web = Platform.OS === 'web';
+const fontSources = web
+  ? Object.fromEntries(Object.entries(shippedFonts).map(([name, uri]) => [name, { uri, display: FontDisplay.SWAP }]))
+  : shippedFonts;
+
 export default function RootLayout() {
-  const [loaded, error] = useFonts({
-    IBMPlexSans_400Regular,
-    IBMPlexSans_500Medium,
-    IBMPlexSans_600SemiBold,
-    IBMPlexSans_700Bold,
-    IBMPlexMono_400Regular,
-    IBMPlexMono_500Medium,
-  });
-  if (!loaded && !error) return <View style={{ flex: 1, backgroundColor: colors.paper }} />;
+  const [loaded, error] = useFonts(fontSources);
+  const online = useOnline();
+  if (!web && !loaded && !error) return <View style={{ flex: 1, backgroundColor: colors.paper }} />;
   return (
     <SafeAreaProvider>
       <QueryClientProvider client={queryClient}>
-        <Slot />
+        <View style={{ flex: 1 }}>
+          <OfflineBanner online={online} />
+          <View style={{ flex: 1 }}>
+            <Slot />
+          </View>
+        </View>
       </QueryClientProvider>
     </SafeAreaProvider>
   );

@@ -3,9 +3,9 @@
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
 import type { z } from 'zod';
-import { Card, Notice, ProgressBar } from './ui';
+import { Card, Disclosure, Notice, ProgressBar } from './ui';
 import { colors, space, type } from './theme';
-import { measurementProfile, type InstallForProfile, type ModelLimits, type ProfileResult } from '../lib/calibration';
+import { ABOVE_RATING, measurementProfile, probeStepText, type InstallForProfile, type ModelLimits, type ProfileError, type ProfileResult } from '../lib/calibration';
 
 /** Amps in the unit an installer reads: µA, mA or A, at most 4 significant digits. */
 export function formatCurrent(a: number): string {
@@ -28,6 +28,8 @@ export function liveProfile(install: Partial<InstallForProfile>, limits: ModelLi
       maxCurrentA: install.maxCurrentA ?? NaN,
       panelVocV: install.panelVocV ?? NaN,
       tempResolutionBits: install.tempResolutionBits ?? NaN,
+      vocTempCoeffPctPerC: install.vocTempCoeffPctPerC ?? null,
+      siteMinTempC: install.siteMinTempC ?? null,
     },
     limits,
   );
@@ -37,14 +39,14 @@ export function liveProfile(install: Partial<InstallForProfile>, limits: ModelLi
  * A form schema that also puts the calculation's refusals (shunt full scale, calibration range, bus
  * limit, probe resolution) on the fields they concern, after the shared schema's own rules.
  */
-export function withProfileCheck<S extends z.ZodType<Partial<InstallForProfile>>>(schema: S, limits: ModelLimits): S {
+export function withProfileCheck<S extends z.ZodType<Partial<InstallForProfile>>>(schema: S, limits: ModelLimits, siteMinTempC?: number | null): S {
   return schema.superRefine((install, ctx) => {
-    const result = liveProfile(install, limits);
+    const result = liveProfile({ ...install, siteMinTempC: siteMinTempC ?? null }, limits);
     if (result && !result.ok) for (const e of result.errors) ctx.addIssue({ code: 'custom', path: [e.path], message: e.message });
   });
 }
 
-export function CalibrationPreview({ result, filled }: { result: ProfileResult | null; filled: (path: keyof InstallForProfile) => boolean }) {
+export function CalibrationPreview({ result, filled }: { result: ProfileResult | null; filled: (path: ProfileError['path']) => boolean }) {
   if (!result) {
     return (
       <Card testID="calibration">
@@ -56,16 +58,26 @@ export function CalibrationPreview({ result, filled }: { result: ProfileResult |
   const headroom = result.headroom;
   // Only complain about fields the person has filled in; blank ones are simply still to come.
   const refusals = result.ok ? [] : result.errors.filter((e) => filled(e.path));
+  const aboveRating = refusals.some((e) => e.message.startsWith(ABOVE_RATING));
   return (
     <Card testID="calibration" style={result.ok ? { borderColor: colors.moss } : undefined}>
       <Text style={type.heading}>Measurement profile</Text>
       {result.ok ? (
-        <View style={styles.grid}>
-          <Value label="Calibration" value={String(result.profile.calibration)} testID="calibration-value" />
-          <Value label="Current step" value={formatCurrent(result.profile.currentLsbA)} />
-          <Value label="Power step" value={formatPower(result.profile.powerLsbW)} />
-          <Value label="Sample every" value={`${result.profile.sampleIntervalS} s`} />
-        </View>
+        <>
+          <View style={styles.grid}>
+            <Value label="Sample every" value={`${result.profile.sampleIntervalS} s`} />
+            <Value label="Temperature in" value={probeStepText(result.profile.tempResolutionBits)} />
+          </View>
+          {/* The register values matter to whoever checks the chip by hand, not to the installer. */}
+          <Disclosure label="Details" testID="calibration-details">
+            <View style={styles.grid}>
+              <Value label="Calibration" value={String(result.profile.calibration)} testID="calibration-value" />
+              <Value label="Current step" value={formatCurrent(result.profile.currentLsbA)} />
+              <Value label="Power step" value={formatPower(result.profile.powerLsbW)} />
+              <Value label="Probe resolution" value={`${result.profile.tempResolutionBits} bits`} />
+            </View>
+          </Disclosure>
+        </>
       ) : (
         <Text style={type.small}>The values appear once every figure is in range.</Text>
       )}
@@ -79,10 +91,16 @@ export function CalibrationPreview({ result, filled }: { result: ProfileResult |
           <ProgressBar
             value={(headroom.busV.used / headroom.busV.limit) * 100}
             tone={headroom.busV.used > headroom.busV.limit ? 'ember' : headroom.busV.used > 0.9 * headroom.busV.limit ? 'amber' : 'moss'}
-            label={`Bus: ${headroom.busV.text}`}
+            label={`Panel voltage: ${headroom.busV.text}`}
           />
         </View>
       ) : null}
+      {result.coldVoc ? (
+        <Text style={type.small} testID="cold-voc">
+          {result.coldVoc.note}
+        </Text>
+      ) : null}
+      {aboveRating ? <Notice title={ABOVE_RATING} detail="The panel can give more voltage than the logger's input takes. Leave it disconnected." /> : null}
       {refusals.length ? (
         <Notice title="This install would not measure correctly">
           {refusals.map((e) => (

@@ -11,14 +11,17 @@ import { QrScanner, type ScannerProblem } from './qr-scanner';
 import { readEnrollmentCode } from './enroll-code';
 import { CalibrationPreview, liveProfile, withProfileCheck } from './calibration-preview';
 import { SiteForm } from './site-form';
+import { WiringCautions, vocCoeffField } from './wiring-cautions';
 import { loggerStatus } from './status';
 import { pickFile } from './web';
 import { colors, fonts, radii, space, touchTarget, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { EnrollInput, Lookup } from '../hooks/loggers';
+import type { QueuedEnrollment } from '../hooks/enrollment-queue';
+import type { Enrolled } from '../schemas/loggers';
 import type { Site, SiteInput } from '../hooks/sites';
 import { enrollRequest } from '../schemas/loggers';
-import type { InstallForProfile } from '../lib/calibration';
+import type { InstallForProfile, ProfileError } from '../lib/calibration';
 
 const errorOf = (e: unknown) => e as (ApiError & Error) | null;
 
@@ -30,7 +33,18 @@ function ProblemNotice({ error, fallback }: { error: unknown; fallback: string }
 
 // ─── Step 1: the label ───────────────────────────────────────────────────────
 
-export function EnrollScan({ busy, error, onToken }: { busy: boolean; error: unknown; onToken: (token: string) => void }) {
+export function EnrollScan({
+  busy,
+  error,
+  onToken,
+  children,
+}: {
+  busy: boolean;
+  error: unknown;
+  onToken: (token: string) => void;
+  /** Shown above the camera: the enrollments kept on this phone. */
+  children?: React.ReactNode;
+}) {
   const [typed, setTyped] = React.useState('');
   const [typedError, setTypedError] = React.useState<string | undefined>();
   const [camera, setCamera] = React.useState<ScannerProblem | null>(null);
@@ -58,6 +72,7 @@ export function EnrollScan({ busy, error, onToken }: { busy: boolean; error: unk
 
   return (
     <Page title="Enroll a logger" subtitle="Scan the QR label on the logger with the camera, or paste its link">
+      {children}
       {camera ? <Notice title={camera.title} detail={camera.detail} tone="amber" /> : <QrScanner onRead={onRead} onProblem={setCamera} />}
       {scanProblem ? <Notice title="Not a logger label" detail={scanProblem} tone="amber" /> : null}
       {busy ? (
@@ -114,6 +129,7 @@ const enrollForm = formSchema(
       siteId: z.string().optional(),
       panelWp: decimalText(),
       panelVocV: decimalText(),
+      vocTempCoeffPctPerC: decimalText(null),
       shuntOhm: z.string(),
       shuntUnit: z.enum(shuntUnits),
       maxCurrentA: decimalText(),
@@ -127,11 +143,12 @@ const enrollForm = formSchema(
 export type EnrollFormProps = {
   lookup: Lookup;
   token: string;
-  sites: { rows: Site[]; loading: boolean; error: unknown };
+  /** `onPhone`: the list is the phone's copy (no connection), saved at that time. */
+  sites: { rows: Site[]; loading: boolean; error: unknown; onPhone?: { savedAt: string } | null };
   siteQuery: string;
   onSiteQuery: (q: string) => void;
   createSite: { busy: boolean; error: unknown; run: (input: SiteInput, done: (site: Site) => void) => void };
-  enroll: { busy: boolean; error: unknown; run: (input: EnrollInput, photo: File | null) => void };
+  enroll: { busy: boolean; error: unknown; run: (input: EnrollInput, photo: File | null, siteName: string) => void };
   onRescan: () => void;
   wide: boolean;
 };
@@ -143,12 +160,14 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
   const [photo, setPhoto] = React.useState<File | null>(null);
   const [photoUrl, setPhotoUrl] = React.useState<string | null>(null);
   const [photoError, setPhotoError] = React.useState<string | undefined>();
-  const schema = React.useMemo(() => withProfileCheck(enrollForm, limits), [limits]);
+  const siteMinTempC = chosenSite && 'minTempC' in chosenSite ? chosenSite.minTempC : null;
+  const schema = React.useMemo(() => withProfileCheck(enrollForm, limits, siteMinTempC), [limits, siteMinTempC]);
   const form = useSchemaForm(schema, {
     defaultValues: {
       siteId: logger.site?.id,
       panelWp: '',
       panelVocV: '',
+      vocTempCoeffPctPerC: '',
       shuntOhm: '',
       shuntUnit: 'mΩ',
       maxCurrentA: '',
@@ -168,10 +187,12 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
     shuntOhm: shuntInOhm(typed.shuntOhm, typed.shuntUnit),
     maxCurrentA: decimal(typed.maxCurrentA),
     panelVocV: decimal(typed.panelVocV),
+    vocTempCoeffPctPerC: decimal(typed.vocTempCoeffPctPerC, null),
+    siteMinTempC,
     tempResolutionBits: typed.tempResolutionBits,
   };
   const result = liveProfile(install, limits);
-  const filled = (path: keyof InstallForProfile) => path === 'tempResolutionBits' || typed[path].trim() !== '';
+  const filled = (path: ProfileError['path']) => path === 'tempResolutionBits' || typed[path].trim() !== '';
 
   const chooseSite = (site: Site | { id: string; name: string }) => {
     form.setValue('siteId', site.id);
@@ -191,10 +212,10 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
 
   // The profile's own figures are sent, as the server computes them from the same function.
   const submit = whenValid(form, (details) => {
-    const computed = liveProfile(details, limits);
+    const computed = liveProfile({ ...details, siteMinTempC }, limits);
     if (!computed?.ok) return;
     const { shuntOhm, maxCurrentA, tempResolutionBits } = computed.profile;
-    enroll.run({ ...details, token, shuntOhm, maxCurrentA, tempResolutionBits }, photo);
+    enroll.run({ ...details, token, shuntOhm, maxCurrentA, tempResolutionBits }, photo, chosenSite?.name ?? 'the site');
   });
 
   const status = loggerStatus(logger);
@@ -257,6 +278,13 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
           <Field label="Find a site" value={siteQuery} onChangeText={onSiteQuery} placeholder="Name, customer or address" testID="site-search" />
           {sites.loading ? <Skeleton rows={3} height={44} /> : null}
           <ProblemNotice error={sites.error} fallback="Could not load the sites" />
+          {sites.onPhone ? (
+            <Notice
+              title="No connection: the sites saved on this phone"
+              detail={`The list as it was at ${new Date(sites.onPhone.savedAt).toISOString().slice(0, 16).replace('T', ' ')} UTC. A site created since then appears once back online.`}
+              tone="slate"
+            />
+          ) : null}
           {!sites.loading && !sites.rows.length ? (
             <EmptyState title="No sites found" detail={siteQuery ? 'No site matches this search.' : 'There are no sites you can install at yet: create one.'} />
           ) : null}
@@ -291,16 +319,7 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
       )}
     </Card>
   );
-  const cautions = (
-    <Notice title="Before you connect the logger" tone="amber">
-      <Text style={type.body}>• Isolate the array first: panels make voltage whenever light falls on them, and a DC arc does not put itself out.</Text>
-      <Text style={type.body}>• Fuse the measurement leads close to where they connect to the array.</Text>
-      <Text style={type.body}>
-        • Respect the monitor's limits: at most {limits.busVMax} V on the bus input and {Number((limits.shuntFullScaleV * 1000).toPrecision(4))} mV across the shunt.
-      </Text>
-      <Text style={type.body}>• Follow the local electrical codes; wiring work is for licensed practice.</Text>
-    </Notice>
-  );
+  const cautions = <WiringCautions limits={limits} />;
   const details = (
     <Card>
       <Text role="heading" aria-level={2} style={type.heading}>
@@ -314,6 +333,12 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
           <FormField control={control} name="panelVocV" label="Open-circuit voltage (V)" inputMode="decimal" testID="panel-voc" />
         </View>
       </Row>
+      <FormField
+        control={control}
+        name="vocTempCoeffPctPerC"
+        {...vocCoeffField}
+        testID="panel-voc-coeff"
+      />
       <Row gap={space.sm} style={{ alignItems: 'flex-end' }}>
         <View style={{ flex: 1 }}>
           <FormField control={control} name="shuntOhm" showError={false} label={`Shunt resistance (${typed.shuntUnit})`} inputMode="decimal" testID="shunt" />
@@ -453,6 +478,126 @@ export function EnrollDone({
             <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Open the logger</Text>
           </Pressable>
         </Link>
+      </Row>
+    </Page>
+  );
+}
+
+// ─── Kept on the phone: no connection when Enroll was pressed ────────────────
+
+const savedAtText = (iso: string) => new Date(iso).toISOString().slice(0, 16).replace('T', ' ') + ' UTC';
+
+function QueuedCard({ entry, answer, onDiscard }: { entry: QueuedEnrollment; answer?: Enrolled; onDiscard: (id: string) => void }) {
+  const what = `${entry.logger.serial} at ${entry.siteName}`;
+  if (entry.state === 'refused' && entry.problem) {
+    return (
+      <Card testID="queued-refused">
+        <Row style={{ justifyContent: 'space-between' }} wrap>
+          <Text style={[type.body, { fontFamily: fonts.semibold }]}>{what}</Text>
+          <Badge label="Refused" tone="ember" />
+        </Row>
+        <Notice title={entry.problem.title} detail={entry.problem.detail} />
+        <Text style={type.small}>Saved on this phone {savedAtText(entry.savedAt)}. Discarding it forgets the wiring figures and the photo kept for it.</Text>
+        <View style={{ alignSelf: 'flex-start' }}>
+          <Button label="Discard" variant="secondary" onPress={() => onDiscard(entry.id)} testID="queued-discard" />
+        </View>
+      </Card>
+    );
+  }
+  if (answer && entry.state !== 'photo') return null;
+  return (
+    <Card testID="queued-waiting">
+      <Row style={{ justifyContent: 'space-between' }} wrap>
+        <Text style={[type.body, { fontFamily: fonts.semibold }]}>{what}</Text>
+        <Badge label={entry.state === 'photo' ? 'Photo waiting' : 'Waiting to send'} tone="amber" />
+      </Row>
+      <Text style={type.small}>
+        {entry.state === 'photo'
+          ? 'Enrolled; the install photo is sent when back online.'
+          : `Saved on this phone ${savedAtText(entry.savedAt)}${entry.photo ? ' with its photo' : ''}; sent when back online.`}
+      </Text>
+    </Card>
+  );
+}
+
+/** The enrollments kept on this phone for the signed-in person: waiting ones, and refused ones to read and discard. */
+export function EnrollQueue({
+  queue,
+  sent,
+  onSendNow,
+  onDiscard,
+}: {
+  queue: QueuedEnrollment[];
+  sent: Record<string, Enrolled>;
+  onSendNow: () => void;
+  onDiscard: (id: string) => void;
+}) {
+  if (!queue.length) return null;
+  const waiting = queue.filter((e) => e.state !== 'refused').length;
+  return (
+    <View style={{ gap: space.sm }} testID="enroll-queue">
+      <Text role="heading" aria-level={2} style={type.heading}>
+        Kept on this phone
+      </Text>
+      {queue.map((entry) => (
+        <QueuedCard key={entry.id} entry={entry} answer={sent[entry.id]} onDiscard={onDiscard} />
+      ))}
+      {waiting ? (
+        <View style={{ alignSelf: 'flex-start' }}>
+          <Button label="Try sending now" variant="secondary" onPress={onSendNow} testID="queued-send" />
+        </View>
+      ) : null}
+    </View>
+  );
+}
+
+/** After Enroll was pressed without a connection: what is kept, and what happened once it was sent. */
+export function EnrollSaved({
+  entry,
+  answer,
+  onDiscard,
+  onAnother,
+}: {
+  /** The queue's copy; null once it left the queue (sent, or discarded). */
+  entry: QueuedEnrollment | null;
+  answer: Enrolled | undefined;
+  onDiscard: (id: string) => void;
+  onAnother: () => void;
+}) {
+  const refused = entry?.state === 'refused' ? entry : null;
+  return (
+    <Page title={answer ? 'Logger enrolled' : refused ? 'Enrollment refused' : 'Saved on this phone'}>
+      {answer ? (
+        <Card style={{ borderColor: colors.moss }} testID="enroll-done">
+          <Badge label="Enrolled" tone="moss" />
+          <Text style={type.heading}>
+            <Text style={{ fontFamily: fonts.monoMedium }}>{answer.logger.serial}</Text> enrolled at {answer.logger.site?.name ?? 'the site'}; it turns online at its first check-in.
+          </Text>
+          <Text style={type.small}>{entry?.state === 'photo' ? 'Sent when the connection returned; the install photo follows when back online.' : 'Sent when the connection returned.'}</Text>
+        </Card>
+      ) : refused ? (
+        <QueuedCard entry={refused} onDiscard={onDiscard} />
+      ) : entry ? (
+        <Card style={{ borderColor: colors.amber }} testID="enroll-saved">
+          <Badge label="Not sent yet" tone="amber" />
+          <Text style={type.heading}>Saved on this phone — will send when back online</Text>
+          <Text style={type.body}>
+            <Text style={{ fontFamily: fonts.monoMedium }}>{entry.logger.serial}</Text> at {entry.siteName}, with its wiring figures{entry.photo ? ' and the install photo' : ''}.
+          </Text>
+          <Text style={type.small}>
+            There is no connection to the server. The enrollment is sent by itself when the phone is back online, or the next time the console is opened; sending it twice never enrolls twice.
+          </Text>
+        </Card>
+      ) : null}
+      <Row gap={space.sm} wrap>
+        <Button label="Enroll another logger" onPress={onAnother} testID="enroll-another" />
+        {answer ? (
+          <Link href={`/loggers/${answer.logger.id}` as never} asChild>
+            <Pressable role="link" style={styles.link}>
+              <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Open the logger</Text>
+            </Pressable>
+          </Link>
+        ) : null}
       </Row>
     </Page>
   );

@@ -110,20 +110,47 @@ export function SeenAt({ at, relative, absolute }: { at: string | null; relative
   );
 }
 
-export function Pager({ total, page, pageSize, onPage, onPageSize, wide }: { total: number; page: number; pageSize: number; onPage: (p: number) => void; onPageSize?: (n: 25 | 50 | 100) => void; wide: boolean }) {
+/**
+ * A count as the console says it: exact as it is, or — when the server answers the database's estimate
+ * (totalIsEstimate) — rounded to two figures with its thousands grouped, "about 100 000".
+ */
+export function countText(total: number, estimate = false): string {
+  if (!estimate || total < 100) return String(total);
+  const step = 10 ** (Math.floor(Math.log10(total)) - 1);
+  return `about ${String(Math.round(total / step) * step).replace(/\B(?=(\d{3})+(?!\d))/g, '\u00a0')}`;
+}
+
+export function Pager({
+  total,
+  totalIsEstimate = false,
+  page,
+  pageSize,
+  onPage,
+  onPageSize,
+  wide,
+}: {
+  total: number;
+  /** The total is the database's estimate: the range and the page count say "about". */
+  totalIsEstimate?: boolean;
+  page: number;
+  pageSize: number;
+  onPage: (p: number) => void;
+  onPageSize?: (n: 25 | 50 | 100) => void;
+  wide: boolean;
+}) {
   const pages = Math.max(1, Math.ceil(total / pageSize));
   const from = total === 0 ? 0 : (page - 1) * pageSize + 1;
-  const to = Math.min(total, page * pageSize);
+  const to = totalIsEstimate ? page * pageSize : Math.min(total, page * pageSize);
   return (
     <Row wrap gap={space.sm} style={{ justifyContent: 'space-between' }}>
       <Text style={[type.small, { fontVariant: ['tabular-nums'] }]} testID="pager-range">
-        {from}–{to} of {total}
+        {from}–{to} of {countText(total, totalIsEstimate)}
       </Text>
       <Row wrap gap={space.sm}>
         {wide && onPageSize ? <Choices label={undefined} choices={[25, 50, 100].map((n) => ({ value: n, label: `${n} per page` }))} value={pageSize} onChange={(n) => onPageSize(n as 25 | 50 | 100)} /> : null}
         <Button label="Previous" variant="secondary" disabled={page <= 1} onPress={() => onPage(page - 1)} />
         <Text style={[type.small, { fontVariant: ['tabular-nums'] }]}>
-          {page} / {pages}
+          {page} / {countText(pages, totalIsEstimate)}
         </Text>
         <Button label="Next" variant="secondary" disabled={page >= pages} onPress={() => onPage(page + 1)} />
       </Row>

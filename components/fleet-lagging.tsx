@@ -6,12 +6,12 @@ import { Page } from './shell';
 import { Badge, Button, Card, EmptyState, Field, Mono, Notice, Row, Skeleton } from './ui';
 import { ConfirmDialog } from './confirm';
 import { DownloadLink, Pager, Select } from './fleet-controls';
-import { absoluteTime, relativeTime } from './format';
+import { relativeTime, summaryAge } from './format';
+import { SiteTime, siteTimeWords } from './site-time';
 import { colors, fonts, space, touchTarget, type, type Tone } from './theme';
-import { LAGGING_REASON_LABELS, type LaggingLogger, type LaggingReason, type LaggingSite, type RetryOrder } from '../schemas/fleet';
+import { LAGGING_REASON_LABELS, type LaggingList, type LaggingLogger, type LaggingReason, type LaggingSite, type RetryOrder } from '../schemas/fleet';
 import { LAGGING_REASONS } from '../schemas/words';
 import { LAGGING_REASON_WORDS } from './words';
-import type { List } from '../schemas/common';
 import type { LaggingFilter } from '../hooks/fleet';
 
 /** Short words and tones for the badges (components/words.ts); the site view spells each reason out in full. */
@@ -35,7 +35,7 @@ function ReasonBadges({ reasons }: { reasons: LaggingSite['reasons'] }) {
 }
 
 type ListProps = {
-  state: { data?: List<LaggingSite>; isPending: boolean; isFetching?: boolean; error: Error | null; refetch: () => unknown };
+  state: { data?: LaggingList; isPending: boolean; isFetching?: boolean; error: Error | null; refetch: () => unknown };
   filter: LaggingFilter;
   onFilter: (f: LaggingFilter) => void;
   exportHref: string;
@@ -52,10 +52,13 @@ export function LaggingSitesScreen({ state, filter, onFilter, exportHref, wide, 
     return () => clearTimeout(t);
   }, [customer]); // eslint-disable-line react-hooks/exhaustive-deps
   const total = state.data?.total;
+  const age = summaryAge(state.data?.ageS);
   return (
     <Page
       title="Lagging sites"
-      subtitle={total === undefined ? 'Sites with loggers behind their channel’s current release' : `${total} ${total === 1 ? 'site' : 'sites'} lagging`}
+      subtitle={
+        total === undefined ? 'Sites with loggers behind their channel’s current release' : `${total} ${total === 1 ? 'site' : 'sites'} lagging${age ? ` · ${age}` : ''}`
+      }
       actions={<DownloadLink href={exportHref} label="Export CSV" testID="lagging-export" />}
     >
       <Card style={{ gap: space.md }}>
@@ -128,6 +131,7 @@ function LaggingCard({ site, onOpen }: { site: LaggingSite; onOpen: (id: string)
         <Text style={type.small}>
           Lagging for {lagFor(site.laggingSince)} · oldest <Text style={{ fontFamily: fonts.mono }}>{site.oldestVersion ?? '—'}</Text> · last contact {site.lastContactAt ? relativeTime(site.lastContactAt) : 'never'}
         </Text>
+        {site.lastContactAt ? <Text style={type.small}>Last contact <SiteTime at={site.lastContactAt} timeZone={site.timeZone} /></Text> : null}
         <ReasonBadges reasons={site.reasons} />
       </Card>
     </Pressable>
@@ -164,11 +168,17 @@ function LaggingTable({ rows, onOpen }: { rows: LaggingSite[]; onOpen: (id: stri
               {s.behind} / {s.total}
             </Text>
             <Mono style={{ flex: 0.8, fontSize: 13 }}>{s.oldestVersion ?? '—'}</Mono>
-            <Text role="cell" style={[type.dense, { flex: 0.9 }]} aria-label={`since ${absoluteTime(s.laggingSince)}`}>
+            <Text role="cell" style={[type.dense, { flex: 0.9 }]} aria-label={`since ${siteTimeWords(s.laggingSince, s.timeZone, true)}`}>
               {lagFor(s.laggingSince)}
             </Text>
             <Text role="cell" style={[type.dense, { flex: 1 }]}>
               {s.lastContactAt ? relativeTime(s.lastContactAt) : 'never'}
+              {s.lastContactAt ? (
+                <>
+                  {'\n'}
+                  <SiteTime at={s.lastContactAt} timeZone={s.timeZone} style={type.small} />
+                </>
+              ) : null}
             </Text>
             <View role="cell" style={{ flex: 2.4 }}>
               <ReasonBadges reasons={s.reasons} />
@@ -240,7 +250,15 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
       {retry.error ? <Notice title={(retry.error as { title?: string }).title ?? 'Retry refused'} detail={(retry.error as { detail?: string }).detail ?? retry.error.message} /> : null}
       <Card style={{ gap: space.xs }}>
         <Text style={type.small}>
-          Oldest version here <Text style={{ fontFamily: fonts.mono }}>{site.oldestVersion ?? '—'}</Text> · last contact {site.lastContactAt ? `${relativeTime(site.lastContactAt)} (${absoluteTime(site.lastContactAt)})` : 'never'} · lagging since {absoluteTime(site.laggingSince)}
+          Oldest version here <Text style={{ fontFamily: fonts.mono }}>{site.oldestVersion ?? '—'}</Text> · last contact{' '}
+          {site.lastContactAt ? (
+            <>
+              {relativeTime(site.lastContactAt)} (<SiteTime at={site.lastContactAt} timeZone={site.timeZone} testID="lagging-last-contact" />)
+            </>
+          ) : (
+            'never'
+          )}{' '}
+          · lagging since <SiteTime at={site.laggingSince} timeZone={site.timeZone} testID="lagging-since" />
         </Text>
         <ReasonBadges reasons={site.reasons} />
       </Card>

@@ -8,8 +8,8 @@ import { useAddNote, useSparklines, useTimeline, useWhyNoUpdate } from '../hooks
 
 const DAYS = 7;
 
-/** `canNote`: the logger's `can.addNote` (the server's policies say who writes notes). */
-export function LoggerFleet({ loggerId, canNote }: { loggerId: string; canNote: boolean }) {
+/** `canNote`: the logger's `can.addNote` (the server's policies say who writes notes); `timeZone`: its site's. */
+export function LoggerFleet({ loggerId, canNote, timeZone }: { loggerId: string; canNote: boolean; timeZone?: string }) {
   const why = useWhyNoUpdate(loggerId);
   const sparklines = useSparklines(loggerId, DAYS);
   const timeline = useTimeline(loggerId);
@@ -36,6 +36,7 @@ export function LoggerFleet({ loggerId, canNote }: { loggerId: string; canNote: 
         />
       ) : null}
       <Timeline
+        timeZone={timeZone}
         state={{
           pages: timeline.data?.pages ?? [],
           isPending: timeline.isPending,

@@ -5,8 +5,9 @@ import React from 'react';
 import { Text, View } from 'react-native';
 import { Badge, Button, Card, Mono, Notice, Row, Skeleton } from './ui';
 import { FormField, useSchemaForm, useServerErrors, whenValid } from './form';
-import { Sparkline } from './charts/line';
+import { Sparkline } from './charts/lazy';
 import { absoluteTime, relativeTime } from './format';
+import { SiteTime } from './site-time';
 import { colors, fonts, space, type } from './theme';
 import { noteRequest, type Note, type Sparklines, type TimelineItem } from '../schemas/fleet';
 import type { WhyAnswer } from '../hooks/fleet';
@@ -117,7 +118,8 @@ function describe(item: TimelineItem): { title: string; detail?: string; tone: '
 
 export type TimelineState = { pages: { rows: TimelineItem[]; total: number }[]; isPending: boolean; error: Error | null; hasNextPage: boolean; isFetchingNextPage: boolean; fetchNextPage: () => unknown };
 
-export function Timeline({ state }: { state: TimelineState }) {
+/** `timeZone`: the logger's site's zone (lib/site-time.ts); UTC for a logger at no site. */
+export function Timeline({ state, timeZone = 'UTC' }: { state: TimelineState; timeZone?: string }) {
   const items = state.pages.flatMap((p) => p.rows);
   const total = state.pages[0]?.total;
   return (
@@ -146,8 +148,8 @@ export function Timeline({ state }: { state: TimelineState }) {
                 <View style={{ flex: 1, gap: 2 }}>
                   <Text style={[type.dense, item.kind === 'note' && { fontFamily: fonts.medium }]}>{d.title}</Text>
                   {d.detail ? <Text style={type.small}>{d.detail}</Text> : null}
-                  <Text style={type.small} aria-label={absoluteTime(item.at)}>
-                    {relativeTime(item.at)} · {absoluteTime(item.at)}
+                  <Text style={type.small}>
+                    {relativeTime(item.at)} · <SiteTime at={item.at} timeZone={timeZone} />
                   </Text>
                 </View>
               </View>
@@ -213,7 +215,8 @@ export type NoteWriting = { busy: boolean; error: Error | null; done: boolean; o
  * Notes on a site, newest first, with older pages on request; the form above them for the roles that
  * may write (`write` given), the list alone for everyone else who may see the site.
  */
-export function SiteNotes({ state, write }: { state: SiteNotesState; write?: NoteWriting }) {
+/** `timeZone`: the site's zone; notes are dated in it (lib/site-time.ts). */
+export function SiteNotes({ state, write, timeZone }: { state: SiteNotesState; write?: NoteWriting; timeZone: string }) {
   const notes = state.pages.flatMap((p) => p.rows);
   const total = state.pages[0]?.total;
   const failure = problem(state.error);
@@ -244,7 +247,7 @@ export function SiteNotes({ state, write }: { state: SiteNotesState; write?: Not
               <View role="listitem" key={n.id} style={{ borderTopColor: colors.line, borderTopWidth: i ? 1 : 0, paddingVertical: space.sm, gap: 2 }}>
                 <Text style={type.body}>{n.text}</Text>
                 <Text style={type.small}>
-                  {n.authorName} · {absoluteTime(n.createdAt)}
+                  {n.authorName} · <SiteTime at={n.createdAt} timeZone={timeZone} />
                 </Text>
               </View>
             ))}

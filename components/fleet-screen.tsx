@@ -5,17 +5,17 @@ import { Text, View } from 'react-native';
 import { Page } from './shell';
 import { Button, Card, EmptyState, Field, Row } from './ui';
 import { Choices } from './choice';
-import { DownloadLink, Pager, Select, UPDATE_STATE_LABELS, type Option } from './fleet-controls';
+import { countText, DownloadLink, Pager, Select, UPDATE_STATE_LABELS, type Option } from './fleet-controls';
 import { FleetCard, FleetSkeleton, FleetTable, choosableColumns } from './fleet-table';
 import { Notice } from './ui';
 import { space, type } from './theme';
 import { FLEET_FLAGS, UPDATE_STATES } from '../schemas/words';
 import { FLAG_WORDS } from './words';
-import type { List } from '../schemas/common';
-import type { FleetQuery, FleetRow } from '../hooks/fleet';
+import type { FleetQuery } from '../hooks/fleet';
+import type { FleetList } from '../schemas/fleet';
 
 type Props = {
-  state: { data?: List<FleetRow>; isPending: boolean; isFetching?: boolean; error: Error | null; refetch: () => unknown };
+  state: { data?: FleetList; isPending: boolean; isFetching?: boolean; error: Error | null; refetch: () => unknown };
   filter: FleetQuery;
   onFilter: (next: FleetQuery) => void;
   wide: boolean;
@@ -118,7 +118,7 @@ export function FleetScreen({ state, filter, onFilter, wide, sites, models, boar
   return (
     <Page
       title="Loggers"
-      subtitle={total === undefined ? 'The fleet' : `${total} ${total === 1 ? 'logger' : 'loggers'}${active ? ' match' : ' in the fleet'}`}
+      subtitle={total === undefined ? 'The fleet' : `${countText(total, state.data?.totalIsEstimate)} ${total === 1 ? 'logger' : 'loggers'}${active ? ' match' : ' in the fleet'}`}
       actions={
         <>
           <DownloadLink href={exportHref} label="Export CSV" testID="fleet-export" />
@@ -207,7 +207,7 @@ export function FleetScreen({ state, filter, onFilter, wide, sites, models, boar
               ))}
             </View>
           )}
-          <Pager total={state.data.total} page={filter.page} pageSize={filter.pageSize} wide={wide} onPage={(page) => onFilter({ ...filter, page })} onPageSize={(pageSize) => set({ pageSize })} />
+          <Pager total={state.data.total} totalIsEstimate={state.data.totalIsEstimate} page={filter.page} pageSize={filter.pageSize} wide={wide} onPage={(page) => onFilter({ ...filter, page })} onPageSize={(pageSize) => set({ pageSize })} />
         </View>
       ) : null}
       {!wide ? <Text style={type.small}>Tip: a link to this page keeps its filters.</Text> : null}

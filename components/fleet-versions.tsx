@@ -7,8 +7,7 @@ import { Page } from './shell';
 import { Badge, Card, EmptyState, Mono, ProgressBar, Row } from './ui';
 import { Choices } from './choice';
 import { QueryView, type QueryState } from './query-state';
-import { StackedBarChart } from './charts/stacked-bars';
-import { DayLineChart } from './charts/line';
+import { DayLineChart, StackedBarChart } from './charts/lazy';
 import { colors, fonts, space, type } from './theme';
 import type { VersionMatrix } from '../schemas/fleet';
 

@@ -27,3 +27,13 @@ export function duration(seconds: number): string {
   const d = Math.floor(h / 24);
   return h % 24 ? `${d}${nb}d ${h % 24}${nb}h` : `${d}${nb}d`;
 }
+
+/**
+ * "as of 12 s ago" for an answer read from a summary the worker keeps (SummaryFreshness), when it is at
+ * least `staleS` seconds behind the answer; null while it is fresh (a quiet console catches up at once).
+ */
+export function summaryAge(ageS: number | null | undefined, staleS = 10): string | null {
+  if (ageS === null || ageS === undefined || ageS < staleS) return null;
+  const unit = ageS < 60 ? `${ageS} s` : ageS < 3600 ? `${Math.round(ageS / 60)} min` : `${Math.round(ageS / 3600)} h`;
+  return `as of ${unit} ago`;
+}

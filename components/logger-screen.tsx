@@ -3,7 +3,8 @@ import React from 'react';
 import { Image, Pressable, StyleSheet, Text, View } from 'react-native';
 import { Link } from 'expo-router';
 import { Page } from './shell';
-import { Badge, Button, Card, Field, Mono, Notice, Row } from './ui';
+import { Badge, Button, Card, Disclosure, Field, Mono, Notice, Row } from './ui';
+import { WiringCautions } from './wiring-cautions';
 import { ConfirmDialog } from './confirm';
 import { ProfileForm } from './profile-form';
 import { QueryView, type QueryState } from './query-state';
@@ -13,7 +14,7 @@ import { absoluteTime, relativeTime } from './format';
 import { colors, fonts, radii, space, touchTarget, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { LoggerDetail, ProfileInput } from '../hooks/loggers';
-import type { ModelLimits } from '../lib/calibration';
+import { probeStepText, type ModelLimits } from '../lib/calibration';
 import type { Site } from '../hooks/sites';
 
 type Action<A extends unknown[] = []> = { busy: boolean; error: unknown; run: (...args: A) => void };
@@ -132,19 +133,32 @@ function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fle
           {p ? <Badge label={`version ${p.version}`} tone="slate" /> : null}
         </Row>
         {p && editing && can.editProfile && profile.limits ? (
-          <ProfileForm current={p} limits={profile.limits} busy={profile.busy} error={profile.error} onSave={profile.run} onCancel={() => setEditing(false)} />
+          <ProfileForm
+            current={p}
+            limits={profile.limits}
+            vocTempCoeffPctPerC={logger.install?.vocTempCoeffPctPerC ?? null}
+            siteMinTempC={logger.site?.minTempC ?? null}
+            busy={profile.busy} error={profile.error} onSave={profile.run} onCancel={() => setEditing(false)} />
         ) : p ? (
-          <View style={styles.grid}>
-            <Item label="Shunt" mono>{`${Number((p.shuntOhm * 1000).toPrecision(6))} mΩ`}</Item>
-            <Item label="Maximum current" mono>{`${p.maxCurrentA} A`}</Item>
-            <Item label="Current step" mono>{formatCurrent(p.currentLsbA)}</Item>
-            <Item label="Calibration" mono>{String(p.calibration)}</Item>
-            <Item label="Power step" mono>{formatPower(p.powerLsbW)}</Item>
-            <Item label="Bus limit" mono>{`${p.busVMax} V`}</Item>
-            <Item label="Probe resolution" mono>{`${p.tempResolutionBits} bits`}</Item>
-            <Item label="Sample every" mono>{`${p.sampleIntervalS} s`}</Item>
-            <Item label="Since">{absoluteTime(p.createdAt)}</Item>
-          </View>
+          <>
+            <View style={styles.grid}>
+              <Item label="Shunt" mono>{`${Number((p.shuntOhm * 1000).toPrecision(6))} mΩ`}</Item>
+              <Item label="Maximum current" mono>{`${p.maxCurrentA} A`}</Item>
+              <Item label="Panel voltage limit" mono>{`${p.busVMax} V`}</Item>
+              <Item label="Temperature in" mono>{probeStepText(p.tempResolutionBits)}</Item>
+              <Item label="Sample every" mono>{`${p.sampleIntervalS} s`}</Item>
+              <Item label="Since">{absoluteTime(p.createdAt)}</Item>
+            </View>
+            {/* Register values: for whoever checks the power-monitor chip by hand. */}
+            <Disclosure label="Details" testID="profile-details">
+              <View style={styles.grid}>
+                <Item label="Calibration" mono>{String(p.calibration)}</Item>
+                <Item label="Current step" mono>{formatCurrent(p.currentLsbA)}</Item>
+                <Item label="Power step" mono>{formatPower(p.powerLsbW)}</Item>
+                <Item label="Probe resolution" mono>{`${p.tempResolutionBits} bits`}</Item>
+              </View>
+            </Disclosure>
+          </>
         ) : (
           <Text style={type.body}>No profile yet: it is computed when the logger is enrolled.</Text>
         )}
@@ -252,6 +266,7 @@ function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fle
         onCancel={() => setAsk(null)}
         onConfirm={() => target && move.run(target)}
       >
+        <WiringCautions limits={profile.limits} title="Before you disconnect and reconnect the logger" />
         <View role="radiogroup" aria-label="New site" style={{ gap: space.xs, maxHeight: 320, overflow: 'scroll' as 'hidden' }}>
           {move.sites
             .filter((s) => s.id !== logger.site?.id)

@@ -77,7 +77,7 @@ function ModelCard({ model, onEdit }: { model: Model; onEdit?: () => void }) {
         <Fact label="Supply guard">{`${model.minUpdateSupplyV} V minimum to update`}</Fact>
         <Fact label="Signing rule">{`${model.signingThreshold} signature${model.signingThreshold === 1 ? '' : 's'} by distinct keys per release`}</Fact>
         <Fact label="Check-in every">{`${model.checkInIntervalS / 60} min`}</Fact>
-        <Fact label="Bus limit">{`${model.busVMax} V`}</Fact>
+        <Fact label="Panel voltage limit">{`${model.busVMax} V`}</Fact>
         <Fact label="Shunt full scale">{`${Number((model.shuntFullScaleV * 1000).toPrecision(4))} mV`}</Fact>
         <Fact label="Probe resolutions">{`${model.tempResolutions.join(', ')} bits`}</Fact>
       </View>

@@ -8,7 +8,7 @@ import { QueryView, type QueryState } from './query-state';
 import { useBreakpoints } from './breakpoints';
 import { colors, space, type, toneColors, type Tone } from './theme';
 import type { Overview } from '../schemas/overview';
-import { relativeTime } from './format';
+import { relativeTime, summaryAge } from './format';
 
 export function OverviewScreen({ name, state }: { name: string; state: QueryState<Overview> }) {
   const { wide } = useBreakpoints();
@@ -74,7 +74,10 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
           ))}
           <Link href={fleet.laggingSites.href as never} asChild>
             <Pressable role="link" style={styles.chip} aria-label={`Lagging sites: ${fleet.laggingSites.count}`} testID="overview-lagging">
-              <Badge label={`Lagging sites · ${fleet.laggingSites.count}`} tone={fleet.laggingSites.count ? 'amber' : 'moss'} />
+              <Badge
+                label={`Lagging sites · ${fleet.laggingSites.count}${summaryAge(fleet.laggingSites.ageS) ? ` (${summaryAge(fleet.laggingSites.ageS)})` : ''}`}
+                tone={fleet.laggingSites.count ? 'amber' : 'moss'}
+              />
             </Pressable>
           </Link>
           <Link href={'/loggers?status=registered' as never} asChild>

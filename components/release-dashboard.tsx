@@ -7,7 +7,7 @@ import { Pressable, StyleSheet, Text, View } from 'react-native';
 import { Badge, Card, ProgressBar, Row, Skeleton } from './ui';
 import { QueryView, type QueryState } from './query-state';
 import { Pager } from './fleet-controls';
-import { DayLineChart } from './charts/line';
+import { DayLineChart } from './charts/lazy';
 import { duration } from './format';
 import { colors, fonts, space, touchTarget, type } from './theme';
 import type { InstallTally, ReleaseDashboard as Dashboard, ReleaseSiteRow } from '../schemas/releases';

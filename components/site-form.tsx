@@ -28,6 +28,7 @@ const siteForm = formSchema(
     address: z.string(),
     latitude: decimalText(null),
     longitude: decimalText(null),
+    minTempC: decimalText(null),
     timeZone: z.string(),
     notes: z.string(),
     integratorIds: z.array(z.string()),
@@ -59,6 +60,7 @@ export function SiteForm({
       address: initial?.address ?? '',
       latitude: initial?.latitude != null ? String(initial.latitude) : '',
       longitude: initial?.longitude != null ? String(initial.longitude) : '',
+      minTempC: initial?.minTempC != null ? String(initial.minTempC) : '',
       timeZone: initial?.timeZone ?? localTimeZone(),
       notes: initial?.notes ?? '',
       integratorIds: initial?.integratorIds ?? [],
@@ -86,6 +88,15 @@ export function SiteForm({
           <FormField control={control} name="longitude" label="Longitude (optional)" inputMode="decimal" placeholder="-1.9821" testID="site-longitude" />
         </View>
       </Row>
+      <FormField
+        control={control}
+        name="minTempC"
+        label="Lowest expected temperature (°C, optional)"
+        hint="The coldest air temperature at the site; panels give more voltage in the cold, and the wiring check allows for it"
+        inputMode="decimal"
+        placeholder="-10"
+        testID="site-min-temp"
+      />
       <FormField
         control={control}
         name="timeZone"

@@ -6,7 +6,7 @@ import { Badge, Button, Card, EmptyState, Field, Mono, Row } from './ui';
 import { QueryView, type QueryState } from './query-state';
 import { SiteForm } from './site-form';
 import { loggerStatus, withOnline } from './status';
-import { absoluteTime } from './format';
+import { SiteTime } from './site-time';
 import { colors, fonts, space, type } from './theme';
 import type { List } from '../schemas/common';
 import type { Person, Site, SiteInput } from '../hooks/sites';
@@ -124,7 +124,9 @@ export function SiteScreen({
                 <Fact label="Coordinates">{site.latitude != null && site.longitude != null ? `${site.latitude}, ${site.longitude}` : '—'}</Fact>
                 <Fact label="Time zone">{site.timeZone}</Fact>
                 <Fact label="Integrators">{site.integrators.map((i) => i.name).join(', ') || '—'}</Fact>
-                <Fact label="Created">{absoluteTime(site.createdAt)}</Fact>
+                <Fact label="Created">
+                  <SiteTime at={site.createdAt} timeZone={site.timeZone} />
+                </Fact>
               </View>
               {site.notes ? <Fact label="Notes">{site.notes}</Fact> : null}
             </Card>

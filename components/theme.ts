@@ -1,4 +1,4 @@
-import type { TextStyle } from 'react-native';
+import { Platform, type TextStyle } from 'react-native';
 
 // Heliodor's design tokens (docs/DESIGN.md). Components take colours, spacing and type from here only.
 export const colors = {
@@ -24,13 +24,17 @@ export const colors = {
 export const space = { xs: 4, sm: 8, md: 12, lg: 16, xl: 24, xxl: 32 } as const;
 export const radii = { sm: 4, md: 8, lg: 12 } as const;
 
+// On the web the shipped faces arrive after the first screen (app/_layout.tsx): until then, the system's.
+const sans = (face: string) => (Platform.OS === 'web' ? `${face}, system-ui, sans-serif` : face);
+const mono = (face: string) => (Platform.OS === 'web' ? `${face}, ui-monospace, monospace` : face);
+
 export const fonts = {
-  regular: 'IBMPlexSans_400Regular',
-  medium: 'IBMPlexSans_500Medium',
-  semibold: 'IBMPlexSans_600SemiBold',
-  bold: 'IBMPlexSans_700Bold',
-  mono: 'IBMPlexMono_400Regular',
-  monoMedium: 'IBMPlexMono_500Medium',
+  regular: sans('IBMPlexSans_400Regular'),
+  medium: sans('IBMPlexSans_500Medium'),
+  semibold: sans('IBMPlexSans_600SemiBold'),
+  bold: sans('IBMPlexSans_700Bold'),
+  mono: mono('IBMPlexMono_400Regular'),
+  monoMedium: mono('IBMPlexMono_500Medium'),
 } as const;
 
 export const type = {

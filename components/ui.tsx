@@ -186,3 +186,22 @@ const styles = StyleSheet.create({
   progressTrack: { height: 10, borderRadius: 5, backgroundColor: colors.paperDeep, overflow: 'hidden' },
   progressFill: { height: '100%', borderRadius: 5 },
 });
+
+/** A labelled button that shows or hides what it holds (closed at first): figures an installer rarely needs. */
+export function Disclosure({ label, children, testID }: { label: string; children: React.ReactNode; testID?: string }) {
+  const [open, setOpen] = React.useState(false);
+  return (
+    <View style={{ gap: space.sm }}>
+      <Pressable
+        role="button"
+        aria-expanded={open}
+        onPress={() => setOpen(!open)}
+        testID={testID}
+        style={{ minHeight: touchTarget, justifyContent: 'center', alignSelf: 'flex-start' }}
+      >
+        <Text style={[type.body, { textDecorationLine: 'underline' }]}>{`${open ? '▾' : '▸'} ${label}`}</Text>
+      </Pressable>
+      {open ? children : null}
+    </View>
+  );
+}

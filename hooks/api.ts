@@ -2,6 +2,7 @@
 // problem+json (RFC 9457) turned into an ApiError with title, detail and field errors.
 import type { z } from 'zod';
 import type { Problem } from '../schemas/common';
+import { reportServerReached } from './online';
 
 const base = process.env.EXPO_PUBLIC_API_URL ?? '';
 
@@ -57,8 +58,10 @@ export async function api<T = unknown>(path: string, options: Options = {}, sche
     });
   } catch (err) {
     if ((err as Error)?.name === 'AbortError') throw err;
+    reportServerReached(false);
     throw networkError();
   }
+  reportServerReached(true);
   if (!res.ok) throw await toError(res);
   if (res.status === 204) return undefined as T;
   const data = await res.json();

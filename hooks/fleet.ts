@@ -12,8 +12,10 @@ import { CHANNELS, FLEET_FLAGS, LAGGING_REASONS, LOGGER_STATUSES, UPDATE_STATES 
 import {
   fleetSortKeys,
   type FleetFlag,
+  type FleetList,
   type FleetSortKey,
   type LaggingReason,
+  type LaggingList,
   type LaggingSite,
   type RetryAnswer,
   type RetryOrder,
@@ -117,7 +119,7 @@ export function useFleet(f: FleetQuery) {
     queryKey: [...loggerKeys.lists(), 'fleet', path],
     staleTime: STALE.SECONDS.THIRTY,
     placeholderData: keepPreviousData,
-    queryFn: () => api<List<FleetRow>>(path),
+    queryFn: () => api<FleetList>(path),
   });
 }
 
@@ -190,7 +192,7 @@ export function useLaggingSites(f: LaggingFilter) {
     queryKey: fleetKeys.lagging(f),
     staleTime: STALE.SECONDS.THIRTY,
     placeholderData: keepPreviousData,
-    queryFn: () => api<List<LaggingSite>>(`/api/fleet/lagging-sites${query(f)}`),
+    queryFn: () => api<LaggingList>(`/api/fleet/lagging-sites${query(f)}`),
   });
 }
 
@@ -205,7 +207,7 @@ export function useLaggingSite(siteId: string | undefined) {
     staleTime: STALE.SECONDS.THIRTY,
     queryFn: async (): Promise<LaggingSite | null> => {
       for (let page = 1; page <= 1000; page++) {
-        const list = await api<List<LaggingSite>>(`/api/fleet/lagging-sites${query({ siteId, page, pageSize: 100 })}`);
+        const list = await api<LaggingList>(`/api/fleet/lagging-sites${query({ siteId, page, pageSize: 100 })}`);
         const found = list.rows.find((r) => r.siteId === siteId);
         if (found) return found;
         if (page * 100 >= list.total || !list.rows.length) return null;

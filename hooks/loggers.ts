@@ -163,7 +163,8 @@ export const photoUrl = (loggerId: string) => `${process.env.EXPO_PUBLIC_API_URL
 // ─── Enrollment ──────────────────────────────────────────────────────────────
 
 export function useEnrollmentLookup() {
-  return useMutation({ mutationFn: (token: string) => api<Lookup>('/api/enrollments/lookup', { body: { token } }) });
+  // Tried even while the browser says it is offline, so the screen says so instead of waiting.
+  return useMutation({ networkMode: 'always', mutationFn: (token: string) => api<Lookup>('/api/enrollments/lookup', { body: { token } }) });
 }
 
 export type EnrollInput = z.input<typeof enrollRequest>;
@@ -172,6 +173,8 @@ export function useEnroll() {
   const qc = useQueryClient();
   const invalidate = useInvalidateRegistry();
   return useMutation({
+    // Tried even while the browser says it is offline: a failure to connect puts it in the phone's queue.
+    networkMode: 'always',
     mutationFn: (body: EnrollInput) => api<Enrolled>('/api/enrollments', { body }),
     onSuccess: ({ logger }) => {
       qc.setQueryData(loggerKeys.detail(logger.id), logger);

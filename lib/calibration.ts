@@ -28,7 +28,14 @@ export type InstallForProfile = {
   maxCurrentA: number;
   panelVocV: number;
   tempResolutionBits: number;
+  /** The panel's temperature coefficient of Voc from its data sheet, %/°C (negative); optional. */
+  vocTempCoeffPctPerC?: number | null;
+  /** The site's lowest expected ambient temperature, °C; optional. */
+  siteMinTempC?: number | null;
 };
+
+/** The words the screen and the server's refusal open with when the panel voltage is above the limit. */
+export const ABOVE_RATING = "Above the logger's input rating — do not connect";
 
 /** The limits of a model's measurement hardware. */
 export type ModelLimits = {
@@ -46,12 +53,24 @@ export type ComputedProfile = Omit<MeasurementProfile, 'version'>;
 export type HeadroomItem = { used: number; limit: number; text: string };
 export type Headroom = { shuntFullScaleV: HeadroomItem; busV: HeadroomItem; text: string };
 
-export type ProfileError = { path: keyof InstallForProfile; message: string };
+export type ProfileError = { path: 'shuntOhm' | 'maxCurrentA' | 'panelVocV' | 'tempResolutionBits'; message: string };
 
 export type ProfileResult =
-  | { ok: true; profile: ComputedProfile; headroom: Headroom }
+  | { ok: true; profile: ComputedProfile; headroom: Headroom; coldVoc: ColdVoc }
   // headroom is present whenever the numbers allow it, so the form can still show "100 mV of 81.92 mV".
-  | { ok: false; errors: ProfileError[]; headroom?: Headroom };
+  | { ok: false; errors: ProfileError[]; headroom?: Headroom; coldVoc?: ColdVoc };
+
+/** What the wiring check compared with the panel voltage limit, and how it got there. */
+export type ColdVoc = {
+  /** The highest open-circuit voltage expected at the site, V. */
+  vocMaxV: number;
+  /** Voc,max / Voc,STC. */
+  factor: number;
+  /** coefficient: 1 + β × (Tmin − 25 °C); table: NEC 2023 Table 690.7(A); nameplate: no site temperature known. */
+  basis: 'coefficient' | 'table' | 'nameplate';
+  /** One sentence for the installer on how the figure was found (and what to add when it is the nameplate only). */
+  note: string;
+};
 
 // ─── Number helpers ─────────────────────────────────────────────────────────
 
@@ -167,7 +186,96 @@ export function sampleIntervalFor(tempResolutionBits: number): number {
   return Math.max(1, Math.ceil((4 * conversionMs) / 1000));
 }
 
-function headroomFor(install: InstallForProfile, limits: ModelLimits): Headroom | undefined {
+// ─── Open-circuit voltage in the cold ───────────────────────────────────────
+
+/** Standard test conditions' cell temperature, °C. */
+export const STC_TEMP_C = 25;
+
+/**
+ * Correction factors for crystalline and multicrystalline silicon modules by the lowest expected ambient
+ * temperature (NEC 2023 Table 690.7(A); docs/SOURCES.md §14 — values from memory). Each band is given by
+ * its warmest and coldest whole degree; the factor applies down to `coldestC`.
+ */
+export const NEC_690_7_A_BANDS: readonly { warmestC: number; coldestC: number; factor: number }[] = [
+  { warmestC: 24, coldestC: 20, factor: 1.02 },
+  { warmestC: 19, coldestC: 15, factor: 1.04 },
+  { warmestC: 14, coldestC: 10, factor: 1.06 },
+  { warmestC: 9, coldestC: 5, factor: 1.08 },
+  { warmestC: 4, coldestC: 0, factor: 1.1 },
+  { warmestC: -1, coldestC: -5, factor: 1.12 },
+  { warmestC: -6, coldestC: -10, factor: 1.14 },
+  { warmestC: -11, coldestC: -15, factor: 1.16 },
+  { warmestC: -16, coldestC: -20, factor: 1.18 },
+  { warmestC: -21, coldestC: -25, factor: 1.2 },
+  { warmestC: -26, coldestC: -30, factor: 1.21 },
+  { warmestC: -31, coldestC: -35, factor: 1.23 },
+  { warmestC: -36, coldestC: -40, factor: 1.25 },
+];
+
+/**
+ * The table's factor for a lowest expected ambient temperature: 1 at 25 °C and above; between two bands'
+ * whole degrees (19.5 °C) the colder band's, the safe side; null below −40 °C, where the table ends.
+ */
+export function necVocFactor(minTempC: number): number | null {
+  if (!Number.isFinite(minTempC)) return null;
+  if (minTempC >= STC_TEMP_C) return 1;
+  for (const band of NEC_690_7_A_BANDS) if (minTempC >= band.coldestC) return band.factor;
+  return null;
+}
+
+/**
+ * Voc,max = Voc,STC × (1 + β × (Tmin − 25 °C)), β in %/°C (NEC 2023 690.7(A)(1), IEC 62548; docs/SOURCES.md §14);
+ * never below the nameplate value, so a site warmer than 25 °C does not loosen the check.
+ * Without β the table's factor is used; without Tmin only the nameplate value.
+ */
+export function coldVoc(vocStcV: number, vocTempCoeffPctPerC: number | null | undefined, siteMinTempC: number | null | undefined): ColdVoc | { error: string } {
+  const hasTmin = typeof siteMinTempC === 'number' && Number.isFinite(siteMinTempC);
+  if (!hasTmin) {
+    return {
+      vocMaxV: vocStcV,
+      factor: 1,
+      basis: 'nameplate',
+      note:
+        "Checked with the nameplate open-circuit voltage only: the site's lowest expected temperature is not known. " +
+        'Panels give more voltage in the cold — add the lowest temperature to the site so the check allows for it.',
+    };
+  }
+  const at = `${formatTemp(siteMinTempC)}`;
+  if (typeof vocTempCoeffPctPerC === 'number' && Number.isFinite(vocTempCoeffPctPerC)) {
+    const factor = Math.max(1, tidy(1 + (vocTempCoeffPctPerC / 100) * (siteMinTempC - STC_TEMP_C)));
+    return {
+      vocMaxV: tidy(vocStcV * factor),
+      factor,
+      basis: 'coefficient',
+      note: `At ${at}, the site's lowest temperature, the panel gives ${formatVolts(vocStcV)} × ${factor} = ${formatVolts(tidy(vocStcV * factor))} (its coefficient ${vocTempCoeffPctPerC} %/°C).`,
+    };
+  }
+  const factor = necVocFactor(siteMinTempC);
+  if (factor === null) {
+    return { error: `the site's lowest temperature ${at} is below the table of correction factors (it ends at −40 °C): give the panel's temperature coefficient of Voc from its data sheet` };
+  }
+  return {
+    vocMaxV: tidy(vocStcV * factor),
+    factor,
+    basis: 'table',
+    note: `At ${at}, the site's lowest temperature, the panel gives up to ${formatVolts(vocStcV)} × ${factor} = ${formatVolts(tidy(vocStcV * factor))} (the code table's factor for crystalline silicon; give the panel's coefficient for a closer figure).`,
+  };
+}
+
+function formatTemp(c: number): string {
+  return `${c < 0 ? '−' : ''}${Math.abs(c)} °C`;
+}
+
+/** The probe's step at each resolution, °C (its data sheet's resolution table; docs/SOURCES.md §9). */
+export const probeStepC: Record<TempResolutionBits, number> = { 9: 0.5, 10: 0.25, 11: 0.125, 12: 0.0625 };
+
+/** "0.0625 °C steps" for 12 bits. */
+export function probeStepText(bits: number): string {
+  const step = probeStepC[bits as TempResolutionBits];
+  return step === undefined ? `${bits} bits` : `${step} °C steps`;
+}
+
+function headroomFor(install: InstallForProfile, limits: ModelLimits, cold: ColdVoc | undefined): Headroom | undefined {
   if (!isPositive(install.shuntOhm) || !isPositive(install.maxCurrentA)) return undefined;
   if (!isPositive(limits.shuntFullScaleV) || !isPositive(limits.busVMax)) return undefined;
   const shuntUsed = tidy(install.maxCurrentA * install.shuntOhm);
@@ -176,13 +284,12 @@ function headroomFor(install: InstallForProfile, limits: ModelLimits): Headroom 
     limit: limits.shuntFullScaleV,
     text: `full scale ${formatVolts(shuntUsed)} of ${formatVolts(limits.shuntFullScaleV)}`,
   };
-  const vocKnown = isPositive(install.panelVocV);
   const bus: HeadroomItem = {
-    used: vocKnown ? install.panelVocV : 0,
+    used: cold ? cold.vocMaxV : 0,
     limit: limits.busVMax,
-    text: vocKnown
-      ? `panel ${formatVolts(install.panelVocV)} of ${formatVolts(limits.busVMax)} bus limit`
-      : `bus limit ${formatVolts(limits.busVMax)}`,
+    text: cold
+      ? `panel ${formatVolts(cold.vocMaxV)}${cold.basis === 'nameplate' ? '' : ' in the cold'} of ${formatVolts(limits.busVMax)} panel voltage limit`
+      : `panel voltage limit ${formatVolts(limits.busVMax)}`,
   };
   return { shuntFullScaleV: shunt, busV: bus, text: `${shunt.text}; ${bus.text}` };
 }
@@ -236,13 +343,24 @@ export function measurementProfile(install: InstallForProfile, modelLimits: Mode
     }
   }
 
-  if (isPositive(panelVocV) && panelVocV > modelLimits.busVMax) {
-    errors.push({
-      path: 'panelVocV',
-      message:
-        `panel open-circuit voltage ${formatVolts(panelVocV)} is above this model's bus limit of ` +
-        `${formatVolts(modelLimits.busVMax)}; the power-monitor chip must never see more — wire a panel or string with a lower open-circuit voltage`,
-    });
+  // The panel voltage limit is checked against the open-circuit voltage in the cold (NEC 2023 690.7(A); docs/SOURCES.md §14).
+  let cold: ColdVoc | undefined;
+  if (isPositive(panelVocV)) {
+    const found = coldVoc(panelVocV, install.vocTempCoeffPctPerC, install.siteMinTempC);
+    if ('error' in found) {
+      errors.push({ path: 'panelVocV', message: found.error });
+    } else {
+      cold = found;
+      if (found.vocMaxV > modelLimits.busVMax) {
+        const how = found.basis === 'nameplate' ? `panel open-circuit voltage ${formatVolts(panelVocV)}` : `panel open-circuit voltage in the cold ${formatVolts(found.vocMaxV)} (${formatVolts(panelVocV)} × ${found.factor})`;
+        errors.push({
+          path: 'panelVocV',
+          message:
+            `${ABOVE_RATING}: ${how} is above this model's panel voltage limit of ${formatVolts(modelLimits.busVMax)}; ` +
+            'the power-monitor chip must never see more — wire a panel or string with a lower open-circuit voltage',
+        });
+      }
+    }
   }
 
   const allowed = modelLimits.tempResolutions;
@@ -254,12 +372,13 @@ export function measurementProfile(install: InstallForProfile, modelLimits: Mode
     });
   }
 
-  const headroom = headroomFor(install, modelLimits);
-  if (errors.length > 0 || currentLsbA === undefined || calibration === undefined || headroom === undefined) {
-    return headroom ? { ok: false, errors, headroom } : { ok: false, errors };
+  const headroom = headroomFor(install, modelLimits, cold);
+  if (errors.length > 0 || currentLsbA === undefined || calibration === undefined || headroom === undefined || cold === undefined) {
+    return { ok: false, errors, ...(headroom ? { headroom } : {}), ...(cold ? { coldVoc: cold } : {}) };
   }
   return {
     ok: true,
+    coldVoc: cold,
     profile: {
       shuntOhm,
       maxCurrentA,

@@ -10,8 +10,20 @@ import { FAILURE_REASONS, REPORTED_INSTALL_STATES, RESET_REASONS, type ResetReas
 
 export type { FailureReason, ReportedInstallState, ResetReason } from './words';
 
-const count = (what: string) =>
-  z.number({ message: `must be ${what}, a whole number of 0 or more` }).int('must be a whole number').min(0, 'must be 0 or more').max(Number.MAX_SAFE_INTEGER, 'is too large');
+/** The largest value a PostgreSQL integer column holds (2^31 − 1). */
+export const INT4_MAX = 2 ** 31 - 1;
+
+/**
+ * A whole number of 0 or more, at most `max`: what the column that keeps it holds — 2^53 − 1 (the largest
+ * integer a JSON number carries exactly, I-JSON RFC 7493 §2.2) for bigint columns, 2^31 − 1 for integer
+ * ones — so an out-of-range value is a 400 naming the field, never a database error.
+ */
+const count = (what: string, max: number = Number.MAX_SAFE_INTEGER) =>
+  z
+    .number({ message: `must be ${what}, a whole number of 0 or more` })
+    .int('must be a whole number')
+    .min(0, 'must be 0 or more')
+    .max(max, `must be at most ${max}`);
 
 const reading = (description: string) => z.number({ message: 'must be a number' }).finite().optional().meta({ description });
 
@@ -27,7 +39,7 @@ export const readingsSchema = z
 export type Readings = z.infer<typeof readingsSchema>;
 
 export const resetCountsSchema = z
-  .object(Object.fromEntries(RESET_REASONS.map((r) => [r, count('a count of boots').optional()])) as Record<ResetReason, z.ZodOptional<ReturnType<typeof count>>>)
+  .object(Object.fromEntries(RESET_REASONS.map((r) => [r, count('a count of boots', INT4_MAX).optional()])) as Record<ResetReason, z.ZodOptional<ReturnType<typeof count>>>)
   .meta({
     id: 'ResetCounts',
     description: 'Boots since the previous check-in by reason, e.g. {"watchdog": 2, "brownout": 1}. Unknown reasons are ignored.',
@@ -62,11 +74,11 @@ export const checkInRequestSchema = z
     }),
     board: z.string({ message: 'must be the board revision label, e.g. "B"' }).trim().min(1, 'is required').max(32, 'at most 32 characters').meta({ example: 'B' }),
     security_counter: count('the highest manifest security counter accepted').meta({
-      description: 'Highest manifest counter this logger has accepted; the decision uses the value sent in this check-in.',
+      description: 'Highest manifest counter this logger has accepted, at most 2^53 − 1 (it may be time-based); the decision uses the value sent in this check-in.',
     }),
     uptime_s: count('seconds since boot').optional(),
     reset_reason: z.enum(RESET_REASONS, { message: `must be one of ${RESET_REASONS.join(', ')}` }).optional().meta({ description: 'Cause of the last boot.' }),
-    resets_since_last: count('a count of boots').optional().meta({
+    resets_since_last: count('a count of boots', INT4_MAX).optional().meta({
       description: 'Boots since the previous check-in; counted under reset_reason when reset_counts is absent.',
     }),
     reset_counts: resetCountsSchema.optional(),
@@ -76,7 +88,7 @@ export const checkInRequestSchema = z
       description: 'Supply voltage at the board input, V. Checked against the model minimum before an offer (supply guard).',
     }),
     readings: readingsSchema.optional(),
-    config_version: count('the measurement profile version').optional().meta({
+    config_version: count('the measurement profile version', INT4_MAX).optional().meta({
       description: 'Measurement profile version the logger runs; when absent or behind, the response carries the profile.',
     }),
     report: installReportSchema.optional(),
@@ -84,7 +96,7 @@ export const checkInRequestSchema = z
       .number({ message: 'must be the version of the trust set the logger holds, a whole number of 1 or more' })
       .int('must be a whole number')
       .min(1, 'must be 1 or more')
-      .max(2 ** 31 - 1, 'is too large')
+      .max(INT4_MAX, `must be at most ${INT4_MAX}`)
       .optional()
       .meta({ description: 'Version of the trust set the logger holds; when a later one is signed, the answer carries the next version (trust_set).' }),
   })
@@ -110,7 +122,7 @@ export const offerSchema = z
   .object({
     release: uuid,
     version: z.string().meta({ example: '2.4.0' }),
-    security_counter: z.number().int().min(0),
+    security_counter: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
     manifest: z.string().meta({ description: 'Base64 of the exact signed manifest bytes (RFC 8785 canonical JSON).' }),
     signature: z.string().meta({ description: 'Base64 of the signature over the manifest bytes (Ed25519, or ECDSA P-256 raw r‖s, 64 bytes).' }),
     key_id: z.string().meta({ description: 'First 16 hex characters of the SHA-256 of the public key (DER SubjectPublicKeyInfo).' }),
@@ -188,18 +200,18 @@ export const imageIdPattern = /^[0-9a-f]{64}$/;
 /** Where DEVICE_API.md leaves room, what this server does (OpenAPI description and the console's Device API page). */
 export const deviceApiChoices: readonly string[] = [
   'Board: the offer decision uses the board revision the logger reports in this check-in (`board`); the registry keeps the label it was registered with.',
-  'Supply guard: when no supply voltage was ever reported, the guard does not block (an unknown supply is not below the minimum).',
+  'Supply guard: it judges this check-in\'s `supply_v` as sent (3.2995 V is below a 3.3 V minimum); without one, the latest on record. When no supply voltage was ever reported, the guard does not block (an unknown supply is not below the minimum).',
   'Daylight window: a release that asks for it at a site without coordinates is offered without the window.',
   'When the supply guard or the daylight window blocks the chosen release, nothing is offered at that check-in (no older release instead).',
-  'Install reports: a report for a release this server does not know for the logger\'s model is ignored. A failed report without a reason counts as `other`; a `reason` sent with another state is ignored. After a transient failure (connection, low_supply) the offer stands and a new attempt may start with any state; after any other failure further reports are ignored until an operator retries the release.',
+  'Install reports: a report counts only for a release offered to this logger, or the release whose version it runs; any other report (a release never offered to it, or one this server does not know) answers `409` and the check-in records nothing — drop the report and check in again without it. A failed report without a reason counts as `other`; a `reason` sent with another state is ignored. After a transient failure (connection, low_supply) the offer stands and a new attempt may start with any state; after any other failure further reports are ignored until an operator retries the release.',
   'Report `installed` when the new image has been written and is about to boot, or on the first check-in after booting it. The check-in that carries `installed` may still run the old version; a later check-in on an older version than the release counts as a rollback by the bootloader (failed, other, "rolled back by the bootloader"). A check-in on the release\'s version (or newer) confirms the install.',
   'Reset counts: when neither `reset_counts` nor `resets_since_last` is sent, the check-in records no boots.',
   '`config` is sent when `config_version` is absent or lower than the profile\'s version, and is null when the logger has no measurement profile yet (not enrolled).',
   '`next_check_in_s`: the model\'s check-in interval with ±10 % uniform jitter, stretched up to four times when the server is busy (event-loop delay, database pool queue, check-ins in flight).',
   'Rate limit: 60 check-ins a minute per logger token by default (per server process); above it `429` with `Retry-After`. Overload and an unreachable database answer `503` with `Retry-After`; come back after that many seconds (with jitter of your own).',
-  'Images: the route checks the token first (401), then the id — anything but 64 lowercase hex characters is `404` —, then that this logger was offered the image by a live release (else `404`). `HEAD` is answered like `GET` without a body. Multiple ranges are answered with the whole image (`200`). An `If-Range` that is an HTTP-date never matches (no `Last-Modified` is sent), so it yields the whole image.',
+  'Images: the route checks the token first (401), then the id — anything but 64 lowercase hex characters is `404` —, then that this logger was offered the image by a live release (else `404`). `HEAD` is answered like `GET` without a body, and ignores `Range` (RFC 9110 §14.2: ranges are defined for GET only). Multiple ranges are answered with the whole image (`200`). An `If-Range` that is an HTTP-date never matches (no `Last-Modified` is sent), so it yields the whole image.',
   'Signatures: an offer carries every signature of its release in `signatures` (one per key); `signature`, `key_id` and `algorithm` repeat the first. A logger installs only when signatures from the threshold of its trust set verify over the manifest bytes, each key counted once.',
   'Trust sets: send `trust_version` with the version of the trust set you hold; when a later one is signed, the answer carries the next version only (`trust_set`), signed by the keys of the version you hold. Accept it only when the threshold of your current set verifies; then check in again for the next one. A pending set (not yet signed) is never sent.',
   'Manifest expiry: a manifest may carry `expires`; from that instant the release is offered to nobody (reason `manifest_expired`), and a logger refuses an expired manifest even if one is offered.',
-  'Trip: a release trips (stops by itself) when more than its trip failure ratio of at least its minimum number of finished installs failed (installed + non-transient failures), or when the watchdog and brown-out resets of at least 20 loggers, each observed on it for 24 h or more since confirming it, rose above the trip reset factor × their rate on the versions before (the earlier rate counts as at least 1 reset per 100 logger-days, and is judged only with at least 20 logger-days of check-ins before the release).',
+  'Trip: a release trips (stops by itself) when more than its trip failure ratio of at least its minimum number of finished installs failed (installed + non-transient failures), or when the watchdog and brown-out resets of at least 20 loggers, each observed on it for 24 h or more since confirming it, rose above the trip reset factor × their rate on the versions before (the earlier rate counts as at least 1 reset per 100 logger-days, and is judged only with at least 20 logger-days of check-ins before the release). Both are compared exactly (cross-multiplied with the decimal trip point), so a figure exactly at its trip point does not trip.',
 ];

@@ -2,7 +2,7 @@
 // matrix, lagging sites, notes, the logger timeline, sparklines and retries. Console API, camelCase.
 import { z } from 'zod';
 import semver from 'semver';
-import { uuid } from './common';
+import { listOf, uuid } from './common';
 import { CHANNELS, FLEET_FLAGS, LAGGING_REASONS, LOGGER_STATUSES, UPDATE_STATES, type Channel, type FleetFlag, type LaggingReason, type UpdateState } from './words';
 
 export type { FleetFlag, LaggingReason, UpdateState };
@@ -88,6 +88,14 @@ export const versionFilter = z
   .min(1, 'is required')
   .max(100, 'at most 100 characters')
   .refine((v) => semver.valid(v) !== null || semver.validRange(v, { includePrerelease: true }) !== null, 'must be a semantic version or a semver range');
+
+/**
+ * A page of the fleet table (GET /api/loggers). `total` counts the matching loggers exactly when
+ * totalIsEstimate is false; when true, more than a thousand match and `total` is the database's
+ * estimate (the console shows "about …").
+ */
+export const fleetList = listOf(fleetRow).extend({ totalIsEstimate: z.boolean() });
+export type FleetList = z.infer<typeof fleetList>;
 
 /** The fleet table's filters, sort and paging (GET /api/loggers and its CSV export). */
 export const fleetFilterFields = {
@@ -222,10 +230,18 @@ export type LaggingLogger = {
   detail: string;
 };
 
+/**
+ * How fresh an answer read from a summary the worker keeps is (server/fleet/summaries.ts): when it was last
+ * caught up, and how many seconds before the answer that was (null before its first run).
+ */
+export type SummaryFreshness = { asOf: string | null; ageS: number | null };
+
 export type LaggingSite = {
   siteId: string;
   siteName: string;
   customer: string;
+  /** The site's IANA time zone: its times are shown in it (lib/site-time.ts). */
+  timeZone: string;
   /** Enrolled loggers below the current release of their channel. */
   behind: number;
   /** Enrolled loggers at the site. */
@@ -239,6 +255,9 @@ export type LaggingSite = {
   /** What the caller may do here (server/auth/policies.ts): retry its failed installs, add a note to the site. */
   can: { retry: boolean; addNote: boolean };
 };
+
+/** GET /api/fleet/lagging-sites: a page of lagging sites, with the lagging summary's freshness. */
+export type LaggingList = { rows: LaggingSite[]; total: number; nextCursor?: string } & SummaryFreshness;
 
 // ─── Retry, notes, timeline ─────────────────────────────────────────────────
 

@@ -45,6 +45,13 @@ export const installDetails = z.object({
   shuntOhm: above0(1, 'Ω'),
   maxCurrentA: above0(100, 'A'),
   tempResolutionBits,
+  /** The panel's temperature coefficient of Voc from its data sheet, %/°C (about −0.25 to −0.35 for crystalline silicon). */
+  vocTempCoeffPctPerC: z
+    .number({ message: 'must be a number' })
+    .min(-1, 'must be between -1 and 0 %/°C (a negative number from the panel data sheet)')
+    .max(0, 'must be between -1 and 0 %/°C (a negative number from the panel data sheet)')
+    .nullable()
+    .optional(),
   notes: z.string().trim().max(500, 'at most 500 characters').optional(),
 });
 export type InstallDetails = z.infer<typeof installDetails>;
@@ -104,7 +111,13 @@ export const loggerTokenInput = z
 
 export const enrollmentLookupRequest = z.object({ token: loggerTokenInput });
 
-export const enrollRequest = installDetails.extend({ token: loggerTokenInput, siteId: uuid });
+/**
+ * An enrollment. `enrollmentId` is the phone's own id for it (a UUID made when the integrator presses
+ * Enroll): sending the same enrollment again, as a phone does when it cannot tell whether its first try
+ * arrived, gets the first answer back instead of a second enrollment; the same id with different
+ * contents is refused (422). Without it every request is a new attempt.
+ */
+export const enrollRequest = installDetails.extend({ token: loggerTokenInput, siteId: uuid, enrollmentId: uuid.optional() });
 export type EnrollRequest = z.infer<typeof enrollRequest>;
 
 export const moveLoggerRequest = z.object({ siteId: uuid });
@@ -113,7 +126,7 @@ export const retireLoggerRequest = z.object({ reason: z.string().trim().max(500,
 
 /** A profile change: panel values default to the current ones. */
 export const profileChangeRequest = installDetails
-  .pick({ shuntOhm: true, maxCurrentA: true, tempResolutionBits: true })
+  .pick({ shuntOhm: true, maxCurrentA: true, tempResolutionBits: true, vocTempCoeffPctPerC: true })
   .extend({ panelWp: installDetails.shape.panelWp.optional(), panelVocV: installDetails.shape.panelVocV.optional() });
 export type ProfileChangeRequest = z.infer<typeof profileChangeRequest>;
 
@@ -138,10 +151,11 @@ export type LoggerDetail = {
   status: LoggerStatus;
   /** Enrolled and seen within three check-in intervals. */
   online: boolean;
-  site: { id: string; name: string; customer: string } | null;
+  /** `timeZone`: the site's IANA zone, in which the logger's timeline is shown (lib/site-time.ts); `minTempC`: its lowest expected temperature. */
+  site: { id: string; name: string; customer: string; timeZone: string; minTempC: number | null } | null;
   enrolledAt: string | null;
   enrolledBy: { id: string; name: string } | null;
-  install: { panelWp: number | null; panelVocV: number | null; notes: string; photo: boolean } | null;
+  install: { panelWp: number | null; panelVocV: number | null; vocTempCoeffPctPerC: number | null; notes: string; photo: boolean } | null;
   profile: ProfileView | null;
   firmware: string | null;
   lastSeenAt: string | null;
@@ -170,6 +184,6 @@ export type BatchLabelsIssued = BatchRegistered & { skipped: { serial: string; s
 /** The answer to POST /api/enrollments: the enrolled logger and its first measurement profile. */
 export type Enrolled = { logger: LoggerDetail; profile: ProfileView };
 export type EnrollmentLookup = {
-  logger: { id: string; serial: string; modelId: string; modelName: string; board: string; status: LoggerStatus; site: { id: string; name: string } | null };
+  logger: { id: string; serial: string; modelId: string; modelName: string; board: string; status: LoggerStatus; site: { id: string; name: string; minTempC: number | null } | null };
   limits: { busVMax: number; shuntFullScaleV: number; tempResolutions: number[] };
 };

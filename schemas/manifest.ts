@@ -16,8 +16,11 @@ export const boardLabel = z
   .string(say('must be a board revision label such as "B"'))
   .regex(/^[A-Za-z0-9][A-Za-z0-9._-]{0,31}$/, "must be a board revision label: 1–32 letters, digits, '.', '_' or '-', e.g. \"B\"");
 
-/** The largest security counter a manifest may carry: what the releases table holds (PostgreSQL integer). */
-export const securityCounterMax = 2 ** 31 - 1;
+/**
+ * The largest security counter a manifest (or a check-in) may carry: 2^53 − 1, the largest integer a JSON
+ * number carries exactly (I-JSON, RFC 7493 §2.2); the database keeps it as a bigint.
+ */
+export const securityCounterMax = Number.MAX_SAFE_INTEGER;
 
 export const manifestSchema = z.strictObject(
   {
@@ -42,9 +45,9 @@ export const manifestSchema = z.strictObject(
       .number(say('must be the security counter, a whole number of 0 or more'))
       .int('must be a whole number')
       .nonnegative('must be 0 or more')
-      // The releases table keeps it as a PostgreSQL integer (2^31 − 1 at most); an epoch-seconds counter
-      // (RFC 9124 §4.3.1 allows time-based sequence numbers) fits until 2038.
-      .max(securityCounterMax, `is larger than ${securityCounterMax} (2^31 − 1), the largest security counter Heliodor keeps`),
+      // A time-based sequence number (RFC 9124, docs/SOURCES.md §5) may pass 2^31 − 1: the releases
+      // table keeps a bigint, and JSON carries integers exactly up to 2^53 − 1.
+      .max(securityCounterMax, `is larger than ${securityCounterMax} (2^53 − 1), the largest security counter Heliodor keeps`),
     version: z.string(say('must be a semantic version such as 2.4.0')).pipe(strictSemver),
   },
   {

@@ -17,7 +17,8 @@ export const overviewSchema = z.object({
   fleet: z.object({
     silent: z.object({ count: z.number().int(), href: z.string() }),
     flags: z.array(z.object({ flag: z.enum(FLEET_FLAGS), count: z.number().int(), href: z.string() })),
-    laggingSites: z.object({ count: z.number().int(), href: z.string() }),
+    /** From the lagging summary: `asOf` when it was last caught up, `ageS` how many seconds before this answer. */
+    laggingSites: z.object({ count: z.number().int(), href: z.string(), asOf: z.string().nullable(), ageS: z.number().int().nullable() }),
     liveReleases: z.array(
       z.object({
         id: z.string(),

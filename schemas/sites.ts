@@ -34,6 +34,8 @@ const siteFields = {
   latitude: latitude.nullable().optional(),
   longitude: longitude.nullable().optional(),
   timeZone,
+  /** The site's lowest expected ambient temperature, °C: the wiring check allows for the panel voltage rise in the cold. */
+  minTempC: z.number({ message: 'must be a number' }).min(-60, 'must be between -60 and 50 °C').max(50, 'must be between -60 and 50 °C').nullable().optional(),
   notes: z.string().trim().max(2000, 'at most 2000 characters').optional(),
   integratorIds: integratorIds.optional(),
 };
@@ -71,6 +73,8 @@ export type SiteView = {
   latitude: number | null;
   longitude: number | null;
   timeZone: string;
+  /** Lowest expected ambient temperature, °C, or null when not known. */
+  minTempC: number | null;
   notes: string;
   integratorIds: string[];
   integrators: { id: string; name: string }[];

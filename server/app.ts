@@ -1,6 +1,4 @@
 // Builds the Express app (no listening here, so tests run it in-process with supertest).
-import fs from 'node:fs';
-import path from 'node:path';
 import crypto from 'node:crypto';
 import express, { type Request, type Response, type NextFunction } from 'express';
 import helmet from 'helmet';
@@ -30,8 +28,10 @@ import { registerModelRoutes } from './models/routes';
 import { registerSiteRoutes } from './sites/routes';
 import { registerLoggerRoutes } from './loggers/routes';
 import { registerFleetRoutes } from './fleet/routes';
+import { apiCompression, webApp } from './http/web';
 import { createDeviceApi } from './device-api/routes';
 import { measurePoolWaits, registerMetricsRoutes, requestMetrics } from './metrics';
+import { createSummaries, type Summaries } from './fleet/summaries';
 
 export type AppDeps = {
   config: Pick<Config, 'jwtSecret' | 'dataKey' | 'demo' | 'devMailbox' | 'outboxDir' | 'storeDir' | 'webDir' | 'publicUrl' | 'imageLimitBytes' | 'deviceRatePerMinute' | 'production'>;
@@ -43,10 +43,15 @@ export type AppDeps = {
   logger?: Pino;
 };
 
-export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Readiness };
+export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Readiness; summaries: Summaries };
 
 export function createApp(deps: AppDeps) {
-  const services: AppServices = { ...deps, now: deps.now ?? (() => new Date()), logger: deps.logger ?? pino({ level: 'silent' }) };
+  const now = deps.now ?? (() => new Date());
+  const logger = deps.logger ?? pino({ level: 'silent' });
+  // The fleet summaries' worker (server/fleet/summaries.ts): runs from here until the app is stopped.
+  const summaries = createSummaries({ sequelize: deps.sequelize, now, logger });
+  summaries.start();
+  const services: AppServices = { ...deps, now, logger, summaries };
   const app = express();
   app.disable('x-powered-by');
   app.set('trust proxy', 'loopback');
@@ -88,6 +93,7 @@ export function createApp(deps: AppDeps) {
     }),
   );
   app.use(cookieParser());
+  app.use('/api', apiCompression());
   // Device API bodies are limited to 16 KiB; the console API to 1 MiB (uploads use multipart).
   app.use('/api/device', express.json({ limit: '16kb', type: ['application/json', 'application/*+json'] }));
   app.use('/api', express.json({ limit: '1mb' }));
@@ -128,22 +134,13 @@ export function createApp(deps: AppDeps) {
 
   app.use('/api', (req: Request, _res: Response, next: NextFunction) => next(problems.notFound('endpoint', `No endpoint ${req.method} ${req.path}.`)));
 
-  // The exported web app, with client-side routes falling back to index.html.
-  const webDir = services.config.webDir;
-  const indexHtml = path.join(webDir, 'index.html');
-  app.use(express.static(webDir, { index: false, maxAge: '1h', setHeaders: noCacheForHtml }));
-  app.get('/{*splat}', (_req, res, next) => {
-    if (!fs.existsSync(indexHtml)) return next(problems.notFound('page', 'The web app is not built yet: run npm start.'));
-    res.setHeader('Cache-Control', 'no-cache');
-    res.sendFile(indexHtml);
-  });
+  // The exported web app (precompressed, cached by file kind), client-side routes falling back to index.html.
+  app.use(webApp(services.config.webDir));
 
   app.use(errorHandler);
   /** Ends the app's background work; call it before closing the database. */
-  const stop = () => deviceApi.stop();
+  const stop = async () => {
+    await Promise.all([deviceApi.stop(), summaries.stop()]);
+  };
   return Object.assign(app, { apiRouter: router, services, stop, later });
-}
-
-function noCacheForHtml(res: Response, file: string) {
-  if (file.endsWith('.html')) res.setHeader('Cache-Control', 'no-cache');
 }

@@ -9,6 +9,7 @@ import { Notice, Skeleton } from '../../components/ui';
 import { colors, space } from '../../components/theme';
 import { useMe, useSignOut } from '../../hooks/session';
 import { SecondFactorInvite } from '../../components/second-factor-invite';
+import { useSendQueuedEnrollments } from '../../hooks/enrollment-queue';
 
 export default function ConsoleLayout() {
   const me = useMe();
@@ -17,6 +18,8 @@ export default function ConsoleLayout() {
   const signOut = useSignOut();
   const { wide } = useBreakpoints();
   const redirectFrom = React.useRef<string | null>(null);
+  // Enrollments kept on this phone without a connection go out when the console starts and when it is back online.
+  useSendQueuedEnrollments(me.data?.id);
 
   if (me.isPending) {
     // The navigator stays mounted (hidden) so a deep link keeps its route while the session loads.

@@ -1,10 +1,14 @@
 // Enroll: `/enroll?t=<token>` (the label's link) starts with the token filled in; otherwise the camera.
+// Without a connection when Enroll is pressed, the enrollment is kept on the phone and sent later
+// (hooks/enrollment-queue.ts).
 import React from 'react';
 import { useLocalSearchParams, useRouter } from 'expo-router';
-import { EnrollDone, EnrollForm, EnrollScan } from '../../components/enroll-screen';
+import { EnrollDone, EnrollForm, EnrollQueue, EnrollSaved, EnrollScan } from '../../components/enroll-screen';
 import { readEnrollmentCode } from '../../components/enroll-code';
 import { useEnroll, useEnrollmentLookup, useUploadPhoto, type EnrollInput } from '../../hooks/loggers';
-import { useCreateSite, useSites } from '../../hooks/sites';
+import { useCreateSite, useSitesForEnroll } from '../../hooks/sites';
+import { useMe } from '../../hooks/session';
+import { isOffline, newEnrollmentId, queueEnrollment, useQueuedEnrollments } from '../../hooks/enrollment-queue';
 import { useBreakpoints } from '../../components/breakpoints';
 
 type Done = { serial: string; loggerId: string; siteName: string; photo: File | null };
@@ -13,6 +17,8 @@ export default function Enroll() {
   const params = useLocalSearchParams<{ t?: string }>();
   const router = useRouter();
   const { wide } = useBreakpoints();
+  const me = useMe();
+  const personId = me.data?.id;
   const lookup = useEnrollmentLookup();
   const enroll = useEnroll();
   const createSite = useCreateSite();
@@ -21,7 +27,14 @@ export default function Enroll() {
   const [token, setToken] = React.useState<string | null>(null);
   const [siteQuery, setSiteQuery] = React.useState('');
   const [done, setDone] = React.useState<Done | null>(null);
-  const sites = useSites(siteQuery.trim() || undefined);
+  const [savedId, setSavedId] = React.useState<string | null>(null);
+  const sites = useSitesForEnroll(personId, siteQuery.trim() || undefined);
+  const queued = useQueuedEnrollments(personId);
+
+  // Opening the screen tries whatever waits on the phone (the console's start and the `online` event do too).
+  React.useEffect(() => {
+    if (personId) void queued.sendNow();
+  }, [personId]); // eslint-disable-line react-hooks/exhaustive-deps
 
   const start = React.useCallback(
     (t: string) => {
@@ -47,6 +60,7 @@ export default function Enroll() {
     photo.reset();
     setToken(null);
     setDone(null);
+    setSavedId(null);
     setProgress(0);
     if (fromLink) router.replace('/enroll');
   };
@@ -55,6 +69,22 @@ export default function Enroll() {
     setProgress(0);
     photo.mutate({ loggerId, file });
   };
+
+  const discard = (id: string) => void queued.discard(id);
+
+  if (savedId) {
+    return (
+      <EnrollSaved
+        entry={queued.queue.find((e) => e.id === savedId) ?? null}
+        answer={queued.sent[savedId]}
+        onDiscard={(id) => {
+          discard(id);
+          reset();
+        }}
+        onAnother={reset}
+      />
+    );
+  }
 
   if (done) {
     return (
@@ -73,13 +103,14 @@ export default function Enroll() {
     );
   }
 
-  if (lookup.data && token) {
+  if (lookup.data && token && personId) {
+    const { logger } = lookup.data;
     return (
       <EnrollForm
-        key={lookup.data.logger.id}
+        key={logger.id}
         lookup={lookup.data}
         token={token}
-        sites={{ rows: sites.data?.rows ?? [], loading: sites.isPending, error: sites.error }}
+        sites={{ rows: sites.data?.rows ?? [], loading: sites.isPending, error: sites.error, onPhone: sites.data?.onPhone }}
         siteQuery={siteQuery}
         onSiteQuery={setSiteQuery}
         createSite={{
@@ -89,14 +120,29 @@ export default function Enroll() {
         }}
         enroll={{
           busy: enroll.isPending,
-          error: enroll.error,
-          run: (input: EnrollInput, file) =>
-            enroll.mutate(input, {
-              onSuccess: ({ logger }) => {
-                setDone({ serial: logger.serial, loggerId: logger.id, siteName: logger.site?.name ?? 'the site', photo: file });
-                if (file) uploadPhoto(logger.id, file);
+          error: isOffline(enroll.error) ? null : enroll.error,
+          run: (input: EnrollInput, file, siteName) => {
+            // The phone's id for this enrollment: a copy sent again is answered, never enrolled twice.
+            const body = { ...input, enrollmentId: newEnrollmentId() };
+            enroll.mutate(body, {
+              onSuccess: ({ logger: enrolled }) => {
+                setDone({ serial: enrolled.serial, loggerId: enrolled.id, siteName: enrolled.site?.name ?? 'the site', photo: file });
+                if (file) uploadPhoto(enrolled.id, file);
               },
-            }),
+              onError: (err) => {
+                if (!isOffline(err)) return;
+                void queueEnrollment({
+                  id: body.enrollmentId,
+                  personId,
+                  body,
+                  logger: { id: logger.id, serial: logger.serial, modelName: logger.modelName, board: logger.board },
+                  siteName,
+                  photo: file,
+                  photoName: file?.name ?? null,
+                }).then((entry) => setSavedId(entry.id));
+              },
+            });
+          },
         }}
         onRescan={reset}
         wide={wide}
@@ -104,5 +150,9 @@ export default function Enroll() {
     );
   }
 
-  return <EnrollScan busy={lookup.isPending} error={lookup.error} onToken={start} />;
+  return (
+    <EnrollScan busy={lookup.isPending} error={lookup.error} onToken={start}>
+      <EnrollQueue queue={queued.queue} sent={queued.sent} onSendNow={() => void queued.sendNow()} onDiscard={discard} />
+    </EnrollScan>
+  );
 }

@@ -275,11 +275,12 @@ function newestMtime(paths) {
 
 /**
  * Everything the exported web app is built from: the folders its bundle imports from (app/ and all it
- * reaches: components/, hooks/, schemas/, lib/, assets/) and the build's own configuration. A change in any
+ * reaches: components/, hooks/, schemas/, lib/, assets/), the build's own configuration and its
+ * post-build step (scripts/lib/web-build.js: manifest, service worker, precompressed files). A change in any
  * of them rebuilds dist/; tests/unit/imports.test.ts follows the bundle's imports and fails when one lands
  * in a folder missing here.
  */
-const webSources = ['app', 'components', 'hooks', 'schemas', 'lib', 'assets', 'public', 'app.json', 'babel.config.js', 'metro.config.js', 'tsconfig.json', 'package-lock.json'];
+const webSources = ['app', 'components', 'hooks', 'schemas', 'lib', 'assets', 'public', 'app.json', 'babel.config.js', 'metro.config.js', 'tsconfig.json', 'package-lock.json', 'scripts/lib/web-build.js'];
 
 /** Exports the Expo web app to dist/ when the build is missing or older than its sources. */
 function ensureWebBuild({ force = false } = {}) {
@@ -320,6 +321,9 @@ function exportWeb(stamp) {
     env: { ...process.env, CI: '1', EXPO_NO_TELEMETRY: '1' },
     stdio: ['ignore', 'ignore', 'inherit'],
   });
+  // The manifest and icons, the service worker and the precompressed copies (scripts/lib/web-build.js).
+  const finished = require('./web-build').finishWebBuild(next);
+  log(`${finished.precached} files kept by the service worker (${(finished.precachedBytes / 1024).toFixed(0)} KB), ${finished.compressed} compressed (.br, .gz)`);
   fs.writeFileSync(path.join(next, path.basename(stamp)), new Date().toISOString());
   fs.rmSync(old, { recursive: true, force: true });
   if (fs.existsSync(path.join(root, 'dist'))) fs.renameSync(path.join(root, 'dist'), old);

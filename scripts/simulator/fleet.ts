@@ -208,6 +208,35 @@ export async function registerFleet(session: ConsoleSession, options: Registrati
   return fleet;
 }
 
+/** Where a release in rollout is offered: what registering loggers for its pilot needs to know. */
+export type PilotTarget = { releaseId: string; version: string; modelId: string; channel: 'stable' | 'early'; siteIds: string[]; boards: string[] };
+
+type ReleaseListRow = { id: string; modelId: string; modelName: string; version: string; state: string };
+type ReleaseView = ReleaseListRow & { channel: 'stable' | 'early'; boards: string[]; upgradeFrom: string | null; pilotSiteIds: string[] };
+
+/**
+ * The pilot of a release by version (GET /api/releases, then the release): its model, channel, pilot
+ * sites and board revisions, so loggers registered there are offered it (DEVICE_API.md rules 2–3).
+ * `firmware` must be older than the release and inside its upgrade-from range, or nothing would be offered.
+ */
+export async function pilotTarget(session: ConsoleSession, version: string, firmware: (board: string) => string, model?: string): Promise<PilotTarget> {
+  const rows = (await session.request<{ rows: ReleaseListRow[] }>('GET', '/api/releases')).rows;
+  const matches = rows.filter((r) => r.version === version && (!model || r.modelId === model || r.modelName === model));
+  if (matches.length === 0) throw new SetupError(`no release ${version}${model ? ` of ${model}` : ''}`);
+  if (matches.length > 1) throw new SetupError(`release ${version} exists for several models: name one with --model`);
+  const release = await session.request<ReleaseView>('GET', `/api/releases/${matches[0].id}`);
+  if (!['pilot', 'widening'].includes(release.state)) throw new SetupError(`release ${version} is ${release.state}: --pilot-of needs a release in pilot or widening`);
+  if (release.pilotSiteIds.length === 0) throw new SetupError(`release ${version} has no pilot sites`);
+  for (const board of release.boards) {
+    const running = firmware(board);
+    const admitted = !release.upgradeFrom || semver.satisfies(running, release.upgradeFrom, { includePrerelease: true });
+    if (!semver.lt(running, release.version) || !admitted) {
+      throw new SetupError(`board ${board} would run ${running}, which ${release.version} does not upgrade (upgrade-from ${release.upgradeFrom ?? 'any'}): pass --firmware`);
+    }
+  }
+  return { releaseId: release.id, version: release.version, modelId: release.modelId, channel: release.channel, siteIds: release.pilotSiteIds, boards: release.boards };
+}
+
 /** The version each logger runs by the console's records (GET /api/loggers, page by page), by serial. */
 export async function firmwareOnRecord(session: ConsoleSession): Promise<Map<string, string>> {
   const versions = new Map<string, string>();

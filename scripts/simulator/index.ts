@@ -6,7 +6,7 @@ import path from 'node:path';
 import { Command, InvalidArgumentError, Option } from 'commander';
 import { ManifestError } from '../../server/images/manifest';
 import type { LoggerIdentity } from './logger';
-import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, firmwareOnRecord, FleetTally, loadTrustedKeys, readBenchSheet, registerFleet, runFleet } from './fleet';
+import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, firmwareOnRecord, FleetTally, loadTrustedKeys, pilotTarget, readBenchSheet, registerFleet, runFleet } from './fleet';
 import { seededRandom } from './random';
 
 const MAX_LOGGERS = 5000;
@@ -33,6 +33,7 @@ type Options = {
   password?: string;
   model?: string;
   earlyShare: number;
+  pilotOf?: string;
   keys?: string;
   firmware: string;
   counter: number;
@@ -59,6 +60,7 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     .option('--password <password>', 'admin password for --register (default: $HELIODOR_SIM_PASSWORD, else the demo password)')
     .option('--model <name-or-id>', 'model of the loggers to register (--register)')
     .option('--early-share <share>', 'share of registered loggers on the early channel, 0–1 (--register)', number('--early-share', 0, 1), 0)
+    .option('--pilot-of <version>', "register the loggers at this release's pilot sites, on its channel and with its board revisions, so it is offered to them (--register)")
     .option('--keys <dir>', `folder of trusted public-key PEMs; private keys in it are skipped (default: ${path.join(dataDir, 'demo')}, where the demo seed writes its key)`)
     .option('--firmware <spec>', 'version the loggers run at the start, per board or for all; "console" reads each logger\'s recorded version (admin sign-in)', 'A=2.1.4,B=2.2.0,C=2.2.0')
     .option('--counter <n>', 'security counter the loggers start with', number('--counter', 0, Number.MAX_SAFE_INTEGER, true), 0)
@@ -83,11 +85,23 @@ async function identities(o: Options, random: () => number, say: (s: string) => 
   const byBoard = firmwareByBoard(fromConsole ? 'A=2.1.4,B=2.2.0,C=2.2.0' : o.firmware);
   const onRecord = fromConsole ? await firmwareOnRecord(await adminSession(o)) : new Map<string, string>();
   const firmware = (serial: string, board: string) => onRecord.get(serial) ?? byBoard(board);
+  if (o.pilotOf && !o.register) throw new SetupError('--pilot-of registers new loggers: add --register');
   if (o.register) {
     const session = await adminSession(o);
-    say(`registering and enrolling ${o.loggers} loggers through the console API…`);
+    const pilot = o.pilotOf ? await pilotTarget(session, o.pilotOf, byBoard, o.model) : null;
+    say(`registering and enrolling ${o.loggers} loggers through the console API${pilot ? ` at the ${pilot.siteIds.length} pilot sites of ${pilot.version} (${pilot.channel} channel, boards ${pilot.boards.join(', ')})` : ''}…`);
     const prefix = `SIM${Date.now().toString(36).toUpperCase()}`;
-    return registerFleet(session, { count: o.loggers, model: o.model, earlyShare: o.earlyShare, firmware: byBoard, securityCounter: o.counter, random, serialPrefix: prefix });
+    return registerFleet(session, {
+      count: o.loggers,
+      model: pilot?.modelId ?? o.model,
+      earlyShare: pilot ? (pilot.channel === 'early' ? 1 : 0) : o.earlyShare,
+      siteIds: pilot?.siteIds,
+      boards: pilot?.boards,
+      firmware: byBoard,
+      securityCounter: o.counter,
+      random,
+      serialPrefix: prefix,
+    });
   }
   const file = o.benchSheet ?? path.join(dataDir, 'demo', 'bench-sheet.csv');
   if (!fs.existsSync(file)) throw new SetupError(`no bench sheet at ${file}: pass --bench-sheet <file>, or --register`);

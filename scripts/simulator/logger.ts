@@ -16,6 +16,8 @@
 //   (RFC 9124 §4.2.6, NET.REDIRECT).
 // - 429 and 503 on a download end the attempt as a transient `connection` failure; the bytes already
 //   received are kept and the download resumes when the offer comes again.
+// - A 409 to a check-in that carried a report means the server refused the report (a release not
+//   offered to this logger): the report is dropped, and the logger checks in again a minute later.
 import { createHash } from 'node:crypto';
 import semver from 'semver';
 import { z } from 'zod';
@@ -420,6 +422,12 @@ export class VirtualLogger {
       this.nextCheckInAt = new Date(now.getTime() + retryAfterS * 1000);
       this.emit({ kind: 'backoff', serial: this.serial, status: res.status, retryAfterS });
       return { ok: false, status: res.status, response: null, retryAfterS };
+    }
+    if (res.status === 409 && sentReport) {
+      // The report names a release this logger was not offered (DEVICE_API.md, "Install report"): it is
+      // dropped, or every later check-in would carry it and be refused again.
+      if (this.pendingReport === sentReport) this.pendingReport = null;
+      return this.failed(now, 409, `check-in refused the report on release ${sentReport.release} (409); the report is dropped`);
     }
     if (res.status === 401) this.refused = true;
     return this.failed(now, res.status, `check-in answered ${res.status}`);

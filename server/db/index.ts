@@ -12,9 +12,28 @@ pg.types.setTypeParser(1700, (value: string) => Number(value));
 
 export type Database = Sequelize;
 
+/**
+ * pg's Client with an 'error' listener from birth. Sequelize adds its own listener (which marks the
+ * connection invalid and drops it from the pool) only once connect() has answered; a server that ends the
+ * session in the same read as its ready message (57P01 when PostgreSQL is stopped with -m fast) would
+ * otherwise emit 'error' with nobody listening, and Node ends the process on an unheard 'error' event.
+ */
+export class GuardedClient extends pg.Client {
+  constructor(config?: string | pg.ClientConfig) {
+    super(config);
+    this.on('error', () => {
+      (this as unknown as { _invalid: boolean })._invalid = true;
+    });
+  }
+}
+
+/** The pg module as Sequelize sees it, with the guarded Client (the rest of pg reached through the prototype). */
+const guardedPg = Object.create(pg, { Client: { value: GuardedClient } }) as typeof pg;
+
 export function createDatabase(url: string, options: { poolMax?: number; logging?: boolean } = {}): Sequelize {
   const sequelize = new Sequelize(url, {
     dialect: 'postgres',
+    dialectModule: guardedPg,
     logging: options.logging ? console.log : false,
     pool: { max: options.poolMax ?? 20, min: 0, idle: 10_000, acquire: 10_000 },
     dialectOptions: { application_name: 'heliodor', statement_timeout: 30_000 },

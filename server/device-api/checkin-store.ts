@@ -130,12 +130,16 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
       return row ? toReport(row) : null;
     },
 
-    /** Writes a reported state that moves the report forward (a new attempt clears the confirmation). */
+    /**
+     * Writes a reported state that moves the report forward (a new attempt clears the confirmation). A
+     * report about an offered release finds its row; a new row is a report about the release the logger
+     * runs without an offer, so it keeps no offer time (and its image stays unoffered).
+     */
     async writeReport(releaseId: string, change: Extract<ReportChange, { apply: true }>, detail: string | null): Promise<ReportRow> {
       const finished = change.state === 'installed' || change.state === FAILED;
       const [row] = await select<RawReport>(
         `INSERT INTO install_reports (logger_id, release_id, state, reason, detail, offered_at, updated_at, finished_at, confirmed_at)
-         VALUES (:loggerId, :releaseId, :state, :reason, :detail, :now, :now, :finishedAt, NULL)
+         VALUES (:loggerId, :releaseId, :state, :reason, :detail, NULL, :now, :finishedAt, NULL)
          ON CONFLICT (logger_id, release_id) DO UPDATE SET state = EXCLUDED.state, reason = EXCLUDED.reason, detail = EXCLUDED.detail,
            updated_at = EXCLUDED.updated_at, finished_at = EXCLUDED.finished_at,
            confirmed_at = CASE WHEN :newAttempt THEN NULL ELSE install_reports.confirmed_at END
@@ -164,11 +168,14 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
       return toReport(row);
     },
 
-    /** The offer made: the report row starts as offered (an existing row, of any state, stays as it is). */
+    /**
+     * The offer made: the report row starts as offered. An existing row keeps its state and its first
+     * offer time; one written by a report without an offer gets its offer time now.
+     */
     async recordOffer(releaseId: string): Promise<void> {
       await sequelize.query(
         `INSERT INTO install_reports (logger_id, release_id, state, offered_at, updated_at) VALUES (:loggerId, :releaseId, :offered, :now, :now)
-         ON CONFLICT (logger_id, release_id) DO NOTHING`,
+         ON CONFLICT (logger_id, release_id) DO UPDATE SET offered_at = EXCLUDED.offered_at WHERE install_reports.offered_at IS NULL`,
         { transaction: t, replacements: { loggerId, releaseId, now, offered: OFFERED } },
       );
     },

@@ -16,10 +16,12 @@
 // (server/releases/transitions.ts), which mails and drops the release caches once this commits.
 import type { Sequelize, Transaction } from 'sequelize';
 import type pino from 'pino';
+import semver from 'semver';
 import type { CheckInRequest, CheckInResponse, DeviceConfig, Offer } from '../../schemas/device';
 import { COUNTED_RESET_REASONS } from '../../schemas/words';
 import { systemContext } from '../auth/actor';
 import type { Release } from '../db/models';
+import { problems } from '../http/problem';
 import type { Mailer } from '../mail/mailer';
 import { judgeTrip } from '../releases/trip';
 import type { TransitionContext } from '../releases/transitions';
@@ -68,7 +70,9 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
       board: body.board,
       firmware: body.firmware,
       securityCounter: body.security_counter,
-      supplyV: visit.supplyV,
+      // The supply guard judges the voltage this check-in reports, as sent (the logger row keeps it
+      // rounded to millivolts); without one, the latest on record.
+      supplyV: body.supply_v ?? visit.supplyV,
     };
     const decision = decideOffer(offerInput(facts, asLeft(releases, tripped), [...settled.reports.values()], now));
     if (decision.offer) await store.recordOffer(decision.offer.id);
@@ -100,7 +104,14 @@ type Settled = {
 async function settleReports(store: CheckInStore, releases: CachedRelease[], stored: ReportRow[], body: CheckInRequest): Promise<Settled> {
   const reports = new Map(stored.map((r) => [r.releaseId, r]));
   const known = new Set(releases.map((r) => r.id));
-  const report = body.report && known.has(body.report.release) ? body.report : undefined;
+  const report = body.report;
+  // A report counts only for a release offered to this logger (its report row exists, whatever this
+  // process's release cache holds yet) or the release it runs; anything else is refused, and the
+  // transaction rolls back the visit with it.
+  if (report && !reports.has(report.release)) {
+    const release = releases.find((r) => r.id === report.release);
+    if (!release || !runs(body.firmware, release.version)) throw notOffered(report.release);
+  }
   const pending = stored.filter((r) => r.state === 'installed' && r.confirmedAt === null && known.has(r.releaseId)).map((r) => r.releaseId);
   const locked = await store.lockReleases(report ? [report.release, ...pending] : pending);
   const finished = new Set<string>();
@@ -123,6 +134,19 @@ async function settleReports(store: CheckInStore, releases: CachedRelease[], sto
     finished.add(r.releaseId); // a confirmation grows the reset-rate cohort; a rollback is a failure
   }
   return { reports, locked, finished };
+}
+
+/** Whether the logger runs this release's version (semver precedence: build metadata aside). */
+function runs(firmware: string, version: string): boolean {
+  return semver.valid(firmware) !== null && semver.valid(version) !== null && semver.eq(firmware, version);
+}
+
+/** A report about a release this logger was never offered and does not run: 409, nothing recorded. */
+function notOffered(releaseId: string) {
+  return problems.conflict(
+    `Release ${releaseId} was not offered to this logger and is not the version it runs, so its install report is refused and nothing was recorded. Drop the report and check in again without it.`,
+    { release: releaseId },
+  );
 }
 
 /** The trip rules on every release whose figures changed, then the reset rate of the release the logger runs. */

@@ -19,11 +19,12 @@ export function imagePath(storeDir: string, sha256: string): string {
 
 const notFound = () => problems.notFound('image', 'No such image for this logger.');
 
-/** Whether this logger was offered the image by a release in a live state. */
+/** Whether this logger was offered the image by a release in a live state (a report alone is no offer). */
 export async function mayDownload(sequelize: Sequelize, loggerId: string, sha256: string): Promise<{ size: number } | null> {
   const rows = await sequelize.query<{ size: number }>(
     `SELECT i.size FROM install_reports ir JOIN releases r ON r.id = ir.release_id JOIN images i ON i.sha256 = r.image_sha256
-      WHERE ir.logger_id = :loggerId AND r.image_sha256 = :sha256 AND r.state IN (:liveStates) LIMIT 1`,
+      WHERE ir.logger_id = :loggerId AND ir.offered_at IS NOT NULL AND r.image_sha256 = :sha256
+        AND r.state IN (:liveStates) LIMIT 1`,
     { type: QueryTypes.SELECT, replacements: { loggerId, sha256, liveStates: [...LIVE_STATES] } },
   );
   return rows[0] ? { size: Number(rows[0].size) } : null;
@@ -57,8 +58,10 @@ export async function serveImage(
   res.setHeader('Cache-Control', 'private, no-transform');
   res.setHeader('Content-Type', 'application/octet-stream');
 
-  // If-Range with another validator: the whole image (RFC 9110 §13.1.5).
-  const range = ifRangeMatches(req.get('if-range'), etag) ? parseRange(req.get('range'), size) : { kind: 'none' as const };
+  // Range is defined for GET only: on any other method (HEAD included) it is ignored (RFC 9110 §14.2,
+  // docs/SOURCES.md §10). If-Range with another validator: the whole image (RFC 9110 §13.1.5).
+  const honoured = req.method === 'GET' && ifRangeMatches(req.get('if-range'), etag);
+  const range = honoured ? parseRange(req.get('range'), size) : { kind: 'none' as const };
   if (range.kind === 'unsatisfiable') {
     throw new Problem(416, 'range-not-satisfiable', 'Range not satisfiable', `The image has ${size} bytes; ask for a range that starts below that.`, {
       headers: { 'Content-Range': unsatisfiedRange(size) },

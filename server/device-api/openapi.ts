@@ -35,6 +35,10 @@ export function deviceOpenApiDocument() {
       200: { description: 'Checked in.', content: { 'application/json': { schema: checkInResponseSchema } } },
       400: { description: 'Not JSON, or a field with a wrong type or out of range; `errors` names each field.', content: problemContent },
       401: { description: 'No token, or unknown, revoked or retired.', content: problemContent },
+      409: {
+        description: 'The install report names a release not offered to this logger, nor the one it runs; nothing was recorded. Drop the report and check in again without it.',
+        content: problemContent,
+      },
       413: { description: 'The body is over 16 KiB.', content: problemContent },
       429: { description: 'More check-ins than the rate limit allows.', headers: retryAfter, content: problemContent },
       503: { description: 'Busy, or the database is unreachable.', headers: retryAfter, content: problemContent },

@@ -5,7 +5,7 @@
 import { fleetColumnIds, fleetSortKeys, type FleetColumnFields, type FleetColumnId, type FleetRow, type FleetSortKey } from '../../schemas/fleet';
 import { FLEET_FLAGS } from '../../schemas/words';
 import { csvRecord, safeText } from './csv';
-import { FLAG_SQL, RESETS_24H, TEMP_C, UPDATE_STATE, UPDATE_STATE_RANK } from './sql';
+import { FLAG_SQL, RESETS_24H, TEMP_C } from './sql';
 
 /** A row as PostgreSQL answers it (uuid and text as strings, numeric as text, timestamptz as a Date). */
 type Record_ = Record<string, unknown>;
@@ -14,14 +14,14 @@ type Record_ = Record<string, unknown>;
 export type SortType = 'text' | 'text[]' | 'integer' | 'numeric' | 'timestamptz';
 
 type ServerColumn<K extends FleetColumnId> = {
-  /** Output name → SQL expression over the fleet's joins (sql.ts FLEET_FROM). */
+  /** Output name → SQL expression over the logger `l`, its model `m` and its site `s` (sql.ts FLEET_PAGE_JOINS). */
   select: Record<string, string>;
   /** The column's row fields from the selected values. */
   present: (r: Record_) => FleetColumnFields<K>;
   /** The CSV header cell and the cell of a presented row; free text through safeText. */
   csv: { name: string; value: (row: FleetRow) => string | number | null };
 } & (K extends FleetSortKey
-  ? /** The sort expression (never null, so keyset comparisons hold) and the type its cursor value is read back as. */
+  ? /** The sort expression over `l` alone (never null, so keyset comparisons hold; indexed with the id) and the type its cursor value is read back as. */
     { sort: { expr: string; type: SortType } }
   : { sort?: never });
 
@@ -39,19 +39,20 @@ export const FLEET_COLUMNS: { [K in FleetColumnId]: ServerColumn<K> } = {
   site: {
     select: { site_id: 'l.site_id', site_name: 's.name' },
     present: (r) => ({ siteId: textOrNull(r.site_id), siteName: textOrNull(r.site_name) }),
-    sort: { expr: "COALESCE(lower(s.name), '')", type: 'text' },
+    // Sort keys on the logger row (migration 0013): a key of the logger alone, with an index on (key, id).
+    sort: { expr: 'l.site_sort', type: 'text' },
     csv: { name: 'site', value: (row) => safeText(row.siteName) },
   },
   customer: {
     select: { customer: 's.customer' },
     present: (r) => ({ customer: textOrNull(r.customer) }),
-    sort: { expr: "COALESCE(lower(s.customer), '')", type: 'text' },
+    sort: { expr: 'l.customer_sort', type: 'text' },
     csv: { name: 'customer', value: (row) => safeText(row.customer) },
   },
   model: {
     select: { model_id: 'l.model_id', model_name: 'm.name' },
     present: (r) => ({ modelId: text(r.model_id), modelName: text(r.model_name) }),
-    sort: { expr: 'lower(m.name)', type: 'text' },
+    sort: { expr: 'l.model_sort', type: 'text' },
     csv: { name: 'model', value: (row) => safeText(row.modelName) },
   },
   board: {
@@ -79,9 +80,11 @@ export const FLEET_COLUMNS: { [K in FleetColumnId]: ServerColumn<K> } = {
     csv: { name: 'firmware', value: (row) => safeText(row.firmware) },
   },
   updateState: {
-    select: { update_state: UPDATE_STATE },
+    // Kept against the current release of the logger's model and channel (migration 0013).
+    select: { update_state: 'l.update_state' },
     present: (r) => ({ updateState: r.update_state as FleetRow['updateState'] }),
-    sort: { expr: UPDATE_STATE_RANK, type: 'integer' },
+    // Pipeline order: behind, failed, offered … installed, up to date (heliodor_update_rank).
+    sort: { expr: 'l.update_rank', type: 'integer' },
     csv: { name: 'update_state', value: (row) => row.updateState },
   },
   lastSeen: {
@@ -104,7 +107,8 @@ export const FLEET_COLUMNS: { [K in FleetColumnId]: ServerColumn<K> } = {
   resets24h: {
     select: { resets_24h: RESETS_24H },
     present: (r) => ({ resets24h: Number(r.resets_24h) }),
-    sort: { expr: RESETS_24H, type: 'integer' },
+    // The length of recent_resets, exact at the clock once the table has trimmed the window (sql.ts TRIM_RESETS).
+    sort: { expr: 'l.resets_24h', type: 'integer' },
     csv: { name: 'resets_24h', value: (row) => row.resets24h },
   },
   flags: {

@@ -3,6 +3,7 @@
 // registry routes (server/loggers/routes.ts) and answers through server/fleet/table.ts.
 //
 // Registered before the registry routes, so /api/loggers/export.csv is not read as a logger id.
+import type { Summaries } from './summaries';
 import type { Response } from 'express';
 import type { Sequelize } from 'sequelize';
 import type { Api } from '../http/api';
@@ -34,7 +35,7 @@ declareAccess({
   'GET /api/loggers/:id/why': rules.people(readers, ['fleet:read']),
 });
 
-export type FleetRouteDeps = { sequelize: Sequelize; now: () => Date };
+export type FleetRouteDeps = { sequelize: Sequelize; now: () => Date; summaries: Summaries };
 
 /** Streams CSV: headers first, then chunks as they are read, waiting whenever the client is slow. */
 function csvStream(res: Response, fileName: string) {

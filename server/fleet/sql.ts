@@ -9,10 +9,10 @@ import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C, UNSTABLE_RESETS_24H } from 
  * that reached widening or complete (widened_at or completed_at set) and was not withdrawn. A stop
  * or pause afterwards keeps it current — loggers still waiting for it lag behind "release stopped or
  * paused" — while a release only ever in pilot is not current yet. `since` is when it first reached
- * widening or complete.
+ * widening or complete. `expires_at` is its signed manifest's expiry (null: none).
  */
 export const CURRENT_RELEASES = `
-  SELECT DISTINCT ON (r.model_id, r.channel) r.id, r.model_id, r.channel, r.version, r.state, r.share,
+  SELECT DISTINCT ON (r.model_id, r.channel) r.id, r.model_id, r.channel, r.version, r.state, r.share, r.expires_at,
          heliodor_semver_key(r.version) COLLATE "C" AS version_key, LEAST(r.widened_at, r.completed_at) AS since
     FROM releases r
    WHERE (r.widened_at IS NOT NULL OR r.completed_at IS NOT NULL) AND r.state <> :withdrawn
@@ -31,26 +31,23 @@ export const PROBE_FAULT = `(l.status <> :retired AND ${TEMP} IS NOT NULL AND ($
 export const FLAG_SQL = { silent: SILENT, unstable: UNSTABLE, low_supply: LOW_SUPPLY, probe_fault: PROBE_FAULT } as const;
 
 /**
- * The update state against the current release `cr` of the logger's model and channel, with its install
- * report `ir` (UPDATE_STATES in schemas/words.ts). A failed report an operator has since retried reads
- * as offered again.
+ * The fleet table's keys kept on the logger row (migration 0013, by triggers on every write that changes
+ * them): site_sort, customer_sort, model_sort, search_text, update_state and update_rank (the state
+ * against the current release of the logger's model and channel, and its pipeline order), resets_24h
+ * and resets_oldest (from recent_resets). The table pages over them with index ranges on loggers alone
+ * and joins the model and the site only for the rows of the page.
  */
-export const UPDATE_STATE = `(CASE
-    WHEN cr.id IS NULL OR l.firmware IS NULL THEN :behind
-    WHEN l.firmware_key >= cr.version_key THEN :upToDate
-    WHEN ir.state IS NULL THEN :behind
-    WHEN ir.state = :failed AND ir.retried_at IS NOT NULL AND ir.retried_at >= ir.updated_at THEN :offered
-    ELSE ir.state END)`;
-
-/** Pipeline order for sorting by update state: nothing yet, then the funnel, then done. */
-export const UPDATE_STATE_RANK = `(CASE ${UPDATE_STATE}
-    WHEN :behind THEN 0 WHEN :failed THEN 1 WHEN :offered THEN 2 WHEN :downloading THEN 3 WHEN :downloaded THEN 4
-    WHEN :installing THEN 5 WHEN :installed THEN 6 ELSE 7 END)`;
-
-/** The joins the fleet table reads from: model, site, the current release of the logger's channel, its report. */
-export const FLEET_FROM = `
-  FROM loggers l
+export const FLEET_PAGE_JOINS = `
   JOIN models m ON m.id = l.model_id
-  LEFT JOIN sites s ON s.id = l.site_id
-  LEFT JOIN current_releases cr ON cr.model_id = l.model_id AND cr.channel = l.channel
-  LEFT JOIN install_reports ir ON ir.logger_id = l.id AND ir.release_id = cr.id`;
+  LEFT JOIN sites s ON s.id = l.site_id`;
+
+/**
+ * Resets in 24 h is a sliding window: a reset leaves recent_resets once it is 24 h old. This trims the
+ * arrays whose oldest reset has left the window at :now (an index range on resets_oldest, a handful of
+ * rows), so resets_24h (the array's length) is the count at :now for every logger. Rows another
+ * transaction holds (a check-in writing them) are skipped, not waited for, and trimmed by the next read.
+ */
+export const TRIM_RESETS = `
+  UPDATE loggers l
+     SET recent_resets = ARRAY(SELECT r.at FROM unnest(l.recent_resets) AS r(at) WHERE r.at > CAST(:now AS timestamptz) - interval '24 hours' ORDER BY r.at)
+   WHERE l.id IN (SELECT x.id FROM loggers x WHERE x.resets_oldest <= CAST(:now AS timestamptz) - interval '24 hours' FOR UPDATE SKIP LOCKED)`;

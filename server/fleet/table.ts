@@ -3,7 +3,10 @@
 // replacement. The columns — what each selects, sorts by, presents and exports — are in columns.ts.
 //
 // Paging: `page` (offset) or a keyset `cursor` — the sort value and id of the last row, so the next
-// batch is an index range read whatever the depth. The export walks the whole filter by cursor in
+// batch is an index range read whatever the depth. Every sort key and filter is a condition on the
+// logger row alone (the keys kept there by migration 0013), so a page is an index range on loggers and
+// the model and site are joined for its rows only. The total is exact up to TOTAL_EXACT_UP_TO matches
+// and the planner's estimate beyond (totalIsEstimate). The export walks the whole filter by cursor in
 // batches, writing as it goes.
 import semver from 'semver';
 import { QueryTypes, type Sequelize } from 'sequelize';
@@ -13,11 +16,11 @@ import { problems } from '../http/problem';
 import { decodeCursorParts, encodeCursorParts, isTimestampText, UUID_TEXT } from '../http/cursor';
 import { likePattern } from '../sites/service';
 import { isStrictSemver } from '../../schemas/semver';
-import type { FleetSortKey } from '../../schemas/fleet';
-import type { LoggerRow, LoggersQuery } from '../../schemas/loggers';
+import { UNSTABLE_RESETS_24H, type FleetFlag, type FleetList, type FleetSortKey } from '../../schemas/fleet';
+import type { LoggersQuery } from '../../schemas/loggers';
 import { csvRecord } from './csv';
 import { csvOf, FLEET_CSV_HEADER, FLEET_SELECT, presentRow, SORTS, type SortType } from './columns';
-import { CURRENT_RELEASES, FLAG_SQL, FLEET_FROM, UPDATE_STATE } from './sql';
+import { FLEET_PAGE_JOINS, PROBE_FAULT, TRIM_RESETS } from './sql';
 import { SQL_WORDS } from '../db/sql-words';
 
 export type FleetDeps = { sequelize: Sequelize; now: () => Date };
@@ -68,11 +71,45 @@ async function versionsMatching(deps: FleetDeps, version: string): Promise<strin
   return present.map((p) => p.firmware).filter((v) => semver.valid(v) !== null && semver.satisfies(v, version, { includePrerelease: true }));
 }
 
-async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: Date) {
+/** Per model, what the silent and low-supply flags compare with (few rows: one per hardware model). */
+type ModelLimits = { id: string; check_in_interval_s: number; min_update_supply_v: string };
+
+/**
+ * A flag as a condition on the logger row alone. Silent and low supply compare with the logger's model;
+ * spelled out per model (`model_id = … AND last seen before …`), they are index ranges on the last-seen
+ * and supply keys, and the planner estimates them from those columns' statistics. The same rules as
+ * sql.ts SILENT and LOW_SUPPLY, which the overview counts with.
+ */
+async function flagCondition(deps: FleetDeps, flag: FleetFlag, now: Date, replacements: Record<string, unknown>): Promise<string> {
+  if (flag === 'unstable') return `(l.resets_24h >= ${UNSTABLE_RESETS_24H})`;
+  if (flag === 'probe_fault') return PROBE_FAULT;
+  const models = await deps.sequelize.query<ModelLimits>('SELECT id, check_in_interval_s, min_update_supply_v::text AS min_update_supply_v FROM models ORDER BY id', {
+    type: QueryTypes.SELECT,
+  });
+  if (models.length === 0) return 'false';
+  const perModel = models.map((m, i) => {
+    replacements[`flagModel${i}`] = m.id;
+    if (flag === 'silent') {
+      replacements[`silentBefore${i}`] = new Date(now.getTime() - 3 * m.check_in_interval_s * 1000).toISOString();
+      return `(l.model_id = :flagModel${i} AND COALESCE(l.last_seen_at, '-infinity'::timestamptz) < CAST(:silentBefore${i} AS timestamptz))`;
+    }
+    replacements[`supplyMin${i}`] = m.min_update_supply_v;
+    return `(l.model_id = :flagModel${i} AND COALESCE(l.supply_v, -1) < CAST(:supplyMin${i} AS numeric))`;
+  });
+  return flag === 'silent'
+    ? `(l.status = :enrolled AND (${perModel.join(' OR ')}))`
+    : `(l.status <> :retired AND l.supply_v IS NOT NULL AND (${perModel.join(' OR ')}))`;
+}
+
+type Where = { conditions: string[]; replacements: Record<string, unknown> };
+
+/** The filter as conditions on the logger row `l` alone, so a page and a count are index ranges on loggers. */
+async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: Date): Promise<Where> {
   const conditions: string[] = [];
   const replacements: Record<string, unknown> = { ...SQL_WORDS, now: now.toISOString() };
   if (query.q) {
-    conditions.push('(l.serial ILIKE :q OR s.name ILIKE :q OR s.customer ILIKE :q)');
+    // Serial, site name and customer in one text with a trigram index (migration 0013).
+    conditions.push('l.search_text ILIKE :q');
     replacements.q = likePattern(query.q);
   }
   // Plain equality filters: the query key, and the column it is compared with (board regardless of case).
@@ -96,9 +133,10 @@ async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: D
       replacements.versions = versions;
     }
   }
-  if (query.flag) conditions.push(FLAG_SQL[query.flag]);
+  if (query.flag) conditions.push(await flagCondition(deps, query.flag, now, replacements));
   if (query.updateState) {
-    conditions.push(`${UPDATE_STATE} = :updateState`);
+    // The rank's index answers the filter too (heliodor_update_rank of a constant is a constant).
+    conditions.push('l.update_rank = heliodor_update_rank(:updateState)');
     replacements.updateState = query.updateState;
   }
   // The loggers the actor may read (server/auth/policies.ts): an integrator's sites and registrations.
@@ -108,15 +146,17 @@ async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: D
   return { conditions, replacements };
 }
 
+/** Before a read that sorts or filters by resets in 24 h, the window is moved to the clock (sql.ts TRIM_RESETS). */
+async function trimResetsIfRead(deps: FleetDeps, query: FleetFilter, now: Date) {
+  if (query.sort !== 'resets24h' && query.flag !== 'unstable') return;
+  await deps.sequelize.query(TRIM_RESETS, { replacements: { now: now.toISOString() } });
+}
+
 /** A row as the query answers it: every column's selected values (columns.ts), the id and the sort value. */
 type RowRecord = { id: string; sort_value: string } & Record<string, unknown>;
 
-async function readRows(
-  deps: FleetDeps,
-  where: { conditions: string[]; replacements: Record<string, unknown> },
-  query: FleetFilter,
-  page: { limit: number; offset: number; after?: Cursor },
-): Promise<RowRecord[]> {
+/** The page's query: the ids from an index range on loggers alone, then each row's columns for those ids. */
+export function pageStatement(where: Where, query: FleetFilter, page: { limit: number; offset: number; after?: Cursor }) {
   const sort = SORTS[query.sort];
   const dir = query.dir === 'desc' ? 'DESC' : 'ASC';
   const conditions = [...where.conditions];
@@ -126,18 +166,54 @@ async function readRows(
     replacements.afterValue = page.after.value;
     replacements.afterId = page.after.id;
   }
-  return deps.sequelize.query<RowRecord>(
-    `WITH current_releases AS (${CURRENT_RELEASES})
-     SELECT l.id, ${FLEET_SELECT}, (${sort.expr})::text AS sort_value
-       ${FLEET_FROM}
-      ${conditions.length ? `WHERE ${conditions.join(' AND ')}` : ''}
-      ORDER BY ${sort.expr} ${dir}, l.id ${dir}
-      LIMIT :limit OFFSET :offset`,
-    { type: QueryTypes.SELECT, replacements },
-  );
+  const sql = `
+    WITH page AS (
+      SELECT l.id, ${sort.expr} AS sort_key
+        FROM loggers l
+       ${conditions.length ? `WHERE ${conditions.join(' AND ')}` : ''}
+       ORDER BY ${sort.expr} ${dir}, l.id ${dir}
+       LIMIT :limit OFFSET :offset)
+    SELECT l.id, ${FLEET_SELECT}, p.sort_key::text AS sort_value
+      FROM page p
+      JOIN loggers l ON l.id = p.id
+      ${FLEET_PAGE_JOINS}
+     ORDER BY p.sort_key ${dir}, l.id ${dir}`;
+  return { sql, replacements };
 }
 
-export async function listFleet(deps: FleetDeps, actor: Actor, query: LoggersQuery): Promise<{ rows: LoggerRow[]; total: number; nextCursor?: string }> {
+/** The count's query: the matching rows up to one more than TOTAL_EXACT_UP_TO. */
+export function countStatement(where: Where) {
+  return {
+    sql: `SELECT count(*)::int AS n FROM (SELECT 1 FROM loggers l ${where.conditions.length ? `WHERE ${where.conditions.join(' AND ')}` : ''} LIMIT ${TOTAL_EXACT_UP_TO + 1}) x`,
+    replacements: where.replacements,
+  };
+}
+
+async function readRows(deps: FleetDeps, where: Where, query: FleetFilter, page: { limit: number; offset: number; after?: Cursor }): Promise<RowRecord[]> {
+  const { sql, replacements } = pageStatement(where, query, page);
+  return deps.sequelize.query<RowRecord>(sql, { type: QueryTypes.SELECT, replacements });
+}
+
+/**
+ * Up to this many matching loggers the total is counted exactly; beyond, it is the planner's estimate
+ * (EXPLAIN's row estimate for the filter), and the answer says so (totalIsEstimate), so a page never
+ * waits for a count of the whole fleet.
+ */
+export const TOTAL_EXACT_UP_TO = 1000;
+
+async function totalOf(deps: FleetDeps, where: Where): Promise<{ total: number; totalIsEstimate: boolean }> {
+  const count = countStatement(where);
+  const [{ n }] = await deps.sequelize.query<{ n: number }>(count.sql, { type: QueryTypes.SELECT, replacements: count.replacements });
+  if (n <= TOTAL_EXACT_UP_TO) return { total: n, totalIsEstimate: false };
+  const [plan] = await deps.sequelize.query<{ 'QUERY PLAN': [{ Plan: { 'Plan Rows': number } }] }>(
+    `EXPLAIN (FORMAT JSON) SELECT 1 FROM loggers l ${where.conditions.length ? `WHERE ${where.conditions.join(' AND ')}` : ''}`,
+    { type: QueryTypes.SELECT, replacements: where.replacements },
+  );
+  // More than TOTAL_EXACT_UP_TO match for certain, whatever the estimate says.
+  return { total: Math.max(TOTAL_EXACT_UP_TO + 1, Math.round(plan['QUERY PLAN'][0].Plan['Plan Rows'])), totalIsEstimate: true };
+}
+
+export async function listFleet(deps: FleetDeps, actor: Actor, query: LoggersQuery): Promise<FleetList> {
   const now = deps.now();
   const where = await whereOf(deps, actor, query, now);
   let page = query.page;
@@ -148,12 +224,9 @@ export async function listFleet(deps: FleetDeps, actor: Actor, query: LoggersQue
   else if (keyset && query.cursor !== KEYSET_START) after = decodeCursor(query.cursor!, query);
   if (keyset) page = 1;
 
-  const [[{ total }], records] = await Promise.all([
-    deps.sequelize.query<{ total: number }>(
-      `WITH current_releases AS (${CURRENT_RELEASES}) SELECT count(*)::int AS total ${FLEET_FROM}
-       ${where.conditions.length ? `WHERE ${where.conditions.join(' AND ')}` : ''}`,
-      { type: QueryTypes.SELECT, replacements: where.replacements },
-    ),
+  await trimResetsIfRead(deps, query, now);
+  const [total, records] = await Promise.all([
+    totalOf(deps, where),
     readRows(deps, where, query, { limit: query.pageSize + 1, offset: (page - 1) * query.pageSize, after }),
   ]);
   const more = records.length > query.pageSize;
@@ -164,7 +237,7 @@ export async function listFleet(deps: FleetDeps, actor: Actor, query: LoggersQue
     // Page mode keeps answering page numbers; cursor mode answers the next keyset cursor.
     nextCursor = keyset ? encodeCursor({ sort: query.sort, dir: query.dir, value: last.sort_value, id: last.id }) : String(page + 1);
   }
-  return { rows: rows.map(presentRow), total, ...(nextCursor ? { nextCursor } : {}) };
+  return { rows: rows.map(presentRow), ...total, ...(nextCursor ? { nextCursor } : {}) };
 }
 
 /** Every row the filter matches, in its sort order, read in keyset batches and handed on as CSV text. */
@@ -177,6 +250,7 @@ export async function exportFleet(
 ): Promise<number> {
   const now = deps.now();
   const where = await whereOf(deps, actor, query, now);
+  await trimResetsIfRead(deps, query, now);
   await write(csvRecord([...FLEET_CSV_HEADER]));
   let after: Cursor | undefined;
   let count = 0;

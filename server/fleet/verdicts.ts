@@ -11,7 +11,8 @@ export type LoggerForDecision = LoggerFacts & { modelId: string };
 /** The columns a LoggerForDecision is read from (alias l = loggers, m = models, s = sites). */
 export const DECISION_COLUMNS = `l.id, l.model_id AS "modelId", l.status, l.site_id AS "siteId", COALESCE(l.reported_board, l.board) AS board,
   l.channel, l.firmware, l.security_counter AS "securityCounter", l.supply_v::float8 AS "supplyV",
-  m.min_update_supply_v::float8 AS "minUpdateSupplyV", s.latitude::float8 AS latitude, s.longitude::float8 AS longitude`;
+  m.min_update_supply_v::float8 AS "minUpdateSupplyV", s.latitude::float8 AS latitude, s.longitude::float8 AS longitude,
+  s.time_zone AS "timeZone"`;
 
 type ReportRow = ReportFacts & { loggerId: string };
 

@@ -1,12 +1,14 @@
 // The version matrix: per model, loggers per running version × board; per channel the share
 // running the channel's current release (see CURRENT_RELEASES) or newer; per release, installs per day
-// since it started (confirmed_at, else finished_at, of installed reports; UTC days).
+// since it started (confirmed_at, else finished_at, of installed reports; UTC days). All of it from the
+// count summaries (summaries.ts), which the writes keep in their own transactions.
 import { QueryTypes } from 'sequelize';
 import type { VersionMatrix } from '../../schemas/fleet';
 import { CURRENT_RELEASES } from './sql';
 import type { FleetDeps } from './table';
 import type { Actor } from '../auth/actor';
 import { loggerScope } from '../auth/policies';
+import { loggerCounts, reportCounts } from './summaries';
 import { SQL_WORDS } from '../db/sql-words';
 
 type ModelRow = { id: string; name: string; boards: { label: string }[] };
@@ -45,23 +47,29 @@ export function adoptionDays(startedAt: Date | null, installs: { day: string; n:
   return out;
 }
 
-/** The matrix of the loggers the actor may read (server/auth/policies.ts): an integrator's counts are their own. */
+/**
+ * The matrix of the loggers the actor may read (server/auth/policies.ts): an integrator's counts are their
+ * own. Counts come from the count summaries (summaries.ts), exact at the request's snapshot.
+ */
 export async function versionMatrix(deps: FleetDeps, actor: Actor): Promise<VersionMatrix> {
-  const scope = loggerScope(actor, 'l');
+  const scope = loggerScope(actor, 'c');
+  const loggers = loggerCounts(scope);
+  const reports = reportCounts(scope);
   const q = <T extends object>(sql: string) => deps.sequelize.query<T>(sql, { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, ...scope.replacements } });
   const [models, counts, channels, releases, adoption] = await Promise.all([
     q<ModelRow>('SELECT id, name, boards FROM models ORDER BY lower(name), id'),
     q<CountRow>(
-      `SELECT l.model_id, l.firmware, l.board, count(*)::int AS n FROM loggers l WHERE l.status <> :retired AND ${scope.sql}
-        GROUP BY l.model_id, l.firmware, l.firmware_key, l.board ORDER BY l.model_id, l.firmware_key DESC, l.board`,
+      `SELECT c.model_id, c.firmware, c.board, sum(c.n)::int AS n FROM ${loggers} c WHERE c.status <> :retired
+        GROUP BY c.model_id, c.firmware, c.firmware_key, c.board HAVING sum(c.n) <> 0 ORDER BY c.model_id, c.firmware_key DESC, c.board`,
     ),
     q<ChannelRow>(
       `WITH current_releases AS (${CURRENT_RELEASES}),
-       channels AS (SELECT m.id AS model_id, t.channel FROM models m CROSS JOIN unnest(ARRAY[:channels]::text[]) t(channel))
+       channels AS (SELECT m.id AS model_id, t.channel FROM models m CROSS JOIN unnest(ARRAY[:channels]::text[]) t(channel)),
+       enrolled AS (SELECT c.model_id, c.channel, c.firmware_key, sum(c.n) AS n FROM ${loggers} c WHERE c.status = :enrolled GROUP BY 1, 2, 3)
        SELECT t.model_id, t.channel,
-              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = :enrolled AND ${scope.sql}) AS loggers,
-              (SELECT count(*)::int FROM loggers l WHERE l.model_id = t.model_id AND l.channel = t.channel AND l.status = :enrolled
-                  AND cr.id IS NOT NULL AND l.firmware_key >= cr.version_key AND ${scope.sql}) AS on_current,
+              (SELECT COALESCE(sum(e.n), 0)::int FROM enrolled e WHERE e.model_id = t.model_id AND e.channel = t.channel) AS loggers,
+              (SELECT COALESCE(sum(e.n), 0)::int FROM enrolled e WHERE e.model_id = t.model_id AND e.channel = t.channel
+                  AND cr.id IS NOT NULL AND e.firmware_key >= cr.version_key) AS on_current,
               cr.id AS release_id, cr.version, cr.state, cr.share, cr.since
          FROM channels t LEFT JOIN current_releases cr ON cr.model_id = t.model_id AND cr.channel = t.channel
         ORDER BY t.model_id, t.channel DESC`,
@@ -71,11 +79,9 @@ export async function versionMatrix(deps: FleetDeps, actor: Actor): Promise<Vers
          FROM releases WHERE state <> :draft ORDER BY model_id, heliodor_semver_key(version) COLLATE "C" DESC`,
     ),
     q<AdoptionRow>(
-      `SELECT ir.release_id, to_char(date_trunc('day', COALESCE(ir.confirmed_at, ir.finished_at) AT TIME ZONE 'UTC'), 'YYYY-MM-DD') AS day, count(*)::int AS n
-         FROM install_reports ir
-        WHERE ir.state = :installed AND COALESCE(ir.confirmed_at, ir.finished_at) IS NOT NULL
-          ${scope.sql === 'TRUE' ? '' : `AND ir.logger_id IN (SELECT l.id FROM loggers l WHERE ${scope.sql})`}
-        GROUP BY 1, 2 ORDER BY 1, 2`,
+      `SELECT c.release_id, to_char(c.day, 'YYYY-MM-DD') AS day, sum(c.n)::int AS n
+         FROM ${reports} c WHERE c.state = :installed AND c.day IS NOT NULL
+        GROUP BY 1, 2 HAVING sum(c.n) <> 0 ORDER BY 1, 2`,
     ),
   ]);
 

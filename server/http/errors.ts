@@ -14,6 +14,10 @@ function toProblem(err: unknown): Problem {
   if (e?.type === 'entity.too.large') return problems.tooLarge('The request body is larger than this endpoint accepts.');
   if (e?.type === 'encoding.unsupported' || e?.type === 'charset.unsupported')
     return problems.badRequest('Unsupported body encoding; send UTF-8 JSON.');
+  // The router could not percent-decode a path parameter (its URIError carries status 400 but is not
+  // marked for exposure): percent-encoded octets that are not UTF-8 are the request's fault (RFC 3986 §2.5).
+  // The detail does not repeat the path.
+  if (err instanceof URIError && e.status === 400) return problems.badRequest('A percent-encoded part of the path is not valid UTF-8.');
   // multer errors
   if (e?.code === 'LIMIT_FILE_SIZE') return problems.tooLarge(`The file in "${e.field}" is larger than allowed.`);
   if (typeof e?.code === 'string' && e.code.startsWith('LIMIT_'))
@@ -46,7 +50,8 @@ export function sqlStateOf(err: unknown): string | undefined {
  * A database failure as a problem, classified by SQLSTATE (PostgreSQL manual, Appendix A "PostgreSQL
  * Error Codes") and by the driver's error class — never by message text, which may echo the request:
  * - class 08 (connection exception), 57P01 admin_shutdown, 57P02 crash_shutdown, 57P03 cannot_connect_now,
- *   53300 too_many_connections → 503 with Retry-After;
+ *   53300 too_many_connections, and class 40's 40001 serialization_failure and 40P01 deadlock_detected (the
+ *   transaction was rolled back whole and may simply be sent again) → 503 with Retry-After;
  * - 22003 numeric_value_out_of_range, 22P02 invalid_text_representation and the other data exceptions a
  *   value from a request can cause (22001 string too long, 22007/22008 bad or overflowing date and time,
  *   22021 a character the encoding refuses) → 400;
@@ -60,7 +65,7 @@ function databaseProblem(err: unknown): Problem | undefined {
     return problems.badRequest('Check the highlighted fields.', err.errors.map((x) => ({ path: x.path ?? '', message: x.message })));
   const state = sqlStateOf(err);
   if (state) {
-    if (state.startsWith('08') || ['57P01', '57P02', '57P03', '53300'].includes(state)) return unreachable();
+    if (state.startsWith('08') || ['57P01', '57P02', '57P03', '53300', '40001', '40P01'].includes(state)) return unreachable();
     if (['22001', '22003', '22007', '22008', '22021', '22P02'].includes(state))
       return problems.badRequest('A value in the request is out of range or not in the form expected; check the values sent.');
     if (state === '23505') {

@@ -1,7 +1,8 @@
 // Enrollment on site: the label's token names the logger, the integrator binds it to a site with the
 // install details, and the server computes the measurement profile from the power-monitor equations.
 // Later: moving to another site and profile changes (each a new profile version, delivered at check-in).
-import type { Transaction } from 'sequelize';
+import crypto from 'node:crypto';
+import { QueryTypes, type Transaction } from 'sequelize';
 import { Logger, LoggerModel, MeasurementProfile, Site } from '../db/models';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
@@ -9,7 +10,8 @@ import type { RequestContext } from '../auth/actor';
 import { digestToken } from '../auth/tokens';
 import { authorize } from '../auth/policies';
 import { siteResource } from '../sites/service';
-import { measurementProfile, type ComputedProfile } from '../../lib/calibration';
+import { canonicalJson } from '../images/manifest';
+import { ABOVE_RATING, coldVoc, measurementProfile, type ComputedProfile, type InstallForProfile } from '../../lib/calibration';
 import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
 import { loggerFor, type RegistryDeps } from './service';
 import type { Enrolled, EnrollmentLookup, EnrollRequest, LoggerDetail, ProfileChangeRequest, ProfileView } from '../../schemas/loggers';
@@ -48,15 +50,16 @@ export async function lookupLabel(token: string): Promise<EnrollmentLookup> {
       modelName: model!.name,
       board: logger.board,
       status: logger.status,
-      site: site ? { id: site.id, name: site.name } : null,
+      site: site ? { id: site.id, name: site.name, minTempC: site.minTempC === null ? null : Number(site.minTempC) } : null,
     },
     limits: limitsOf(model!),
   };
 }
 
 /** The profile for the install, or 400 whose field errors name the limit that refuses it. */
-function computeProfile(install: { shuntOhm: number; maxCurrentA: number; panelVocV: number; tempResolutionBits: number }, model: LoggerModel): ComputedProfile {
-  const result = measurementProfile(install, limitsOf(model));
+function computeProfile(install: InstallForProfile, model: LoggerModel, site: Site | null): ComputedProfile {
+  const siteMinTempC = site && site.minTempC !== null && site.minTempC !== undefined ? Number(site.minTempC) : null;
+  const result = measurementProfile({ ...install, siteMinTempC }, limitsOf(model));
   if (!result.ok) {
     throw problems.badRequest(`The measurement profile cannot be set up: ${result.errors.map((e) => e.message).join('; ')}.`, result.errors);
   }
@@ -83,8 +86,51 @@ async function siteFor(siteId: string, transaction: Transaction): Promise<Site> 
   return site;
 }
 
+/** What an enrollment asked for, as a digest (SHA-256 of its RFC 8785 canonical JSON, docs/SOURCES.md §17): the label's token is never stored. */
+function requestDigest(body: EnrollRequest): string {
+  const { enrollmentId: _id, ...asked } = body;
+  return crypto.createHash('sha256').update(canonicalJson({ ...asked, notes: asked.notes ?? '' }), 'utf8').digest('hex');
+}
+
+/**
+ * Claims the phone's enrollment id for this person inside the enrollment's transaction. A concurrent
+ * claim of the same id waits for this transaction (the primary key), then finds the row committed.
+ * Answers the first enrollment's answer when the id was already used for the same request.
+ */
+async function claimEnrollment(
+  sequelize: RegistryDeps['sequelize'],
+  personId: string,
+  body: EnrollRequest & { enrollmentId: string },
+  transaction: Transaction,
+): Promise<Enrolled | null> {
+  const digest = requestDigest(body);
+  const claimed = await sequelize.query<{ enrollment_id: string }>(
+    `INSERT INTO enrollment_requests (person_id, enrollment_id, request_digest) VALUES (:personId, :enrollmentId, :digest)
+     ON CONFLICT (person_id, enrollment_id) DO NOTHING RETURNING enrollment_id`,
+    { replacements: { personId, enrollmentId: body.enrollmentId, digest }, type: QueryTypes.SELECT, transaction },
+  );
+  if (claimed.length) return null;
+  const [first] = await sequelize.query<{ request_digest: string; answer: Enrolled }>(
+    'SELECT request_digest, answer FROM enrollment_requests WHERE person_id = :personId AND enrollment_id = :enrollmentId',
+    { replacements: { personId, enrollmentId: body.enrollmentId }, type: QueryTypes.SELECT, transaction },
+  );
+  if (first.request_digest !== digest) {
+    throw problems.unprocessable(
+      'This enrollment id was already used for a different enrollment (another label, site or install details); a new enrollment needs a new id.',
+      [{ path: 'enrollmentId', message: 'was already used for a different enrollment' }],
+    );
+  }
+  return first.answer;
+}
+
 export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: EnrollRequest): Promise<Enrolled> {
   return deps.sequelize.transaction(async (transaction) => {
+    const person = personId(ctx);
+    const enrollmentId = body.enrollmentId;
+    if (person && enrollmentId) {
+      const first = await claimEnrollment(deps.sequelize, person, { ...body, enrollmentId }, transaction);
+      if (first) return first;
+    }
     const logger = await loggerByToken(body.token, transaction);
     if (logger.status === 'enrolled') {
       const at = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
@@ -95,11 +141,17 @@ export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: Enro
     const site = await siteFor(body.siteId, transaction);
     authorize(ctx.actor, 'enroll', await siteResource(site.id, transaction));
     const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
-    const computed = computeProfile(body, model);
+    const computed = computeProfile(body, model, site);
 
     const now = deps.now();
     const previous = (logger.install as StoredInstall | null) ?? {};
-    const install: StoredInstall = { ...previous, panelWp: body.panelWp, panelVocV: body.panelVocV, notes: body.notes ?? '' };
+    const install: StoredInstall = {
+      ...previous,
+      panelWp: body.panelWp,
+      panelVocV: body.panelVocV,
+      vocTempCoeffPctPerC: body.vocTempCoeffPctPerC ?? null,
+      notes: body.notes ?? '',
+    };
     await logger.update({ status: 'enrolled', siteId: site.id, enrolledAt: now, enrolledBy: personId(ctx), install }, { transaction });
     const profile = await storeProfile(ctx, logger, computed, { panelWp: body.panelWp, panelVocV: body.panelVocV }, transaction);
     await recordActivity(transaction, ctx, {
@@ -109,7 +161,15 @@ export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: Enro
       summary: `Logger ${logger.serial} enrolled at ${site.name} (profile v${profile.version}: calibration ${profile.calibration}, ${body.panelWp} Wp panel)`,
       details: { siteId: site.id, profileVersion: profile.version },
     });
-    return { logger: await presentDetail(ctx.actor, logger, now, transaction), profile: presentProfile(profile) };
+    const answer: Enrolled = { logger: await presentDetail(ctx.actor, logger, now, transaction), profile: presentProfile(profile) };
+    if (person && enrollmentId) {
+      await deps.sequelize.query(
+        `UPDATE enrollment_requests SET logger_id = :loggerId, status = 201, answer = CAST(:answer AS jsonb)
+         WHERE person_id = :person AND enrollment_id = :enrollmentId`,
+        { replacements: { loggerId: logger.id, answer: JSON.stringify(answer), person, enrollmentId }, transaction },
+      );
+    }
+    return answer;
   });
 }
 
@@ -122,6 +182,16 @@ export async function moveLogger(deps: RegistryDeps, ctx: RequestContext, id: st
     const site = await siteFor(siteId, transaction);
     if (logger.siteId === site.id) throw problems.conflict(`Logger ${logger.serial} is already at ${site.name}.`);
     authorize(ctx.actor, 'enroll', await siteResource(site.id, transaction));
+    // The new site may be colder: its lowest temperature raises the panel's open-circuit voltage (NEC 2023 690.7(A)).
+    const stored = (logger.install as StoredInstall | null) ?? {};
+    if (stored.panelVocV != null) {
+      const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
+      const cold = coldVoc(Number(stored.panelVocV), stored.vocTempCoeffPctPerC, site.minTempC === null ? null : Number(site.minTempC));
+      const message = 'error' in cold ? cold.error : cold.vocMaxV > Number(model.busVMax)
+        ? `${ABOVE_RATING}: at ${site.name} the panel's open-circuit voltage in the cold is ${cold.vocMaxV} V, above this model's panel voltage limit of ${Number(model.busVMax)} V`
+        : null;
+      if (message) throw problems.badRequest(`The logger cannot be moved with this wiring: ${message}.`, [{ path: 'siteId', message }]);
+    }
     const from = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
     await logger.update({ siteId: site.id }, { transaction });
     await recordActivity(transaction, ctx, {
@@ -147,13 +217,15 @@ export async function changeProfile(deps: RegistryDeps, ctx: RequestContext, id:
     const panelVocV = body.panelVocV ?? previous?.panelVocV ?? install.panelVocV ?? null;
     if (panelVocV === null) {
       throw problems.badRequest('Check the body: panelVocV.', [
-        { path: 'panelVocV', message: 'give the panel open-circuit voltage: it is checked against the bus limit' },
+        { path: 'panelVocV', message: 'give the panel open-circuit voltage: it is checked against the panel voltage limit' },
       ]);
     }
+    const vocTempCoeffPctPerC = body.vocTempCoeffPctPerC !== undefined ? body.vocTempCoeffPctPerC : (install.vocTempCoeffPctPerC ?? null);
     const model = (await LoggerModel.findByPk(logger.modelId, { transaction }))!;
-    const computed = computeProfile({ ...body, panelVocV: Number(panelVocV) }, model);
+    const site = logger.siteId ? await Site.findByPk(logger.siteId, { transaction }) : null;
+    const computed = computeProfile({ ...body, panelVocV: Number(panelVocV), vocTempCoeffPctPerC }, model, site);
     const profile = await storeProfile(ctx, logger, computed, { panelWp: panelWp === null ? null : Number(panelWp), panelVocV: Number(panelVocV) }, transaction);
-    await logger.update({ install: { ...install, panelWp, panelVocV } }, { transaction });
+    await logger.update({ install: { ...install, panelWp, panelVocV, vocTempCoeffPctPerC } }, { transaction });
     await recordActivity(transaction, ctx, {
       action: 'profile.changed',
       targetType: 'logger',

@@ -35,6 +35,8 @@ export async function latestProfile(loggerId: string, transaction?: Transaction)
 export type StoredInstall = {
   panelWp?: number | null;
   panelVocV?: number | null;
+  /** The panel's temperature coefficient of Voc, %/°C, when the integrator gave it. */
+  vocTempCoeffPctPerC?: number | null;
   notes?: string;
   photo?: { contentType: string; size: number; sha256: string; uploadedAt: string } | null;
 };
@@ -85,11 +87,11 @@ export async function presentDetail(actor: Actor, logger: Logger, now: Date, tra
     channel: logger.channel,
     status: logger.status,
     online: isOnline(logger, model, now),
-    site: site ? { id: site.id, name: site.name, customer: site.customer } : null,
+    site: site ? { id: site.id, name: site.name, customer: site.customer, timeZone: site.timeZone, minTempC: numberOrNull(site.minTempC) } : null,
     enrolledAt: iso(logger.enrolledAt),
     enrolledBy: enrolledBy ? { id: enrolledBy.id, name: enrolledBy.name } : null,
     install: install
-      ? { panelWp: numberOrNull(install.panelWp), panelVocV: numberOrNull(install.panelVocV), notes: install.notes ?? '', photo: Boolean(install.photo) }
+      ? { panelWp: numberOrNull(install.panelWp), panelVocV: numberOrNull(install.panelVocV), vocTempCoeffPctPerC: numberOrNull(install.vocTempCoeffPctPerC), notes: install.notes ?? '', photo: Boolean(install.photo) }
       : null,
     profile: profile ? presentProfile(profile) : null,
     firmware: logger.firmware ?? null,

@@ -12,12 +12,12 @@ import { labelPng } from './labels';
 import { enrollmentLink } from '../../lib/label-sheet';
 import { loggerResource, presentDetail } from './present';
 import { listFleet } from '../fleet/table';
+import type { FleetList } from '../../schemas/fleet';
 import type {
   BatchLabelsIssued,
   BatchRegistered,
   IssuedLogger,
   LoggerDetail,
-  LoggerRow,
   LoggersQuery,
   LoggerVerb,
   RegisterLoggerRequest,
@@ -245,6 +245,6 @@ export async function getLoggerDetail(deps: RegistryDeps, actor: Actor, id: stri
 }
 
 /** The fleet table: filters, allow-listed sort keys and paging in PostgreSQL (server/fleet/table.ts). */
-export async function listLoggers(deps: RegistryDeps, actor: Actor, query: LoggersQuery): Promise<{ rows: LoggerRow[]; total: number; nextCursor?: string }> {
+export async function listLoggers(deps: RegistryDeps, actor: Actor, query: LoggersQuery): Promise<FleetList> {
   return listFleet(deps, actor, query);
 }

@@ -13,7 +13,8 @@
 // - Adoption: confirmed installs per UTC day since the release started.
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
-import { loggerScope } from '../auth/policies';
+import { loggerScope, type SqlScope } from '../auth/policies';
+import { loggerCounts, reportCounts } from '../fleet/summaries';
 import { problems } from '../http/problem';
 import { tripGauges } from '../rollout/trip';
 import { retentionDays } from '../db/retention';
@@ -45,31 +46,60 @@ const DONE_AT = 'COALESCE(ir.confirmed_at, ir.finished_at)';
 const INSTALL_S = `EXTRACT(EPOCH FROM (${DONE_AT} - ir.offered_at))`;
 
 /**
- * Enrolled loggers of the release's model and channel, each with its report of this release (if any).
- * Integrators see only loggers they registered or at their sites, as in the fleet table (loggerScope).
+ * The release's audience by `group` (board or site): enrolled loggers of its model and channel, those on
+ * the release or newer, and their install reports of it by state, from the count summaries
+ * (server/fleet/summaries.ts). Integrators count only loggers they registered or at their sites, as in the
+ * fleet table (loggerScope).
  */
-const AUDIENCE = `
-  FROM loggers l
-  LEFT JOIN install_reports ir ON ir.logger_id = l.id AND ir.release_id = :releaseId
- WHERE l.model_id = :modelId AND l.channel = :channel AND l.status = :enrolled`;
+function tallies(group: 'board' | 'site_id', scope: SqlScope) {
+  const perSite = group === 'site_id';
+  return `
+    audience AS (
+      SELECT c.${group} AS key, sum(c.n)::int AS loggers,
+             COALESCE(sum(c.n) FILTER (WHERE c.firmware_key >= heliodor_semver_key(:version) COLLATE "C"), 0)::int AS on_release
+        FROM ${loggerCounts(scope, perSite)} c
+       WHERE c.model_id = :modelId AND c.channel = :channel AND c.status = :enrolled ${perSite ? 'AND c.site_id IS NOT NULL' : ''}
+       GROUP BY 1 HAVING sum(c.n) <> 0
+    ),
+    reports AS (
+      SELECT c.${group} AS key, sum(c.n)::int AS reached,
+             COALESCE(sum(c.n) FILTER (WHERE c.state IN (:underWay)), 0)::int AS in_progress,
+             COALESCE(sum(c.n) FILTER (WHERE c.state = :installed), 0)::int AS installed,
+             COALESCE(sum(c.n) FILTER (WHERE c.state = :failed), 0)::int AS failed
+        FROM ${reportCounts(scope, perSite)} c
+       WHERE c.release_id = :releaseId AND c.channel = :channel AND c.status = :enrolled
+       GROUP BY 1
+    ),
+    tally AS (
+      SELECT a.key, a.loggers, a.on_release, COALESCE(r.reached, 0) AS reached, COALESCE(r.in_progress, 0) AS in_progress,
+             COALESCE(r.installed, 0) AS installed, COALESCE(r.failed, 0) AS failed
+        FROM audience a LEFT JOIN reports r ON r.key = a.key
+    )`;
+}
 
-const TALLY = `
-  count(*)::int AS loggers,
-  count(*) FILTER (WHERE l.firmware_key >= heliodor_semver_key(:version) COLLATE "C")::int AS on_release,
-  count(ir.logger_id)::int AS reached,
-  count(*) FILTER (WHERE ir.state IN (:underWay))::int AS in_progress,
-  count(*) FILTER (WHERE ir.state = :installed)::int AS installed,
-  count(*) FILTER (WHERE ir.state = :failed)::int AS failed,
-  percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) FILTER (WHERE ir.state = :installed AND ${DONE_AT} IS NOT NULL) AS median_install_s`;
+/** Median seconds to install by `group`, over the release's installed reports of the audience (of `keys` when given). */
+async function medians(deps: DashboardDeps, group: 'board' | 'site_id', release: ReleaseRow, readable: SqlScope, keys?: string[]): Promise<Map<string, number | null>> {
+  if (keys && keys.length === 0) return new Map();
+  const rows = await deps.sequelize.query<{ key: string; median_s: number | null }>(
+    `SELECT l.${group} AS key, percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS median_s
+       FROM install_reports ir JOIN loggers l ON l.id = ir.logger_id
+      WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL
+        AND l.model_id = :modelId AND l.channel = :channel AND l.status = :enrolled AND ${readable.sql}
+        ${keys ? `AND l.${group} IN (:keys)` : ''}
+      GROUP BY 1`,
+    { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, ...readable.replacements, releaseId: release.id, modelId: release.model_id, channel: release.channel, keys } },
+  );
+  return new Map(rows.map((r) => [r.key, r.median_s]));
+}
 
-const tally = (r: TallyRow) => ({
+const tally = (r: Omit<TallyRow, 'median_install_s'>, median: number | null | undefined) => ({
   loggers: Number(r.loggers),
   onRelease: Number(r.on_release),
   reached: Number(r.reached),
   inProgress: Number(r.in_progress),
   installed: Number(r.installed),
   failed: Number(r.failed),
-  medianInstallS: r.median_install_s === null ? null : Math.round(Number(r.median_install_s)),
+  medianInstallS: median === null || median === undefined ? null : Math.round(Number(median)),
 });
 
 async function releaseOf(sequelize: Sequelize, id: string): Promise<ReleaseRow> {
@@ -84,10 +114,11 @@ async function releaseOf(sequelize: Sequelize, id: string): Promise<ReleaseRow> 
 }
 
 function scopeOf(actor: Actor, release: ReleaseRow) {
-  const readable = loggerScope(actor, 'l');
+  const counted = loggerScope(actor, 'c');
   return {
-    scope: ` AND ${readable.sql}`,
-    replacements: { ...SQL_WORDS, releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, ...readable.replacements },
+    counted,
+    readable: loggerScope(actor, 'l'),
+    replacements: { ...SQL_WORDS, releaseId: release.id, modelId: release.model_id, channel: release.channel, version: release.version, ...counted.replacements },
   };
 }
 
@@ -98,28 +129,21 @@ export async function releaseSites(deps: DashboardDeps, actor: Actor, releaseId:
 }
 
 async function sitePage(deps: DashboardDeps, actor: Actor, release: ReleaseRow, query: ReleaseSitesQuery) {
-  const { scope, replacements } = scopeOf(actor, release);
-  const rows = await deps.sequelize.query<TallyRow & { site_id: string; site_name: string; customer: string; total: number }>(
-    `WITH per_site AS (
-       SELECT l.site_id, ${TALLY} ${AUDIENCE} AND l.site_id IS NOT NULL ${scope} GROUP BY l.site_id
-     )
-     SELECT p.*, s.name AS site_name, s.customer, count(*) OVER ()::int AS total
-       FROM per_site p JOIN sites s ON s.id = p.site_id
-      ORDER BY p.failed DESC, p.in_progress DESC, p.reached DESC, lower(s.name), s.id
-      LIMIT :limit OFFSET :offset`,
-    { type: QueryTypes.SELECT, replacements: { ...replacements, limit: query.pageSize, offset: (query.page - 1) * query.pageSize } },
-  );
-  let total = rows[0]?.total;
-  if (total === undefined) {
-    // A page past the end: count the sites on their own so the pager still knows where the end is.
-    const [c] = await deps.sequelize.query<{ n: number }>(`SELECT count(DISTINCT l.site_id)::int AS n ${AUDIENCE} AND l.site_id IS NOT NULL ${scope}`, {
-      type: QueryTypes.SELECT,
-      replacements,
-    });
-    total = c.n;
-  }
+  const { counted, readable, replacements } = scopeOf(actor, release);
+  const [rows, [{ total }]] = await Promise.all([
+    deps.sequelize.query<Omit<TallyRow, 'median_install_s'> & { key: string; site_name: string; customer: string }>(
+      `WITH ${tallies('site_id', counted)}
+       SELECT t.*, s.name AS site_name, s.customer
+         FROM tally t JOIN sites s ON s.id = t.key
+        ORDER BY t.failed DESC, t.in_progress DESC, t.reached DESC, lower(s.name), s.id
+        LIMIT :limit OFFSET :offset`,
+      { type: QueryTypes.SELECT, replacements: { ...replacements, limit: query.pageSize, offset: (query.page - 1) * query.pageSize } },
+    ),
+    deps.sequelize.query<{ total: number }>(`WITH ${tallies('site_id', counted)} SELECT count(*)::int AS total FROM tally`, { type: QueryTypes.SELECT, replacements }),
+  ]);
+  const median = await medians(deps, 'site_id', release, readable, rows.map((r) => r.key));
   return {
-    rows: rows.map((r) => ({ siteId: r.site_id, siteName: r.site_name, customer: r.customer, ...tally(r) })),
+    rows: rows.map((r) => ({ siteId: r.key, siteName: r.site_name, customer: r.customer, ...tally(r, median.get(r.key)) })),
     total: Number(total),
   };
 }
@@ -128,35 +152,40 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
   const { sequelize } = deps;
   const now = deps.now();
   const release = await releaseOf(sequelize, releaseId);
-  const { scope, replacements } = scopeOf(actor, release);
-  const [times, boards, sites, failures, resets, installsPerDay] = await Promise.all([
+  const { counted, readable, replacements } = scopeOf(actor, release);
+  // Time to install and adoption count the installs the caller may read; the trip gauges are the
+  // trip rule's own figures (the whole release), so they show what the rule will decide.
+  const installed = `FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL
+    ${readable.sql === 'TRUE' ? '' : `AND ir.logger_id IN (SELECT l.id FROM loggers l WHERE ${readable.sql})`}`;
+  const [times, boards, boardMedians, sites, failures, resets, installsPerDay] = await Promise.all([
     sequelize.query<{ installs: number; median_s: number | null; p90_s: number | null }>(
       `SELECT count(*)::int AS installs,
               percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS median_s,
               percentile_cont(0.9) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS p90_s
-         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL`,
-      { type: QueryTypes.SELECT, replacements },
+         ${installed}`,
+      { type: QueryTypes.SELECT, replacements: { ...replacements, ...readable.replacements } },
     ),
-    sequelize.query<TallyRow & { board: string }>(`SELECT l.board, ${TALLY} ${AUDIENCE} ${scope} GROUP BY l.board ORDER BY l.board`, {
+    sequelize.query<Omit<TallyRow, 'median_install_s'> & { key: string }>(`WITH ${tallies('board', counted)} SELECT * FROM tally ORDER BY key`, {
       type: QueryTypes.SELECT,
       replacements,
     }),
+    medians(deps, 'board', release, readable),
     sitePage(deps, actor, release, { page: 1, pageSize: 10 }),
     failureFigures(sequelize, undefined, release.id),
     resetFigures(sequelize, undefined, release, now, retentionDays()),
     sequelize.query<{ day: string; n: number }>(
-      `SELECT to_char(date_trunc('day', ${DONE_AT} AT TIME ZONE 'UTC'), 'YYYY-MM-DD') AS day, count(*)::int AS n
-         FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL
-        GROUP BY 1 ORDER BY 1`,
+      `SELECT to_char(c.day, 'YYYY-MM-DD') AS day, sum(c.n)::int AS n FROM ${reportCounts(counted)} c
+        WHERE c.release_id = :releaseId AND c.state = :installed AND c.day IS NOT NULL
+        GROUP BY 1 HAVING sum(c.n) <> 0 ORDER BY 1`,
       { type: QueryTypes.SELECT, replacements },
     ),
   ]);
 
   // Every board of the model is listed, also one with no logger yet, so "not targeted" is visible.
-  const found = new Map(boards.map((b) => [b.board, b]));
+  const found = new Map(boards.map((b) => [b.key, b]));
   const labels = [...new Set([...release.model_boards.map((b) => b.label), ...found.keys()])].sort();
-  const empty: TallyRow = { loggers: 0, on_release: 0, reached: 0, in_progress: 0, installed: 0, failed: 0, median_install_s: null };
-  const byBoard: ReleaseBoardRow[] = labels.map((board) => ({ board, targeted: release.boards.includes(board), ...tally(found.get(board) ?? empty) }));
+  const empty = { loggers: 0, on_release: 0, reached: 0, in_progress: 0, installed: 0, failed: 0 };
+  const byBoard: ReleaseBoardRow[] = labels.map((board) => ({ board, targeted: release.boards.includes(board), ...tally(found.get(board) ?? empty, boardMedians.get(board)) }));
 
   const thresholds = { tripFailureRatio: Number(release.trip_failure_ratio), tripMinReports: release.trip_min_reports, tripResetFactor: Number(release.trip_reset_factor) };
   const t = times[0];

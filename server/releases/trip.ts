@@ -29,8 +29,8 @@ export async function failureFigures(sequelize: Sequelize, t: Transaction | unde
   return { installed: Number(row?.installed ?? 0), failed: Number(row?.failed ?? 0) };
 }
 
-/** The counted resets (watchdog and brown-out) of one check-in row `c`. */
-const RESETS = `(SELECT COALESCE(sum(n.value::int), 0) FROM jsonb_each_text(c.resets) n WHERE n.key IN (:countedResets))`;
+/** The counted resets (watchdog and brown-out) of one check-in row `c` (bigint: counts may reach 2^31 − 1 each). */
+const RESETS = `(SELECT COALESCE(sum(n.value::bigint), 0) FROM jsonb_each_text(c.resets) n WHERE n.key IN (:countedResets))`;
 
 /** The reset-rate figures of a release: its cohort on the new version against the same loggers before it. */
 export async function resetFigures(
@@ -59,9 +59,9 @@ export async function resetFigures(
         GROUP BY k.logger_id, k.confirmed_at
      )
      SELECT (SELECT count(*) FROM cohort)::int AS loggers,
-            (SELECT COALESCE(sum(resets), 0) FROM cohort)::int AS "resetsAfter",
+            (SELECT COALESCE(sum(resets), 0) FROM cohort)::float8 AS "resetsAfter",
             (SELECT COALESCE(sum(days), 0) FROM cohort)::float8 AS "loggerDaysAfter",
-            (SELECT COALESCE(sum(resets), 0) FROM before)::int AS "resetsBefore",
+            (SELECT COALESCE(sum(resets), 0) FROM before)::float8 AS "resetsBefore",
             (SELECT COALESCE(sum(days), 0) FROM before)::float8 AS "loggerDaysBefore"`,
     {
       transaction: t,

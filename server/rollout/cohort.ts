@@ -33,3 +33,11 @@ export function shareThreshold(sharePercent: number): number {
   if (!Number.isFinite(sharePercent)) return 0;
   return Math.round(sharePercent * 100 * 1e6) / 1e6;
 }
+
+/**
+ * The smallest whole-percent share that includes this bucket: bucket < share × 100 holds first at
+ * ⌊bucket / 100⌋ + 1 %. It is what an installer is told ("offered once the share reaches 68 %").
+ */
+export function wholeShareIncluding(bucket: number): number {
+  return Math.floor(bucket / 100) + 1;
+}

@@ -24,9 +24,10 @@
 //   would cost the logger a second install later).
 // - A daylight window asked for by a release whose site has no coordinates is not applied.
 // - `considered` lists every release of the model, newest first by semantic-version precedence.
+import { knownTimeZone, siteClock, utcClock } from '../../lib/site-time';
 import semver from 'semver';
 import { isLive, type ReleaseState } from './lifecycle';
-import { bucketOf, inShare, shareThreshold } from './cohort';
+import { bucketOf, inShare, wholeShareIncluding } from './cohort';
 import { daylightWindowAt } from './daylight';
 import { retriedSince, type StoredReport } from './reports';
 import { TRANSIENT_FAILURE_REASONS, type Channel, type FailureReason, type LoggerStatus, type ReportedInstallState } from '../../schemas/words';
@@ -36,7 +37,8 @@ import { REASON_CODES, type ReasonCode } from '../../schemas/fleet';
 export { REASON_CODES };
 export type { ReasonCode };
 
-export type SiteCoordinates = { latitude: number; longitude: number };
+/** The site's position, and its IANA time zone when known (the daylight window is then told in site time). */
+export type SiteCoordinates = { latitude: number; longitude: number; timeZone?: string | null };
 
 /** The logger as seen at this check-in, with what its model and site contribute to the decision. */
 export type LoggerAtCheckIn = {
@@ -169,12 +171,15 @@ function failedAwaitingRetry(report: LastInstallReport | undefined): FailureReas
   return (TRANSIENT_FAILURE_REASONS as readonly FailureReason[]).includes(reason) ? null : reason;
 }
 
+/** Volts to a tenth of a millivolt, so a supply just under the minimum never reads as equal to it. */
 function formatVolts(v: number): string {
-  return `${Number(v.toFixed(3))} V`;
+  return `${Number(v.toFixed(4))} V`;
 }
 
-function utcClock(d: Date): string {
-  return `${d.toISOString().slice(11, 16)} UTC`;
+/** The daylight window as a sentence: in the site's time with UTC beside it, or in UTC when the zone is not known. */
+function windowText(opens: Date, closes: Date, timeZone: string | null | undefined): string {
+  if (!timeZone || !knownTimeZone(timeZone)) return `${utcClock(opens)} to ${utcClock(closes)} at the site today`;
+  return `${siteClock(opens, timeZone)} to ${siteClock(closes, timeZone)} at the site today (${utcClock(opens)} to ${utcClock(closes)})`;
 }
 
 // ─── The decision's input ───────────────────────────────────────────────────
@@ -183,7 +188,7 @@ function utcClock(d: Date): string {
  * What the database knows of a logger for the decision: its row (or, at a check-in, what the check-in
  * says and the row keeps), its model's supply guard, and its site's two coordinates.
  */
-export type LoggerFacts = Omit<LoggerAtCheckIn, 'siteCoordinates'> & { latitude: number | null; longitude: number | null };
+export type LoggerFacts = Omit<LoggerAtCheckIn, 'siteCoordinates'> & { latitude: number | null; longitude: number | null; timeZone?: string | null };
 
 /** One install report of the logger as stored: its state and reason, when it last changed and was retried. */
 export type ReportFacts = Pick<StoredReport, 'state' | 'reason' | 'updatedAt' | 'retriedAt'> & { releaseId: string };
@@ -212,7 +217,7 @@ export function offerInput<R extends ReleaseTargeting>(logger: LoggerFacts, rele
       securityCounter: Number(logger.securityCounter),
       supplyV: logger.supplyV === null ? null : Number(logger.supplyV),
       minUpdateSupplyV: Number(logger.minUpdateSupplyV),
-      siteCoordinates: latitude !== null && longitude !== null ? { latitude: Number(latitude), longitude: Number(longitude) } : null,
+      siteCoordinates: latitude !== null && longitude !== null ? { latitude: Number(latitude), longitude: Number(longitude), timeZone: logger.timeZone ?? null } : null,
     },
     releases,
     lastReports,
@@ -291,7 +296,7 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
         eligible.push(r);
         basis.set(r.id, `bucket ${bucket} is below ${r.share} % × 100`);
       } else {
-        refuse(r, 'outside_share', `Bucket ${bucket} is not below ${r.share} % × 100 = ${shareThreshold(r.share)}; a wider share may include it.`);
+        refuse(r, 'outside_share', `Later in the rollout order: it will be offered once the share reaches ${wholeShareIncluding(bucket)} % (today ${r.share} %; place ${bucket} of 10 000).`);
       }
     } else {
       eligible.push(r);
@@ -340,7 +345,7 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
         return finish(null);
       }
       if (window.kind === 'window' && (t < window.opens.getTime() || t > window.closes.getTime())) {
-        refuse(pick, 'outside_daylight_window', `The release waits for the daylight window, ${utcClock(window.opens)} to ${utcClock(window.closes)} at the site today.`);
+        refuse(pick, 'outside_daylight_window', `The release waits for the daylight window, ${windowText(window.opens, window.closes, site.timeZone)}.`);
         return finish(null);
       }
     }

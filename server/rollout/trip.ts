@@ -57,6 +57,40 @@ export type TripVerdict =
       figures: TripFigures;
     };
 
+/** A ratio of two non-negative figures, kept as numerator and denominator. */
+type Fraction = { num: number; den: number };
+
+/**
+ * A trip point as an exact fraction of whole numbers, from the shortest decimal that prints it
+ * (1.2 → 12/10, 0.05 → 5/100): the trip points are decimals people type, and a binary float of 1.2
+ * is not exactly 1.2.
+ */
+export function decimalFraction(x: number): Fraction {
+  const text = String(x);
+  const m = /^(\d+)(?:\.(\d+))?$/.exec(text);
+  if (!m) return { num: x, den: 1 }; // exponent form: far outside the trip points' ranges
+  const decimals = m[2] ?? '';
+  return { num: Number(m[1] + decimals), den: 10 ** decimals.length };
+}
+
+/**
+ * Whether a/b > c/d, compared by cross-multiplying (a·d > c·b, for positive b and d), never by dividing:
+ * with whole-number figures the products are exact below 2^53, so a rate exactly at its trip point
+ * (1/20 a logger-day against 1.2 × 1/24) is at it, not a rounding error above it.
+ */
+export function fractionAbove(a: Fraction, b: Fraction): boolean {
+  return a.num * b.den > b.num * a.den;
+}
+
+const times = (f: Fraction, g: Fraction): Fraction => ({ num: f.num * g.num, den: f.den * g.den });
+const RESET_FLOOR_FRACTION = decimalFraction(RESET_RATE_FLOOR);
+
+/** The rate before as judged: the measured rate, or the floor when the measured one is below it. */
+function beforeJudged(r: ResetFigures): Fraction {
+  const measured = { num: r.resetsBefore, den: r.loggerDaysBefore };
+  return r.loggerDaysBefore > 0 && !fractionAbove(RESET_FLOOR_FRACTION, measured) ? measured : RESET_FLOOR_FRACTION;
+}
+
 const pct = (x: number) => `${Number((x * 100).toFixed(1))} %`;
 const rate = (x: number) => Number(x.toFixed(3)).toString();
 
@@ -64,7 +98,8 @@ export function failureRatioVerdict(t: TripPoints, f: FailureFigures): TripVerdi
   const finished = f.installed + f.failed;
   if (finished < t.tripMinReports || finished === 0) return { trip: false };
   const ratio = f.failed / finished;
-  if (ratio <= t.tripFailureRatio) return { trip: false };
+  // Strictly above the trip point, compared exactly (failed × den > num × finished).
+  if (!fractionAbove({ num: f.failed, den: finished }, decimalFraction(t.tripFailureRatio))) return { trip: false };
   return {
     trip: true,
     rule: 'failure_ratio',
@@ -83,7 +118,8 @@ export function resetRateVerdict(t: TripPoints, r: ResetFigures): TripVerdict {
   const after = r.resetsAfter / r.loggerDaysAfter;
   const measuredBefore = r.loggerDaysBefore > 0 ? r.resetsBefore / r.loggerDaysBefore : 0;
   const before = Math.max(measuredBefore, RESET_RATE_FLOOR);
-  if (after <= t.tripResetFactor * before) return { trip: false };
+  // after > factor × before, compared exactly by cross-multiplying the figures and the decimal factor.
+  if (!fractionAbove({ num: r.resetsAfter, den: r.loggerDaysAfter }, times(decimalFraction(t.tripResetFactor), beforeJudged(r)))) return { trip: false };
   return {
     trip: true,
     rule: 'reset_rate',

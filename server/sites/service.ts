@@ -47,6 +47,7 @@ async function present(actor: Actor, sites: Site[], transaction?: Transaction): 
       address: s.address,
       latitude: s.latitude === null ? null : Number(s.latitude),
       longitude: s.longitude === null ? null : Number(s.longitude),
+      minTempC: s.minTempC === null || s.minTempC === undefined ? null : Number(s.minTempC),
       timeZone: s.timeZone,
       notes: s.notes,
       integratorIds: integrators.map((i) => i.id),
@@ -100,6 +101,7 @@ export async function createSite(sequelize: Sequelize, ctx: RequestContext, body
         address: body.address,
         latitude: body.latitude ?? null,
         longitude: body.longitude ?? null,
+        minTempC: body.minTempC ?? null,
         timeZone: body.timeZone,
         notes: body.notes ?? '',
         createdBy: actor.type === 'person' ? actor.id : null,
@@ -142,7 +144,7 @@ export async function updateSite(sequelize: Sequelize, ctx: RequestContext, id: 
       await SiteIntegrator.bulkCreate(body.integratorIds.map((userId) => ({ siteId: id, userId })), { transaction });
       changed.push('integratorIds');
     }
-    const fields = ['name', 'customer', 'address', 'latitude', 'longitude', 'timeZone', 'notes'] as const;
+    const fields = ['name', 'customer', 'address', 'latitude', 'longitude', 'minTempC', 'timeZone', 'notes'] as const;
     const updates: Partial<Record<(typeof fields)[number], unknown>> = {};
     for (const f of fields) {
       if (body[f] !== undefined) {

@@ -46,6 +46,8 @@ describe('database errors made as the driver makes them', () => {
     ['57P01', 'admin_shutdown'],
     ['57P02', 'crash_shutdown'],
     ['57P03', 'cannot_connect_now'],
+    ['40001', 'serialization_failure'],
+    ['40P01', 'deadlock_detected'],
   ])('when PostgreSQL answers %s (%s), then 503 problem+json with Retry-After', async (code) => {
     const res = await request(failingWith(() => wrapped(code, 'server closed the connection'))).get('/fail');
     expect(res.status).toBe(503);

@@ -1,8 +1,8 @@
 // POST /api/device/v1/check-in: authentication, validation, latest state, history and config
 // (DEVICE_API.md is the source of every status and field checked here).
 import { QueryTypes } from 'sequelize';
-import { bearer, CHECK_IN, checkInBody, fleetApp } from './device-fixtures';
-import { Logger } from '../../server/db/models';
+import { bearer, CHECK_IN, checkInBody, createFleet, fleetApp } from './device-fixtures';
+import { Logger, LoggerModel } from '../../server/db/models';
 
 const app = fleetApp();
 
@@ -111,6 +111,15 @@ describe('check-in errors', () => {
       [{ report: { release: '00000000-0000-4000-8000-000000000000', state: 'done' } }, 'report.state'],
       [{ report: { release: '00000000-0000-4000-8000-000000000000', state: 'failed', detail: 'x'.repeat(201) } }, 'report.detail'],
       [{ report: { release: 'ABC', state: 'installed' } }, 'report.release'],
+      // Bounds of what the database keeps (PostgreSQL manual §8.1.1: integer up to 2147483647; bigint far
+      // beyond 2^53 − 1 = 9007199254740991, the largest integer a JSON number carries exactly, I-JSON RFC 7493 §2.2).
+      [{ security_counter: 2 ** 53 }, 'security_counter'],
+      [{ config_version: 2 ** 31 }, 'config_version'],
+      [{ resets_since_last: 2 ** 31 }, 'resets_since_last'],
+      [{ reset_counts: { watchdog: 2 ** 31 } }, 'reset_counts.watchdog'],
+      [{ uptime_s: 2 ** 53 }, 'uptime_s'],
+      // semver.org 2.0.0 admits any run of digits; Heliodor compares numbers up to 2^53 − 1.
+      [{ firmware: '12345678901234567890.0.0' }, 'firmware'],
     ];
     for (const [patch, field] of cases) {
       const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send({ ...checkInBody('2.3.1'), ...patch });
@@ -123,6 +132,32 @@ describe('check-in errors', () => {
     expect(missing.body.errors.map((e: { path: string }) => e.path).sort()).toEqual(['board', 'firmware', 'security_counter']);
   });
 
+  test('when counters reach the largest values the columns hold, then 200 and they are kept exactly', async () => {
+    const lg = await app.fleet.logger();
+    // A time-based security counter (RFC 9124 allows one, docs/SOURCES.md §5) in milliseconds passes 2^31 − 1.
+    for (const securityCounter of [2 ** 31, Number.MAX_SAFE_INTEGER]) {
+      const body = checkInBody('2.3.1', {
+        security_counter: securityCounter,
+        config_version: 2 ** 31 - 1,
+        // Both counted reasons at 2^31 − 1: their sum, 2^32 − 2, is past an integer.
+        reset_counts: { watchdog: 2 ** 31 - 1, brownout: 2 ** 31 - 1 },
+        reset_reason: 'watchdog',
+      });
+      const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(body);
+      expect(res.status).toBe(200);
+      const [row] = await app.t.sequelize.query<{ security_counter: number; config_version: number }>(
+        'SELECT security_counter, config_version FROM loggers WHERE id = :id',
+        { type: QueryTypes.SELECT, replacements: { id: lg.id } },
+      );
+      expect(row).toEqual({ security_counter: securityCounter, config_version: 2 ** 31 - 1 });
+      const [history] = await app.t.sequelize.query<{ security_counter: string }>(
+        'SELECT security_counter::text FROM check_ins WHERE logger_id = :id ORDER BY at DESC LIMIT 1',
+        { type: QueryTypes.SELECT, replacements: { id: lg.id } },
+      );
+      expect(history.security_counter).toBe(String(securityCounter));
+    }
+  });
+
   test('when the body is not JSON, then 400; when it is over 16 KiB, then 413', async () => {
     const lg = await app.fleet.logger();
     const bad = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).set('Content-Type', 'application/json').send('{"firmware": ');
@@ -131,5 +166,25 @@ describe('check-in errors', () => {
     const res = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(big);
     expect(res.status).toBe(413);
     expect(res.headers['content-type']).toMatch(/application\/problem\+json/);
+  });
+});
+
+describe('the supply guard', () => {
+  test('when a logger reports 3.2995 V against a 3.3 V minimum, then it is not offered the update, though its row keeps 3.300 V', async () => {
+    // DEVICE_API.md rule 5: the guard blocks when the supply reported in this check-in is below the model's
+    // minimum. The row keeps millivolts (numeric(6,3)), which rounds 3.2995 to 3.300 (PostgreSQL manual
+    // §8.1.2: numeric rounds ties away from zero); the guard must not see the rounded value.
+    const fleet = await createFleet(app.t);
+    await LoggerModel.update({ minUpdateSupplyV: 3.3 }, { where: { id: fleet.model.id } });
+    const release = await fleet.release({ version: '9.1.0' });
+    const lg = await fleet.logger();
+    const low = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('9.0.0', { supply_v: 3.2995 }));
+    expect(low.status).toBe(200);
+    expect(low.body.offer).toBeNull();
+    const [row] = await app.t.sequelize.query<{ supply_v: string }>('SELECT supply_v::text FROM loggers WHERE id = :id', { type: QueryTypes.SELECT, replacements: { id: lg.id } });
+    expect(row.supply_v).toBe('3.300');
+    // Exactly at the minimum is not below it.
+    const at = await app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('9.0.0', { supply_v: 3.3 }));
+    expect(at.body.offer?.release).toBe(release.id);
   });
 });

@@ -69,12 +69,24 @@ describe('image download', () => {
   });
 
   test('when HEAD is asked, then the same headers as GET and no body (RFC 9110 §9.3.2)', async () => {
-    const res = await t.request().head(url()).set(bearer(lg.token)).set('Range', 'bytes=10-19');
-    expect(res.status).toBe(206);
-    expect(res.headers['content-range']).toBe(`bytes 10-19/${image.length}`);
-    expect(res.headers['content-length']).toBe('10');
+    const res = await t.request().head(url()).set(bearer(lg.token));
+    expect(res.status).toBe(200);
+    expect(res.headers['content-length']).toBe(String(image.length));
+    expect(res.headers['accept-ranges']).toBe('bytes');
     expect(res.headers.etag).toBe(`"${release.sha256}"`);
     expect(res.text ?? '').toBe('');
+  });
+
+  test('when HEAD carries a Range, then the Range is ignored: 200 with the whole Content-Length, never 206 or 416 (RFC 9110 §14.2, docs/SOURCES.md §10)', async () => {
+    // §14.2: "A server MUST ignore a Range header field received with any other request method" than GET.
+    for (const [range, ifRange] of [['bytes=10-19', `"${release.sha256}"`], ['bytes=10-19', undefined], [`bytes=${image.length}-`, undefined]] as const) {
+      const req = t.request().head(url()).set(bearer(lg.token)).set('Range', range);
+      const res = await (ifRange ? req.set('If-Range', ifRange) : req);
+      expect(res.status).toBe(200);
+      expect(res.headers['content-length']).toBe(String(image.length));
+      expect(res.headers['content-range']).toBeUndefined();
+      expect(res.text ?? '').toBe('');
+    }
   });
 
   test('when the range starts past the end, then 416 with Content-Range bytes */size', async () => {

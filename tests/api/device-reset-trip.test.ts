@@ -51,3 +51,22 @@ test('when 20 loggers reset far more often on the new version than on the old on
   expect(transition.actor_type).toBe('system');
   expect(transition.reason).toMatch(/watchdog and brown-out resets rose to 0\.9\d+ per logger-day .* 20 loggers\) from 0\.1 before it \(20 over 200\.0\d* logger-days\)/);
 });
+
+test('when a logger on a confirmed release reports the largest boot counts the contract allows, then the reset rate is judged without overflow (200)', async () => {
+  // Each count may be up to 2^31 − 1 (the API's bound, DEVICE_API.md); two of them, and their sums over
+  // the check-in history, pass a PostgreSQL integer (manual §8.1.1: at most 2147483647).
+  const release = await app.fleet.release({ version: '3.0.0', boards: ['C'], tripMinReports: 1000 });
+  const lg = await app.fleet.logger({ board: 'C' });
+  const start = clock.getTime();
+  const send = (firmware: string, extra: Record<string, unknown> = {}) =>
+    app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody(firmware, { board: 'C', ...extra }));
+  expect((await send('2.9.0')).body.offer?.release).toBe(release.id);
+  await send('2.9.0', { report: { release: release.id, state: 'installed' } }).expect(200);
+  clock = new Date(start + 60_000);
+  await send('3.0.0').expect(200); // confirmed
+  clock = new Date(start + 25 * 3_600_000);
+  const res = await send('3.0.0', { reset_counts: { watchdog: 2 ** 31 - 1, brownout: 2 ** 31 - 1 }, reset_reason: 'watchdog' });
+  expect(res.status).toBe(200);
+  // One logger is below the 20 the rule needs: judged, and not tripped.
+  expect(await stateOf(release.id)).toBe('complete');
+});

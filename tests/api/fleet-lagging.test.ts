@@ -249,12 +249,13 @@ describe('why no update', () => {
     expect(res.body.offer).toEqual({ releaseId: release.r214, version: '2.1.4' });
   });
 
-  test('when support asks about the early logger, then the verdict names the bucket computed by the SHA-256 formula (DEVICE_API.md rule 3)', async () => {
+  test('when support asks about the early logger, then the verdict names, in plain words, the share that will include its bucket computed by the SHA-256 formula (DEVICE_API.md rule 3)', async () => {
     const res = await support.get(`/api/loggers/${logger.early.id}/why`);
     const bucket = createHash('sha256').update(`${logger.early.id}:${release.r300}`).digest().readUInt32BE(0) % 10_000;
     const verdict = res.body.verdicts.find((v: { releaseId: string }) => v.releaseId === release.r300);
     expect(verdict.reason).toBe('outside_share');
-    expect(verdict.detail).toContain(`Bucket ${bucket} `);
+    expect(verdict.detail).toContain(`once the share reaches ${Math.floor(bucket / 100) + 1} %`);
+    expect(verdict.detail).toContain(`place ${bucket} of 10 000`);
   });
 });
 
@@ -318,7 +319,8 @@ describe('overview', () => {
     const res = await support.get('/api/overview');
     expect(res.status).toBe(200);
     const { rows } = await lagging();
-    expect(res.body.fleet.laggingSites).toEqual({ count: rows.length, href: '/lagging' });
+    // The lagging summary is caught up by the request itself on a quiet fleet: as of the request's clock.
+    expect(res.body.fleet.laggingSites).toEqual({ count: rows.length, href: '/lagging', asOf: now.toISOString(), ageS: 0 });
     expect(res.body.fleet.silent).toEqual({ count: 1, href: '/loggers?flag=silent' });
     expect(res.body.fleet.flags.find((f: { flag: string }) => f.flag === 'low_supply')).toEqual({ flag: 'low_supply', count: 1, href: '/loggers?flag=low_supply' });
     const live = res.body.fleet.liveReleases.map((r: { id: string }) => r.id).sort();

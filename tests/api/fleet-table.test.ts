@@ -256,6 +256,11 @@ describe('indexes', () => {
     ['firmware', 'loggers_sort_firmware_idx'],
     ['lastSeen', 'loggers_sort_last_seen_idx'],
     ['supplyV', 'loggers_sort_supply_idx'],
+    ['site', 'loggers_sort_site_idx'],
+    ['customer', 'loggers_sort_customer_idx'],
+    ['model', 'loggers_sort_model_idx'],
+    ['updateState', 'loggers_sort_update_idx'],
+    ['resets24h', 'loggers_sort_resets_idx'],
   ] as const)('when the fleet is read in %s order, then PostgreSQL can walk an index in that order (EXPLAIN)', async (sort, index) => {
     const plan = await t.sequelize.transaction(async (transaction) => {
       // A small table is cheaper to sort than to walk by index; forbid the sort to see whether the index can serve the order.

@@ -158,7 +158,23 @@ describe('enrollment', () => {
     expect(res.body.errors).toHaveLength(1);
     expect(res.body.errors[0].path).toBe('panelVocV');
     expect(res.body.errors[0].message).toContain('36 V');
-    expect(res.body.detail).toContain('bus limit');
+    expect(res.body.detail).toContain('panel voltage limit');
+  });
+
+  test('when the site is cold enough that the panel voltage rises above the 36 V limit, then 400 names panelVocV and nothing is enrolled', async () => {
+    // 33.0 V × (1 + (−0.30/100) × (−10 − 25)) = 33.0 × 1.105 = 36.465 V > 36 V (IEC 62548, NEC 2023 690.7(A); docs/SOURCES.md §14).
+    const logger = await freshLogger();
+    const { agent } = await demoAgent(t, 'Morgan');
+    const site = await agent.post('/api/sites').set(csrf).send({ name: 'Aldmere Cold Barn', customer: 'Fernhollow Energy Co-op', address: 'Aldmere Vale', timeZone: 'Europe/London', minTempC: -10 });
+    expect(site.status).toBe(201);
+    expect(site.body.minTempC).toBe(-10);
+    const res = await agent.post('/api/enrollments').set(csrf).send({ ...tableOneInstall, panelVocV: 33, vocTempCoeffPctPerC: -0.3, token: logger.token, siteId: site.body.id });
+    expect(res.status).toBe(400);
+    expect(res.headers['content-type']).toContain('application/problem+json');
+    expect(res.body.errors[0].path).toBe('panelVocV');
+    expect(res.body.errors[0].message).toContain("Above the logger's input rating — do not connect");
+    const lookup = await agent.post('/api/enrollments/lookup').set(csrf).send({ token: logger.token });
+    expect(lookup.body.logger.status).toBe('registered');
   });
 
   test('when the model does not allow the probe resolution, then 400 names the resolutions it allows', async () => {

@@ -1,8 +1,9 @@
 // Numbers in a manifest beyond what Heliodor keeps or compares are refused at upload with a problem that
-// names the field, and nothing is stored. Sources: the security counter is a PostgreSQL integer
-// (PostgreSQL manual §8.1.1: −2147483648 to +2147483647); version numbers are bounded to 2^53 − 1, the
-// largest integer I-JSON (RFC 7493 §2.2) carries exactly, while semver.org 2.0.0's grammar itself has
-// no bound (its BNF <numeric identifier> is any run of digits).
+// names the field, and nothing is stored. Sources: the security counter may be time-based (RFC 9124,
+// docs/SOURCES.md §5), so it passes a PostgreSQL integer (PostgreSQL manual §8.1.1: up to +2147483647) and
+// is kept as a bigint, bounded like version numbers to 2^53 − 1, the largest integer I-JSON (RFC 7493
+// §2.2) carries exactly; semver.org 2.0.0's grammar itself has no bound (its BNF <numeric identifier> is
+// any run of digits).
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
 import { demoModel, keyPair, postUpload, registerKey, signedUpload, storeEntries, tableCount, type KeyPair } from './release-fixtures';
 
@@ -35,15 +36,21 @@ async function expectRefusedOn(upload: ReturnType<typeof signedUpload>, field: s
 }
 
 describe('bounds of a manifest at upload', () => {
-  test('when the security counter is 2^31 (2147483648), one above a PostgreSQL integer, then it is refused on manifest.security_counter', async () => {
-    const res = await expectRefusedOn(signedUpload(key, { model: modelId, version: '2.5.0', counter: 2 ** 31 }), 'manifest.security_counter');
-    expect(JSON.stringify(res.body)).toContain('2147483647');
+  test('when the security counter is 2^53 (9007199254740992), one above what JSON carries exactly, then it is refused on manifest.security_counter', async () => {
+    const res = await expectRefusedOn(signedUpload(key, { model: modelId, version: '2.5.0', counter: 2 ** 53 }), 'manifest.security_counter');
+    expect(JSON.stringify(res.body)).toContain('9007199254740991');
   });
 
-  test('when the security counter is 2^31 − 1, then it is accepted (201)', async () => {
-    const res = await postUpload(engineer.post('/api/releases').set(csrf), signedUpload(key, { model: modelId, version: '2.6.0', counter: 2 ** 31 - 1 }));
+  test('when the security counter is 2^31 (2147483648), one above a PostgreSQL integer, then it is accepted (201) and kept exactly', async () => {
+    const res = await postUpload(engineer.post('/api/releases').set(csrf), signedUpload(key, { model: modelId, version: '2.6.0', counter: 2 ** 31 }));
     expect(res.status).toBe(201);
-    expect(res.body.securityCounter).toBe(2147483647);
+    expect(res.body.securityCounter).toBe(2147483648);
+  });
+
+  test('when the security counter is 2^53 − 1, then it is accepted (201) and kept exactly', async () => {
+    const res = await postUpload(engineer.post('/api/releases').set(csrf), signedUpload(key, { model: modelId, version: '2.6.1', counter: Number.MAX_SAFE_INTEGER }));
+    expect(res.status).toBe(201);
+    expect(res.body.securityCounter).toBe(9007199254740991);
   });
 
   test.each([

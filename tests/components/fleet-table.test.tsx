@@ -5,6 +5,7 @@ import React from 'react';
 import { act } from 'react';
 import { render } from './render';
 import { FleetTable, choosableColumns } from '../../components/fleet-table';
+import { countText, Pager } from '../../components/fleet-controls';
 import type { FleetRow } from '../../hooks/fleet';
 
 const row = (i: number, over: Partial<FleetRow> = {}): FleetRow => ({
@@ -87,5 +88,19 @@ describe('fleet table', () => {
   test('when the column chooser lists columns, then it offers every shown column but the serial', () => {
     expect(choosableColumns.map((c) => c.label)).toEqual(['Site', 'Customer', 'Model', 'Board', 'Channel', 'Firmware', 'Update', 'Last seen', 'Supply', 'Resets 24 h', 'Flags']);
     expect(choosableColumns.map((c) => c.id)).toEqual(['site', 'customer', 'model', 'board', 'channel', 'firmware', 'updateState', 'lastSeen', 'supplyV', 'resets24h', 'flags']);
+  });
+});
+
+describe('fleet pager', () => {
+  test('when the total is the database estimate, then the range says "about" with two figures, digits grouped in threes (common practice)', () => {
+    const view = render(<Pager total={100_412} totalIsEstimate page={1} pageSize={25} onPage={jest.fn()} wide />);
+    expect(view.byTestId('pager-range').textContent).toBe('1–25 of about 100\u00a0000');
+    expect(countText(8_332, true)).toBe('about 8\u00a0300');
+  });
+
+  test('when the total is exact, then the range shows it as it is', () => {
+    const view = render(<Pager total={36} page={2} pageSize={25} onPage={jest.fn()} wide />);
+    expect(view.byTestId('pager-range').textContent).toBe('26–36 of 36');
+    expect(countText(8_332)).toBe('8332');
   });
 });

@@ -59,6 +59,7 @@ describe('site form', () => {
       latitude: 52.1412,
       longitude: -1.9821,
       timeZone: 'Europe/London',
+      minTempC: null, // the lowest expected temperature left empty
       notes: '',
     });
     view.unmount();

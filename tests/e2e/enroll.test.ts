@@ -102,6 +102,7 @@ test('when the camera sees a logger label, then the integrator enrolls it at a s
   await page.getByTestId('max-current').fill('20');
   // INA226 data sheet, Table 1 (worked example): R_SHUNT = 2 mΩ at 1 mA/bit gives CAL = 2560. 20 A needs at
   // least 20 / 2^15 = 610 µA/bit, rounded up to 1 mA/bit; 20 A × 2 mΩ = 40 mV (Ohm's law) of the 81.92 mV full scale.
+  await page.getByTestId('calibration-details').click(); // register values sit behind Details
   await expect(page.getByTestId('calibration-value').innerText()).resolves.toBe('2560');
   await page.getByText('full scale 40 mV of 81.92 mV').waitFor();
   await page.getByText('Isolate the array first', { exact: false }).waitFor();
@@ -173,7 +174,7 @@ test("when a signed-out integrator opens a label's link, then after sign-in the 
   await page.getByTestId('panel-voc').fill('48');
   // 10 A × 100 mΩ = 1 V across the shunt, far above the 81.92 mV full scale; 48 V is above the model's 36 V bus limit.
   await page.getByText('the power-monitor chip measures at most 81.9175 mV', { exact: false }).waitFor();
-  await page.getByText("above this model's bus limit of 36 V", { exact: false }).waitFor();
+  await page.getByText("above this model's panel voltage limit of 36 V", { exact: false }).waitFor();
   await screenshot(page, 'enroll-refusals-wide');
   await context.close();
 });
@@ -196,6 +197,7 @@ test('when an admin changes an enrolled logger’s profile, then the new version
   await page.getByTestId('change-profile').click();
   await page.getByTestId('profile-shunt').fill('1');
   // INA226 data sheet, Equation 1: CAL = 0.00512 / (Current_LSB × R_SHUNT) = 0.00512 / (1 mA × 1 mΩ) = 5120.
+  await page.getByTestId('calibration-details').click(); // register values sit behind Details
   await expect(page.getByTestId('calibration-value').innerText()).resolves.toBe('5120');
   await screenshot(page, 'logger-profile-edit-wide');
   await page.getByTestId('profile-save').click();

@@ -10,6 +10,23 @@ const session = browserApp({ seed: 'demo' });
 const siteName = 'Brackenford Pump House';
 type Note = { id: string; text: string; authorName: string; createdAt: string };
 
+/**
+ * London wall-clock time worked out from the tz database's rules (docs/SOURCES.md §18), written here
+ * without Intl: `Zone Europe/London 0:00 EU GMT/BST`, `Rule EU … Mar lastSun 1:00u 1:00 S` and
+ * `Rule EU … Oct lastSun 1:00u 0 -`: BST (UTC+1) from 01:00 UTC on the last Sunday of March to 01:00 UTC
+ * on the last Sunday of October, GMT otherwise.
+ */
+function londonTime(iso: string): string {
+  const t = new Date(iso);
+  const lastSunday = (month: number) => {
+    const last = new Date(Date.UTC(t.getUTCFullYear(), month + 1, 0, 1)); // the month's last day, 01:00 UTC
+    return Date.UTC(t.getUTCFullYear(), month, last.getUTCDate() - last.getUTCDay(), 1);
+  };
+  const summer = t.getTime() >= lastSunday(2) && t.getTime() < lastSunday(9);
+  const local = new Date(t.getTime() + (summer ? 3_600_000 : 0));
+  return `${local.toISOString().replace('T', ' ').slice(0, 16)} ${summer ? 'BST' : 'GMT'}`;
+}
+
 async function siteId(): Promise<string> {
   const [[row]] = (await session.t.sequelize.query('SELECT id FROM sites WHERE name = :name', { replacements: { name: siteName } })) as [{ id: string }[], unknown];
   return row.id;
@@ -47,7 +64,9 @@ describe.each(Object.entries(viewports))('site notes at %s size', (size, viewpor
     const shown = await list.getByRole('listitem').evaluateAll((els) => els.map((e) => (e as HTMLElement).innerText));
     expect(shown).toHaveLength(Math.min(total, 20));
     shown.forEach((item, i) => expect(item).toContain(rows[i].text));
-    expect(shown[0]).toContain(`${rows[0].authorName} · ${rows[0].createdAt.replace('T', ' ').slice(0, 16)} UTC`);
+    // The demo sites are in Europe/London: the note is dated in site time, UTC beside it on wide screens.
+    const utc = `${rows[0].createdAt.replace('T', ' ').slice(0, 16)} UTC`;
+    expect(shown[0]).toContain(`${rows[0].authorName} · ${londonTime(rows[0].createdAt)}${size === 'wide' ? ` · ${utc}` : ''}`);
     await list.scrollIntoViewIfNeeded();
     await screenshot(page, `site-notes-${size}`);
     expect(errors).toEqual([]);

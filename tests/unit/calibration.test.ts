@@ -1,6 +1,10 @@
 import fc from 'fast-check';
 import {
+  ABOVE_RATING,
   calibrationFor,
+  coldVoc,
+  necVocFactor,
+  probeStepText,
   convenientCurrentLsb,
   measurementProfile,
   minimumCurrentLsb,
@@ -257,5 +261,63 @@ describe('shared install and registration schemas', () => {
     expect(parsed).toEqual({ serial: 'FL2-AV-0001', modelId: '5b0e6f0a-2c1d-4e8f-9a3b-7c6d5e4f3a21', board: 'B', channel: 'stable' });
     expect(registerLoggerRequest.safeParse({ ...parsed, channel: 'beta' }).success).toBe(false);
     expect(registerLoggerRequest.safeParse({ ...parsed, serial: 'FL 2' }).success).toBe(false);
+  });
+});
+
+// Open-circuit voltage in the cold: Voc,max = Voc,STC × (1 + β/100 × (Tmin − 25 °C)) (IEC 62548; NEC 2023
+// 690.7(A)(1); docs/SOURCES.md §14), and NEC 2023 Table 690.7(A) when β is not known (factors from memory).
+describe('open-circuit voltage in the cold', () => {
+  test('when β and Tmin are given, then Voc,max follows the coefficient formula (worked by hand)', () => {
+    // 22.0 × (1 + (−0.30/100) × (−10 − 25)) = 22.0 × (1 + 0.105) = 22.0 × 1.105 = 24.31 V.
+    const cold = coldVoc(22.0, -0.3, -10);
+    expect(cold).toMatchObject({ basis: 'coefficient', factor: 1.105, vocMaxV: 24.31 });
+    // 22.0 × (1 + 0.003 × 40) = 22.0 × 1.12 = 24.64 V (docs/SOURCES.md §14 example, −15 °C).
+    expect(coldVoc(22.0, -0.3, -15)).toMatchObject({ factor: 1.12, vocMaxV: 24.64 });
+    // 40.0 × (1 + 0.0035 × 45) = 40.0 × 1.1575 = 46.3 V.
+    expect(coldVoc(40.0, -0.35, -20)).toMatchObject({ factor: 1.1575, vocMaxV: 46.3 });
+  });
+
+  test('when the site is warmer than 25 °C, then the nameplate value is kept (never lowered)', () => {
+    expect(coldVoc(22.0, -0.3, 30)).toMatchObject({ factor: 1, vocMaxV: 22 });
+  });
+
+  test('when β is unknown, then the NEC 2023 Table 690.7(A) factor applies at each band edge (from memory)', () => {
+    // Table 690.7(A), crystalline silicon, lowest expected ambient in °C — values from memory (docs/SOURCES.md §14).
+    const edges: [number, number][] = [
+      [25, 1], [24, 1.02], [20, 1.02], [19, 1.04], [15, 1.04], [14, 1.06], [10, 1.06], [9, 1.08], [5, 1.08],
+      [4, 1.1], [0, 1.1], [-1, 1.12], [-5, 1.12], [-6, 1.14], [-10, 1.14], [-11, 1.16], [-15, 1.16],
+      [-16, 1.18], [-20, 1.18], [-21, 1.2], [-25, 1.2], [-26, 1.21], [-30, 1.21], [-31, 1.23], [-35, 1.23],
+      [-36, 1.25], [-40, 1.25],
+    ];
+    for (const [tmin, factor] of edges) expect([tmin, necVocFactor(tmin)]).toEqual([tmin, factor]);
+    // Between two bands' whole degrees the colder band's factor: the safe side.
+    expect(necVocFactor(19.5)).toBe(1.04);
+    expect(necVocFactor(-40.5)).toBeNull();
+    // 22.0 V × 1.14 at −10 °C = 25.08 V.
+    expect(coldVoc(22.0, null, -10)).toMatchObject({ basis: 'table', factor: 1.14, vocMaxV: 25.08 });
+  });
+
+  test('when the site temperature is unknown, then the nameplate only is checked and the note asks for it', () => {
+    const cold = coldVoc(22.0, -0.3, null);
+    expect(cold).toMatchObject({ basis: 'nameplate', factor: 1, vocMaxV: 22 });
+    expect((cold as { note: string }).note).toContain("site's lowest expected temperature");
+  });
+
+  test('when the cold voltage is above the panel voltage limit, then the profile is refused on panelVocV with "do not connect"', () => {
+    // 33.0 × (1 + 0.003 × 35) = 33.0 × 1.105 = 36.465 V > 36 V (SBOS547 bus range), though 33 V alone fits.
+    expect(measurementProfile(install({ panelVocV: 33 }), chipLimits).ok).toBe(true);
+    const errors = errorsOf({ panelVocV: 33, vocTempCoeffPctPerC: -0.3, siteMinTempC: -10 });
+    expect(errors).toHaveLength(1);
+    expect(errors[0].path).toBe('panelVocV');
+    expect(errors[0].message).toContain(ABOVE_RATING);
+    expect(errors[0].message).toContain('36.47 V');
+    // 32.0 × 1.105 = 35.36 V stays under 36 V: accepted, and the note shows the figure.
+    const ok = measurementProfile(install({ panelVocV: 32, vocTempCoeffPctPerC: -0.3, siteMinTempC: -10 }), chipLimits);
+    expect(ok.ok && ok.coldVoc.vocMaxV).toBe(35.36);
+  });
+
+  test('when the probe resolution is shown, then it is in °C steps from the probe data sheet table', () => {
+    // Probe data sheet resolution table (docs/SOURCES.md §9): 9 bits 0.5 °C … 12 bits 0.0625 °C.
+    expect([9, 10, 11, 12].map(probeStepText)).toEqual(['0.5 °C steps', '0.25 °C steps', '0.125 °C steps', '0.0625 °C steps']);
   });
 });

@@ -1,6 +1,6 @@
 import { createHash } from 'node:crypto';
 import fc from 'fast-check';
-import { BUCKETS, bucketOf, inShare, shareThreshold } from '../../server/rollout/cohort';
+import { BUCKETS, bucketOf, inShare, shareThreshold, wholeShareIncluding } from '../../server/rollout/cohort';
 
 // Bucket formula: DEVICE_API.md "Who gets an offer", rule 3 — first 4 bytes of
 // SHA-256(`<logger id>:<release id>`) as an unsigned big-endian integer, mod 10 000.
@@ -106,5 +106,27 @@ describe('rollout share buckets', () => {
     { share: 100, threshold: 10000 },
   ])('when the share is $share %, then the first bucket outside it is $threshold (share × 100 in decimal)', ({ share, threshold }) => {
     expect(shareThreshold(share)).toBe(threshold);
+  });
+});
+
+describe('the share that includes a bucket, for installers', () => {
+  // The rule it must agree with: a bucket is inside when bucket < share × 100 (DEVICE_API.md rule 3).
+  test.each([
+    { bucket: 0, share: 1 },
+    { bucket: 99, share: 1 },
+    { bucket: 100, share: 2 },
+    { bucket: 6731, share: 68 },
+    { bucket: 9999, share: 100 },
+  ])('when the bucket is $bucket, then it joins at a share of $share %', ({ bucket, share }) => {
+    expect(wholeShareIncluding(bucket)).toBe(share);
+  });
+
+  test('when any bucket is checked, then the whole share named includes it and the one below does not', () => {
+    const misses: number[] = [];
+    for (let bucket = 0; bucket < BUCKETS; bucket++) {
+      const share = wholeShareIncluding(bucket);
+      if (!inShare(bucket, share) || inShare(bucket, share - 1)) misses.push(bucket);
+    }
+    expect(misses).toEqual([]);
   });
 });

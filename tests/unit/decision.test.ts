@@ -323,6 +323,21 @@ describe('offer decision', () => {
       expect(single(d)).toEqual({ reason, offered: reason === 'offered' });
     });
 
+    test('when the site has a time zone, then the window is told in site time with UTC beside it (Europe/London in June: BST, UTC+1)', () => {
+      // suncalc's sunrise and sunset (the reference above) ± 1 h; the EU rule of the tz database puts
+      // London on BST, UTC+1, between the last Sundays of March and October (docs/SOURCES.md §18).
+      const june = new Date('2026-06-21T12:00:00Z');
+      const times = getTimes(june, VALE.latitude, VALE.longitude);
+      const hhmm = (d: Date, plusHours: number) => new Date(d.getTime() + plusHours * 3_600_000).toISOString().slice(11, 16);
+      const opens = at(times.sunrise, 60);
+      const closes = at(times.sunset, -60);
+      const d = decide({ logger: { siteCoordinates: { ...VALE, timeZone: 'Europe/London' } }, releases: [release({ daylightWindow: true })], now: new Date('2026-06-21T00:30:00Z') });
+      expect(single(d).reason).toBe('outside_daylight_window');
+      expect(d.considered[0].detail).toBe(
+        `The release waits for the daylight window, ${hhmm(opens, 1)} BST to ${hhmm(closes, 1)} BST at the site today (${hhmm(opens, 0)} UTC to ${hhmm(closes, 0)} UTC).`,
+      );
+    });
+
     test('when the release does not ask for the window, then it is offered at midnight', () => {
       const d = decide({ releases: [release({ daylightWindow: false })], now: new Date('2026-11-30T00:00:00Z') });
       expect(single(d)).toEqual({ reason: 'offered', offered: true });

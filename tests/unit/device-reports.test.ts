@@ -124,6 +124,40 @@ describe('trip points', () => {
     expect(resetRateVerdict(release, { ...resets, resetsBefore: 0, loggerDaysBefore: 20, resetsAfter: 500 }).trip).toBe(true);
     expect(tripGauges(release, { installed: 0, failed: 0 }, { ...resets, loggerDaysBefore: 0, resetsAfter: 500 }).resetRate).toMatchObject({ judged: false, over: false, minLoggerDaysBefore: 20 });
   });
+  test('when the reset rate is exactly the factor 1.2 × the rate before (1/20 against 1/24 a logger-day), then no stop; just above it, then stop', () => {
+    // Exact arithmetic (our worked figures): 1.2 × 1/24 = 12/240 = 1/20, so 1 reset over 20 logger-days is
+    // at the trip point, not above it. In binary floating point 1.2 × (1/24) is 0.049999999999999996 (IEEE 754
+    // doubles, as Node computes them), just below 1/20 = 0.05, which a division-based comparison reads as above.
+    expect(1.2 * (1 / 24)).toBeLessThan(1 / 20);
+    const points = { ...release, tripResetFactor: 1.2 };
+    const atPoint = { loggers: 20, resetsAfter: 1, loggerDaysAfter: 20, resetsBefore: 1, loggerDaysBefore: 24 };
+    expect(resetRateVerdict(points, atPoint).trip).toBe(false);
+    expect(tripGauges(points, { installed: 0, failed: 0 }, atPoint).resetRate.over).toBe(false);
+    // The same rate scaled up (50 over 1000 logger-days), still exactly at the point.
+    expect(resetRateVerdict(points, { ...atPoint, resetsAfter: 50, loggerDaysAfter: 1000 }).trip).toBe(false);
+    // Just above: 1001 resets over 20 000 logger-days = 0.05005 a day > 0.05.
+    expect(resetRateVerdict(points, { ...atPoint, resetsAfter: 1001, loggerDaysAfter: 20_000 })).toMatchObject({ trip: true, rule: 'reset_rate' });
+    expect(tripGauges(points, { installed: 0, failed: 0 }, { ...atPoint, resetsAfter: 1001, loggerDaysAfter: 20_000 }).resetRate.over).toBe(true);
+  });
+
+  test('when the floor is the rate before and the rate after is exactly the factor times it, then no stop; one more reset, then stop', () => {
+    // Floor 1 per 100 logger-days (our rule); factor 1.1: 1.1 × 0.01 × 1000 logger-days = 11 resets exactly.
+    // In floating point 1.1 × 0.01 is 0.011000000000000001, so 11/1000 = 0.011 would read as below it.
+    const points = { ...release, tripResetFactor: 1.1 };
+    const figures = { loggers: 20, resetsAfter: 11, loggerDaysAfter: 1000, resetsBefore: 0, loggerDaysBefore: 100 };
+    expect(resetRateVerdict(points, figures).trip).toBe(false);
+    expect(resetRateVerdict(points, { ...figures, resetsAfter: 12 }).trip).toBe(true);
+    // A measured rate exactly at the floor (1 per 100) is the floor.
+    expect(resetRateVerdict(points, { ...figures, resetsBefore: 1 }).trip).toBe(false);
+  });
+
+  test('when the failure ratio is exactly a trip point that is not a binary fraction (3 of 10 against 0.3), then no stop; 4 of 13, then stop', () => {
+    // 3/10 and 0.3 are the same decimal; 0.1 + 0.2 = 0.30000000000000004 shows that sums of such decimals drift in binary.
+    const points = { ...release, tripFailureRatio: 0.3, tripMinReports: 10 };
+    expect(failureRatioVerdict(points, { installed: 7, failed: 3 }).trip).toBe(false);
+    expect(failureRatioVerdict(points, { installed: 9, failed: 4 }).trip).toBe(true); // 4/13 = 30.8 %
+  });
+
   test('the failure ratio is judged first', () => {
     expect(evaluateTrips(release, { installed: 0, failed: 20 }, { ...resets, resetsAfter: 100 })).toMatchObject({ rule: 'failure_ratio' });
   });

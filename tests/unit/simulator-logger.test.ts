@@ -141,6 +141,18 @@ describe('the virtual logger checking in', () => {
     expect(server.checkIns()[1].config_version).toBe(3);
   });
 
+  test('when the server refuses a report with 409 (a release not offered to this logger), then the logger drops it and the next check-in carries no report', async () => {
+    // DEVICE_API.md, "Install report": a refused report is dropped, or every check-in would carry it again.
+    const server = fakeServer();
+    const { logger } = makeLogger(server);
+    server.answers.push({ status: 409, body: { type: 'https://heliodor.example/problems/conflict', title: 'Conflict', status: 409 } });
+    const delivered = await logger.report({ release: RELEASE, state: 'failed', reason: 'storage' });
+    expect(delivered).toBe(false);
+    expect(logger.pendingReport).toBeNull();
+    await logger.checkIn(logger.nextCheckInAt);
+    expect(server.checkIns()[1].report).toBeUndefined();
+  });
+
   test('when the server refuses the token (401), then the logger stops checking in', async () => {
     const server = fakeServer();
     const { logger } = makeLogger(server);

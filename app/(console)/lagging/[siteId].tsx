@@ -27,7 +27,7 @@ export default function LaggingSitePage() {
         onOpenSite={(id) => router.push(`/sites/${id}` as never)}
         onBack={() => router.push('/lagging' as never)}
       />
-      {site.data ? <SiteNotes {...notes} /> : null}
+      {site.data ? <SiteNotes {...notes} timeZone={site.data.timeZone} /> : null}
     </View>
   );
 }

@@ -85,7 +85,7 @@ export default function LoggerPage() {
       move={{ busy: move.isPending, error: move.error, run: (siteId) => move.mutate({ siteId }), sites: sites.data?.rows ?? [] }}
       profile={{ busy: changeProfile.isPending, error: changeProfile.error, run: (input) => changeProfile.mutate(input), limits: model.data }}
       photoUrl={photoUrl(id)}
-      fleet={<LoggerFleet loggerId={id} canNote={logger.data?.can.addNote ?? false} />}
+      fleet={<LoggerFleet loggerId={id} canNote={logger.data?.can.addNote ?? false} timeZone={logger.data?.site?.timeZone} />}
     />
   );
 }

@@ -29,7 +29,7 @@ export default function SitePage() {
         intervals={intervals}
         onOpenLogger={(loggerId) => router.push(`/loggers/${loggerId}` as never)}
       />
-      {site.data ? <SiteNotes {...notes} /> : null}
+      {site.data ? <SiteNotes {...notes} timeZone={site.data.timeZone} /> : null}
     </View>
   );
 }

@@ -11,7 +11,12 @@ import * as m0008 from './0008_metrics_scope';
 import * as m0009 from './0009_team';
 import * as m0010 from './0010_logger_batches';
 import * as m0011 from './0011_function_search_path';
+import * as m0012 from './0012_device_bounds';
+import * as m0013 from './0013_fleet_keys';
+import * as m0014 from './0014_summaries';
 import * as m0016 from './0016_release_trust';
+import * as m0017 from './0017_enrollment_requests';
+import * as m0018 from './0018_site_min_temp';
 
 export type Migration = {
   name: string;
@@ -31,5 +36,10 @@ export const migrations: Migration[] = [
   { name: '0009_team', ...m0009 },
   { name: '0010_logger_batches', ...m0010 },
   { name: '0011_function_search_path', ...m0011 },
+  { name: '0012_device_bounds', ...m0012 },
+  { name: '0013_fleet_keys', ...m0013 },
+  { name: '0014_summaries', ...m0014 },
   { name: '0016_release_trust', ...m0016 },
+  { name: '0017_enrollment_requests', ...m0017 },
+  { name: '0018_site_min_temp', ...m0018 },
 ];

@@ -46,7 +46,7 @@ export function initDeviceModels(sequelize: Sequelize) {
       at: { type: DataTypes.DATE, allowNull: false },
       firmware: { type: DataTypes.TEXT, allowNull: false },
       board: { type: DataTypes.TEXT, allowNull: false },
-      securityCounter: { type: DataTypes.INTEGER, allowNull: false },
+      securityCounter: { type: DataTypes.BIGINT, allowNull: false },
       supplyV: { type: DataTypes.DOUBLE, allowNull: true },
       readings: { type: DataTypes.JSONB, allowNull: true },
       resetReason: { type: DataTypes.TEXT, allowNull: true },

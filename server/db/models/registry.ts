@@ -27,6 +27,7 @@ export class Site extends Model<InferAttributes<Site>, InferCreationAttributes<S
   declare address: CreationOptional<string>;
   declare latitude: number | null;
   declare longitude: number | null;
+  declare minTempC: number | null;
   declare timeZone: CreationOptional<string>;
   declare notes: CreationOptional<string>;
   declare createdBy: string | null;
@@ -109,6 +110,7 @@ export function initRegistryModels(sequelize: Sequelize) {
       address: { type: DataTypes.TEXT, allowNull: false, defaultValue: '' },
       latitude: num(true),
       longitude: num(true),
+      minTempC: num(true),
       timeZone: { type: DataTypes.TEXT, allowNull: false, defaultValue: 'UTC' },
       notes: { type: DataTypes.TEXT, allowNull: false, defaultValue: '' },
       createdBy: { type: DataTypes.UUID, allowNull: true },

@@ -101,7 +101,8 @@ export class InstallReport extends Model<InferAttributes<InstallReport>, InferCr
   declare state: InstallReportState;
   declare reason: string | null;
   declare detail: string | null;
-  declare offeredAt: Date;
+  /** The first offer to this logger; null for a report about the release it runs, which was never offered to it. */
+  declare offeredAt: Date | null;
   declare updatedAt: Date;
   declare finishedAt: Date | null;
   declare confirmedAt: Date | null;
@@ -175,7 +176,7 @@ export function initReleaseModels(sequelize: Sequelize) {
       tripFailureRatio: numeric('tripFailureRatio', 0.05),
       tripMinReports: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 20 },
       tripResetFactor: numeric('tripResetFactor', 2),
-      securityCounter: { type: DataTypes.INTEGER, allowNull: false },
+      securityCounter: { type: DataTypes.BIGINT, allowNull: false },
       imageSha256: { type: DataTypes.CHAR(64), allowNull: false },
       manifest: { type: DataTypes.BLOB, allowNull: false },
       signature: { type: DataTypes.BLOB, allowNull: false },
@@ -223,7 +224,7 @@ export function initReleaseModels(sequelize: Sequelize) {
       state: { type: DataTypes.TEXT, allowNull: false },
       reason: { type: DataTypes.TEXT, allowNull: true },
       detail: { type: DataTypes.TEXT, allowNull: true },
-      offeredAt: date(false),
+      offeredAt: date(),
       updatedAt: date(false),
       finishedAt: date(),
       confirmedAt: date(),
