@@ -1,5 +1,5 @@
 // Models and their board revisions; admins add and edit them (limits of the measurement hardware,
-// supply guard, check-in interval).
+// supply guard, check-in interval). The signing rule is changed on the model's signing page (model-signing.tsx).
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
 import { Page } from './shell';
@@ -18,8 +18,11 @@ export function ModelsScreen({
   canCreate,
   create,
   update,
+  onOpenSigning,
 }: {
   state: QueryState<List<Model>>;
+  /** Opens a model's signing rule and trust sets (admins and release engineers, who hold the keys). */
+  onOpenSigning?: (id: string) => void;
   /** Whether the person may add models (the session's `can.createModel`); editing one follows its own `can`. */
   canCreate: boolean;
   create: Save;
@@ -46,7 +49,7 @@ export function ModelsScreen({
                     <ModelForm initial={m} submitLabel="Save changes" save={update(m.id)} onDone={() => setEditing(null)} onCancel={() => setEditing(null)} />
                   </Card>
                 ) : (
-                  <ModelCard key={m.id} model={m} onEdit={m.can.edit ? () => setEditing(m.id) : undefined} />
+                  <ModelCard key={m.id} model={m} onEdit={m.can.edit ? () => setEditing(m.id) : undefined} onOpenSigning={onOpenSigning ? () => onOpenSigning(m.id) : undefined} />
                 ),
               )}
             </View>
@@ -59,7 +62,7 @@ export function ModelsScreen({
   );
 }
 
-function ModelCard({ model, onEdit }: { model: Model; onEdit?: () => void }) {
+function ModelCard({ model, onEdit, onOpenSigning }: { model: Model; onEdit?: () => void; onOpenSigning?: () => void }) {
   return (
     <Card>
       <Row style={{ justifyContent: 'space-between' }} wrap>
@@ -81,10 +84,11 @@ function ModelCard({ model, onEdit }: { model: Model; onEdit?: () => void }) {
         <Fact label="Shunt full scale">{`${Number((model.shuntFullScaleV * 1000).toPrecision(4))} mV`}</Fact>
         <Fact label="Probe resolutions">{`${model.tempResolutions.join(', ')} bits`}</Fact>
       </View>
-      {onEdit ? (
-        <View style={{ alignSelf: 'flex-start' }}>
-          <Button label="Edit" variant="secondary" onPress={onEdit} />
-        </View>
+      {onEdit || onOpenSigning ? (
+        <Row wrap>
+          {onOpenSigning ? <Button label="Signing and trust set" variant="secondary" onPress={onOpenSigning} testID={`model-signing-${model.name}`} /> : null}
+          {onEdit ? <Button label="Edit" variant="secondary" onPress={onEdit} /> : null}
+        </Row>
       ) : null}
     </Card>
   );
@@ -109,7 +113,6 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
   const [bus, setBus] = React.useState(String(initial?.busVMax ?? '36'));
   const [shuntMv, setShuntMv] = React.useState(initial ? String(Number((initial.shuntFullScaleV * 1000).toPrecision(6))) : '81.92');
   const [bits, setBits] = React.useState<number[]>(initial?.tempResolutions ?? [9, 10, 11, 12]);
-  const [threshold, setThreshold] = React.useState(String(initial?.signingThreshold ?? 1));
   const [local, setLocal] = React.useState<Record<string, string>>({});
   const error = save.error as ApiError | null;
   const fe = (p: string) => local[p] ?? error?.field?.(p);
@@ -122,7 +125,6 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
       if (!(num(v) > 0)) problems[k] = 'must be a number above 0';
     }
     if (!bits.length) problems.tempResolutions = 'allow at least one resolution';
-    if (initial && !(Number.isInteger(num(threshold)) && num(threshold) >= 1)) problems.signingThreshold = 'must be a whole number of keys, 1 or more';
     setLocal(problems);
     if (Object.keys(problems).length) return;
     save.run(
@@ -134,8 +136,6 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
         busVMax: num(bus),
         shuntFullScaleV: Number((num(shuntMv) / 1000).toPrecision(12)),
         tempResolutions: [...bits].sort((a, b) => a - b),
-        // Changing the signing rule asks for a new trust set; only a change is sent.
-        ...(initial && num(threshold) !== initial.signingThreshold ? { signingThreshold: num(threshold) } : {}),
       },
       onDone,
     );
@@ -175,18 +175,6 @@ function ModelForm({ initial, submitLabel, save, onDone, onCancel }: { initial?:
         <Half>
           <Field label="Shunt full scale (mV)" value={shuntMv} onChangeText={setShuntMv} inputMode="decimal" error={fe('shuntFullScaleV')} />
         </Half>
-        {initial ? (
-          <Half>
-            <Field
-              label="Signatures each release needs"
-              value={threshold}
-              onChangeText={setThreshold}
-              inputMode="numeric"
-              error={fe('signingThreshold')}
-              hint="Distinct registered keys, not revoked; a change waits for the signers"
-            />
-          </Half>
-        ) : null}
       </View>
       <View style={{ gap: space.xs }}>
         <Text style={type.label}>Probe resolutions allowed</Text>
