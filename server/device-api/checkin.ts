@@ -11,7 +11,9 @@
 //      brown-out resets on a release it confirmed (once a minute per release and process);
 //   4. decide the offer (rollout/decision.ts) on the cached releases as this transaction left them,
 //      and record it;
-//   5. answer: the offer, and the measurement profile when the logger's is older (or unknown).
+//   5. answer: the offer, and the measurement profile when the logger's is older (or unknown);
+//   6. and, outside the transaction, the next version of the model's trust set when the logger sent an
+//      older trust_version and that next version is signed (server/keys/trust-sets.ts).
 // The queries are named in checkin-store.ts. A trip is written by the one writer of transitions
 // (server/releases/transitions.ts), which mails and drops the release caches once this commits.
 import type { Sequelize, Transaction } from 'sequelize';
@@ -31,6 +33,7 @@ import { afterInstalled, applyReport, isFinished } from '../rollout/reports';
 import type { DeviceLogger } from './auth';
 import { checkInStore, resetsOf, type CheckInStore, type ReportRow } from './checkin-store';
 import { nextCheckInSeconds } from './load';
+import { nextTrustSetFor } from '../keys/trust-sets';
 import type { CachedRelease, ReleaseCache } from './release-cache';
 
 export type CheckInDeps = {
@@ -84,11 +87,14 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
   });
   // Over the limit: the count is kept (committed), nothing else was written.
   if ('refused' in answer) throw problems.tooManyRequests(answer.retryAfterS);
+  // 6. The next trust set, when the logger holds an older one and the next is signed (one step per check-in).
+  const trustSet = body.trust_version === undefined ? null : await nextTrustSetFor(deps.sequelize, logger.modelId, body.trust_version);
   return {
     server_time: now.toISOString().replace(/\.\d{3}Z$/, 'Z'),
     next_check_in_s: nextCheckInSeconds(logger.checkInIntervalS, deps.random(), deps.stretch()),
     config: answer.config,
     offer: answer.offer ? offerOf(answer.offer, await deps.imageUrl(answer.offer.imageSha256)) : null,
+    ...(trustSet ? { trust_set: trustSet } : {}),
   };
 }
 
@@ -206,6 +212,7 @@ function offerOf(r: CachedRelease, url: string): Offer {
     signature: r.signature.toString('base64'),
     key_id: r.keyId,
     algorithm: r.algorithm,
+    signatures: r.signatures,
     image: { url, sha256: r.imageSha256, size: r.imageSize },
   };
 }

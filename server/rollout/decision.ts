@@ -81,6 +81,8 @@ export type ReleaseTargeting = {
    * check-in parses no release's version or range. When absent, the decision parses them itself.
    */
   parsed?: ParsedTargeting;
+  /** The signed manifest's `expires`: from that instant on the release offers nothing (absent or null: no expiry). */
+  expiresAt?: Date | null;
 };
 
 /** A release's version and upgrade-from range as semver objects, parsed once. */
@@ -144,6 +146,7 @@ export const REASON_LABELS: Record<ReasonCode, string> = {
   firmware_unknown: 'Running version unknown',
   wrong_channel: 'Other channel',
   not_live: 'Release not live',
+  manifest_expired: 'Signed manifest expired',
   board_not_supported: 'Board revision not targeted by the release',
   not_newer: 'Not newer than the running version',
   security_counter_too_low: 'Security counter below the logger’s',
@@ -304,6 +307,8 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
       refuse(r, 'wrong_channel', `The release is on the ${r.channel} channel; the logger follows ${logger.channel}.`);
     } else if (!isLive(r.state)) {
       refuse(r, 'not_live', `The release ${statePhrase(r.state)}.`);
+    } else if (r.expiresAt && r.expiresAt.getTime() <= now.getTime()) {
+      refuse(r, 'manifest_expired', `Its signed manifest expired at ${r.expiresAt.toISOString().replace(/\.\d{3}Z$/, 'Z')}; a logger would refuse it. Sign it anew with a later expiry.`);
     } else if (!r.boards.includes(logger.board)) {
       refuse(r, 'board_not_supported', `Board ${logger.board} is not among the release's boards (${r.boards.join(', ') || 'none'}).`);
     } else if (version === null || version.compare(running) <= 0) {
