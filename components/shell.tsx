@@ -26,9 +26,14 @@ export function Shell({ me, wide, pathname, destinations, onSignOut, children }:
   React.useEffect(() => {
     scroller.current?.scrollTo({ y: 0, animated: false });
   }, [pathname]);
-  if (wide) {
-    return (
-      <View style={styles.wideRoot}>
+  // One tree for both layouts: the page sits at the same place whether the sidebar or the tab bar is
+  // shown, so a width change (turning a tablet, a print preview laying the page out at paper width)
+  // never remounts the page and loses what it holds, such as labels whose tokens are shown only once.
+  const tabs = destinations.filter((d) => d.tab).slice(0, 4);
+  const moreCurrent = !tabs.some((t) => isCurrent(t.href, pathname));
+  return (
+    <View style={wide ? styles.wideRoot : [styles.phoneRoot, { paddingTop: insets.top }]}>
+      {wide ? (
         <View style={styles.sidebar} role="navigation" aria-label="Main">
           <Wordmark />
           <ScrollView contentContainerStyle={{ gap: 2 }}>
@@ -45,25 +50,18 @@ export function Shell({ me, wide, pathname, destinations, onSignOut, children }:
             </Pressable>
           </View>
         </View>
-        <ScrollView ref={scroller} style={{ flex: 1 }} contentContainerStyle={styles.wideContent}>
-          <View style={{ width: '100%', maxWidth: BREAKPOINTS.contentMax }}>{children}</View>
-        </ScrollView>
-      </View>
-    );
-  }
-  const tabs = destinations.filter((d) => d.tab).slice(0, 4);
-  const moreCurrent = !tabs.some((t) => isCurrent(t.href, pathname));
-  return (
-    <View style={[styles.phoneRoot, { paddingTop: insets.top }]}>
-      <ScrollView ref={scroller} style={{ flex: 1 }} contentContainerStyle={styles.phoneContent}>
-        {children}
+      ) : null}
+      <ScrollView ref={scroller} style={{ flex: 1 }} contentContainerStyle={wide ? styles.wideContent : styles.phoneContent}>
+        <View style={wide ? styles.widePage : styles.phonePage}>{children}</View>
       </ScrollView>
-      <View style={[styles.tabBar, { paddingBottom: Math.max(insets.bottom, space.xs) }]} role="tablist" aria-label="Main">
-        {tabs.map((d) => (
-          <TabLink key={d.href} d={d} current={isCurrent(d.href, pathname)} />
-        ))}
-        <TabLink d={{ href: '/more', label: 'More', icon: 'more', roles: [] }} current={moreCurrent} />
-      </View>
+      {wide ? null : (
+        <View style={[styles.tabBar, { paddingBottom: Math.max(insets.bottom, space.xs) }]} role="tablist" aria-label="Main">
+          {tabs.map((d) => (
+            <TabLink key={d.href} d={d} current={isCurrent(d.href, pathname)} />
+          ))}
+          <TabLink d={{ href: '/more', label: 'More', icon: 'more', roles: [] }} current={moreCurrent} />
+        </View>
+      )}
     </View>
   );
 }
@@ -130,6 +128,8 @@ const styles = StyleSheet.create({
   wideContent: { padding: space.xl, alignItems: 'center' },
   phoneRoot: { flex: 1, backgroundColor: colors.paper },
   phoneContent: { padding: space.lg, paddingBottom: space.xxl },
+  widePage: { width: '100%', maxWidth: BREAKPOINTS.contentMax },
+  phonePage: { width: '100%' },
   tabBar: { flexDirection: 'row', backgroundColor: colors.surface, borderTopColor: colors.line, borderTopWidth: 1 },
   tab: { flex: 1, alignItems: 'center', justifyContent: 'center', minHeight: 56, paddingTop: space.xs, gap: 2 },
   tabLabel: { fontSize: 12 },
