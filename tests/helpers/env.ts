@@ -10,10 +10,12 @@ export function testEnv() {
   };
   const baseUrl = required('HELIODOR_TEST_PG_URL'); // postgres://user:pw@127.0.0.1:port
   const dataDir = process.env.HELIODOR_DATA ?? path.join(os.tmpdir(), 'heliodor-test');
+  // Each lane of a full `npm test` migrates its own template (scripts/test.js).
+  const templateDb = process.env.HELIODOR_TEST_TEMPLATE ?? 'heliodor_template';
   return {
     baseUrl,
-    templateDb: 'heliodor_template',
-    templateUrl: `${baseUrl}/heliodor_template`,
+    templateDb,
+    templateUrl: `${baseUrl}/${templateDb}`,
     adminUrl: `${baseUrl}/postgres`,
     smtpPort: Number(process.env.HELIODOR_SMTP_PORT ?? 2526),
     dataDir,
