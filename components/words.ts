@@ -7,6 +7,8 @@ import type { PersonStatus } from '../schemas/team';
 import type {
   ActivityAction,
   Channel,
+  CommissioningItem,
+  CommissioningState,
   FailureReason,
   FleetFlag,
   LaggingReason,
@@ -75,6 +77,20 @@ export const FLAG_WORDS: Record<FleetFlag, Word> = {
   probe_fault: { label: 'Probe fault', tone: 'amber' },
 };
 
+/** The first-readings check (lib/commissioning.ts): where it stands, and each item as the sheet names it. */
+export const COMMISSIONING_STATE_WORDS: Record<CommissioningState, Word> = {
+  waiting: { label: 'Waiting for first readings', tone: 'slate' },
+  passed: { label: 'Commissioning check passed', tone: 'moss' },
+  failed: { label: 'Commissioning check failed', tone: 'ember' },
+};
+
+export const COMMISSIONING_ITEM_WORDS: Record<CommissioningItem, string> = {
+  bus_voltage: 'Panel voltage',
+  current: 'Current direction',
+  probe: 'Temperature probe',
+  power: 'Power = voltage × current',
+};
+
 export const UPDATE_STATE_WORDS: Record<UpdateState, Word> = {
   up_to_date: { label: 'Up to date', tone: 'moss' },
   offered: { label: 'Offered', tone: 'slate' },
@@ -133,6 +149,8 @@ export const ACTIVITY_WORDS: Record<ActivityAction, string> = {
   'logger.token_rotated': 'Logger token replaced',
   'logger.note_added': 'Note on a logger',
   'logger.photo_added': 'Install photo added',
+  'logger.commissioning_checked': 'First readings checked',
+  'logger.commissioning_restarted': 'First-readings check started again',
   'profile.changed': 'Measurement profile changed',
   'release.uploaded': 'Release uploaded',
   'release.edited': 'Release targeting changed',
