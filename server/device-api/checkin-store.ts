@@ -7,14 +7,20 @@ import { lockRelease } from '../releases/transitions';
 import type { Release } from '../db/models';
 import { ROLLBACK_DETAIL, type ReportChange } from '../rollout/reports';
 import type { ReportFacts } from '../rollout/decision';
-import type { FailureReason, InstallState } from '../../schemas/words';
+import type { FailureReason, InstallState, LoggerStatus } from '../../schemas/words';
 import type { DeviceLogger } from './auth';
+import { FIRST_READINGS_COUNTED, firstReadingOf } from '../../lib/commissioning';
+import type { CountedReadings } from '../loggers/commissioning';
 
 /** One install report of this logger as stored. */
 export type ReportRow = ReportFacts & { confirmedAt: Date | null };
 
-/** What recording a visit tells: the supply the logger row now holds, its reports and its latest profile. */
-export type Visit = { supplyV: number | null; reports: ReportRow[]; profile: DeviceConfig | null };
+/**
+ * What recording a visit tells: the supply the logger row now holds, its reports and its latest profile; and,
+ * when this check-in's readings were counted for the first-readings check, the readings counted so far with the
+ * panel and site figures the check needs (server/loggers/commissioning.ts).
+ */
+export type Visit = { supplyV: number | null; reports: ReportRow[]; profile: DeviceConfig | null; firstReadings: CountedReadings | null };
 
 /** Boots since the previous check-in by reason (DEVICE_API.md `reset_counts`; else resets_since_last under reset_reason). */
 export function resetsOf(body: CheckInRequest): ResetCounts | null {
@@ -53,6 +59,7 @@ function toProfile(p: RawProfile | null): DeviceConfig | null {
 }
 
 const OFFERED: InstallState = 'offered';
+const ENROLLED: LoggerStatus = 'enrolled';
 const FAILED: InstallState = 'failed';
 /** A rollback is a failure nobody can name better than other. */
 const ROLLED_BACK_REASON: FailureReason = 'other';
@@ -71,7 +78,10 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
      */
     async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null): Promise<Visit> {
       const resets = resetsOf(body);
-      const [row] = await select<{ supplyV: number | null; reports: RawReport[]; profile: RawProfile | null }>(
+      // The first-readings check counts readings made under the latest profile while it has no verdict; a newer
+      // profile starts its readings over (the upsert below; a no-op once judged).
+      const countsReadings = Boolean(body.readings) && logger.status === ENROLLED && body.config_version !== undefined;
+      const [row] = await select<{ supplyV: number | null; reports: RawReport[]; profile: RawProfile | null; firstReadings: CountedReadings | null }>(
         `WITH visit AS (
            UPDATE loggers SET firmware = :firmware, reported_board = :board, security_counter = :securityCounter,
                   supply_v = COALESCE(:supplyV, supply_v), readings = COALESCE(CAST(:readings AS jsonb), readings), last_ip = :ip,
@@ -83,6 +93,17 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
          history AS (
            INSERT INTO check_ins (logger_id, at, firmware, board, security_counter, supply_v, readings, reset_reason, resets, rssi_dbm, free_heap_b, uptime_s, config_version, ip)
            VALUES (:loggerId, :now, :firmware, :board, :securityCounter, :supplyV, CAST(:readings AS jsonb), :resetReason, CAST(:resets AS jsonb), :rssi, :heap, :uptime, :configVersion, :ip)
+         ),
+         counted AS (
+           INSERT INTO commissioning_checks AS c (logger_id, profile_version, readings, started_at, updated_at)
+           SELECT :loggerId, :configVersion, jsonb_build_array(CAST(:firstReading AS jsonb)), :now, :now
+            WHERE :countsReadings AND :configVersion = (SELECT max(version) FROM measurement_profiles WHERE logger_id = :loggerId)
+           ON CONFLICT (logger_id) DO UPDATE
+              SET readings = CASE WHEN c.profile_version = EXCLUDED.profile_version THEN c.readings || EXCLUDED.readings ELSE EXCLUDED.readings END,
+                  started_at = CASE WHEN c.profile_version = EXCLUDED.profile_version THEN c.started_at ELSE EXCLUDED.started_at END,
+                  profile_version = EXCLUDED.profile_version, updated_at = EXCLUDED.updated_at
+            WHERE c.judged_at IS NULL AND (c.profile_version <> EXCLUDED.profile_version OR jsonb_array_length(c.readings) < :firstReadingsCounted)
+           RETURNING readings
          )
          SELECT (SELECT supply_v::float8 FROM visit) AS "supplyV",
                 (SELECT COALESCE(json_agg(json_build_object('releaseId', release_id, 'state', state, 'reason', reason, 'updatedAt', updated_at,
@@ -91,7 +112,10 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
                 (SELECT row_to_json(p) FROM (
                    SELECT version, shunt_ohm, max_current_a, current_lsb_a, calibration, power_lsb_w, bus_v_max::float8 AS bus_v_max,
                           temp_resolution_bits, sample_interval_s
-                     FROM measurement_profiles WHERE logger_id = :loggerId ORDER BY version DESC LIMIT 1) p) AS profile`,
+                     FROM measurement_profiles WHERE logger_id = :loggerId ORDER BY version DESC LIMIT 1) p) AS profile,
+                (SELECT json_build_object('readings', k.readings, 'panelVocV', l.install->'panelVocV', 'vocTempCoeffPctPerC', l.install->'vocTempCoeffPctPerC',
+                                          'siteMinTempC', s.min_temp_c)
+                   FROM counted k, loggers l LEFT JOIN sites s ON s.id = l.site_id WHERE l.id = :loggerId) AS "firstReadings"`,
         {
           firmware: body.firmware,
           board: body.board,
@@ -105,10 +129,18 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
           uptime: body.uptime_s ?? null,
           configVersion: body.config_version ?? null,
           ip,
+          countsReadings,
+          firstReading: countsReadings ? JSON.stringify(firstReadingOf(now.toISOString(), body.readings!)) : null,
+          firstReadingsCounted: FIRST_READINGS_COUNTED,
         },
       );
       const supplyV = row?.supplyV ?? logger.supplyV;
-      return { supplyV: supplyV === null ? null : Number(supplyV), reports: (row?.reports ?? []).map(toReport), profile: toProfile(row?.profile ?? null) };
+      return {
+        supplyV: supplyV === null ? null : Number(supplyV),
+        reports: (row?.reports ?? []).map(toReport),
+        profile: toProfile(row?.profile ?? null),
+        firstReadings: row?.firstReadings ?? null,
+      };
     },
 
     /** Locks the releases in a fixed order (by id), so two check-ins touching the same releases cannot deadlock. */
