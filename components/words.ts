@@ -3,6 +3,7 @@
 // word with its colour, never colour alone (docs/DESIGN.md). Tones: moss = as planned, slate = waiting or
 // under way, amber = needs a look, ember = something went wrong, ink = over for good.
 import type { Tone } from './theme';
+import { COMMISSIONING_ITEM_NAMES } from '../lib/commissioning';
 import type { PersonStatus } from '../schemas/team';
 import type {
   ActivityAction,
@@ -84,12 +85,8 @@ export const COMMISSIONING_STATE_WORDS: Record<CommissioningState, Word> = {
   failed: { label: 'Commissioning check failed', tone: 'ember' },
 };
 
-export const COMMISSIONING_ITEM_WORDS: Record<CommissioningItem, string> = {
-  bus_voltage: 'Panel voltage',
-  current: 'Current direction',
-  probe: 'Temperature probe',
-  power: 'Power = voltage × current',
-};
+/** Each item's name is the rule's own (the server's activity summary uses it too). */
+export const COMMISSIONING_ITEM_WORDS: Record<CommissioningItem, string> = COMMISSIONING_ITEM_NAMES;
 
 export const UPDATE_STATE_WORDS: Record<UpdateState, Word> = {
   up_to_date: { label: 'Up to date', tone: 'moss' },

@@ -72,6 +72,14 @@ const celsius = (c: number) => `${c > 0 ? '+' : ''}${fmt(c, '°C')}`;
 
 const NOT_REPORTED = 'not reported';
 
+/** Each item as the logger page, the sheet and the activity log name it. */
+export const COMMISSIONING_ITEM_NAMES: Record<CommissioningItem, string> = {
+  bus_voltage: 'Panel voltage',
+  current: 'Current direction',
+  probe: 'Temperature probe',
+  power: 'Power = voltage × current',
+};
+
 const LOOK_AT: Record<CommissioningItem, string> = {
   bus_voltage:
     'Check that the logger measures the one panel entered at enrollment (a string of several panels gives more voltage), ' +
