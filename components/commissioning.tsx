@@ -103,8 +103,14 @@ export function CommissioningCard({
             <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Commissioning sheet</Text>
           </Pressable>
         </Link>
-        {view.can.restart && view.readings.length > 0 ? (
-          <Button label="Start the check again" variant="secondary" busy={restart.busy} onPress={restart.run} testID="commissioning-restart" />
+        {view.can.restart && (view.startedAt === null || view.readings.length > 0) ? (
+          <Button
+            label={view.startedAt === null ? 'Start the check' : 'Start the check again'}
+            variant="secondary"
+            busy={restart.busy}
+            onPress={restart.run}
+            testID="commissioning-restart"
+          />
         ) : null}
       </Row>
       {view.can.restart && view.state === 'failed' ? (

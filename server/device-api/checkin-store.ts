@@ -78,8 +78,8 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
      */
     async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null): Promise<Visit> {
       const resets = resetsOf(body);
-      // The first-readings check counts readings made under the latest profile while it has no verdict; a newer
-      // profile starts its readings over (the upsert below; a no-op once judged).
+      // The first-readings check (started at enrollment) counts readings made under the latest profile while it has
+      // no verdict; a newer profile starts its readings over. Without a running check the update touches no row.
       const countsReadings = Boolean(body.readings) && logger.status === ENROLLED && body.config_version !== undefined;
       const [row] = await select<{ supplyV: number | null; reports: RawReport[]; profile: RawProfile | null; firstReadings: CountedReadings | null }>(
         `WITH visit AS (
@@ -95,14 +95,13 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
            VALUES (:loggerId, :now, :firmware, :board, :securityCounter, :supplyV, CAST(:readings AS jsonb), :resetReason, CAST(:resets AS jsonb), :rssi, :heap, :uptime, :configVersion, :ip)
          ),
          counted AS (
-           INSERT INTO commissioning_checks AS c (logger_id, profile_version, readings, started_at, updated_at)
-           SELECT :loggerId, :configVersion, jsonb_build_array(CAST(:firstReading AS jsonb)), :now, :now
-            WHERE :countsReadings AND :configVersion = (SELECT max(version) FROM measurement_profiles WHERE logger_id = :loggerId)
-           ON CONFLICT (logger_id) DO UPDATE
-              SET readings = CASE WHEN c.profile_version = EXCLUDED.profile_version THEN c.readings || EXCLUDED.readings ELSE EXCLUDED.readings END,
-                  started_at = CASE WHEN c.profile_version = EXCLUDED.profile_version THEN c.started_at ELSE EXCLUDED.started_at END,
-                  profile_version = EXCLUDED.profile_version, updated_at = EXCLUDED.updated_at
-            WHERE c.judged_at IS NULL AND (c.profile_version <> EXCLUDED.profile_version OR jsonb_array_length(c.readings) < :firstReadingsCounted)
+           UPDATE commissioning_checks c
+              SET readings = CASE WHEN c.profile_version = :configVersion THEN c.readings ELSE '[]'::jsonb END || jsonb_build_array(CAST(:firstReading AS jsonb)),
+                  started_at = CASE WHEN c.profile_version = :configVersion THEN c.started_at ELSE :now END,
+                  profile_version = :configVersion, updated_at = :now
+            WHERE c.logger_id = :loggerId AND :countsReadings AND c.judged_at IS NULL
+              AND (c.profile_version <> :configVersion OR jsonb_array_length(c.readings) < :firstReadingsCounted)
+              AND :configVersion = (SELECT max(version) FROM measurement_profiles WHERE logger_id = :loggerId)
            RETURNING readings
          )
          SELECT (SELECT supply_v::float8 FROM visit) AS "supplyV",

@@ -101,6 +101,21 @@ export async function judgeFirstReadings(
   });
 }
 
+/**
+ * Starts (or starts again) the logger's check under its profile of `profileVersion`: no readings, no verdict.
+ * Enrollment starts it; loggers enrolled before the console kept the check have none until a person starts it.
+ */
+export async function startCommissioning(sequelize: Sequelize, transaction: Transaction, loggerId: string, profileVersion: number, now: Date): Promise<void> {
+  await sequelize.query(
+    `INSERT INTO commissioning_checks (logger_id, profile_version, readings, started_at, updated_at)
+     VALUES (:loggerId, :profileVersion, '[]'::jsonb, :now, :now)
+     ON CONFLICT (logger_id) DO UPDATE
+        SET profile_version = EXCLUDED.profile_version, readings = EXCLUDED.readings, figures = NULL, verdict = NULL, passed = NULL,
+            started_at = EXCLUDED.started_at, updated_at = EXCLUDED.updated_at, judged_at = NULL`,
+    { replacements: { loggerId, profileVersion, now }, transaction },
+  );
+}
+
 async function rowOf(loggerId: string, transaction?: Transaction): Promise<Row | null> {
   const [row] = await Logger.sequelize!.query<Row>(
     'SELECT profile_version, readings, figures, verdict, passed, started_at, judged_at FROM commissioning_checks WHERE logger_id = :loggerId',
@@ -119,29 +134,37 @@ export async function getCommissioning(deps: RegistryDeps, actor: Actor, id: str
     return { ...base, state: row.verdict.state, judgedAt: new Date(row.judged_at).toISOString(), figures: row.figures, verdict: row.verdict, problem: null };
   }
   const waiting = { ...base, state: 'waiting' as const, judgedAt: null, figures: null, verdict: null };
-  if (logger.status !== 'enrolled') return { ...waiting, problem: 'The logger is not enrolled: the check starts with its first readings after enrollment.' };
+  if (logger.status !== 'enrolled') return { ...waiting, problem: 'The logger is not enrolled: the check starts with its enrollment.' };
   const profile = await latestProfile(logger.id);
   if (!profile) return { ...waiting, problem: 'The logger has no measurement profile yet.' };
+  if (!row) {
+    return {
+      ...waiting,
+      problem: `No first-readings check was kept for this logger (it was enrolled before the console checked first readings). Start the check to judge its next ${FIRST_READINGS_COUNTED} check-ins.`,
+    };
+  }
   const figures = await figuresFor(logger.id, { version: profile.version, currentLsbA: Number(profile.currentLsbA), powerLsbW: Number(profile.powerLsbW) });
   if ('error' in figures) return { ...waiting, problem: `The readings cannot be checked: ${figures.error}.` };
   // Readings made under an older profile do not count (the next check-in under the new one starts them over).
-  const readings = row && row.profile_version === profile.version ? row.readings : [];
+  const readings = row.profile_version === profile.version ? row.readings : [];
   return { ...waiting, readings, figures, verdict: commissioningCheck(figures, readings), problem: null };
 }
 
-/** After the wiring was fixed: forget the readings and the verdict; the next check-ins are judged anew. */
+/** After the wiring was fixed (or for a logger enrolled before the check was kept): its next check-ins are judged anew. */
 export async function restartCommissioning(deps: RegistryDeps, ctx: RequestContext, id: string): Promise<CommissioningView> {
   await deps.sequelize.transaction(async (transaction) => {
     const logger = await loggerFor(ctx.actor, id, transaction, 'editProfile');
     if (logger.status !== 'enrolled') throw problems.conflict(`Logger ${logger.serial} is ${logger.status}; the first-readings check belongs to an enrolled logger.`);
+    const profile = await latestProfile(logger.id, transaction);
+    if (!profile) throw problems.conflict(`Logger ${logger.serial} has no measurement profile; the check compares readings with it.`);
     const row = await rowOf(logger.id, transaction);
-    await deps.sequelize.query('DELETE FROM commissioning_checks WHERE logger_id = :loggerId', { replacements: { loggerId: logger.id }, transaction });
+    await startCommissioning(deps.sequelize, transaction, logger.id, profile.version, deps.now());
     const before = row?.verdict && row.judged_at ? `; it had ${verdictWords(row.verdict)}` : row ? `; it had ${row.readings.length} of ${FIRST_READINGS_COUNTED} readings` : '';
     await recordActivity(transaction, ctx, {
       action: 'logger.commissioning_restarted',
       targetType: 'logger',
       targetId: logger.id,
-      summary: `First-readings check of logger ${logger.serial} started again${before}`,
+      summary: `First-readings check of logger ${logger.serial} started${row ? ' again' : ''}${before}`,
       details: row ? { previous: { passed: row.passed, readings: row.readings.length, judgedAt: row.judged_at } } : {},
     });
   });

@@ -138,3 +138,26 @@ test('when support asks to start the check again, then 403; an unknown logger is
   expect(waiting.body).toMatchObject({ state: 'waiting', problem: expect.stringMatching(/not enrolled/) });
   expect((await morgan.agent.post(`/api/loggers/${reg.body.id}/commissioning/restart`).set(csrf)).status).toBe(409);
 });
+
+test('when a logger was enrolled before the check was kept, then its readings are not counted until a person starts the check', async () => {
+  const lg = await enrolled();
+  // As a logger enrolled before migration 0020 is: enrolled, with a profile, and no check row.
+  await t.sequelize.query('DELETE FROM commissioning_checks WHERE logger_id = :id', { replacements: { id: lg.id } });
+
+  await checkIn(lg.token, good, 1);
+  const before = await lg.tomasz.get(`/api/loggers/${lg.id}/commissioning`);
+  expect(before.body).toMatchObject({ state: 'waiting', startedAt: null, readings: [], problem: expect.stringMatching(/^No first-readings check was kept/) });
+  const [{ n }] = await t.sequelize.query<{ n: number }>('SELECT count(*)::int AS n FROM commissioning_checks WHERE logger_id = :id', {
+    type: QueryTypes.SELECT,
+    replacements: { id: lg.id },
+  });
+  expect(n).toBe(0);
+
+  const started = await lg.tomasz.post(`/api/loggers/${lg.id}/commissioning/restart`).set(csrf);
+  expect(started.status).toBe(200);
+  expect(started.body).toMatchObject({ state: 'waiting', readings: [], problem: null });
+  expect(started.body.startedAt).not.toBeNull();
+  expect((await Activity.findOne({ where: { action: 'logger.commissioning_restarted', targetId: lg.id } }))?.summary).toBe(`First-readings check of logger ${lg.serial} started`);
+  await checkIn(lg.token, good, 1);
+  expect((await lg.tomasz.get(`/api/loggers/${lg.id}/commissioning`)).body.readings).toHaveLength(1);
+});
