@@ -19,6 +19,8 @@ import type { ApiError } from '../hooks/api';
 import type { EnrollInput, Lookup } from '../hooks/loggers';
 import type { QueuedEnrollment } from '../hooks/enrollment-queue';
 import type { Enrolled } from '../schemas/loggers';
+import { commissioningSheetHref } from './commissioning';
+import { FIRST_READINGS_COUNTED } from '../lib/commissioning';
 import type { Site, SiteInput } from '../hooks/sites';
 import { enrollRequest } from '../schemas/loggers';
 import type { InstallForProfile, ProfileError } from '../lib/calibration';
@@ -459,6 +461,10 @@ export function EnrollDone({
           <Text style={{ fontFamily: fonts.monoMedium }}>{serial}</Text> enrolled at {siteName}; it turns online at its first check-in.
         </Text>
         {photo.state === 'uploading' ? <ProgressBar value={photo.progress * 100} label={`Uploading the install photo: ${Math.round(photo.progress * 100)} %`} /> : null}
+        <Text style={type.body}>
+          Its first {FIRST_READINGS_COUNTED} check-ins with its measurement profile are compared with the wiring figures; the verdict shows on the
+          logger's page and its commissioning sheet.
+        </Text>
         {photo.state === 'done' ? <Text style={type.small}>Install photo saved.</Text> : null}
         {photo.state === 'failed' ? (
           <View style={{ gap: space.sm }}>
@@ -476,6 +482,11 @@ export function EnrollDone({
         <Link href={`/loggers/${loggerId}` as never} asChild>
           <Pressable role="link" style={styles.link}>
             <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Open the logger</Text>
+          </Pressable>
+        </Link>
+        <Link href={commissioningSheetHref(loggerId) as never} asChild>
+          <Pressable role="link" style={styles.link} testID="enroll-commissioning-sheet">
+            <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Commissioning sheet</Text>
           </Pressable>
         </Link>
       </Row>
@@ -592,11 +603,18 @@ export function EnrollSaved({
       <Row gap={space.sm} wrap>
         <Button label="Enroll another logger" onPress={onAnother} testID="enroll-another" />
         {answer ? (
-          <Link href={`/loggers/${answer.logger.id}` as never} asChild>
-            <Pressable role="link" style={styles.link}>
-              <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Open the logger</Text>
-            </Pressable>
-          </Link>
+          <>
+            <Link href={`/loggers/${answer.logger.id}` as never} asChild>
+              <Pressable role="link" style={styles.link}>
+                <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Open the logger</Text>
+              </Pressable>
+            </Link>
+            <Link href={commissioningSheetHref(answer.logger.id) as never} asChild>
+              <Pressable role="link" style={styles.link}>
+                <Text style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>Commissioning sheet</Text>
+              </Pressable>
+            </Link>
+          </>
         ) : null}
       </Row>
     </Page>

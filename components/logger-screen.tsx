@@ -32,6 +32,8 @@ type Props = {
   photoUrl: string;
   /** The fleet views' part of the page (Why no update?, readings, timeline, notes), shown below the registry's. */
   fleet?: React.ReactNode;
+  /** The first-readings check and the link to the commissioning sheet, shown after the install. */
+  commissioning?: React.ReactNode;
 };
 
 const asApi = (e: unknown) => e as (ApiError & Error) | null;
@@ -62,7 +64,7 @@ export function LoggerScreen(props: Props) {
 }
 
 /** The registry's part of a logger's page; each control shows when the logger's `can` allows it (server policies). */
-function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fleet, canIssueBatchLabels, batchLabels }: Props & { logger: LoggerDetail }) {
+function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fleet, commissioning, canIssueBatchLabels, batchLabels }: Props & { logger: LoggerDetail }) {
   const can = logger.can;
   const [ask, setAsk] = React.useState<'rotate' | 'retire' | 'move' | 'batch' | null>(null);
   const [editing, setEditing] = React.useState(false);
@@ -180,6 +182,8 @@ function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fle
           {logger.install.photo ? <Image source={{ uri: photoUrl }} style={styles.photo} resizeMode="cover" accessibilityLabel="Install photo" /> : null}
         </Card>
       ) : null}
+
+      {logger.status === 'enrolled' ? commissioning : null}
 
       {can.rotateToken || can.retire ? (
         <Card>

@@ -82,7 +82,10 @@ export function useLeaveGuard(active: boolean, navigate: (href: string) => void)
   };
 }
 
-/** Adds a style element once (print rules for the label sheet). */
+/**
+ * Adds a style element while the component is shown (the print rules of the label sheet and the commissioning
+ * sheet): each hides everything but its own printed copy, so one left behind would blank the other's print.
+ */
 export function useGlobalStyle(id: string, css: string) {
   React.useEffect(() => {
     if (!isWeb || document.getElementById(id)) return;
@@ -90,6 +93,7 @@ export function useGlobalStyle(id: string, css: string) {
     style.id = id;
     style.textContent = css;
     document.head.appendChild(style);
+    return () => style.remove();
   }, [id, css]);
 }
 

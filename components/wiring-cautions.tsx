@@ -6,19 +6,30 @@ import { Text } from 'react-native';
 import { Notice } from './ui';
 import { type } from './theme';
 
+/** The cautions as sentences (the commissioning sheet prints them); the monitor's limits when known. */
+export function wiringCautionLines(limits?: { busVMax: number; shuntFullScaleV: number } | null): string[] {
+  return [
+    'Isolate the array first: panels make voltage whenever light falls on them, and a DC arc does not put itself out.',
+    'Fuse the measurement leads close to where they connect to the array, with a DC-rated fuse.',
+    ...(limits
+      ? [
+          `Respect the monitor's limits: at most ${limits.busVMax} V from the panel, counting its rise in the cold, and ` +
+            `${Number((limits.shuntFullScaleV * 1000).toPrecision(4))} mV across the shunt.`,
+        ]
+      : []),
+    'Work on a roof only as the local work-at-height rules allow: edge protection, a harness or a ladder as they require.',
+    'Follow the local electrical codes; wiring work is for licensed practice.',
+  ];
+}
+
 export function WiringCautions({ limits, title = 'Before you connect the logger' }: { limits?: { busVMax: number; shuntFullScaleV: number } | null; title?: string }) {
   return (
     <Notice title={title} tone="amber">
-      <Text style={type.body}>• Isolate the array first: panels make voltage whenever light falls on them, and a DC arc does not put itself out.</Text>
-      <Text style={type.body}>• Fuse the measurement leads close to where they connect to the array, with a DC-rated fuse.</Text>
-      {limits ? (
-        <Text style={type.body}>
-          • Respect the monitor's limits: at most {limits.busVMax} V from the panel, counting its rise in the cold, and{' '}
-          {Number((limits.shuntFullScaleV * 1000).toPrecision(4))} mV across the shunt.
+      {wiringCautionLines(limits).map((line) => (
+        <Text key={line} style={type.body}>
+          • {line}
         </Text>
-      ) : null}
-      <Text style={type.body}>• Work on a roof only as the local work-at-height rules allow: edge protection, a harness or a ladder as they require.</Text>
-      <Text style={type.body}>• Follow the local electrical codes; wiring work is for licensed practice.</Text>
+      ))}
     </Notice>
   );
 }

@@ -3,10 +3,13 @@
 // word with its colour, never colour alone (docs/DESIGN.md). Tones: moss = as planned, slate = waiting or
 // under way, amber = needs a look, ember = something went wrong, ink = over for good.
 import type { Tone } from './theme';
+import { COMMISSIONING_ITEM_NAMES } from '../lib/commissioning';
 import type { PersonStatus } from '../schemas/team';
 import type {
   ActivityAction,
   Channel,
+  CommissioningItem,
+  CommissioningState,
   FailureReason,
   FleetFlag,
   LaggingReason,
@@ -75,6 +78,16 @@ export const FLAG_WORDS: Record<FleetFlag, Word> = {
   probe_fault: { label: 'Probe fault', tone: 'amber' },
 };
 
+/** The first-readings check (lib/commissioning.ts): where it stands, and each item as the sheet names it. */
+export const COMMISSIONING_STATE_WORDS: Record<CommissioningState, Word> = {
+  waiting: { label: 'Waiting for first readings', tone: 'slate' },
+  passed: { label: 'Commissioning check passed', tone: 'moss' },
+  failed: { label: 'Commissioning check failed', tone: 'ember' },
+};
+
+/** Each item's name is the rule's own (the server's activity summary uses it too). */
+export const COMMISSIONING_ITEM_WORDS: Record<CommissioningItem, string> = COMMISSIONING_ITEM_NAMES;
+
 export const UPDATE_STATE_WORDS: Record<UpdateState, Word> = {
   up_to_date: { label: 'Up to date', tone: 'moss' },
   offered: { label: 'Offered', tone: 'slate' },
@@ -137,6 +150,8 @@ export const ACTIVITY_WORDS: Record<ActivityAction, string> = {
   'logger.token_rotated': 'Logger token replaced',
   'logger.note_added': 'Note on a logger',
   'logger.photo_added': 'Install photo added',
+  'logger.commissioning_checked': 'First readings checked',
+  'logger.commissioning_restarted': 'First-readings check started again',
   'profile.changed': 'Measurement profile changed',
   'release.uploaded': 'Release uploaded',
   'release.edited': 'Release targeting changed',

@@ -7,6 +7,7 @@ import type { z } from 'zod';
 import type {
   BatchLabelsIssued,
   BatchRegistered,
+  CommissioningView,
   Enrolled,
   EnrollmentLookup,
   enrollRequest,
@@ -30,6 +31,7 @@ export type BatchResult = BatchRegistered;
 export type BatchLabels = BatchLabelsIssued;
 export type Rotated = RotatedToken;
 export type Lookup = EnrollmentLookup;
+export type Commissioning = CommissioningView;
 
 export type LoggerFilter = { q?: string; siteId?: string; modelId?: string; status?: LoggerStatus; page?: number; pageSize?: 25 | 50 | 100 };
 
@@ -38,6 +40,7 @@ export const loggerKeys = {
   lists: () => [...loggerKeys.all, 'list'] as const,
   list: (filter: LoggerFilter) => [...loggerKeys.lists(), filter] as const,
   detail: (id: string) => [...loggerKeys.all, 'detail', id] as const,
+  commissioning: (id: string) => [...loggerKeys.detail(id), 'commissioning'] as const,
 };
 
 export function useLoggers(filter: LoggerFilter) {
@@ -133,6 +136,29 @@ export function useMoveLogger(id: string) {
       qc.setQueryData(loggerKeys.detail(id), logger);
       return invalidate();
     },
+  });
+}
+
+/**
+ * The first-readings check kept with the logger. While it waits for readings it asks again every 30 s, so the
+ * installer on the roof sees the verdict arrive.
+ */
+export function useCommissioning(id: string | undefined) {
+  return useQuery({
+    queryKey: loggerKeys.commissioning(id ?? ''),
+    enabled: Boolean(id),
+    staleTime: STALE.SECONDS.THIRTY,
+    refetchInterval: (q) => (q.state.data?.state === 'waiting' && !q.state.data.problem ? STALE.SECONDS.THIRTY : false),
+    queryFn: () => api<Commissioning>(`/api/loggers/${id}/commissioning`),
+  });
+}
+
+/** Starts the check again after the wiring was fixed. */
+export function useRestartCommissioning(id: string) {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: () => api<Commissioning>(`/api/loggers/${id}/commissioning/restart`, { method: 'POST' }),
+    onSuccess: (view) => qc.setQueryData(loggerKeys.commissioning(id), view),
   });
 }
 

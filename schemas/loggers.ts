@@ -3,7 +3,8 @@
 import { z } from 'zod';
 import { text, uuid } from './common';
 import { fleetFilterFields, type FleetRow } from './fleet';
-import { CHANNELS, LOGGER_STATUSES, type Channel, type FleetFlag, type LoggerStatus, type UpdateState } from './words';
+import type { CommissioningFigures, CommissioningVerdict, FirstReading } from '../lib/commissioning';
+import { CHANNELS, LOGGER_STATUSES, type Channel, type CommissioningState, type FleetFlag, type LoggerStatus, type UpdateState } from './words';
 
 // ─── Identity ────────────────────────────────────────────────────────────────
 
@@ -186,4 +187,21 @@ export type Enrolled = { logger: LoggerDetail; profile: ProfileView };
 export type EnrollmentLookup = {
   logger: { id: string; serial: string; modelId: string; modelName: string; board: string; status: LoggerStatus; site: { id: string; name: string; minTempC: number | null } | null };
   limits: { busVMax: number; shuntFullScaleV: number; tempResolutions: number[] };
+};
+
+/**
+ * A logger's first-readings check (GET /api/loggers/:id/commissioning): the verdict and figures kept with the
+ * logger once judged; while waiting, the rule on the readings so far with today's figures.
+ */
+export type CommissioningView = {
+  state: CommissioningState;
+  /** The counted readings (at most lib/commissioning.ts FIRST_READINGS_COUNTED). */
+  readings: FirstReading[];
+  figures: CommissioningFigures | null;
+  verdict: CommissioningVerdict | null;
+  startedAt: string | null;
+  judgedAt: string | null;
+  /** Why the readings cannot be checked yet (not enrolled, no panel voltage), or null. */
+  problem: string | null;
+  can: { restart: boolean };
 };

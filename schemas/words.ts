@@ -86,6 +86,15 @@ export type LoggerStatus = (typeof LOGGER_STATUSES)[number];
 export const FLEET_FLAGS = ['silent', 'unstable', 'low_supply', 'probe_fault'] as const;
 export type FleetFlag = (typeof FLEET_FLAGS)[number];
 
+/**
+ * The first-readings check of a newly enrolled logger (lib/commissioning.ts): what it compares, and where it
+ * stands — waiting for its first readings, passed, or failed on at least one item.
+ */
+export const COMMISSIONING_ITEMS = ['bus_voltage', 'current', 'probe', 'power'] as const;
+export type CommissioningItem = (typeof COMMISSIONING_ITEMS)[number];
+export const COMMISSIONING_STATES = ['waiting', 'passed', 'failed'] as const;
+export type CommissioningState = (typeof COMMISSIONING_STATES)[number];
+
 /** Why a logger last booted, as it reports it. */
 export const RESET_REASONS = ['power_on', 'watchdog', 'brownout', 'software', 'exception', 'external', 'unknown'] as const;
 export type ResetReason = (typeof RESET_REASONS)[number];
@@ -169,6 +178,8 @@ export const ACTIVITY_ACTIONS = [
   'logger.token_rotated',
   'logger.note_added',
   'logger.photo_added',
+  'logger.commissioning_checked',
+  'logger.commissioning_restarted',
   'profile.changed',
   'release.uploaded',
   'release.edited',

@@ -58,6 +58,8 @@ export const access: Record<string, Rule> = {
   'PATCH /api/loggers/:id/profile': people(['admin', 'integrator']),
   'POST /api/loggers/:id/photo': people(['admin', 'integrator']),
   'GET /api/loggers/:id/photo': people(everyone),
+  'GET /api/loggers/:id/commissioning': people(everyone),
+  'POST /api/loggers/:id/commissioning/restart': people(['admin', 'integrator']),
   // Accounts: signing in (password, then a second-factor code when it is on), one's own account
   'POST /api/auth/sign-in/second-factor': publicRule,
   'POST /api/auth/sign-out-everywhere': ownAccountFirst(),

@@ -7,14 +7,20 @@ import { lockRelease } from '../releases/transitions';
 import type { Release } from '../db/models';
 import { ROLLBACK_DETAIL, type ReportChange } from '../rollout/reports';
 import type { ReportFacts } from '../rollout/decision';
-import type { FailureReason, InstallState } from '../../schemas/words';
+import type { FailureReason, InstallState, LoggerStatus } from '../../schemas/words';
 import type { DeviceLogger } from './auth';
+import { FIRST_READINGS_COUNTED, firstReadingOf } from '../../lib/commissioning';
+import type { CountedReadings } from '../loggers/commissioning';
 
 /** One install report of this logger as stored. */
 export type ReportRow = ReportFacts & { confirmedAt: Date | null };
 
-/** What recording a visit tells: the supply the logger row now holds, its reports and its latest profile. */
-export type Visit = { supplyV: number | null; reports: ReportRow[]; profile: DeviceConfig | null };
+/**
+ * What recording a visit tells: the supply the logger row now holds, its reports and its latest profile; and,
+ * when this check-in's readings were counted for the first-readings check, the readings counted so far with the
+ * panel and site figures the check needs (server/loggers/commissioning.ts).
+ */
+export type Visit = { supplyV: number | null; reports: ReportRow[]; profile: DeviceConfig | null; firstReadings: CountedReadings | null };
 
 /** The per-logger rate limit: check-ins a minute, counted from the wall clock `now`. */
 export type RateWindow = { perMinute: number; now: Date };
@@ -60,6 +66,7 @@ function toProfile(p: RawProfile | null): DeviceConfig | null {
 }
 
 const OFFERED: InstallState = 'offered';
+const ENROLLED: LoggerStatus = 'enrolled';
 const FAILED: InstallState = 'failed';
 /** A rollback is a failure nobody can name better than other. */
 const ROLLED_BACK_REASON: FailureReason = 'other';
@@ -80,7 +87,10 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
      */
     async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null, rate: RateWindow): Promise<Visit | RateRefusal> {
       const resets = resetsOf(body);
-      const [row] = await select<{ rateCount: number; windowEnds: Date | string; supplyV: number | null; reports: RawReport[]; profile: RawProfile | null }>(
+      // The first-readings check (started at enrollment) counts readings made under the latest profile while it has
+      // no verdict; a newer profile starts its readings over. Without a running check the update touches no row.
+      const countsReadings = Boolean(body.readings) && logger.status === ENROLLED && body.config_version !== undefined;
+      const [row] = await select<{ rateCount: number; windowEnds: Date | string; supplyV: number | null; reports: RawReport[]; profile: RawProfile | null; firstReadings: CountedReadings | null }>(
         `WITH rate AS (
            INSERT INTO device_check_in_windows AS w (logger_id, window_ends, count) VALUES (:loggerId, :windowEnds, 1)
            ON CONFLICT (logger_id) DO UPDATE SET
@@ -103,6 +113,16 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
                   CAST(:supplyV AS numeric), CAST(:readings AS jsonb), CAST(:resetReason AS text), CAST(:resets AS jsonb), CAST(:rssi AS integer),
                   CAST(:heap AS bigint), CAST(:uptime AS bigint), CAST(:configVersion AS integer), CAST(:ip AS text)
             WHERE EXISTS (SELECT 1 FROM admitted)
+         ),
+         counted AS (
+           UPDATE commissioning_checks c
+              SET readings = CASE WHEN c.profile_version = :configVersion THEN c.readings ELSE '[]'::jsonb END || jsonb_build_array(CAST(:firstReading AS jsonb)),
+                  started_at = CASE WHEN c.profile_version = :configVersion THEN c.started_at ELSE :now END,
+                  profile_version = :configVersion, updated_at = :now
+            WHERE c.logger_id = :loggerId AND :countsReadings AND c.judged_at IS NULL AND EXISTS (SELECT 1 FROM admitted)
+              AND (c.profile_version <> :configVersion OR jsonb_array_length(c.readings) < :firstReadingsCounted)
+              AND :configVersion = (SELECT max(version) FROM measurement_profiles WHERE logger_id = :loggerId)
+           RETURNING readings
          )
          SELECT (SELECT count FROM rate) AS "rateCount", (SELECT window_ends FROM rate) AS "windowEnds",
                 (SELECT supply_v::float8 FROM visit) AS "supplyV",
@@ -112,7 +132,10 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
                 (SELECT row_to_json(p) FROM (
                    SELECT version, shunt_ohm, max_current_a, current_lsb_a, calibration, power_lsb_w, bus_v_max::float8 AS bus_v_max,
                           temp_resolution_bits, sample_interval_s
-                     FROM measurement_profiles WHERE logger_id = :loggerId AND EXISTS (SELECT 1 FROM admitted) ORDER BY version DESC LIMIT 1) p) AS profile`,
+                     FROM measurement_profiles WHERE logger_id = :loggerId AND EXISTS (SELECT 1 FROM admitted) ORDER BY version DESC LIMIT 1) p) AS profile,
+                (SELECT json_build_object('readings', k.readings, 'panelVocV', l.install->'panelVocV', 'vocTempCoeffPctPerC', l.install->'vocTempCoeffPctPerC',
+                                          'siteMinTempC', s.min_temp_c)
+                   FROM counted k, loggers l LEFT JOIN sites s ON s.id = l.site_id WHERE l.id = :loggerId) AS "firstReadings"`,
         {
           firmware: body.firmware,
           board: body.board,
@@ -129,6 +152,9 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
           rateNow: rate.now,
           windowEnds: new Date(rate.now.getTime() + RATE_WINDOW_MS),
           rateLimit: rate.perMinute,
+          countsReadings,
+          firstReading: countsReadings ? JSON.stringify(firstReadingOf(now.toISOString(), body.readings!)) : null,
+          firstReadingsCounted: FIRST_READINGS_COUNTED,
         },
       );
       if (Number(row.rateCount) > rate.perMinute) {
@@ -136,7 +162,12 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
         return { refused: true, retryAfterS };
       }
       const supplyV = row?.supplyV ?? logger.supplyV;
-      return { supplyV: supplyV === null ? null : Number(supplyV), reports: (row?.reports ?? []).map(toReport), profile: toProfile(row?.profile ?? null) };
+      return {
+        supplyV: supplyV === null ? null : Number(supplyV),
+        reports: (row?.reports ?? []).map(toReport),
+        profile: toProfile(row?.profile ?? null),
+        firstReadings: row?.firstReadings ?? null,
+      };
     },
 
     /** Locks the releases in a fixed order (by id), so two check-ins touching the same releases cannot deadlock. */

@@ -1,8 +1,10 @@
 // POST /api/device/v1/check-in, the story (DEVICE_API.md). One transaction per check-in, in this order:
 //   1. count the check-in against the per-logger rate limit (shared by every process, in PostgreSQL) and,
 //      within it, record the visit: the logger's latest state on its row, one history row in check_ins,
-//      and what the logger has (its install reports, its measurement profile) — one statement; over the
-//      limit nothing else is written and the answer is 429 with Retry-After;
+//      what the logger has (its install reports, its measurement profile), and its readings when the
+//      logger's first-readings check still waits for them — one statement; over the limit nothing else
+//      is written and the answer is 429 with Retry-After; the first-readings check is judged when it
+//      has its readings (server/loggers/commissioning.ts);
 //   2. settle the report, applied forward-only (rollout/reports.ts), and the installs the running
 //      version now confirms or rolls back — each release whose figures may change is locked first
 //      (SELECT … FOR UPDATE), so concurrent check-ins serialise on it and the trip rules see every
@@ -31,6 +33,7 @@ import { decideOffer, offerInput, type LoggerFacts } from '../rollout/decision';
 import { isLive } from '../rollout/lifecycle';
 import { afterInstalled, applyReport, isFinished } from '../rollout/reports';
 import type { DeviceLogger } from './auth';
+import { judgeFirstReadings } from '../loggers/commissioning';
 import { checkInStore, resetsOf, type CheckInStore, type ReportRow } from './checkin-store';
 import { nextCheckInSeconds } from './load';
 import { nextTrustSetFor } from '../keys/trust-sets';
@@ -65,6 +68,10 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
     // 1. Count the check-in and, within the rate limit, record the visit (the limit's minutes are wall-clock minutes).
     const visit = await store.recordVisit(logger, body, ctx.ip, { perMinute: deps.ratePerMinute, now: new Date() });
     if ('refused' in visit) return visit;
+    if (visit.firstReadings && visit.profile) {
+      const profile = { version: visit.profile.version, currentLsbA: visit.profile.current_lsb_a, powerLsbW: visit.profile.power_lsb_w };
+      await judgeFirstReadings(deps.sequelize, t, logger, profile, visit.firstReadings, now, systemContext(ctx.requestId));
+    }
     // 2. Settle the report, and the installs the running version confirms or rolls back.
     const settled = await settleReports(store, releases, visit.reports, body);
     // 3. Judge the trip rules.

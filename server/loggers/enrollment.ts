@@ -14,6 +14,7 @@ import { canonicalJson } from '../images/manifest';
 import { ABOVE_RATING, coldVoc, measurementProfile, type ComputedProfile, type InstallForProfile } from '../../lib/calibration';
 import { latestProfile, presentDetail, presentProfile, type StoredInstall } from './present';
 import { loggerFor, type RegistryDeps } from './service';
+import { startCommissioning } from './commissioning';
 import type { Enrolled, EnrollmentLookup, EnrollRequest, LoggerDetail, ProfileChangeRequest, ProfileView } from '../../schemas/loggers';
 
 export const unknownLabel =
@@ -154,6 +155,8 @@ export async function enroll(deps: RegistryDeps, ctx: RequestContext, body: Enro
     };
     await logger.update({ status: 'enrolled', siteId: site.id, enrolledAt: now, enrolledBy: personId(ctx), install }, { transaction });
     const profile = await storeProfile(ctx, logger, computed, { panelWp: body.panelWp, panelVocV: body.panelVocV }, transaction);
+    // Its first readings under this profile will be compared with the wiring (lib/commissioning.ts).
+    await startCommissioning(deps.sequelize, transaction, logger.id, profile.version, now);
     await recordActivity(transaction, ctx, {
       action: 'logger.enrolled',
       targetType: 'logger',

@@ -7,7 +7,18 @@ import { TokenSheet, type SheetToken } from '../../../components/label-sheet';
 import { ConfirmDialog } from '../../../components/confirm';
 import { Page } from '../../../components/shell';
 import { consoleOrigin, useLeaveGuard } from '../../../components/web';
-import { photoUrl, useIssueBatchLabels, useLogger, useMoveLogger, useRetireLogger, useRotateToken, useUpdateProfile } from '../../../hooks/loggers';
+import {
+  photoUrl,
+  useCommissioning,
+  useIssueBatchLabels,
+  useLogger,
+  useMoveLogger,
+  useRestartCommissioning,
+  useRetireLogger,
+  useRotateToken,
+  useUpdateProfile,
+} from '../../../hooks/loggers';
+import { CommissioningCard } from '../../../components/commissioning';
 import { useModel } from '../../../hooks/models';
 import { useSites } from '../../../hooks/sites';
 import { LoggerFleet } from '../../../components/fleet-logger-panel';
@@ -21,6 +32,8 @@ export default function LoggerPage() {
   const retire = useRetireLogger(id);
   const move = useMoveLogger(id);
   const changeProfile = useUpdateProfile(id);
+  const commissioning = useCommissioning(logger.data?.status === 'enrolled' ? id : undefined);
+  const restart = useRestartCommissioning(id);
   const model = useModel(logger.data?.modelId);
   const sites = useSites();
   const [issued, setIssued] = React.useState<{ title: string; subtitle: string; tokens: SheetToken[] } | null>(null);
@@ -85,6 +98,9 @@ export default function LoggerPage() {
       move={{ busy: move.isPending, error: move.error, run: (siteId) => move.mutate({ siteId }), sites: sites.data?.rows ?? [] }}
       profile={{ busy: changeProfile.isPending, error: changeProfile.error, run: (input) => changeProfile.mutate(input), limits: model.data }}
       photoUrl={photoUrl(id)}
+      commissioning={
+        <CommissioningCard loggerId={id} view={commissioning.data} restart={{ busy: restart.isPending, error: restart.error, run: () => restart.mutate() }} />
+      }
       fleet={<LoggerFleet loggerId={id} canNote={logger.data?.can.addNote ?? false} timeZone={logger.data?.site?.timeZone} />}
     />
   );
