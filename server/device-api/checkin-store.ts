@@ -9,6 +9,7 @@ import { ROLLBACK_DETAIL, type ReportChange } from '../rollout/reports';
 import type { ReportFacts } from '../rollout/decision';
 import type { FailureReason, InstallState } from '../../schemas/words';
 import type { DeviceLogger } from './auth';
+import type { CheckInDay } from '../rollout/drift';
 
 /** One install report of this logger as stored. */
 export type ReportRow = ReportFacts & { confirmedAt: Date | null };
@@ -66,13 +67,36 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
 
   return {
     /**
-     * One statement: the logger's latest state on its row, one history row in check_ins, and what the
+     * One statement: the logger's latest state on its row, one history row in check_ins, its day's sums
+     * in logger_days (the measurement-drift trip: the energy since the previous check-in, read from the
+     * row as it was before this statement, with the clear-sky energy of the same interval), and what the
      * logger has — its install reports and its latest measurement profile.
      */
-    async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null): Promise<Visit> {
+    async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null, day: CheckInDay): Promise<Visit> {
       const resets = resetsOf(body);
       const [row] = await select<{ supplyV: number | null; reports: RawReport[]; profile: RawProfile | null }>(
-        `WITH visit AS (
+        `WITH before AS (
+           SELECT (readings->>'energy_wh')::float8 AS energy_wh, last_check_in_at FROM loggers WHERE id = :loggerId
+         ),
+         counted AS (
+           SELECT CASE WHEN CAST(:energyWh AS float8) IS NULL OR b.energy_wh IS NULL OR CAST(:since AS timestamptz) IS NULL
+                            OR b.last_check_in_at IS DISTINCT FROM CAST(:since AS timestamptz) THEN NULL
+                       WHEN :rebooted OR CAST(:energyWh AS float8) < b.energy_wh THEN CAST(:energyWh AS float8)
+                       ELSE CAST(:energyWh AS float8) - b.energy_wh END AS energy_wh
+             FROM before b
+         ),
+         day AS (
+           INSERT INTO logger_days AS d (logger_id, day, firmware, energy_wh, clear_sky_wh, temp_excess_sum_c, temp_readings, probe_readings, probe_flagged, check_ins)
+           SELECT :loggerId, CAST(:day AS date), :firmware, COALESCE(c.energy_wh, 0), CASE WHEN c.energy_wh IS NULL THEN 0 ELSE CAST(:clearSkyWh AS float8) END,
+                  COALESCE(CAST(:tempExcess AS float8), 0), CASE WHEN CAST(:tempExcess AS float8) IS NULL THEN 0 ELSE 1 END, :probeReadings, :probeFlagged, 1
+             FROM counted c
+           ON CONFLICT (logger_id, day, firmware) DO UPDATE SET
+             energy_wh = d.energy_wh + EXCLUDED.energy_wh, clear_sky_wh = d.clear_sky_wh + EXCLUDED.clear_sky_wh,
+             temp_excess_sum_c = d.temp_excess_sum_c + EXCLUDED.temp_excess_sum_c, temp_readings = d.temp_readings + EXCLUDED.temp_readings,
+             probe_readings = d.probe_readings + EXCLUDED.probe_readings, probe_flagged = d.probe_flagged + EXCLUDED.probe_flagged,
+             check_ins = d.check_ins + 1
+         ),
+         visit AS (
            UPDATE loggers SET firmware = :firmware, reported_board = :board, security_counter = :securityCounter,
                   supply_v = COALESCE(:supplyV, supply_v), readings = COALESCE(CAST(:readings AS jsonb), readings), last_ip = :ip,
                   rssi_dbm = COALESCE(:rssi, rssi_dbm), free_heap_b = COALESCE(:heap, free_heap_b), uptime_s = COALESCE(:uptime, uptime_s),
@@ -105,6 +129,14 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
           uptime: body.uptime_s ?? null,
           configVersion: body.config_version ?? null,
           ip,
+          day: day.day,
+          since: day.since,
+          rebooted: day.rebooted,
+          energyWh: body.readings?.energy_wh ?? null,
+          clearSkyWh: day.clearSkyWh,
+          tempExcess: day.tempExcessC,
+          probeReadings: day.probeReadings,
+          probeFlagged: day.probeFlagged,
         },
       );
       const supplyV = row?.supplyV ?? logger.supplyV;

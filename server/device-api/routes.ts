@@ -66,12 +66,13 @@ function registerRoutes(api: Api, deps: DeviceApiDeps, releases: ReleaseCache, l
   const { sequelize } = deps;
   const limit = deviceRateLimit(deps.config.deviceRatePerMinute);
   const resetChecks = new Map<string, number>();
+  const driftChecks = new Map<string, number>();
 
   api.post(CHECK_IN_PATH, limit, load.admit, async (req: Request, res: Response) => {
     const logger = await authenticateLogger(sequelize, req);
     const body = parse(checkInRequestSchema, req.body);
     const reply = await checkIn(
-      { sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch, resetChecks },
+      { sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch, resetChecks, driftChecks },
       logger,
       body,
       { ip: req.ip ?? null, requestId: typeof req.id === 'string' ? req.id : null },

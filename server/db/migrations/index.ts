@@ -16,6 +16,7 @@ import * as m0013 from './0013_fleet_keys';
 import * as m0014 from './0014_summaries';
 import * as m0017 from './0017_enrollment_requests';
 import * as m0018 from './0018_site_min_temp';
+import * as m0019 from './0019_measurement_drift';
 
 export type Migration = {
   name: string;
@@ -40,4 +41,5 @@ export const migrations: Migration[] = [
   { name: '0014_summaries', ...m0014 },
   { name: '0017_enrollment_requests', ...m0017 },
   { name: '0018_site_min_temp', ...m0018 },
+  { name: '0019_measurement_drift', ...m0019 },
 ];
