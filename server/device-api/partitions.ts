@@ -59,8 +59,10 @@ export async function maintainCheckInPartitions(sequelize: Sequelize, now: Date,
       report.dropped.push(name);
     }
   }
-  // The DEFAULT partition keeps no more than the partitions do.
+  // The DEFAULT partition keeps no more than the partitions do, and neither do the loggers' daily sums
+  // (logger_days, migration 0019: the measurement-drift trip's days).
   await sequelize.query('DELETE FROM check_ins_default WHERE at < :oldestKept', { replacements: { oldestKept } });
+  await sequelize.query('DELETE FROM logger_days WHERE day < CAST(:oldestKept AS date)', { replacements: { oldestKept: oldestKept.toISOString().slice(0, 10) } });
   return report;
 }
 
