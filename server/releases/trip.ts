@@ -121,12 +121,12 @@ export async function driftInput(sequelize: Sequelize, t: Transaction | undefine
           AND NOT EXISTS (SELECT 1 FROM install_reports ir WHERE ir.logger_id = l.id AND ir.release_id = :id AND ir.confirmed_at IS NOT NULL)
      ),
      sides AS (
-       SELECT t.logger_id, t.site_id, CASE WHEN d.day < t.installed_day THEN 'before' ELSE 'after' END AS side, d.*
+       SELECT t.logger_id, t.site_id, CASE WHEN d.day < t.installed_day THEN 'before' ELSE 'after' END AS side, d.day, d.energy_wh, d.clear_sky_wh, d.temp_excess_sum_c, d.temp_readings, d.probe_readings, d.probe_flagged
          FROM treated t CROSS JOIN today JOIN logger_days d ON d.logger_id = t.logger_id
         WHERE (d.day BETWEEN t.installed_day - :window AND t.installed_day - 1)
            OR (d.day BETWEEN t.installed_day + 1 AND t.installed_day + :window AND d.day < today.day AND d.firmware = :version)
        UNION ALL
-       SELECT c.logger_id, c.site_id, 'control', d.*
+       SELECT c.logger_id, c.site_id, 'control', d.day, d.energy_wh, d.clear_sky_wh, d.temp_excess_sum_c, d.temp_readings, d.probe_readings, d.probe_flagged
          FROM controls c CROSS JOIN today JOIN logger_days d ON d.logger_id = c.logger_id
         WHERE d.day >= (SELECT min(installed_day) FROM treated) - :window AND d.day < today.day
      )
