@@ -42,6 +42,7 @@ type Options = {
   seed: number;
   concurrency: number;
   start?: string;
+  drift: number;
 };
 
 const dataDir = path.resolve(process.env.HELIODOR_DATA ?? '.data');
@@ -69,6 +70,7 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     .option('--seed <n>', 'seed for readings, faults and failures (same seed, same run)', number('--seed', 0, 2 ** 32 - 1, true), 1)
     .addOption(new Option('--concurrency <n>', 'loggers talking to the server at once').argParser(number('--concurrency', 1, 256, true)).default(32))
     .option('--start <time>', 'simulated start time, RFC 3339 (default: now)')
+    .option('--drift <scale>', 'measurement drift: loggers that install an offered release report their current (and power and energy) × this, as a broken calibration would (1: none)', number('--drift', 0, 100), 1)
     .action(async (options: Options) => {
       process.exitCode = await run(options);
     });
@@ -137,7 +139,7 @@ async function simulate(o: Options): Promise<number> {
     const tally = new FleetTally();
     const loggers = buildFleet(
       who,
-      { baseUrl: url.origin, clock, random, trustedKeys, failRate: o.failRate, interruptRate: o.interruptRate, spreadS: 60 },
+      { baseUrl: url.origin, clock, random, trustedKeys, failRate: o.failRate, interruptRate: o.interruptRate, drift: o.drift, spreadS: 60 },
       tally,
     );
     const until = new Date(start.getTime() + o.minutes * 60_000 * o.speed);
@@ -189,6 +191,12 @@ async function simulate(o: Options): Promise<number> {
         `  backoffs       ${c.backoffs} (429/503 with Retry-After)`,
         `  interruptions  ${c.interruptions} (downloads resumed)`,
         `  resets         ${list(c.resets)}`,
+        ...(o.drift !== 1
+          ? [
+              `  drift          ${Object.keys(c.drifted).length ? `${list(c.drifted)} logger(s) report current × ${o.drift} since installing` : `none yet: no logger installed a release (× ${o.drift} waits for one)`}`,
+              ...(await driftOutcome(o, Object.keys(c.drifted), say)),
+            ]
+          : []),
         `  now running    ${[...versions].sort(([a], [b]) => a.localeCompare(b, 'en', { numeric: true })).map(([v, n]) => `${v} × ${n}`).join(', ')}`,
         ...tally.errorSamples.map((e, i) => `${i === 0 ? '  first errors   ' : '                 '}${e}`),
         '',
@@ -199,6 +207,30 @@ async function simulate(o: Options): Promise<number> {
     const known = error instanceof SetupError || error instanceof ManifestError;
     say(`simulate: ${known ? '' : 'unexpected error: '}${error instanceof Error ? error.message : String(error)}`);
     return 1;
+  }
+}
+
+/**
+ * What became of the releases the drifting loggers installed, when the console can be asked (an admin
+ * sign-in, as --register uses): the server trips a release on measurement drift once 20 loggers have a
+ * whole UTC day on it to compare with the days before (server/rollout/drift.ts).
+ */
+async function driftOutcome(o: Options, versions: string[], say: (s: string) => void): Promise<string[]> {
+  if (versions.length === 0) return [];
+  try {
+    const session = await adminSession(o);
+    const { rows } = await session.request<{ rows: { id: string; version: string; state: string }[] }>('GET', '/api/releases');
+    const lines: string[] = [];
+    for (const r of rows.filter((x) => versions.includes(x.version))) {
+      const dashboard = await session.request<{ trip: { drift: { over: boolean; energy: { loggers: number; shift: number | null; judged: boolean } } } }>('GET', `/api/releases/${r.id}/dashboard`);
+      const e = dashboard.trip.drift.energy;
+      const shift = e.shift === null ? 'no whole day on it yet' : `energy ${Number((e.shift * 100).toFixed(1))} % over ${e.loggers} loggers`;
+      lines.push(`  release ${r.version}  ${r.state}${r.state === 'stopped' ? ' (tripped)' : ''}; drift gauge: ${shift}${e.judged ? '' : ' (not judged yet: 20 loggers with a whole UTC day after their install are needed)'}`);
+    }
+    return lines;
+  } catch (error) {
+    say(`simulate: could not read the releases from the console (${error instanceof Error ? error.message : String(error)}); the drift is judged by the server either way`);
+    return [];
   }
 }
 
