@@ -55,6 +55,10 @@ export const exampleAnswer: CheckInResponse = {
     signature: 'mT3c…(88 base64 characters: 64 bytes)…Aw==',
     key_id: '9c1e4b7a2d5f8e03',
     algorithm: 'ed25519',
+    signatures: [
+      { key_id: '9c1e4b7a2d5f8e03', algorithm: 'ed25519', signature: 'mT3c…(88 base64 characters: 64 bytes)…Aw==' },
+      { key_id: '41d07a6c3e9b2f58', algorithm: 'ed25519', signature: 'Qe8v…(88 base64 characters: 64 bytes)…Cg==' },
+    ],
     image: { url: `/api/device/v1/images/${exampleImageSha256}`, sha256: exampleImageSha256, size: exampleImageSize },
   },
 };

@@ -130,7 +130,7 @@ function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fle
       <Card>
         <Row style={{ justifyContent: 'space-between' }}>
           <Text style={type.heading}>Measurement profile</Text>
-          {p ? <Badge label={`version ${p.version}`} tone="slate" /> : null}
+          {p ? <Badge label={`version ${p.version}`} tone="slate" testID="profile-version" /> : null}
         </Row>
         {p && editing && can.editProfile && profile.limits ? (
           <ProfileForm

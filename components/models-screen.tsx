@@ -1,5 +1,5 @@
 // Models and their board revisions; admins add and edit them (limits of the measurement hardware,
-// supply guard, check-in interval).
+// supply guard, check-in interval). The signing rule is changed on the model's signing page (model-signing.tsx).
 import React from 'react';
 import { StyleSheet, Text, View } from 'react-native';
 import { Page } from './shell';
@@ -18,8 +18,11 @@ export function ModelsScreen({
   canCreate,
   create,
   update,
+  onOpenSigning,
 }: {
   state: QueryState<List<Model>>;
+  /** Opens a model's signing rule and trust sets (admins and release engineers, who hold the keys). */
+  onOpenSigning?: (id: string) => void;
   /** Whether the person may add models (the session's `can.createModel`); editing one follows its own `can`. */
   canCreate: boolean;
   create: Save;
@@ -46,7 +49,7 @@ export function ModelsScreen({
                     <ModelForm initial={m} submitLabel="Save changes" save={update(m.id)} onDone={() => setEditing(null)} onCancel={() => setEditing(null)} />
                   </Card>
                 ) : (
-                  <ModelCard key={m.id} model={m} onEdit={m.can.edit ? () => setEditing(m.id) : undefined} />
+                  <ModelCard key={m.id} model={m} onEdit={m.can.edit ? () => setEditing(m.id) : undefined} onOpenSigning={onOpenSigning ? () => onOpenSigning(m.id) : undefined} />
                 ),
               )}
             </View>
@@ -59,7 +62,7 @@ export function ModelsScreen({
   );
 }
 
-function ModelCard({ model, onEdit }: { model: Model; onEdit?: () => void }) {
+function ModelCard({ model, onEdit, onOpenSigning }: { model: Model; onEdit?: () => void; onOpenSigning?: () => void }) {
   return (
     <Card>
       <Row style={{ justifyContent: 'space-between' }} wrap>
@@ -75,15 +78,17 @@ function ModelCard({ model, onEdit }: { model: Model; onEdit?: () => void }) {
       </View>
       <View style={styles.facts}>
         <Fact label="Supply guard">{`${model.minUpdateSupplyV} V minimum to update`}</Fact>
+        <Fact label="Signing rule">{`${model.signingThreshold} signature${model.signingThreshold === 1 ? '' : 's'} by distinct keys per release`}</Fact>
         <Fact label="Check-in every">{`${model.checkInIntervalS / 60} min`}</Fact>
         <Fact label="Panel voltage limit">{`${model.busVMax} V`}</Fact>
         <Fact label="Shunt full scale">{`${Number((model.shuntFullScaleV * 1000).toPrecision(4))} mV`}</Fact>
         <Fact label="Probe resolutions">{`${model.tempResolutions.join(', ')} bits`}</Fact>
       </View>
-      {onEdit ? (
-        <View style={{ alignSelf: 'flex-start' }}>
-          <Button label="Edit" variant="secondary" onPress={onEdit} />
-        </View>
+      {onEdit || onOpenSigning ? (
+        <Row wrap>
+          {onOpenSigning ? <Button label="Signing and trust set" variant="secondary" onPress={onOpenSigning} testID={`model-signing-${model.name}`} /> : null}
+          {onEdit ? <Button label="Edit" variant="secondary" onPress={onEdit} /> : null}
+        </Row>
       ) : null}
     </Card>
   );

@@ -65,6 +65,8 @@ function Detail({ r, wide, pending, onPending, estimate, onTransition, onDelete,
         />
       ) : null}
 
+      <ExpiryNotice r={r} />
+
       <Card testID="rollout">
         <Text role="heading" aria-level={2} style={type.heading}>
           Rollout
@@ -342,6 +344,48 @@ function ImageCard({ r }: { r: Release }) {
   );
 }
 
+/** The manifest's expiry: a warning from 14 days before (our rule), and past it, nothing is offered. */
+const EXPIRY_WARNING_MS = 14 * 24 * 3600 * 1000;
+
+function ExpiryNotice({ r }: { r: Release }) {
+  if (!r.expiresAt) return null;
+  const left = new Date(r.expiresAt).getTime() - Date.now();
+  if (left <= 0) {
+    return (
+      <Notice
+        title="The signed manifest has expired"
+        detail={`It expired ${relativeTime(r.expiresAt)}: no logger is offered this release, and loggers refuse it. Sign a new manifest over the same image with a later expiry to keep the release and its cohort.`}
+      />
+    );
+  }
+  if (left > EXPIRY_WARNING_MS) return null;
+  return (
+    <Notice
+      tone="amber"
+      title="The signed manifest expires soon"
+      detail={`It expires ${relativeTime(r.expiresAt)} (${r.expiresAt}). Sign a new manifest over the same image with a later expiry before then, or the release stops being offered.`}
+    />
+  );
+}
+
+function Signers({ r }: { r: Release }) {
+  const s = r.signing;
+  if (!s) return null;
+  const names = (list: { name: string; keyId: string }[]) => list.map((k) => `${k.name} (${k.keyId})`).join(', ');
+  return (
+    <Item label={`Signatures · ${s.signedBy.length} of ${s.threshold} needed`}>
+      <View style={{ gap: space.xs }} testID="release-signers">
+        <Row wrap>
+          <Badge label={s.met ? 'Signing rule met' : 'Waiting for signatures'} tone={s.met ? 'moss' : 'amber'} />
+        </Row>
+        {s.signedBy.length ? <Text style={type.body}>Signed: {names(s.signedBy)}</Text> : null}
+        {s.missing.length ? <Text style={type.small}>Not signed yet: {names(s.missing)}</Text> : null}
+        {s.revokedSigners.length ? <Text style={type.small}>Not counted (revoked since): {names(s.revokedSigners)}</Text> : null}
+      </View>
+    </Item>
+  );
+}
+
 function ImageFacts({ r }: { r: Release }) {
   return (
     <>
@@ -360,6 +404,8 @@ function ImageFacts({ r }: { r: Release }) {
           '—'
         )}
       </Item>
+      <Signers r={r} />
+      {r.expiresAt ? <Item label="Manifest expires">{r.expiresAt}</Item> : null}
     </>
   );
 }

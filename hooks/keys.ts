@@ -22,6 +22,8 @@ function useKeyMutation<V>(fn: (v: V) => Promise<SigningKey>) {
       qc.invalidateQueries({ queryKey: keyKeys.all });
       // A revoked key flags the releases it signed.
       qc.invalidateQueries({ queryKey: ['releases'] });
+      // A key registered or revoked proposes every model's next trust set.
+      qc.invalidateQueries({ queryKey: ['models', 'trust'] });
     },
   });
 }

@@ -92,6 +92,13 @@ export const checkInRequestSchema = z
       description: 'Measurement profile version the logger runs; when absent or behind, the response carries the profile.',
     }),
     report: installReportSchema.optional(),
+    trust_version: z
+      .number({ message: 'must be the version of the trust set the logger holds, a whole number of 1 or more' })
+      .int('must be a whole number')
+      .min(1, 'must be 1 or more')
+      .max(INT4_MAX, `must be at most ${INT4_MAX}`)
+      .optional()
+      .meta({ description: 'Version of the trust set the logger holds; when a later one is signed, the answer carries the next version (trust_set).' }),
   })
   .meta({ id: 'CheckInRequest', description: 'Unknown fields are ignored (forward compatible).' });
 export type CheckInRequest = z.infer<typeof checkInRequestSchema>;
@@ -120,6 +127,21 @@ export const offerSchema = z
     signature: z.string().meta({ description: 'Base64 of the signature over the manifest bytes (Ed25519, or ECDSA P-256 raw r‖s, 64 bytes).' }),
     key_id: z.string().meta({ description: 'First 16 hex characters of the SHA-256 of the public key (DER SubjectPublicKeyInfo).' }),
     algorithm: signatureAlgorithmSchema,
+    signatures: z
+      .array(
+        z
+          .object({
+            key_id: z.string().meta({ description: 'The signing key id (as key_id above).' }),
+            algorithm: signatureAlgorithmSchema,
+            signature: z.string().meta({ description: 'Base64 of the 64-byte signature over the manifest bytes.' }),
+          })
+          .meta({ id: 'Signature' }),
+      )
+      .meta({
+        description:
+          'Every signature the release carries, one per key, the first being the one in signature, key_id and algorithm. ' +
+          'Install only when signatures from the threshold of your trust set verify, each key counted once.',
+      }),
     image: z.object({
       url: z.string().meta({ description: 'Path of the image on this server, /api/device/v1/images/<sha256>.' }),
       sha256: z.string().regex(/^[0-9a-f]{64}$/),
@@ -129,6 +151,35 @@ export const offerSchema = z
   .meta({ id: 'Offer', description: 'The update to install now. Verify the signature and the image digest before installing.' });
 export type Offer = z.infer<typeof offerSchema>;
 
+const trustSignatureSchema = z.object({ key_id: z.string(), algorithm: signatureAlgorithmSchema, signature: z.string() });
+
+export const trustSetSchema = z
+  .object({
+    model: uuid.meta({ description: 'The model the set is for.' }),
+    version: z.number().int().min(1).meta({ description: 'Exactly one more than the trust_version the logger sent.' }),
+    threshold: z.number().int().min(1).meta({ description: 'How many of these keys must sign a manifest (and the next set).' }),
+    keys: z
+      .array(
+        z.object({
+          key_id: z.string(),
+          algorithm: signatureAlgorithmSchema,
+          public_key: z.string().meta({ description: 'Standard base64 of the DER SubjectPublicKeyInfo; key_id is the first 16 hex characters of its SHA-256.' }),
+        }),
+      )
+      .min(1),
+    expires: z.iso.datetime().meta({ description: 'RFC 3339, UTC.' }),
+    signatures: z.array(trustSignatureSchema).meta({
+      description:
+        'Signatures over the RFC 8785 canonical form of this object without signatures, by keys of the PREVIOUS version. Accept it only when signatures from the threshold of the set you hold verify, each key counted once.',
+    }),
+  })
+  .meta({
+    id: 'TrustSet',
+    description:
+      'The next version of the model’s trust set (the keys loggers trust and how many must sign); sent only when trust_version is behind and that version is signed, one version per check-in.',
+  });
+export type TrustSetWire = z.infer<typeof trustSetSchema>;
+
 export const checkInResponseSchema = z
   .object({
     server_time: z.iso.datetime().meta({ description: 'RFC 3339, UTC.' }),
@@ -137,6 +188,8 @@ export const checkInResponseSchema = z
     }),
     config: deviceConfigSchema.nullable(),
     offer: offerSchema.nullable(),
+    // Sent only when trust_version is behind and the next version is signed: one version per check-in.
+    trust_set: trustSetSchema.optional(),
   })
   .meta({ id: 'CheckInResponse' });
 export type CheckInResponse = z.infer<typeof checkInResponseSchema>;
@@ -157,6 +210,9 @@ export const deviceApiChoices: readonly string[] = [
   '`next_check_in_s`: the model\'s check-in interval with ±10 % uniform jitter, stretched up to four times when the server is busy (event-loop delay, database pool queue, check-ins in flight).',
   'Rate limit: 60 check-ins a minute per logger token by default (per server process); above it `429` with `Retry-After`. Overload and an unreachable database answer `503` with `Retry-After`; come back after that many seconds (with jitter of your own).',
   'Images: the route checks the token first (401), then the id — anything but 64 lowercase hex characters is `404` —, then that this logger was offered the image by a live release (else `404`). `HEAD` is answered like `GET` without a body, and ignores `Range` (RFC 9110 §14.2: ranges are defined for GET only). Multiple ranges are answered with the whole image (`200`). An `If-Range` that is an HTTP-date never matches (no `Last-Modified` is sent), so it yields the whole image.',
+  'Signatures: an offer carries every signature of its release in `signatures` (one per key); `signature`, `key_id` and `algorithm` repeat the first. A logger installs only when signatures from the threshold of its trust set verify over the manifest bytes, each key counted once.',
+  'Trust sets: send `trust_version` with the version of the trust set you hold; when a later one is signed, the answer carries the next version only (`trust_set`), signed by the keys of the version you hold. Accept it only when the threshold of your current set verifies; then check in again for the next one. A pending set (not yet signed) is never sent.',
+  'Manifest expiry: a manifest may carry `expires`; from that instant the release is offered to nobody (reason `manifest_expired`), and a logger refuses an expired manifest even if one is offered.',
   'Trip: a release trips (stops by itself) when more than its trip failure ratio of at least its minimum number of finished installs failed (installed + non-transient failures), or when the watchdog and brown-out resets of at least 20 loggers, each observed on it for 24 h or more since confirming it, rose above the trip reset factor × their rate on the versions before (the earlier rate counts as at least 1 reset per 100 logger-days, and is judged only with at least 20 logger-days of check-ins before the release). Both are compared exactly (cross-multiplied with the decimal trip point), so a figure exactly at its trip point does not trip. ' +
     'It also trips on measurement drift: over at least 20 loggers that confirmed it, the median shift of whole UTC days after the install day against up to 7 days before — energy against the clear-sky model at the site (from `readings.energy_wh` between check-ins), `readings.temp_c` above the expected air temperature, and the share of flagged probe readings — corrected by the loggers at the same sites that did not install it, beyond tripDriftEnergy (10 %), tripDriftTempC (3 °C) or tripDriftFlagged (2 percentage points, rising).',
 ];

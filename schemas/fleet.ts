@@ -155,6 +155,7 @@ export const REASON_CODES = [
   'firmware_unknown',
   'wrong_channel',
   'not_live',
+  'manifest_expired',
   'board_not_supported',
   'not_newer',
   'security_counter_too_low',
@@ -197,6 +198,7 @@ export const LAGGING_REASON_LABELS: Record<LaggingReason, string> = {
   failed_awaiting_retry: 'Install failed, awaiting retry',
   needs_stepping_stone: 'Needs a stepping-stone release first',
   security_counter_too_low: 'Security counter below the logger’s',
+  manifest_expired: 'The release’s signed manifest has expired',
   offered: 'Offered, installing',
   other: 'Other',
 };

@@ -28,6 +28,8 @@ export const manifestSchema = z.strictObject(
       .array(boardLabel, say('must be a list of board revision labels, e.g. ["B","C"]'))
       .min(1, 'must name at least one board revision')
       .refine((labels) => new Set(labels).size === labels.length, 'must not name a board revision twice'),
+    /** Optional: after this time the manifest is not used (no offer carries it, loggers refuse it). */
+    expires: z.iso.datetime(say('must be an RFC 3339 UTC time such as 2027-05-31T00:00:00Z')).optional(),
     format: z.literal(1, say('must be 1 (the only manifest format)')),
     image_sha256: z
       .string(say('must be the image SHA-256 as 64 lowercase hex characters'))

@@ -46,8 +46,15 @@ const modelFields = {
 export const createModelRequest = z.object(modelFields);
 export type CreateModelRequest = z.infer<typeof createModelRequest>;
 
+/** How many distinct registered, unrevoked signing keys must sign each release of the model (k of n). */
+export const signingThresholdSchema = z
+  .number({ message: 'must be a whole number of keys' })
+  .int('must be a whole number of keys')
+  .min(1, 'at least 1 key')
+  .max(16, 'at most 16 keys');
+
 export const updateModelRequest = z
-  .object(modelFields)
+  .object({ ...modelFields, signingThreshold: signingThresholdSchema })
   .partial()
   .refine((body) => Object.values(body).some((v) => v !== undefined), 'change at least one field');
 export type UpdateModelRequest = z.infer<typeof updateModelRequest>;
@@ -66,6 +73,8 @@ export type LoggerModelView = {
   busVMax: number;
   shuntFullScaleV: number;
   tempResolutions: number[];
+  /** Signatures by distinct registered, unrevoked keys each release needs before its pilot (k of n). */
+  signingThreshold: number;
   /** Loggers of this model that are not retired. */
   loggerCount: number;
   createdAt: string;

@@ -3,7 +3,7 @@ import { z } from 'zod';
 import semver from 'semver';
 import { uuid } from './common';
 import { boardLabel } from './manifest';
-import type { KeyState } from './keys';
+import { signatureRequest, type KeyState } from './keys';
 
 import {
   CHANNELS,
@@ -99,6 +99,17 @@ export const transitionRequest = z.strictObject({
 });
 export type TransitionRequest = z.infer<typeof transitionRequest>;
 
+/** POST /api/releases/:id/signatures: one more signature over the draft's manifest bytes. */
+export const addSignatureRequest = signatureRequest;
+export type AddSignatureRequest = z.infer<typeof addSignatureRequest>;
+
+/** PUT /api/releases/:id/manifest: a new manifest over the same image and version (a later expiry), with its signatures. */
+export const resignRequest = z.strictObject({
+  manifest: z.string({ error: 'must be the canonical manifest text' }).min(1, 'is required').max(64 * 1024, 'at most 64 KiB'),
+  signatures: z.array(signatureRequest, { error: 'must be a list of signatures' }).min(1, 'at least one signature').max(16, 'at most 16 signatures'),
+});
+export type ResignRequest = z.infer<typeof resignRequest>;
+
 export const releaseListQuery = z.object({
   modelId: uuid.optional(),
   state: z.enum(RELEASE_STATES, { error: `must be one of ${RELEASE_STATES.join(', ')}` }).optional(),
@@ -180,6 +191,21 @@ export type TripFigures =
       tripPoints: Record<DriftTripPoint, number>;
     };
 
+type SignerView = { keyId: string; name: string; state: KeyState };
+
+/** A release's signatures against its model's signing rule (k of n registered keys). */
+export type ReleaseSigningView = {
+  /** How many distinct registered, unrevoked keys must sign (the model's rule). */
+  threshold: number;
+  met: boolean;
+  /** Keys whose signature verifies and counts, first signer first. */
+  signedBy: SignerView[];
+  /** Signers revoked since they signed: shown, not counted. */
+  revokedSigners: SignerView[];
+  /** Registered, unrevoked keys that have not signed. */
+  missing: SignerView[];
+};
+
 /** A release as GET /api/releases/:id, PATCH, transitions and the upload answer it. */
 export type ReleaseView = ReleaseHeading & Record<DriftTripPoint, number> & {
   resumeState: ResumeState | null;
@@ -203,6 +229,9 @@ export type ReleaseView = ReleaseHeading & Record<DriftTripPoint, number> & {
   image: { sha256: string; size: number };
   key: { id: string; keyId: string; name: string; state: KeyState } | null;
   flagged: boolean;
+  signing: ReleaseSigningView;
+  /** The manifest's `expires`: nothing is offered after it (null when it has none). */
+  expiresAt: string | null;
   counts: ReleaseCounts;
   history: ReleaseTransitionView[];
   allowedActions: ReleaseAction[];

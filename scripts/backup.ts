@@ -3,6 +3,10 @@
 // (pg_export_snapshot, PostgreSQL manual §9.27.5), and exactly the images that snapshot names are
 // copied, each checked against its SHA-256 name. The database may be in use meanwhile; when its
 // cluster is not running (the server is stopped), it is started for the dump and stopped after.
+//
+// With images in object storage (HELIODOR_IMAGE_STORE=s3) the archive holds the database only, and says
+// so in its manifest (imagesLeftIn) and on the terminal: the images stay in the bucket, whose own
+// versioning or replication protects them; a backup does not download a bucket.
 import { spawnSync } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
@@ -55,7 +59,7 @@ async function main() {
     const pgDumpVersion = spawnSync(pgDump, ['--version'], { encoding: 'utf8' }).stdout.trim();
     await client.query('COMMIT');
 
-    for (const sha256 of images) {
+    for (const sha256 of s.objectStore ? [] : images) {
       const source = path.join(s.storeDir, sha256);
       if (!fs.existsSync(source)) throw new Error(`the database names image ${sha256} but the firmware store (${s.storeDir}) has no such file`);
       const copy = path.join(staging, 'firmware-store', sha256);
@@ -72,7 +76,8 @@ async function main() {
       createdAt: new Date().toISOString(),
       heliodor: (JSON.parse(fs.readFileSync(path.join(bootstrap.root, 'package.json'), 'utf8')) as { version: string }).version,
       database: { name: s.database, pgDump: pgDumpVersion, tables: counts },
-      images: images.length,
+      images: s.objectStore ? 0 : images.length,
+      ...(s.objectStore ? { imagesLeftIn: s.objectStore } : {}),
       demoFiles,
     };
     fs.writeFileSync(path.join(staging, 'manifest.json'), `${JSON.stringify(manifest, null, 2)}\n`);
@@ -87,7 +92,7 @@ async function main() {
 
     const rows = Object.values(counts).reduce((a, b) => a + b, 0);
     process.stdout.write(
-      `Backup written to ${file}: ${tables.length} tables (${rows} rows), ${images.length} images${demoFiles.length ? ', the demo\'s token secret and bench sheet' : ''}; ` +
+      `Backup written to ${file}: ${tables.length} tables (${rows} rows), ${s.objectStore ? `no images (the ${images.length} the database names stay in ${s.objectStore}: the object store is not backed up here; keep its versioning or replication on)` : `${images.length} images`}${demoFiles.length ? ', the demo\'s token secret and bench sheet' : ''}; ` +
         `${megabytes(fs.statSync(file).size)} in ${((Date.now() - started) / 1000).toFixed(1)} s.\n`,
     );
   } finally {

@@ -73,7 +73,7 @@ async function main() {
     const rows = Object.values(manifest.database.tables).reduce((a, b) => a + b, 0);
     process.stdout.write(
       `Restored ${path.basename(file)} (made ${manifest.createdAt}) into ${s.dataDir}: ${Object.keys(manifest.database.tables).length} tables (${rows} rows), ` +
-        `${images.length} images in ${s.storeDir}; ${megabytes(fs.statSync(file).size)} in ${((Date.now() - started) / 1000).toFixed(1)} s. Start it with npm start.\n`,
+        `${manifest.imagesLeftIn ? `no images (the backup left them in ${manifest.imagesLeftIn}; point HELIODOR_IMAGE_STORE=s3 at that bucket)` : `${images.length} images in ${s.storeDir}`}; ${megabytes(fs.statSync(file).size)} in ${((Date.now() - started) / 1000).toFixed(1)} s. Start it with npm start.\n`,
     );
   } catch (err) {
     // Nothing half-restored: both folders were empty, so they are emptied again.

@@ -1,6 +1,7 @@
 #!/usr/bin/env node
 // `npm start`: install what is missing, start PostgreSQL and the mail fake, migrate, seed the demo,
-// build the web app when stale, and serve app + API from one Express process. Ctrl-C stops it all.
+// build the web app when stale, and serve app + API from Express (HELIODOR_WORKERS processes on one
+// port, default 1: server/index.ts runs them with node:cluster). Ctrl-C stops it all.
 'use strict';
 const { spawn } = require('node:child_process');
 const path = require('node:path');

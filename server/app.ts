@@ -30,6 +30,7 @@ import { registerLoggerRoutes } from './loggers/routes';
 import { registerFleetRoutes } from './fleet/routes';
 import { apiCompression, webApp } from './http/web';
 import { createDeviceApi } from './device-api/routes';
+import { LocalImageStore, type ImageStore } from './images/store';
 import { measurePoolWaits, registerMetricsRoutes, requestMetrics } from './metrics';
 import { createSummaries, type Summaries } from './fleet/summaries';
 
@@ -41,6 +42,8 @@ export type AppDeps = {
   /** The clock; tests inject a fixed one. */
   now?: () => Date;
   logger?: Pino;
+  /** Where release images live (server/images/select.ts); the local folder config.storeDir when absent. */
+  images?: ImageStore;
 };
 
 export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Readiness; summaries: Summaries };
@@ -48,10 +51,11 @@ export type AppServices = Required<Omit<AppDeps, 'readiness'>> & { readiness: Re
 export function createApp(deps: AppDeps) {
   const now = deps.now ?? (() => new Date());
   const logger = deps.logger ?? pino({ level: 'silent' });
+  const images = deps.images ?? new LocalImageStore(deps.config.storeDir);
   // The fleet summaries' worker (server/fleet/summaries.ts): runs from here until the app is stopped.
   const summaries = createSummaries({ sequelize: deps.sequelize, now, logger });
   summaries.start();
-  const services: AppServices = { ...deps, now, logger, summaries };
+  const services: AppServices = { ...deps, now, logger, images, summaries };
   const app = express();
   app.disable('x-powered-by');
   app.set('trust proxy', 'loopback');
@@ -120,7 +124,7 @@ export function createApp(deps: AppDeps) {
   registerOverviewRoutes(api, services);
   registerActivityRoutes(api, services);
   registerTeamRoutes(api, accounts);
-  registerReleaseRoutes(api, services);
+  registerReleaseRoutes(api, services, services.images);
   registerKeyRoutes(api, services);
   registerTokenRoutes(api, services);
   registerModelRoutes(api, services);

@@ -22,6 +22,16 @@ const envSchema = z.object({
   HELIODOR_PUBLIC_URL: z.string().url().optional(),
   HELIODOR_IMAGE_LIMIT: z.coerce.number().int().min(1024).default(16 * 1024 * 1024),
   HELIODOR_DEVICE_RATE: z.coerce.number().int().min(1).default(60),
+  HELIODOR_WORKERS: z.coerce.number().int().min(1).max(64).default(1),
+  HELIODOR_IMAGE_STORE: z.enum(['local', 's3']).default('local'),
+  HELIODOR_S3_BUCKET: z.string().regex(/^[a-z0-9][a-z0-9.-]{1,61}[a-z0-9]$/, 'an S3 bucket name').optional(),
+  HELIODOR_S3_PREFIX: z.string().regex(/^([A-Za-z0-9!_.*'()-]+\/)*$/, 'empty, or folder names each ending in /').default(''),
+  HELIODOR_S3_REGION: z.string().min(1).default('us-east-1'),
+  HELIODOR_S3_ENDPOINT: z.string().url().optional(),
+  HELIODOR_S3_FORCE_PATH_STYLE: z.enum(['0', '1']).optional(),
+  HELIODOR_S3_ACCESS_KEY_ID: z.string().min(1).optional(),
+  HELIODOR_S3_SECRET_ACCESS_KEY: z.string().min(1).optional(),
+  HELIODOR_S3_URL_TTL_S: z.coerce.number().int().min(60).max(7 * 86_400).default(900),
   HELIODOR_DB_POOL: z.coerce.number().int().min(1).max(200).default(20),
   HELIODOR_SHUTDOWN_GRACE_S: z.coerce.number().min(0).max(3600).default(20),
   HELIODOR_LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info'),
@@ -57,6 +67,12 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     throw new Error(`Invalid Heliodor settings:\n${lines.join('\n')}`);
   }
   const e = parsed.data;
+  if (e.HELIODOR_IMAGE_STORE === 's3' && !e.HELIODOR_S3_BUCKET) {
+    throw new Error('Invalid Heliodor settings:\n  HELIODOR_S3_BUCKET: required when HELIODOR_IMAGE_STORE=s3');
+  }
+  if (Boolean(e.HELIODOR_S3_ACCESS_KEY_ID) !== Boolean(e.HELIODOR_S3_SECRET_ACCESS_KEY)) {
+    throw new Error('Invalid Heliodor settings:\n  HELIODOR_S3_ACCESS_KEY_ID, HELIODOR_S3_SECRET_ACCESS_KEY: give both or neither');
+  }
   const production = e.HELIODOR_ENV === 'production';
   const dataDir = path.resolve(root, e.HELIODOR_DATA);
   const demo = !production && e.HELIODOR_DEMO === '1';
@@ -78,6 +94,23 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env) {
     port: e.PORT,
     dataDir,
     storeDir: path.resolve(root, e.HELIODOR_STORE),
+    /** Where release images live: the local folder (storeDir), or S3-compatible object storage. */
+    imageStore:
+      e.HELIODOR_IMAGE_STORE === 's3'
+        ? {
+            kind: 's3' as const,
+            bucket: e.HELIODOR_S3_BUCKET!,
+            prefix: e.HELIODOR_S3_PREFIX,
+            region: e.HELIODOR_S3_REGION,
+            endpoint: e.HELIODOR_S3_ENDPOINT,
+            // A custom endpoint is usually an S3-compatible server, which wants path-style URLs.
+            forcePathStyle: e.HELIODOR_S3_FORCE_PATH_STYLE ? e.HELIODOR_S3_FORCE_PATH_STYLE === '1' : Boolean(e.HELIODOR_S3_ENDPOINT),
+            credentials: e.HELIODOR_S3_ACCESS_KEY_ID ? { accessKeyId: e.HELIODOR_S3_ACCESS_KEY_ID, secretAccessKey: e.HELIODOR_S3_SECRET_ACCESS_KEY! } : undefined,
+            urlTtlS: e.HELIODOR_S3_URL_TTL_S,
+          }
+        : { kind: 'local' as const },
+    /** Express processes on one port (node:cluster); 1 runs the server in this process. */
+    workers: e.HELIODOR_WORKERS,
     outboxDir: path.join(dataDir, 'outbox'),
     databaseUrl,
     dbPool: e.HELIODOR_DB_POOL,

@@ -18,6 +18,7 @@ import {
   verifyManifestSignature,
   type Manifest,
 } from '../../server/images/manifest';
+import { trustSetBodySchema, trustSetBytes, type TrustSetBody } from '../../server/images/trust';
 
 /** A refusal the CLI prints as one line on stderr before exiting with status 1. */
 export class CliError extends Error {
@@ -343,4 +344,94 @@ export async function pushRelease(options: PushOptions): Promise<string> {
   const title = problem.title ?? response.statusText ?? 'refused';
   const detail = problem.detail ? `: ${problem.detail}` : '';
   throw new CliError(`upload refused (${response.status} ${title})${detail}${fields}`);
+}
+
+// ---------------------------------------------------------------------------------------------
+// push --add-signature: one more signature on a draft
+
+export type AddSignatureOptions = {
+  url: string;
+  token?: string;
+  release: string;
+  /** The signer's public key (.public.pem): names the key id and algorithm. */
+  key: string;
+  /** The base64 signature (from `heliodor sign`), as text. */
+  signature: string;
+  fetch?: typeof fetch;
+};
+
+/** POST <url>/api/releases/<id>/signatures with an API token (images:write). */
+export async function addReleaseSignature(options: AddSignatureOptions): Promise<string> {
+  const token = options.token ?? process.env.HELIODOR_TOKEN;
+  if (!token) throw new CliError('--token is required (an API token with images:write; or set HELIODOR_TOKEN)');
+  if (!/^[0-9a-f-]{36}$/.test(options.release)) throw new CliError(`--release must be the release id (a lowercase UUID), got '${options.release}'`);
+  const keyText = (await readInput(options.key, 'public key')).toString('utf8');
+  let key;
+  try {
+    key = parsePublicKeyPem(keyText);
+  } catch (error) {
+    if (error instanceof ManifestError) throw new CliError(`${options.key}: ${error.message}`);
+    throw error;
+  }
+  const signature = options.signature.trim();
+  if (!signature) throw new CliError('no signature: pipe `heliodor sign …` into this command, or pass --signature <file>');
+  let endpoint: URL;
+  try {
+    endpoint = new URL(`${options.url.replace(/\/+$/, '')}/api/releases/${options.release}/signatures`);
+  } catch {
+    throw new CliError(`--url must be the console address, such as https://heliodor.example, got '${options.url}'`);
+  }
+  const send = options.fetch ?? fetch;
+  let response: Response;
+  try {
+    response = await send(endpoint, {
+      method: 'POST',
+      headers: { Authorization: `Bearer ${token}`, 'Content-Type': 'application/json', Accept: 'application/json, application/problem+json' },
+      body: JSON.stringify({ keyId: key.keyId, algorithm: key.algorithm, signature }),
+      redirect: 'manual',
+    });
+  } catch (error) {
+    throw new CliError(`cannot reach the console at ${endpoint.origin}: ${(error as Error).message}`);
+  }
+  const body = (await response.json().catch(() => ({}))) as {
+    version?: string;
+    signing?: { threshold: number; met: boolean; signedBy: { keyId: string }[] };
+    title?: string;
+    detail?: string;
+  };
+  if (response.status !== 200) throw new CliError(`signature refused (${response.status} ${body.title ?? response.statusText})${body.detail ? `: ${body.detail}` : ''}`);
+  const s = body.signing;
+  return `added key ${key.keyId}'s signature to release ${body.version}: ${s?.signedBy.length ?? '?'} of ${s?.threshold ?? '?'} keys${s?.met ? ', ready for its pilot' : ''}\n`;
+}
+
+// ---------------------------------------------------------------------------------------------
+// trust sign: a signature over a pending trust set, made offline
+
+export type TrustSignOptions = { key: string; set: string };
+
+/**
+ * Signs the canonical text of a pending trust set (copied from the console's trust set panel, or from
+ * GET /api/models/:id/trust `pending.canonical`) and prints the body for
+ * POST /api/models/:id/trust/signatures. The text must be exactly its RFC 8785 canonical form.
+ */
+export async function signTrustSetFile(options: TrustSignOptions): Promise<string> {
+  const bytes = await readInput(options.set, 'trust set');
+  let body: TrustSetBody;
+  try {
+    body = trustSetBodySchema.parse(JSON.parse(bytes.toString('utf8')));
+  } catch {
+    throw new CliError(`${options.set}: not a trust set (expected the canonical text the console shows for the pending set)`);
+  }
+  if (!trustSetBytes(body).equals(bytes)) {
+    throw new CliError(`${options.set}: not the set's RFC 8785 canonical form (copy it exactly, without a final newline)`);
+  }
+  const privatePem = (await readInput(options.key, 'private key')).toString('utf8');
+  try {
+    const pub = publicKeyOfPrivatePem(privatePem);
+    const signature = signManifest(bytes, privatePem);
+    return `${JSON.stringify({ version: body.version, keyId: pub.keyId, algorithm: pub.algorithm, signature })}\n`;
+  } catch (error) {
+    if (error instanceof ManifestError) throw new CliError(`${options.key}: ${error.message}`);
+    throw error;
+  }
 }

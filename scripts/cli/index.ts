@@ -4,7 +4,16 @@ import { writeFile } from 'node:fs/promises';
 import { Command, Option } from 'commander';
 import { signatureAlgorithms } from '../../schemas/manifest';
 import { ManifestError } from '../../server/images/manifest';
-import { CliError, newSigningKey, pushRelease, signManifestFile, verifySignedManifest, writeManifest } from './commands';
+import { readFile } from 'node:fs/promises';
+import { addReleaseSignature, CliError, newSigningKey, pushRelease, signManifestFile, signTrustSetFile, verifySignedManifest, writeManifest } from './commands';
+
+/** All of standard input (a signature piped from `heliodor sign`). */
+async function stdinText(): Promise<string> {
+  if (process.stdin.isTTY) return '';
+  const chunks: Buffer[] = [];
+  for await (const chunk of process.stdin) chunks.push(chunk as Buffer);
+  return Buffer.concat(chunks).toString('utf8');
+}
 
 /** One line on stderr and exit status 1; never a stack trace, never key material. */
 function fail(error: unknown): void {
@@ -98,20 +107,55 @@ function buildProgram(): Command {
     .description('upload a signed image to Heliodor as a draft release')
     .requiredOption('--url <console>', 'the console address, e.g. https://heliodor.example')
     .option('--token <token>', 'API token with images:write (default: $HELIODOR_TOKEN)')
-    .requiredOption('--image <file>', 'the firmware image')
-    .requiredOption('--manifest <file>', 'the canonical manifest')
-    .requiredOption('--signature <file>', 'the signature file (base64)')
+    .option('--image <file>', 'the firmware image')
+    .option('--manifest <file>', 'the canonical manifest')
+    .option('--signature <file>', 'the signature file (base64); with --add-signature, stdin when absent')
     .option('--notes <file or text>', 'release notes (plain text or Markdown)')
     .addOption(new Option('--channel <channel>', 'release channel').choices(['stable', 'early'] as const))
+    .option('--add-signature', 'add one more signature to a draft instead: heliodor sign … | heliodor push --add-signature --release <id> --key <public.pem>')
+    .option('--release <id>', 'with --add-signature: the draft release id')
+    .option('--key <file>', "with --add-signature: the signer's public key (.public.pem)")
     .action(
-      async (options: { url: string; token?: string; image: string; manifest: string; signature: string; notes?: string; channel?: 'stable' | 'early' }) => {
+      async (options: {
+        url: string;
+        token?: string;
+        image?: string;
+        manifest?: string;
+        signature?: string;
+        notes?: string;
+        channel?: 'stable' | 'early';
+        addSignature?: boolean;
+        release?: string;
+        key?: string;
+      }) => {
         try {
-          process.stdout.write(await pushRelease(options));
+          if (options.addSignature) {
+            if (!options.release || !options.key) throw new CliError('--add-signature needs --release <id> and --key <public.pem>');
+            const signature = options.signature ? await readFile(options.signature, 'utf8') : await stdinText();
+            process.stdout.write(await addReleaseSignature({ url: options.url, token: options.token, release: options.release, key: options.key, signature }));
+            return;
+          }
+          if (!options.image || !options.manifest || !options.signature) throw new CliError('push needs --image, --manifest and --signature');
+          process.stdout.write(await pushRelease({ ...options, image: options.image, manifest: options.manifest, signature: options.signature }));
         } catch (error) {
           fail(error);
         }
       },
     );
+
+  const trust = program.command('trust').description("a model's trust set");
+  trust
+    .command('sign')
+    .description('sign the canonical text of a pending trust set offline; prints the body for POST /api/models/<id>/trust/signatures')
+    .requiredOption('--key <file>', 'the private key (.private.pem) of a key in the previous version')
+    .argument('<set>', 'the pending set\'s canonical text, saved to a file')
+    .action(async (set: string, options: { key: string }) => {
+      try {
+        process.stdout.write(await signTrustSetFile({ key: options.key, set }));
+      } catch (error) {
+        fail(error);
+      }
+    });
 
   return program;
 }

@@ -23,6 +23,11 @@ export type ArchiveManifest = {
   heliodor: string;
   database: { name: string; pgDump: string; tables: Record<string, number> };
   images: number;
+  /**
+   * Where the images are when they are not in the archive: the object store (HELIODOR_IMAGE_STORE=s3),
+   * as s3://bucket/prefix. Absent: the archive holds every image the database names.
+   */
+  imagesLeftIn?: string;
   demoFiles: string[];
 };
 
@@ -53,6 +58,8 @@ export function settings(env: NodeJS.ProcessEnv = process.env) {
     pgPort: Number(env.HELIODOR_PG_PORT || 54329),
     database: env.HELIODOR_DB_NAME || 'heliodor',
     databaseUrl: env.DATABASE_URL || null,
+    /** With HELIODOR_IMAGE_STORE=s3 the images are in object storage: s3://bucket/prefix; null for the local folder. */
+    objectStore: env.HELIODOR_IMAGE_STORE === 's3' ? `s3://${env.HELIODOR_S3_BUCKET ?? '?'}/${env.HELIODOR_S3_PREFIX ?? ''}` : null,
   };
 }
 

@@ -8,6 +8,7 @@ import { ManifestError } from '../../server/images/manifest';
 import type { LoggerIdentity } from './logger';
 import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, firmwareOnRecord, FleetTally, loadTrustedKeys, pilotTarget, readBenchSheet, registerFleet, runFleet } from './fleet';
 import { seededRandom } from './random';
+import { runThresholdDemo, thresholdSummary } from './threshold-demo';
 
 const MAX_LOGGERS = 5000;
 const MAX_MINUTES = 24 * 60;
@@ -43,6 +44,9 @@ type Options = {
   concurrency: number;
   start?: string;
   drift: number;
+  demoThreshold: boolean;
+  /** Whether --loggers was given (the threshold demo takes a handful by default). */
+  loggersGiven?: boolean;
 };
 
 const dataDir = path.resolve(process.env.HELIODOR_DATA ?? '.data');
@@ -71,8 +75,9 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     .addOption(new Option('--concurrency <n>', 'loggers talking to the server at once').argParser(number('--concurrency', 1, 256, true)).default(32))
     .option('--start <time>', 'simulated start time, RFC 3339 (default: now)')
     .option('--drift <scale>', 'measurement drift: loggers that install an offered release report their current (and power and energy) × this, as a broken calibration would (1: none)', number('--drift', 0, 100), 1)
-    .action(async (options: Options) => {
-      process.exitCode = await run(options);
+    .option('--demo-threshold', 'show a release that needs 2 signatures going out: three keys, a model with the rule 2 of the keys, a pilot refused with one signature and started with two, loggers verifying both and installing (admin sign-in; 6 loggers unless --loggers)', false)
+    .action(async (options: Options, command: Command) => {
+      process.exitCode = await run({ ...options, loggersGiven: command.getOptionValueSource('loggers') === 'cli' });
     });
 }
 
@@ -126,6 +131,17 @@ async function simulate(o: Options): Promise<number> {
   if (Number.isNaN(start.getTime())) {
     say('simulate: --start must be an RFC 3339 time such as 2026-06-21T06:00:00Z');
     return 2;
+  }
+  if (o.demoThreshold) {
+    try {
+      const result = await runThresholdDemo({ session: await adminSession(o), baseUrl: url.origin, loggers: o.loggersGiven ? Math.min(o.loggers, 100) : 6, seed: o.seed, say });
+      process.stdout.write(thresholdSummary(result));
+      return result.ok ? 0 : 1;
+    } catch (error) {
+      const known = error instanceof SetupError || error instanceof ManifestError;
+      say(`simulate: ${known ? '' : 'unexpected error: '}${error instanceof Error ? error.message : String(error)}`);
+      return 1;
+    }
   }
   try {
     const keysDir = o.keys ?? path.join(dataDir, 'demo');

@@ -21,7 +21,8 @@
 import { createHash } from 'node:crypto';
 import semver from 'semver';
 import { z } from 'zod';
-import { ManifestError, parseSignedManifest, verifyManifestSignature, type Manifest, type SigningPublicKey } from '../../server/images/manifest';
+import { ManifestError, parseSignedManifest, type Manifest, type SigningPublicKey } from '../../server/images/manifest';
+import { acceptTrustSet, hasExpired, judgeThreshold, keysOfTrustSet, wireSignatureSchema, type TrustSetBody } from '../../server/images/trust';
 import { chance, gaussian, pick, type Random } from './random';
 import { PanelMeter, supplyBetweenCheckIns, typicalPanel, type BoardSupply, type Panel, type ResetReason, type Spot } from './readings';
 
@@ -35,6 +36,8 @@ const offerSchema = z.object({
   signature: z.string().min(1),
   key_id: z.string().min(1),
   algorithm: z.enum(['ed25519', 'ecdsa-p256-sha256']),
+  /** Every signature of the release; older servers send only the single fields above. */
+  signatures: z.array(wireSignatureSchema).optional(),
   image: z.object({
     url: z.string().min(1),
     sha256: z.string().regex(/^[0-9a-f]{64}$/),
@@ -61,6 +64,8 @@ export const checkInResponseSchema = z.object({
   next_check_in_s: z.number().int().positive(),
   config: configSchema.nullable(),
   offer: offerSchema.nullable(),
+  /** The next version of the model's trust set; judged by acceptTrustSet, never trusted as it comes. */
+  trust_set: z.unknown().optional(),
 });
 export type CheckInResponse = z.infer<typeof checkInResponseSchema>;
 
@@ -82,13 +87,18 @@ export type CheckInRequest = {
   readings: ReturnType<PanelMeter['readings']>;
   config_version: number;
   report?: InstallReport;
+  trust_version?: number;
 };
 
 // ---- Verification, exactly as firmware does it. Pure. ----
 
 export type TrustAnchor = {
-  /** The public keys baked into the firmware. */
+  /** The public keys the logger trusts: its trust set's, or those baked into the firmware. */
   trustedKeys: readonly SigningPublicKey[];
+  /** How many of them must sign a manifest (its trust set's threshold; 1 without a trust set). */
+  threshold?: number;
+  /** The clock, for the manifest's `expires`. */
+  now?: Date;
   /** The logger's board revision label. */
   board: string;
   /** The highest security counter the logger has accepted. */
@@ -111,17 +121,16 @@ const refuse = (reason: FailureReason, detail: string): Verdict => ({ ok: false,
  * own fields must agree with the manifest, or the server is confused and nothing is installed.
  */
 export function verifyImage(offer: Offer, image: Uint8Array, anchor: TrustAnchor): Verdict {
-  const key = anchor.trustedKeys.find((k) => k.keyId === offer.key_id);
-  if (!key) return refuse('signature', `signing key ${offer.key_id} is not one this logger trusts`);
-  if (key.algorithm !== offer.algorithm) return refuse('signature', `key ${offer.key_id} signs with ${key.algorithm}, the offer says ${offer.algorithm}`);
+  // The threshold rule (server/images/trust.ts): signatures from `threshold` distinct trusted keys,
+  // each counted once; an offer without the list carries its one signature in the single fields.
+  const signatures = offer.signatures?.length ? offer.signatures : [{ key_id: offer.key_id, algorithm: offer.algorithm, signature: offer.signature }];
   const manifestBytes = Buffer.from(offer.manifest, 'base64');
-  let signed: boolean;
-  try {
-    signed = verifyManifestSignature(manifestBytes, offer.signature, key);
-  } catch (error) {
-    return refuse('signature', error instanceof ManifestError ? error.message : 'the signature cannot be read');
+  const threshold = anchor.threshold ?? 1;
+  const verdict = judgeThreshold(manifestBytes, signatures, anchor.trustedKeys, threshold);
+  if (!verdict.met) {
+    const why = verdict.rejected.map((r) => `key ${r.keyId}: ${r.why}`).join('; ');
+    return refuse('signature', `signed by ${verdict.signedBy.length} of the ${threshold} trusted keys needed${why ? ` (${why})` : ''}`);
   }
-  if (!signed) return refuse('signature', `the manifest signature does not verify with key ${key.keyId}`);
 
   let manifest: Manifest;
   try {
@@ -129,6 +138,7 @@ export function verifyImage(offer: Offer, image: Uint8Array, anchor: TrustAnchor
   } catch (error) {
     return refuse('unsupported', error instanceof Error ? error.message : 'the manifest cannot be read');
   }
+  if (manifest.expires && hasExpired(manifest.expires, anchor.now ?? new Date())) return refuse('unsupported', `the manifest expired at ${manifest.expires}`);
   if (manifest.version !== offer.version) return refuse('integrity', `the offer says ${offer.version}, the manifest ${manifest.version}`);
   if (manifest.security_counter !== offer.security_counter) {
     return refuse('integrity', `the offer says security counter ${offer.security_counter}, the manifest ${manifest.security_counter}`);
@@ -176,6 +186,7 @@ export type LoggerEvent =
   | { kind: 'interrupted'; serial: string; release: string; have: number }
   | { kind: 'rebooted'; serial: string; firmware: string; reason: ResetReason }
   | { kind: 'drifted'; serial: string; firmware: string; scale: number }
+  | { kind: 'trust'; serial: string; version: number; accepted: boolean; detail: string }
   | { kind: 'error'; serial: string; message: string };
 
 export type LoggerEnvironment = {
@@ -185,6 +196,11 @@ export type LoggerEnvironment = {
   clock: () => Date;
   random: Random;
   trustedKeys: readonly SigningPublicKey[];
+  /**
+   * The model's trust set the logger was made with. When given, the logger verifies offers against it
+   * (its keys and threshold) instead of `trustedKeys`, sends `trust_version`, and follows later sets.
+   */
+  trustSet?: TrustSetBody | null;
   /** Share of download attempts cut short part-way (0–1). */
   interruptRate?: number;
   /**
@@ -212,6 +228,8 @@ export type InstallOutcome = { state: 'installed' | 'failed'; reason?: FailureRe
 type Download = { release: string; sha256: string; etag: string | null; parts: Buffer[]; have: number };
 
 const DEFAULT_RETRY_S = 60;
+/** After accepting a trust set, the logger checks in again this soon for the next version. */
+const TRUST_STEP_MS = 5_000;
 /** From the installed report to the new version's first check-in: the reboot. */
 const REBOOT_MS = 5_000;
 const injectedFailures: readonly FailureReason[] = ['integrity', 'storage', 'other'];
@@ -231,9 +249,13 @@ export class VirtualLogger {
   refused = false;
   /** The latest install report not yet delivered. */
   pendingReport: InstallReport | null = null;
+  /** The trust set the logger holds (null: it trusts the keys baked into its firmware, one signature each). */
+  trust: TrustSetBody | null;
+  /** Trust sets it was sent and refused, with why (a forged or out-of-order set). */
+  readonly refusedTrustSets: { version: unknown; detail: string }[] = [];
   readonly meter: PanelMeter;
 
-  private readonly env: Required<Omit<LoggerEnvironment, 'onEvent'>> & Pick<LoggerEnvironment, 'onEvent'>;
+  private readonly env: Required<Omit<LoggerEnvironment, 'onEvent' | 'trustSet'>> & Pick<LoggerEnvironment, 'onEvent' | 'trustSet'>;
   private readonly origin: string;
   private bootAt: Date;
   private lastCheckInAt: Date | null = null;
@@ -263,6 +285,7 @@ export class VirtualLogger {
       ...env,
     };
     this.origin = new URL(env.baseUrl).origin;
+    this.trust = env.trustSet ?? null;
     const now = env.clock();
     // The logger has been running a while when the simulation starts.
     this.bootAt = new Date(now.getTime() - Math.floor(env.random() * 6 * 3600) * 1000);
@@ -354,6 +377,7 @@ export class VirtualLogger {
     };
     if (resets > 0) body.reset_counts = { ...this.resetCounts };
     if (this.pendingReport) body.report = this.pendingReport;
+    if (this.trust) body.trust_version = this.trust.version;
     return body;
   }
 
@@ -396,6 +420,10 @@ export class VirtualLogger {
       if (sentReport) this.emit({ kind: 'report', serial: this.serial, report: sentReport, delivered: true });
       if (answer.config) this.config = answer.config;
       this.nextCheckInAt = new Date(now.getTime() + answer.next_check_in_s * 1000);
+      if (answer.trust_set !== undefined && this.followTrustSet(answer.trust_set)) {
+        // One version per check-in: come back soon for the next one before acting on any offer.
+        this.nextCheckInAt = new Date(now.getTime() + TRUST_STEP_MS);
+      }
       this.emit({ kind: 'check-in', serial: this.serial, status: 200, offer: answer.offer !== null });
       return { ok: true, status: 200, response: answer };
     }
@@ -415,6 +443,25 @@ export class VirtualLogger {
     }
     if (res.status === 401) this.refused = true;
     return this.failed(now, res.status, `check-in answered ${res.status}`);
+  }
+
+  /**
+   * A trust set the server sent: accepted only by the acceptance rule (server/images/trust.ts) against
+   * the set the logger holds — the next version, signed by the threshold of its CURRENT keys. Returns
+   * whether it was accepted.
+   */
+  followTrustSet(candidate: unknown): boolean {
+    if (!this.trust) return false;
+    const verdict = acceptTrustSet(this.trust, candidate);
+    const version = (candidate as { version?: unknown } | null)?.version;
+    if (!verdict.ok) {
+      this.refusedTrustSets.push({ version, detail: verdict.detail });
+      this.emit({ kind: 'trust', serial: this.serial, version: Number(version), accepted: false, detail: verdict.detail });
+      return false;
+    }
+    this.trust = verdict.set;
+    this.emit({ kind: 'trust', serial: this.serial, version: verdict.set.version, accepted: true, detail: `signed by ${verdict.signedBy.join(', ')}` });
+    return true;
   }
 
   private failed(now: Date, status: number, message: string): CheckInResult {
@@ -445,6 +492,8 @@ export class VirtualLogger {
     if (!this.due(now)) return null;
     const result = await this.checkIn(now);
     if (!result.ok || !this.wants(result.response.offer)) return null;
+    // Catching up on trust sets first: the offer may be signed by keys the next set brings.
+    if (result.response.trust_set !== undefined) return null;
     return this.install(result.response.offer);
   }
 
@@ -538,7 +587,9 @@ export class VirtualLogger {
   /** verifyImage with this logger's own trust anchor. */
   verify(offer: Offer, bytes: Uint8Array): Verdict {
     return verifyImage(offer, bytes, {
-      trustedKeys: this.env.trustedKeys,
+      trustedKeys: this.trust ? keysOfTrustSet(this.trust) : this.env.trustedKeys,
+      threshold: this.trust?.threshold ?? 1,
+      now: this.env.clock(),
       board: this.board,
       securityCounter: this.securityCounter,
       firmware: this.firmware,

@@ -63,6 +63,9 @@ export function decoyHash(cost: number): Promise<string> {
 export async function stopPasswordWorkers() {
   const p = pool;
   pool = null;
+  // A decoy still being computed is refused by destroy(); nobody waits for it any more, so its
+  // refusal is expected and must not surface as an unhandled rejection.
+  for (const d of decoys.values()) d.catch(() => undefined);
   decoys.clear();
   await p?.destroy();
 }

@@ -29,7 +29,12 @@ import type { Actor, Scope } from './actor';
 
 // ─── Resources: the facts each rule reads ───────────────────────────────────
 
-export type ReleaseResource = { kind: 'release'; state: ReleaseState; keyRevoked: boolean };
+export type ReleaseResource = {
+  kind: 'release';
+  state: ReleaseState;
+  /** Fewer valid signatures by distinct registered, unrevoked keys than the model's signing rule asks for. */
+  signaturesShort: boolean;
+};
 export type LoggerResource = {
   kind: 'logger';
   status: LoggerStatus;
@@ -135,8 +140,8 @@ const assignedTo = (me: string, s: SiteResource) => s.integratorIds.includes(me)
 
 const lifecycle = (action: ReleaseAction): Rule<ReleaseResource> => ({
   by: releaseWriters,
-  // A draft signed by a key revoked since cannot start its pilot (the service answers 409).
-  when: (r) => allowedActions(r.state).includes(action) && !(action === 'start_pilot' && r.keyRevoked),
+  // A draft without its threshold of signatures by unrevoked keys cannot start its pilot (409).
+  when: (r) => allowedActions(r.state).includes(action) && !(action === 'start_pilot' && r.signaturesShort),
 });
 const retry: Rule<unknown> = { by: people(ENGINEERS) };
 const assignIntegrators: Rule<unknown> = { by: people(ADMIN), roleRefusal: 'Only an admin assigns integrators to a site.' };

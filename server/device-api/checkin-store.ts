@@ -17,6 +17,13 @@ export type ReportRow = ReportFacts & { confirmedAt: Date | null };
 /** What recording a visit tells: the supply the logger row now holds, its reports and its latest profile. */
 export type Visit = { supplyV: number | null; reports: ReportRow[]; profile: DeviceConfig | null };
 
+/** The per-logger rate limit: check-ins a minute, counted from the wall clock `now`. */
+export type RateWindow = { perMinute: number; now: Date };
+/** Over the rate limit: nothing was recorded; try again after this many seconds (the window's end). */
+export type RateRefusal = { refused: true; retryAfterS: number };
+/** The rate limit's window: one minute from the first check-in counted in it. */
+export const RATE_WINDOW_MS = 60_000;
+
 /** Boots since the previous check-in by reason (DEVICE_API.md `reset_counts`; else resets_since_last under reset_reason). */
 export function resetsOf(body: CheckInRequest): ResetCounts | null {
   if (body.reset_counts) {
@@ -67,15 +74,25 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
 
   return {
     /**
-     * One statement: the logger's latest state on its row, one history row in check_ins, its day's sums
-     * in logger_days (the measurement-drift trip: the energy since the previous check-in, read from the
-     * row as it was before this statement, with the clear-sky energy of the same interval), and what the
-     * logger has — its install reports and its latest measurement profile.
+     * One statement: the per-logger rate limit's count (device_check_in_windows, shared by every process),
+     * and — only when the check-in is within the limit — the logger's latest state on its row, one history
+     * row in check_ins, its day's sums in logger_days (the measurement-drift trip: the energy since the
+     * previous check-in, read from the row as it was before this statement, with the clear-sky energy of
+     * the same interval), and what the logger has: its install reports and its latest measurement profile.
+     * `rate` is the wall-clock window (the limit counts real minutes even where the clock is injected).
      */
-    async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null, day: CheckInDay): Promise<Visit> {
+    async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null, rate: RateWindow, day: CheckInDay): Promise<Visit | RateRefusal> {
       const resets = resetsOf(body);
-      const [row] = await select<{ supplyV: number | null; reports: RawReport[]; profile: RawProfile | null }>(
-        `WITH before AS (
+      const [row] = await select<{ rateCount: number; windowEnds: Date | string; supplyV: number | null; reports: RawReport[]; profile: RawProfile | null }>(
+        `WITH rate AS (
+           INSERT INTO device_check_in_windows AS w (logger_id, window_ends, count) VALUES (:loggerId, :windowEnds, 1)
+           ON CONFLICT (logger_id) DO UPDATE SET
+             count = CASE WHEN w.window_ends <= :rateNow THEN 1 ELSE w.count + 1 END,
+             window_ends = CASE WHEN w.window_ends <= :rateNow THEN EXCLUDED.window_ends ELSE w.window_ends END
+           RETURNING count, window_ends
+         ),
+         admitted AS (SELECT 1 FROM rate WHERE count <= :rateLimit),
+         before AS (
            SELECT (readings->>'energy_wh')::float8 AS energy_wh, last_check_in_at FROM loggers WHERE id = :loggerId
          ),
          counted AS (
@@ -90,6 +107,7 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
            SELECT :loggerId, CAST(:day AS date), :firmware, COALESCE(c.energy_wh, 0), CASE WHEN c.energy_wh IS NULL THEN 0 ELSE CAST(:clearSkyWh AS float8) END,
                   COALESCE(CAST(:tempExcess AS float8), 0), CASE WHEN CAST(:tempExcess AS float8) IS NULL THEN 0 ELSE 1 END, :probeReadings, :probeFlagged, 1
              FROM counted c
+            WHERE EXISTS (SELECT 1 FROM admitted)
            ON CONFLICT (logger_id, day, firmware) DO UPDATE SET
              energy_wh = d.energy_wh + EXCLUDED.energy_wh, clear_sky_wh = d.clear_sky_wh + EXCLUDED.clear_sky_wh,
              temp_excess_sum_c = d.temp_excess_sum_c + EXCLUDED.temp_excess_sum_c, temp_readings = d.temp_readings + EXCLUDED.temp_readings,
@@ -102,20 +120,24 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
                   rssi_dbm = COALESCE(:rssi, rssi_dbm), free_heap_b = COALESCE(:heap, free_heap_b), uptime_s = COALESCE(:uptime, uptime_s),
                   config_version = COALESCE(:configVersion, config_version), last_reset_reason = COALESCE(:resetReason, last_reset_reason),
                   last_seen_at = :now, last_check_in_at = :now, check_in_count = check_in_count + 1, updated_at = :now
-            WHERE id = :loggerId RETURNING supply_v
+            WHERE id = :loggerId AND EXISTS (SELECT 1 FROM admitted) RETURNING supply_v
          ),
          history AS (
            INSERT INTO check_ins (logger_id, at, firmware, board, security_counter, supply_v, readings, reset_reason, resets, rssi_dbm, free_heap_b, uptime_s, config_version, ip)
-           VALUES (:loggerId, :now, :firmware, :board, :securityCounter, :supplyV, CAST(:readings AS jsonb), :resetReason, CAST(:resets AS jsonb), :rssi, :heap, :uptime, :configVersion, :ip)
+           SELECT CAST(:loggerId AS uuid), CAST(:now AS timestamptz), CAST(:firmware AS text), CAST(:board AS text), CAST(:securityCounter AS bigint),
+                  CAST(:supplyV AS numeric), CAST(:readings AS jsonb), CAST(:resetReason AS text), CAST(:resets AS jsonb), CAST(:rssi AS integer),
+                  CAST(:heap AS bigint), CAST(:uptime AS bigint), CAST(:configVersion AS integer), CAST(:ip AS text)
+            WHERE EXISTS (SELECT 1 FROM admitted)
          )
-         SELECT (SELECT supply_v::float8 FROM visit) AS "supplyV",
+         SELECT (SELECT count FROM rate) AS "rateCount", (SELECT window_ends FROM rate) AS "windowEnds",
+                (SELECT supply_v::float8 FROM visit) AS "supplyV",
                 (SELECT COALESCE(json_agg(json_build_object('releaseId', release_id, 'state', state, 'reason', reason, 'updatedAt', updated_at,
                                                             'retriedAt', retried_at, 'confirmedAt', confirmed_at)), '[]'::json)
-                   FROM install_reports WHERE logger_id = :loggerId) AS reports,
+                   FROM install_reports WHERE logger_id = :loggerId AND EXISTS (SELECT 1 FROM admitted)) AS reports,
                 (SELECT row_to_json(p) FROM (
                    SELECT version, shunt_ohm, max_current_a, current_lsb_a, calibration, power_lsb_w, bus_v_max::float8 AS bus_v_max,
                           temp_resolution_bits, sample_interval_s
-                     FROM measurement_profiles WHERE logger_id = :loggerId ORDER BY version DESC LIMIT 1) p) AS profile`,
+                     FROM measurement_profiles WHERE logger_id = :loggerId AND EXISTS (SELECT 1 FROM admitted) ORDER BY version DESC LIMIT 1) p) AS profile`,
         {
           firmware: body.firmware,
           board: body.board,
@@ -129,6 +151,9 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
           uptime: body.uptime_s ?? null,
           configVersion: body.config_version ?? null,
           ip,
+          rateNow: rate.now,
+          windowEnds: new Date(rate.now.getTime() + RATE_WINDOW_MS),
+          rateLimit: rate.perMinute,
           day: day.day,
           since: day.since,
           rebooted: day.rebooted,
@@ -139,6 +164,10 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
           probeFlagged: day.probeFlagged,
         },
       );
+      if (Number(row.rateCount) > rate.perMinute) {
+        const retryAfterS = Math.max(1, Math.ceil((new Date(row.windowEnds).getTime() - rate.now.getTime()) / 1000));
+        return { refused: true, retryAfterS };
+      }
       const supplyV = row?.supplyV ?? logger.supplyV;
       return { supplyV: supplyV === null ? null : Number(supplyV), reports: (row?.reports ?? []).map(toReport), profile: toProfile(row?.profile ?? null) };
     },

@@ -1,6 +1,8 @@
 // POST /api/device/v1/check-in, the story (DEVICE_API.md). One transaction per check-in, in this order:
-//   1. record the visit: the logger's latest state on its row, one history row in check_ins, and what
-//      the logger has (its install reports, its measurement profile) — one statement;
+//   1. count the check-in against the per-logger rate limit (shared by every process, in PostgreSQL) and,
+//      within it, record the visit: the logger's latest state on its row, one history row in check_ins,
+//      and what the logger has (its install reports, its measurement profile) — one statement; over the
+//      limit nothing else is written and the answer is 429 with Retry-After;
 //   2. settle the report, applied forward-only (rollout/reports.ts), and the installs the running
 //      version now confirms or rolls back — each release whose figures may change is locked first
 //      (SELECT … FOR UPDATE), so concurrent check-ins serialise on it and the trip rules see every
@@ -10,17 +12,19 @@
 //      measurement drift when it brings readings on one (once in ten minutes per release and process);
 //   4. decide the offer (rollout/decision.ts) on the cached releases as this transaction left them,
 //      and record it;
-//   5. answer: the offer, and the measurement profile when the logger's is older (or unknown).
+//   5. answer: the offer, and the measurement profile when the logger's is older (or unknown);
+//   6. and, outside the transaction, the next version of the model's trust set when the logger sent an
+//      older trust_version and that next version is signed (server/keys/trust-sets.ts).
 // The queries are named in checkin-store.ts. A trip is written by the one writer of transitions
 // (server/releases/transitions.ts), which mails and drops the release caches once this commits.
 import type { Sequelize, Transaction } from 'sequelize';
 import type pino from 'pino';
 import semver from 'semver';
 import type { CheckInRequest, CheckInResponse, DeviceConfig, Offer } from '../../schemas/device';
+import { problems } from '../http/problem';
 import { COUNTED_RESET_REASONS } from '../../schemas/words';
 import { systemContext } from '../auth/actor';
 import type { Release } from '../db/models';
-import { problems } from '../http/problem';
 import type { Mailer } from '../mail/mailer';
 import { judgeTrip } from '../releases/trip';
 import type { TransitionContext } from '../releases/transitions';
@@ -31,8 +35,8 @@ import { afterInstalled, applyReport, isFinished } from '../rollout/reports';
 import type { DeviceLogger } from './auth';
 import { checkInStore, resetsOf, type CheckInStore, type ReportRow } from './checkin-store';
 import { nextCheckInSeconds } from './load';
+import { nextTrustSetFor } from '../keys/trust-sets';
 import type { CachedRelease, ReleaseCache } from './release-cache';
-
 
 export type CheckInDeps = {
   sequelize: Sequelize;
@@ -42,6 +46,10 @@ export type CheckInDeps = {
   now: () => Date;
   random: () => number;
   stretch: () => number;
+  /** The per-logger rate limit, check-ins a minute (HELIODOR_DEVICE_RATE). */
+  ratePerMinute: number;
+  /** Where an offer's image is fetched from (the image store: a path on this server, or a presigned URL). */
+  imageUrl: (sha256: string) => Promise<string> | string;
   /** When the reset rate of each release was last judged at a check-in with resets (ms, by `now`). */
   resetChecks?: Map<string, number>;
   /** When the measurement drift of each release was last judged at a check-in with readings (ms, by `now`). */
@@ -63,10 +71,12 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
   const releases = await deps.releases.get(logger.modelId);
   const answer = await deps.sequelize.transaction(async (t) => {
     const store = checkInStore(deps.sequelize, t, logger.id, now);
-    // 1. Record the visit (and its part of the logger's day, for the measurement-drift trip).
+    // 1. Count the check-in and, within the rate limit, record the visit and its part of the logger's day
+    //    for the measurement-drift trip (the limit's minutes are wall-clock minutes).
     const spot = logger.latitude !== null && logger.longitude !== null ? { latitude: logger.latitude, longitude: logger.longitude } : null;
     const day = checkInDay({ now, lastCheckInAt: logger.lastCheckInAt, uptimeS: body.uptime_s ?? null, spot, tempC: body.readings?.temp_c ?? null, energyWh: body.readings?.energy_wh ?? null });
-    const visit = await store.recordVisit(logger, body, ctx.ip, day);
+    const visit = await store.recordVisit(logger, body, ctx.ip, { perMinute: deps.ratePerMinute, now: new Date() }, day);
+    if ('refused' in visit) return visit;
     // 2. Settle the report, and the installs the running version confirms or rolls back.
     const settled = await settleReports(store, releases, visit.reports, body);
     // 3. Judge the trip rules.
@@ -85,13 +95,18 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
     const decision = decideOffer(offerInput(facts, asLeft(releases, tripped), [...settled.reports.values()], now));
     if (decision.offer) await store.recordOffer(decision.offer.id);
     // 5. Answer.
-    return { offer: decision.offer ? offerOf(decision.offer) : null, config: profileToSend(visit.profile, body.config_version) };
+    return { offer: decision.offer ?? null, config: profileToSend(visit.profile, body.config_version) };
   });
+  // Over the limit: the count is kept (committed), nothing else was written.
+  if ('refused' in answer) throw problems.tooManyRequests(answer.retryAfterS);
+  // 6. The next trust set, when the logger holds an older one and the next is signed (one step per check-in).
+  const trustSet = body.trust_version === undefined ? null : await nextTrustSetFor(deps.sequelize, logger.modelId, body.trust_version);
   return {
     server_time: now.toISOString().replace(/\.\d{3}Z$/, 'Z'),
     next_check_in_s: nextCheckInSeconds(logger.checkInIntervalS, deps.random(), deps.stretch()),
     config: answer.config,
-    offer: answer.offer,
+    offer: answer.offer ? offerOf(answer.offer, await deps.imageUrl(answer.offer.imageSha256)) : null,
+    ...(trustSet ? { trust_set: trustSet } : {}),
   };
 }
 
@@ -207,11 +222,7 @@ function profileToSend(profile: DeviceConfig | null, running: number | undefined
   return profile && (running === undefined || running < profile.version) ? profile : null;
 }
 
-function imageUrl(sha256: string): string {
-  return `/api/device/v1/images/${sha256}`;
-}
-
-function offerOf(r: CachedRelease): Offer {
+function offerOf(r: CachedRelease, url: string): Offer {
   return {
     release: r.id,
     version: r.version,
@@ -220,6 +231,7 @@ function offerOf(r: CachedRelease): Offer {
     signature: r.signature.toString('base64'),
     key_id: r.keyId,
     algorithm: r.algorithm,
-    image: { url: imageUrl(r.imageSha256), sha256: r.imageSha256, size: r.imageSize },
+    signatures: r.signatures,
+    image: { url, sha256: r.imageSha256, size: r.imageSize },
   };
 }

@@ -1,10 +1,11 @@
 // GET /api/device/v1/images/{sha256} (DEVICE_API.md; RFC 9110 §14 ranges, §13.1.5 If-Range).
 // The id is checked before anything else is touched; the image is served only to a logger that was
-// offered it by a release that is still live; bytes are streamed from the store with
-// fs.createReadStream({start, end}), never read whole into memory.
-import fs from 'node:fs';
+// offered it by a release that is still live; bytes are streamed from the image store (the local
+// folder, or object storage when offers carry presigned URLs and a logger still asks here), never read
+// whole into memory.
 import path from 'node:path';
 import type { Request, Response } from 'express';
+import type { ImageStore } from '../images/store';
 import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import { imageIdPattern } from '../../schemas/device';
@@ -37,17 +38,12 @@ export function isImageId(id: unknown): id is string {
 export async function serveImage(
   req: Request,
   res: Response,
-  deps: { sequelize: Sequelize; storeDir: string; loggerId: string; sha256: string },
+  deps: { sequelize: Sequelize; store: ImageStore; loggerId: string; sha256: string },
 ): Promise<void> {
   const allowed = await mayDownload(deps.sequelize, deps.loggerId, deps.sha256);
   if (!allowed) throw notFound();
-  const file = imagePath(deps.storeDir, deps.sha256);
-  let size: number;
-  try {
-    const stat = await fs.promises.stat(file);
-    if (!stat.isFile()) throw new Error('not a file');
-    size = stat.size;
-  } catch {
+  const size = await deps.store.sizeOf(deps.sha256);
+  if (size === null) {
     req.log?.error({ sha256: deps.sha256 }, 'image listed for a live release is missing from the store');
     throw notFound();
   }
@@ -83,7 +79,7 @@ export async function serveImage(
     return;
   }
   await new Promise<void>((resolve) => {
-    const stream = fs.createReadStream(file, { start, end });
+    const stream = deps.store.read(deps.sha256, { start, end });
     stream.on('error', (err) => {
       req.log?.error({ err, sha256: deps.sha256 }, 'image read failed');
       res.destroy(err);

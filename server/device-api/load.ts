@@ -8,16 +8,15 @@
 //   The stretch is 1 + 3 × busy, so at most four times the interval. All three are cheap to read at
 //   every check-in.
 // - Overload: more check-ins in flight than the cap (HELIODOR_DEVICE_MAX_IN_FLIGHT, default 200 per
-//   process) → 503 with Retry-After at once, rather than queueing until a timeout.
-// - Rate limit: express-rate-limit keyed by the token's SHA-256 digest (never the token itself), per
-//   process, `deviceRatePerMinute` check-ins a minute (HELIODOR_DEVICE_RATE, default 60) → 429 with
-//   Retry-After in seconds until the window resets.
+//   process) → 503 with Retry-After at once, rather than queueing until a timeout. The cap guards this
+//   process's event loop and database pool, so it is per process by design: N processes take N × the cap.
+// - Rate limit: per logger, `deviceRatePerMinute` check-ins a minute (HELIODOR_DEVICE_RATE, default 60)
+//   → 429 with Retry-After until the window ends. It must hold however many processes serve the fleet,
+//   so it is counted in PostgreSQL by the check-in's own statement (checkin-store.ts recordVisit).
 import { monitorEventLoopDelay, type IntervalHistogram } from 'node:perf_hooks';
 import type { NextFunction, Request, RequestHandler, Response } from 'express';
 import type { Sequelize } from 'sequelize';
-import { rateLimit } from 'express-rate-limit';
 import { problems } from '../http/problem';
-import { tokenDigestOf } from './auth';
 
 export const JITTER = 0.1;
 export const MAX_STRETCH = 4;
@@ -104,21 +103,4 @@ export function createLoadControl(sequelize: Sequelize, options: { maxInFlight?:
       histogram = null;
     },
   };
-}
-
-/** Per-logger rate limit, keyed by the SHA-256 of its token (requests without one by address). */
-export function deviceRateLimit(perMinute: number): RequestHandler {
-  return rateLimit({
-    windowMs: 60_000,
-    limit: perMinute,
-    standardHeaders: false,
-    legacyHeaders: false,
-    keyGenerator: (req) => tokenDigestOf(req) ?? `addr:${req.ip ?? 'unknown'}`,
-    validate: false,
-    handler: (req, _res, next) => {
-      const reset = (req as Request & { rateLimit?: { resetTime?: Date } }).rateLimit?.resetTime;
-      const seconds = reset ? Math.max(1, Math.ceil((reset.getTime() - Date.now()) / 1000)) : 60;
-      next(problems.tooManyRequests(seconds));
-    },
-  });
 }

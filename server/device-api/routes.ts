@@ -11,7 +11,8 @@ import { checkInRequestSchema } from '../../schemas/device';
 import { authenticateLogger } from './auth';
 import { checkIn } from './checkin';
 import { isImageId, serveImage } from './images';
-import { createLoadControl, deviceRateLimit, type LoadControl } from './load';
+import { createLoadControl, type LoadControl } from './load';
+import type { ImageStore } from '../images/store';
 import { deviceOpenApiDocument } from './openapi';
 import { startPartitionMaintenance } from './partitions';
 import { createReleaseCache, type ReleaseCache } from './release-cache';
@@ -31,7 +32,9 @@ export type DeviceApiDeps = {
   mailer: Mailer;
   logger: pino.Logger;
   now: () => Date;
-  config: { storeDir: string; deviceRatePerMinute: number };
+  config: { deviceRatePerMinute: number };
+  /** The image store: offers name its presigned URL when it has them, else this server's download path. */
+  images: ImageStore;
   /** Randomness for the check-in jitter; tests inject it. */
   random?: () => number;
 };
@@ -64,15 +67,21 @@ export function createDeviceApi(deps: DeviceApiDeps): DeviceApi {
 
 function registerRoutes(api: Api, deps: DeviceApiDeps, releases: ReleaseCache, load: LoadControl) {
   const { sequelize } = deps;
-  const limit = deviceRateLimit(deps.config.deviceRatePerMinute);
+  // Evaluations of the reset-rate rule, at most one a minute per release in this process: a throttle on
+  // work, not a limit the fleet relies on, so it is kept in memory.
   const resetChecks = new Map<string, number>();
   const driftChecks = new Map<string, number>();
+  const { images } = deps;
+  const imageUrl = images.presignedUrl ? (sha256: string) => images.presignedUrl!(sha256) : (sha256: string) => IMAGE_PATH.replace(':sha256', sha256);
 
-  api.post(CHECK_IN_PATH, limit, load.admit, async (req: Request, res: Response) => {
+  api.post(CHECK_IN_PATH, load.admit, async (req: Request, res: Response) => {
     const logger = await authenticateLogger(sequelize, req);
     const body = parse(checkInRequestSchema, req.body);
     const reply = await checkIn(
-      { sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch, resetChecks, driftChecks },
+      {
+        sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch, resetChecks, driftChecks,
+        ratePerMinute: deps.config.deviceRatePerMinute, imageUrl,
+      },
       logger,
       body,
       { ip: req.ip ?? null, requestId: typeof req.id === 'string' ? req.id : null },
@@ -85,7 +94,7 @@ function registerRoutes(api: Api, deps: DeviceApiDeps, releases: ReleaseCache, l
     const logger = await authenticateLogger(sequelize, req);
     const sha256 = req.params.sha256;
     if (!isImageId(sha256)) throw problems.notFound('image', 'No such image for this logger.');
-    await serveImage(req, res, { sequelize, storeDir: deps.config.storeDir, loggerId: logger.id, sha256 });
+    await serveImage(req, res, { sequelize, store: images, loggerId: logger.id, sha256 });
   });
 
   api.get(OPENAPI_PATH, (_req: Request, res: Response) => {

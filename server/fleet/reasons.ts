@@ -14,6 +14,7 @@ const REASON_OF: Partial<Record<ReasonCode, LaggingReason>> = {
   failed_awaiting_retry: 'failed_awaiting_retry',
   needs_stepping_stone: 'needs_stepping_stone',
   security_counter_too_low: 'security_counter_too_low',
+  manifest_expired: 'manifest_expired',
   offered: 'offered',
   stepping_stone: 'offered',
   superseded: 'offered',

@@ -9,10 +9,10 @@ import { PROBE_MAX_C, PROBE_MIN_C, PROBE_POWER_ON_C, UNSTABLE_RESETS_24H } from 
  * that reached widening or complete (widened_at or completed_at set) and was not withdrawn. A stop
  * or pause afterwards keeps it current — loggers still waiting for it lag behind "release stopped or
  * paused" — while a release only ever in pilot is not current yet. `since` is when it first reached
- * widening or complete.
+ * widening or complete. `expires_at` is its signed manifest's expiry (null: none).
  */
 export const CURRENT_RELEASES = `
-  SELECT DISTINCT ON (r.model_id, r.channel) r.id, r.model_id, r.channel, r.version, r.state, r.share,
+  SELECT DISTINCT ON (r.model_id, r.channel) r.id, r.model_id, r.channel, r.version, r.state, r.share, r.expires_at,
          heliodor_semver_key(r.version) COLLATE "C" AS version_key, LEAST(r.widened_at, r.completed_at) AS since
     FROM releases r
    WHERE (r.widened_at IS NOT NULL OR r.completed_at IS NOT NULL) AND r.state <> :withdrawn

@@ -12,7 +12,8 @@
 // Lagging loggers. The reason a logger lags comes from the offer decision (JavaScript), so triggers only
 // queue what changed: a logger's facts or reports (summary_dirty_loggers), a model's releases, pilot
 // sites or guards (summary_dirty_models). `catchUp` recomputes the queued loggers, and those whose reason
-// can change with the clock alone (recheck_at: the silence threshold, the daylight window's edges), and
+// can change with the clock alone (recheck_at: the silence threshold, the daylight window's edges, the
+// expiry of the release's signed manifest), and
 // rolls them up per site (lagging_sites). It runs under a PostgreSQL advisory lock, one batch per
 // transaction, so with several processes one works and the others read; a request that finds the lock
 // free runs a small catch-up itself before it reads, so a quiet console is never behind. Answers carry
@@ -130,12 +131,16 @@ export function reportCounts(scope: SqlScope, perSite = false): string {
 // ─── Lagging loggers ────────────────────────────────────────────────────────
 
 type BehindRow = LoggerForDecision &
-  BehindFacts & { firmwareKey: string[]; since: Date; lastSeenAt: Date | null; checkInIntervalS: number };
+  BehindFacts & { firmwareKey: string[]; since: Date; lastSeenAt: Date | null; checkInIntervalS: number; currentExpiresAt?: Date | null };
 
-/** When the reason of a logger behind may change with the clock alone: it falls silent, or the daylight window opens or closes. */
+/**
+ * When the reason of a logger behind may change with the clock alone: it falls silent, the daylight window
+ * opens or closes, or the signed manifest of the release it lacks expires (reason manifest_expired).
+ */
 export function recheckAt(row: BehindRow, now: Date): Date | null {
   if (row.silent) return null; // only a check-in (a write, queued by the trigger) ends a silence
   const times: number[] = [];
+  if (row.currentExpiresAt) times.push(new Date(row.currentExpiresAt).getTime());
   if (row.lastSeenAt) times.push(new Date(row.lastSeenAt).getTime() + 3 * row.checkInIntervalS * 1000);
   if (row.latitude !== null && row.longitude !== null) {
     times.push(now.getTime() + DAYLIGHT_RECHECK_MS);
@@ -152,7 +157,7 @@ async function behindAmong(sequelize: Sequelize, ids: string[], now: Date, trans
     `WITH current_releases AS (${CURRENT_RELEASES}),
      picked AS MATERIALIZED (SELECT * FROM loggers WHERE id IN (:ids))
      SELECT ${DECISION_COLUMNS}, ${SILENT} AS silent, cr.id AS "currentId", cr.version AS "currentVersion", cr.since,
-            l.firmware_key AS "firmwareKey", l.last_seen_at AS "lastSeenAt", m.check_in_interval_s AS "checkInIntervalS"
+            cr.expires_at AS "currentExpiresAt", l.firmware_key AS "firmwareKey", l.last_seen_at AS "lastSeenAt", m.check_in_interval_s AS "checkInIntervalS"
        FROM picked l
        JOIN models m ON m.id = l.model_id
        JOIN sites s ON s.id = l.site_id

@@ -1,5 +1,6 @@
-// The firmware store: image files named by their SHA-256. `ImageStore` is the seam for another
-// backend (an object store) later; `LocalImageStore` keeps images on local disk.
+// The firmware store: images named by their SHA-256. `ImageStore` is the seam between the two backends:
+// `LocalImageStore` keeps images on local disk (the default), `S3ImageStore` (s3-store.ts) in
+// S3-compatible object storage; server/images/select.ts picks one from the settings.
 //
 // An upload streams into a temporary file INSIDE the store directory (so the final rename is atomic on
 // the same file system) while hashing and counting bytes, is flushed to disk, and only after every
@@ -31,6 +32,7 @@ export type IncomingImage = {
 };
 
 export interface ImageStore {
+  readonly kind: 'local' | 's3';
   receive(source: Readable): IncomingImage;
   /** Size in bytes, or null when the store has no such image. */
   sizeOf(sha256: string): Promise<number | null>;
@@ -38,6 +40,13 @@ export interface ImageStore {
   read(sha256: string, range?: { start: number; end: number }): Readable;
   /** Removes an image; missing is fine. */
   remove(sha256: string): Promise<void>;
+  /**
+   * A short-lived URL the image can be fetched from without Heliodor (object storage); absent when the
+   * store has none, and loggers download through the device API instead.
+   */
+  presignedUrl?(sha256: string): Promise<string>;
+  /** Where the images are, for people (a folder, or s3://bucket/prefix). */
+  describe(): string;
 }
 
 const digestPattern = /^[0-9a-f]{64}$/;
@@ -55,8 +64,13 @@ async function unlinkQuietly(file: string) {
 }
 
 export class LocalImageStore implements ImageStore {
+  readonly kind = 'local' as const;
   constructor(readonly dir: string) {
     fs.mkdirSync(dir, { recursive: true });
+  }
+
+  describe(): string {
+    return this.dir;
   }
 
   private pathOf(sha256: string) {

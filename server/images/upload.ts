@@ -72,14 +72,18 @@ export type UploadParts = {
   image: ReceivedImage | null;
   /** The manifest's exact bytes (file part, or text field as UTF-8). */
   manifest: Buffer | null;
-  signature: string | null;
+  /** Every signature sent: a `signature` file part, or one or more `signature` text fields (one per key). */
+  signatures: string[];
   fields: Record<string, unknown>;
 };
+
+/** The most signatures one upload may carry (the largest signing rule is 16 keys). */
+export const maxUploadSignatures = 16;
 
 export function releaseUploadMiddleware(store: ImageStore, imageLimitBytes: number): RequestHandler {
   return multer({
     storage: new ReleaseUploadStorage(store),
-    limits: { fileSize: imageLimitBytes, files: 3, fields: 8, parts: 11, fieldSize: fieldSizeLimitBytes, fieldNameSize: 100, headerPairs: 100 },
+    limits: { fileSize: imageLimitBytes, files: 3, fields: 8 + maxUploadSignatures, parts: 11 + maxUploadSignatures, fieldSize: fieldSizeLimitBytes, fieldNameSize: 100, headerPairs: 100 },
   }).fields(uploadFileParts.map((name) => ({ name, maxCount: 1 })));
 }
 
@@ -88,20 +92,26 @@ export function uploadPartsOf(req: Request): UploadParts {
   const files = (req.files ?? {}) as Record<string, IntakeFile[] | undefined>;
   const body = (req.body ?? {}) as Record<string, unknown>;
   const image = files.image?.[0]?.received ?? null;
-  const textOrFile = (name: 'manifest' | 'signature'): Buffer | null => {
-    const file = files[name]?.[0]?.buffer ?? null;
-    const field = body[name];
-    if (file && field !== undefined) {
-      throw problems.badRequest(`Send the ${name} once: as a file part or as a text field, not both.`, [{ path: name, message: 'sent twice' }]);
-    }
-    if (field !== undefined && typeof field !== 'string') {
-      throw problems.badRequest(`Send the ${name} once.`, [{ path: name, message: 'sent more than once' }]);
-    }
-    return file ?? (typeof field === 'string' ? Buffer.from(field, 'utf8') : null);
-  };
-  const manifest = textOrFile('manifest');
-  const signature = textOrFile('signature');
+  const manifestFile = files.manifest?.[0]?.buffer ?? null;
+  const manifestField = body.manifest;
+  if (manifestFile && manifestField !== undefined) {
+    throw problems.badRequest('Send the manifest once: as a file part or as a text field, not both.', [{ path: 'manifest', message: 'sent twice' }]);
+  }
+  if (manifestField !== undefined && typeof manifestField !== 'string') {
+    throw problems.badRequest('Send the manifest once.', [{ path: 'manifest', message: 'sent more than once' }]);
+  }
+  const manifest = manifestFile ?? (typeof manifestField === 'string' ? Buffer.from(manifestField, 'utf8') : null);
+  // Signatures: a file part (one), and any number of text fields (one per signing key).
+  const signatureField = body.signature;
+  const signatureTexts = signatureField === undefined ? [] : Array.isArray(signatureField) ? signatureField : [signatureField];
+  if (signatureTexts.some((v) => typeof v !== 'string')) {
+    throw problems.badRequest('Each signature is base64 text.', [{ path: 'signature', message: 'must be text' }]);
+  }
+  const signatures = [...(files.signature?.[0]?.buffer ? [files.signature[0].buffer.toString('utf8')] : []), ...(signatureTexts as string[])];
+  if (signatures.length > maxUploadSignatures) {
+    throw problems.badRequest(`At most ${maxUploadSignatures} signatures come with one upload.`, [{ path: 'signature', message: `more than ${maxUploadSignatures}` }]);
+  }
   const fields: Record<string, unknown> = {};
   for (const [k, v] of Object.entries(body)) if (k !== 'manifest' && k !== 'signature') fields[k] = v;
-  return { image, manifest, signature: signature ? signature.toString('utf8') : null, fields };
+  return { image, manifest, signatures, fields };
 }

@@ -7,9 +7,13 @@ import { recordActivity } from '../activity/service';
 import type { Actor, RequestContext } from '../auth/actor';
 import { canOf, stateAllows } from '../auth/policies';
 import { ManifestError, parsePublicKeyPem } from '../images/manifest';
+import { proposeTrustSets } from './trust-sets';
 import { KEY_VERBS, type RegisterKeyRequest, type SigningKeyView } from '../../schemas/keys';
 
 const iso = (d: Date | null | undefined) => (d ? d.toISOString() : null);
+
+const trustNote = (proposed: number) =>
+  proposed === 0 ? '' : `; ${proposed === 1 ? 'a new trust set waits' : `${proposed} new trust sets wait`} for signatures before loggers follow`;
 
 export function presentKey(actor: Actor, key: SigningKey, releaseCount: number): SigningKeyView {
   return {
@@ -74,11 +78,13 @@ export async function registerKey(sequelize: Sequelize, ctx: RequestContext, inp
       },
       { transaction: t },
     );
+    const proposed = await proposeTrustSets(sequelize, t, now);
     await recordActivity(t, ctx, {
       action: 'key.registered',
       targetType: 'signing_key',
       targetId: created.id,
-      summary: `${ctx.actor.name} registered signing key "${created.name}" (${created.algorithm}, key id ${created.keyId})`,
+      summary: `${ctx.actor.name} registered signing key "${created.name}" (${created.algorithm}, key id ${created.keyId})${trustNote(proposed)}`,
+      details: { trustSetsProposed: proposed },
     });
     return created;
   });
@@ -108,11 +114,14 @@ export async function changeKeyState(sequelize: Sequelize, ctx: RequestContext, 
     if (move === 'retire') found.retiredAt = now;
     else found.revokedAt = now;
     await found.save({ transaction: t });
+    // Retiring keeps the key in the trust sets (it still verifies what it signed); revoking takes it out.
+    const proposed = move === 'revoke' ? await proposeTrustSets(sequelize, t, now) : 0;
     await recordActivity(t, ctx, {
       action: `key.${rule.verb}`,
       targetType: 'signing_key',
       targetId: found.id,
-      summary: `${ctx.actor.name} ${rule.verb} signing key "${found.name}" (key id ${found.keyId})`,
+      summary: `${ctx.actor.name} ${rule.verb} signing key "${found.name}" (key id ${found.keyId})${trustNote(proposed)}`,
+      details: { trustSetsProposed: proposed },
     });
     return found;
   });

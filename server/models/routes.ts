@@ -7,7 +7,7 @@ import { idParams } from '../../schemas/common';
 import { createModelRequest, updateModelRequest } from '../../schemas/models';
 import { createModel, getModel, listModels, updateModel } from './service';
 
-export function registerModelRoutes(api: Api, deps: { sequelize: Sequelize }) {
+export function registerModelRoutes(api: Api, deps: { sequelize: Sequelize; now: () => Date }) {
   api.get('/api/models', async (req, res) => {
     res.json(await listModels(contextOf(req).actor));
   });
@@ -19,12 +19,12 @@ export function registerModelRoutes(api: Api, deps: { sequelize: Sequelize }) {
 
   api.post('/api/models', async (req, res) => {
     const body = parse(createModelRequest, req.body);
-    res.status(201).json(await createModel(deps.sequelize, contextOf(req), body));
+    res.status(201).json(await createModel(deps.sequelize, contextOf(req), body, deps.now));
   });
 
   api.patch('/api/models/:id', async (req, res) => {
     const { id } = parse(idParams, req.params, 'path');
     const body = parse(updateModelRequest, req.body);
-    res.json(await updateModel(deps.sequelize, contextOf(req), id, body));
+    res.json(await updateModel(deps.sequelize, contextOf(req), id, body, deps.now));
   });
 }

@@ -1,6 +1,7 @@
 // Logger models and their board revisions (admin): rules and transactions.
 import { fn, col, where, Op, type Sequelize } from 'sequelize';
-import { Logger, LoggerModel } from '../db/models';
+import { Logger, LoggerModel, SigningKey } from '../db/models';
+import { proposeTrustSet } from '../keys/trust-sets';
 import { recordActivity } from '../activity/service';
 import { problems } from '../http/problem';
 import type { Actor, RequestContext } from '../auth/actor';
@@ -17,6 +18,7 @@ export function presentModel(actor: Actor, model: LoggerModel, loggerCount: numb
     busVMax: Number(model.busVMax),
     shuntFullScaleV: Number(model.shuntFullScaleV),
     tempResolutions: [...model.tempResolutions].sort((a, b) => a - b),
+    signingThreshold: model.signingThreshold,
     loggerCount,
     createdAt: model.createdAt.toISOString(),
     can: canOf(actor, modelResource),
@@ -52,10 +54,12 @@ async function refuseTakenName(name: string, exceptId?: string) {
   if (clash && clash.id !== exceptId) throw problems.conflict(`A model named "${clash.name}" already exists.`);
 }
 
-export async function createModel(sequelize: Sequelize, ctx: RequestContext, body: CreateModelRequest): Promise<LoggerModelView> {
+export async function createModel(sequelize: Sequelize, ctx: RequestContext, body: CreateModelRequest, now: () => Date = () => new Date()): Promise<LoggerModelView> {
   await refuseTakenName(body.name);
   const model = await sequelize.transaction(async (transaction) => {
     const created = await LoggerModel.create({ ...body }, { transaction });
+    // Version 1 of its trust set: the keys registered now, as loggers of the model are made with them.
+    await proposeTrustSet(sequelize, transaction, created.id, now());
     await recordActivity(transaction, ctx, {
       action: 'model.created',
       targetType: 'model',
@@ -67,7 +71,7 @@ export async function createModel(sequelize: Sequelize, ctx: RequestContext, bod
   return presentModel(ctx.actor, model, 0);
 }
 
-export async function updateModel(sequelize: Sequelize, ctx: RequestContext, id: string, body: UpdateModelRequest): Promise<LoggerModelView> {
+export async function updateModel(sequelize: Sequelize, ctx: RequestContext, id: string, body: UpdateModelRequest, now: () => Date = () => new Date()): Promise<LoggerModelView> {
   if (body.name !== undefined) await refuseTakenName(body.name, id);
   const model = await sequelize.transaction(async (transaction) => {
     const model = await LoggerModel.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE });
@@ -87,8 +91,28 @@ export async function updateModel(sequelize: Sequelize, ctx: RequestContext, id:
         }
       }
     }
-    const changed = (Object.keys(body) as (keyof UpdateModelRequest)[]).filter((k) => body[k] !== undefined);
-    await model.update(Object.fromEntries(changed.map((k) => [k, body[k]])), { transaction });
+    const { signingThreshold, ...rest } = body;
+    if (signingThreshold !== undefined && signingThreshold !== model.signingThreshold) {
+      const keys = await SigningKey.count({ where: { state: { [Op.ne]: 'revoked' } }, transaction });
+      if (signingThreshold > keys) {
+        throw problems.unprocessable(`A threshold of ${signingThreshold} cannot be met: ${keys} signing key${keys === 1 ? ' is' : 's are'} registered and not revoked.`, [
+          { path: 'signingThreshold', message: `at most ${keys}, the registered keys that are not revoked` },
+        ]);
+      }
+      const before = model.signingThreshold;
+      await model.update({ signingThreshold }, { transaction });
+      const trust = await proposeTrustSet(sequelize, transaction, model.id, now());
+      await recordActivity(transaction, ctx, {
+        action: 'model.signing_threshold_changed',
+        targetType: 'model',
+        targetId: model.id,
+        summary: `${ctx.actor.name} changed ${model.name}'s signing rule from ${before} to ${signingThreshold} of the registered keys${trust === 'proposed' ? '; a new trust set waits for signatures' : ''}`,
+        details: { from: before, to: signingThreshold, trustSet: trust },
+      });
+    }
+    const changed = (Object.keys(rest) as (keyof typeof rest)[]).filter((k) => rest[k] !== undefined);
+    if (changed.length === 0) return model;
+    await model.update(Object.fromEntries(changed.map((k) => [k, rest[k]])), { transaction });
     await recordActivity(transaction, ctx, {
       action: 'model.updated',
       targetType: 'model',

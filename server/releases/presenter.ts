@@ -6,6 +6,7 @@ import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from
 import { allowedActions } from '../rollout/lifecycle';
 import { driftTripPointsOf } from '../rollout/drift';
 import { renderNotes } from './notes';
+import { releaseSigning } from './signing';
 import { FAILURE_REASONS, INSTALL_STATES } from '../../schemas/words';
 import { type ReleaseCounts, type ReleaseRow, type ReleaseView, type TripFigures } from '../../schemas/releases';
 import { SQL_WORDS } from '../db/sql-words';
@@ -32,12 +33,18 @@ export async function installCounts(sequelize: Sequelize, releaseId: string): Pr
   return counts;
 }
 
+/** The manifest bytes (a locked release is read without them, see transitions.ts). */
+async function manifestOf(release: Release): Promise<Buffer> {
+  if (release.manifest) return release.manifest;
+  return (await Release.findByPk(release.id, { attributes: ['manifest'] }))?.manifest ?? Buffer.alloc(0);
+}
+
 /** A release as every caller sees it; `releaseFor` adds what this caller may do with it. */
 export type ReleaseBody = Omit<ReleaseView, 'can'>;
 
 /** The answer for one caller: the release with `can` (its lifecycle and the caller's role together). */
 export function releaseFor(actor: Actor, release: ReleaseBody): ReleaseView {
-  return { ...release, can: canOf(actor, { kind: 'release', state: release.state, keyRevoked: release.key?.state === 'revoked' }) };
+  return { ...release, can: canOf(actor, { kind: 'release', state: release.state, signaturesShort: !release.signing.met }) };
 }
 
 export async function presentRelease(sequelize: Sequelize, release: Release): Promise<ReleaseBody> {
@@ -52,6 +59,7 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     ),
     installCounts(sequelize, release.id),
   ]);
+  const signing = await releaseSigning(sequelize, { id: release.id, manifest: await manifestOf(release) }, model?.signingThreshold ?? 1);
   return {
     id: release.id,
     modelId: release.modelId,
@@ -79,6 +87,8 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     image: { sha256: release.imageSha256, size: image?.size ?? 0 },
     key: key ? { id: key.id, keyId: key.keyId, name: key.name, state: key.state } : null,
     flagged: key?.state === 'revoked',
+    signing,
+    expiresAt: release.expiresAt ? release.expiresAt.toISOString() : null,
     counts,
     history: transitions.map((t) => ({
       at: t.at.toISOString(),

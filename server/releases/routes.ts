@@ -3,13 +3,13 @@ import { parse } from '../http/validate';
 import { contextOf } from '../http/context';
 import { declareAccess, rules } from '../auth/access';
 import { idParams } from '../../schemas/common';
-import { estimateQuery, patchReleaseRequest, releaseListQuery, releaseSitesQuery, transitionRequest } from '../../schemas/releases';
+import { addSignatureRequest, estimateQuery, patchReleaseRequest, releaseListQuery, releaseSitesQuery, resignRequest, transitionRequest } from '../../schemas/releases';
 import type { AppServices } from '../app';
 import { LocalImageStore, type ImageStore } from '../images/store';
 import { releaseUploadMiddleware, uploadPartsOf } from '../images/upload';
 import { listReleaseRows, releaseFor } from './presenter';
 import { releaseDashboard, releaseSites } from './dashboard';
-import { createRelease, deleteRelease, estimateShare, getRelease, patchRelease, transitionRelease, type ReleaseDeps } from './service';
+import { addReleaseSignature, createRelease, deleteRelease, estimateShare, getRelease, patchRelease, resignRelease, transitionRelease, type ReleaseDeps } from './service';
 
 const engineers = ['admin', 'release_engineer'] as const;
 declareAccess({
@@ -22,6 +22,9 @@ declareAccess({
   'PATCH /api/releases/:id': rules.people(engineers, ['releases:write']),
   'DELETE /api/releases/:id': rules.people(engineers),
   'POST /api/releases/:id/transitions': rules.people(engineers, ['releases:write']),
+  // Signing: further signatures on a draft, and a new manifest (a later expiry) for a release.
+  'POST /api/releases/:id/signatures': rules.people(engineers, ['images:write']),
+  'PUT /api/releases/:id/manifest': rules.people(engineers, ['images:write']),
 });
 
 export function registerReleaseRoutes(api: Api, services: AppServices, store: ImageStore = new LocalImageStore(services.config.storeDir)) {
@@ -80,5 +83,17 @@ export function registerReleaseRoutes(api: Api, services: AppServices, store: Im
     const { id } = parse(idParams, req.params, 'path');
     const ctx = contextOf(req);
     res.json(releaseFor(ctx.actor, await transitionRelease(deps, ctx, id, parse(transitionRequest, req.body))));
+  });
+
+  api.post('/api/releases/:id/signatures', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    const ctx = contextOf(req);
+    res.json(releaseFor(ctx.actor, await addReleaseSignature(deps, ctx, id, parse(addSignatureRequest, req.body))));
+  });
+
+  api.put('/api/releases/:id/manifest', async (req, res) => {
+    const { id } = parse(idParams, req.params, 'path');
+    const ctx = contextOf(req);
+    res.json(releaseFor(ctx.actor, await resignRelease(deps, ctx, id, parse(resignRequest, req.body))));
   });
 }

@@ -16,7 +16,8 @@ import { canDelete } from '../rollout/lifecycle';
 import { existingSiteIds, presentRelease } from './presenter';
 import { applyTransition, lockRelease } from './transitions';
 import { DRIFT_TRIP_POINT_NAMES, type LoggerStatus } from '../../schemas/words';
-import { uploadFields, type PatchReleaseRequest, type ReleaseEstimate, type TransitionRequest } from '../../schemas/releases';
+import { uploadFields, type AddSignatureRequest, type PatchReleaseRequest, type ReleaseEstimate, type ResignRequest, type TransitionRequest } from '../../schemas/releases';
+import type { SignatureRequest } from '../../schemas/keys';
 import { RELEASE_EVENTS } from '../../schemas/words';
 
 export type ReleaseDeps = {
@@ -71,8 +72,11 @@ async function signingKeyFor(manifestBytes: Buffer, signatureText: string): Prom
  * image's size and digest, the model and its boards, a version not uploaded before, a security counter
  * no lower than the published ones. Throws the first refusal; nothing is written here.
  */
-async function checkUpload(parts: UploadParts): Promise<{ manifest: Manifest; key: SigningKey; model: LoggerModel; image: NonNullable<UploadParts['image']> }> {
-  const missing = (['image', 'manifest', 'signature'] as const).filter((name) => !parts[name]);
+async function checkUpload(
+  parts: UploadParts,
+  now: Date,
+): Promise<{ manifest: Manifest; signers: { key: SigningKey; signature: Buffer }[]; model: LoggerModel; image: NonNullable<UploadParts['image']> }> {
+  const missing = (['image', 'manifest', 'signature'] as const).filter((name) => (name === 'signature' ? parts.signatures.length === 0 : !parts[name]));
   if (missing.length) {
     throw problems.badRequest(`The upload needs ${missing.join(', ')} (multipart/form-data with image, manifest and signature).`,
       missing.map((path) => ({ path, message: 'is required' })));
@@ -85,7 +89,8 @@ async function checkUpload(parts: UploadParts): Promise<{ manifest: Manifest; ke
     if (error instanceof ManifestError) throw manifestProblem(error);
     throw error;
   }
-  const key = await signingKeyFor(manifestBytes, parts.signature!);
+  checkExpiry(manifest, now);
+  const signers = await signersOf(manifestBytes, parts.signatures);
   const image = parts.image!;
   if (image.size !== manifest.image_size) {
     throw refuse('image', `The image is ${image.size} bytes but the manifest says ${manifest.image_size}: this is not the image that was signed.`);
@@ -114,13 +119,38 @@ async function checkUpload(parts: UploadParts): Promise<{ manifest: Manifest; ke
     throw refuse('manifest.security_counter',
       `The security counter ${manifest.security_counter} is below ${highest}, the highest among ${model.name}'s published releases: loggers would refuse this image.`);
   }
-  return { manifest, key, model, image };
+  return { manifest, signers, model, image };
+}
+
+/** A manifest's `expires` must leave the release room to go out: not past, and not within 24 hours (our rule). */
+export const MIN_MANIFEST_LIFE_MS = 24 * 3600 * 1000;
+
+function checkExpiry(manifest: Manifest, now: Date) {
+  if (!manifest.expires) return;
+  const left = Date.parse(manifest.expires) - now.getTime();
+  if (left <= 0) {
+    throw refuse('manifest.expires', `The manifest expired at ${manifest.expires}: sign a new manifest with a later expiry.`);
+  }
+  if (left < MIN_MANIFEST_LIFE_MS) {
+    throw refuse('manifest.expires', `The manifest expires at ${manifest.expires}, less than 24 hours from now: too soon for a rollout; sign it with a later expiry.`);
+  }
+}
+
+/** Every signature must be by an active registered key; one key's signatures count once (the first is kept). */
+async function signersOf(manifestBytes: Buffer, signatures: readonly string[]): Promise<{ key: SigningKey; signature: Buffer }[]> {
+  const signers: { key: SigningKey; signature: Buffer }[] = [];
+  for (const text of signatures) {
+    const key = await signingKeyFor(manifestBytes, text);
+    if (!signers.some((s) => s.key.id === key.id)) signers.push({ key, signature: Buffer.from(text.trim(), 'base64') });
+  }
+  return signers;
 }
 
 export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, parts: UploadParts) {
   const fields = parse(uploadFields, parts.fields);
-  const { manifest, key, model, image } = await checkUpload(parts);
   const now = deps.now();
+  const { manifest, signers, model, image } = await checkUpload(parts, now);
+  const key = signers[0].key;
   const channel = fields.channel ?? (semver.prerelease(manifest.version) ? 'early' : 'stable');
   let createdFile = false;
   try {
@@ -141,8 +171,11 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
           securityCounter: manifest.security_counter,
           imageSha256: image.sha256,
           manifest: parts.manifest!,
-          signature: Buffer.from(parts.signature!.trim(), 'base64'),
+          // The first signature stays on the row (and in the offer's single fields); a trigger (migration 0016)
+          // copies it into release_signatures, and the others follow below.
+          signature: signers[0].signature,
           signingKeyId: key.id,
+          expiresAt: manifest.expires ? new Date(manifest.expires) : null,
           notes: fields.notes ?? '',
           createdBy: ctx.actor.type === 'person' ? ctx.actor.id : null,
           createdAt: now,
@@ -150,6 +183,7 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
         },
         { transaction: t },
       );
+      for (const more of signers.slice(1)) await insertSignature(deps.sequelize, t, created.id, more.key.id, more.signature, now, ctx.actor.name);
       await ReleaseTransition.create(
         { releaseId: created.id, at: now, action: 'upload', fromState: null, toState: 'draft', share: 0, reason: null, actorType: ctx.actor.type, actorName: ctx.actor.name },
         { transaction: t },
@@ -158,8 +192,8 @@ export async function createRelease(deps: ReleaseDeps, ctx: RequestContext, part
         action: 'release.uploaded',
         targetType: 'release',
         targetId: created.id,
-        summary: `${ctx.actor.name} uploaded ${label(created, model.name)} (draft, ${channel}, signed by key ${key.keyId})`,
-        details: { sha256: image.sha256, size: image.size, keyId: key.keyId },
+        summary: `${ctx.actor.name} uploaded ${label(created, model.name)} (draft, ${channel}, signed by key${signers.length > 1 ? 's' : ''} ${signers.map((x) => x.key.keyId).join(', ')})`,
+        details: { sha256: image.sha256, size: image.size, keyId: key.keyId, keyIds: signers.map((x) => x.key.keyId) },
       });
       // Last step before commit: the image takes its final name only when every row is written.
       createdFile = await image.commit();
@@ -269,15 +303,7 @@ export async function deleteRelease(deps: ReleaseDeps, ctx: RequestContext, id: 
 export async function transitionRelease(deps: ReleaseDeps, ctx: RequestContext, id: string, input: TransitionRequest) {
   const release = await deps.sequelize.transaction(async (t) => {
     const found = await lockedRelease(t, id);
-    // A draft signed by a key revoked since the upload never goes out (the lifecycle's own refusals come first).
-    if (input.action === 'start_pilot' && found.state === 'draft') {
-      const key = await SigningKey.findByPk(found.signingKeyId, { transaction: t });
-      if (key?.state === 'revoked') {
-        throw problems.conflict(`This draft is signed by key "${key.name}" (key id ${key.keyId}), which is revoked: upload it again signed with an active key.`, {
-          allowedActions: [],
-        });
-      }
-    }
+    // A draft goes out only with its model's signing rule met (the start_pilot guard in applyTransition).
     return applyTransition(t, found, input, { ...ctx, now: deps.now(), mailer: deps.mailer, log: deps.logger });
   });
   return presentRelease(deps.sequelize, release);
@@ -312,4 +338,118 @@ export async function estimateShare(deps: ReleaseDeps, id: string, share: number
   const eligibleNow = reached(release.share);
   const eligibleAtShare = reached(share);
   return { share, eligibleNow, eligibleAtShare, more: Math.max(0, eligibleAtShare - eligibleNow) };
+}
+
+// ─── Signatures gathered after the upload, and re-signing ───────────────────
+
+async function insertSignature(sequelize: Sequelize, t: Transaction, releaseId: string, signingKeyId: string, signature: Buffer, now: Date, by: string): Promise<boolean> {
+  const [, count] = await sequelize.query(
+    `INSERT INTO release_signatures (release_id, signing_key_id, signature, added_at, added_by) VALUES (:releaseId, :signingKeyId, :signature, :now, :by)
+     ON CONFLICT DO NOTHING`,
+    { transaction: t, replacements: { releaseId, signingKeyId, signature, now: now.toISOString(), by } },
+  );
+  return Number(count) > 0;
+}
+
+/** One signature over exactly `manifest` by the named key, which must be active; 400/422 otherwise. */
+async function checkSignature(manifest: Buffer, input: SignatureRequest, path: string, t?: Transaction): Promise<{ key: SigningKey; signature: Buffer }> {
+  const key = await SigningKey.findOne({ where: { keyId: input.keyId }, transaction: t });
+  if (!key) throw refuse(`${path}keyId`, `No signing key with key id ${input.keyId} is registered: an admin registers its public key under Signing keys first.`);
+  if (key.state !== 'active') {
+    const why = key.state === 'revoked' ? 'signatures by a revoked key are refused' : 'a retired key signs nothing new';
+    throw refuse(`${path}keyId`, `Key "${key.name}" (key id ${key.keyId}) is ${key.state}: ${why}.`);
+  }
+  if (key.algorithm !== input.algorithm) throw refuse(`${path}algorithm`, `Key ${key.keyId} signs with ${key.algorithm}, not ${input.algorithm}.`);
+  let signature: Buffer;
+  try {
+    signature = decodeSignature(input.signature, key.algorithm);
+  } catch (error) {
+    if (error instanceof ManifestError) throw problems.badRequest(`The signature cannot be used: ${error.message}.`, [{ path: `${path}signature`, message: error.message }]);
+    throw error;
+  }
+  if (!verifyManifestSignature(manifest, signature, parsePublicKeyPem(key.publicKeyPem))) {
+    throw refuse(`${path}signature`, `The signature does not verify with key ${key.keyId} over this release's manifest: sign the manifest file that was uploaded, byte for byte.`);
+  }
+  return { key, signature };
+}
+
+/** POST /api/releases/:id/signatures: a draft gathers one more signature; a second by the same key counts once. */
+export async function addReleaseSignature(deps: ReleaseDeps, ctx: RequestContext, id: string, input: AddSignatureRequest) {
+  const release = await deps.sequelize.transaction(async (t) => {
+    const found = await lockedRelease(t, id);
+    if (found.state !== 'draft') {
+      throw problems.conflict(`Signatures are gathered while the release is a draft; this release is ${found.state}. To sign it anew, re-sign its manifest.`, { allowedActions: [] });
+    }
+    const manifest = (await Release.findByPk(id, { transaction: t, attributes: ['manifest'] }))!.manifest;
+    const { key, signature } = await checkSignature(manifest, input, '', t);
+    const added = await insertSignature(deps.sequelize, t, id, key.id, signature, deps.now(), ctx.actor.name);
+    await recordActivity(t, ctx, {
+      action: 'release.signature_added',
+      targetType: 'release',
+      targetId: id,
+      summary: added
+        ? `${ctx.actor.name} added key ${key.keyId}'s signature ("${key.name}") to ${label(found, await modelName(found.modelId, t))}`
+        : `${ctx.actor.name} sent key ${key.keyId}'s signature again for ${label(found, await modelName(found.modelId, t))}; it counts once`,
+      details: { keyId: key.keyId, counted: added },
+    });
+    return found;
+  });
+  return presentRelease(deps.sequelize, (await Release.findByPk(release.id))!);
+}
+
+/**
+ * PUT /api/releases/:id/manifest: a new manifest over the same image and version — the same fields but
+ * `issued_at` and a later `expires` — with new signatures. The release keeps its id, history, targeting
+ * and cohort; its signatures are replaced. A release that left draft must meet its signing rule at once,
+ * since loggers verify what the offer carries.
+ */
+export async function resignRelease(deps: ReleaseDeps, ctx: RequestContext, id: string, input: ResignRequest) {
+  const now = deps.now();
+  const bytes = Buffer.from(input.manifest, 'utf8');
+  let manifest: Manifest;
+  try {
+    manifest = parseSignedManifest(bytes);
+  } catch (error) {
+    if (error instanceof ManifestError) throw manifestProblem(error);
+    throw error;
+  }
+  checkExpiry(manifest, now);
+  await deps.sequelize.transaction(async (t) => {
+    const found = await lockedRelease(t, id);
+    const before = parseSignedManifest((await Release.findByPk(id, { transaction: t, attributes: ['manifest'] }))!.manifest);
+    const kept = ['board_revisions', 'format', 'image_sha256', 'image_size', 'model', 'security_counter', 'version'] as const;
+    const changed = kept.filter((f) => JSON.stringify(before[f]) !== JSON.stringify(manifest[f]));
+    if (changed.length) {
+      throw refuse(`manifest.${changed[0]}`, `A new manifest for this release keeps its image and version: ${changed.join(', ')} differ${changed.length === 1 ? 's' : ''}. Upload a new release instead.`);
+    }
+    if (!manifest.expires) throw refuse('manifest.expires', 'A new manifest for a release carries an expiry (expires), later than the one it replaces.');
+    if (before.expires && Date.parse(manifest.expires) <= Date.parse(before.expires)) {
+      throw refuse('manifest.expires', `The new manifest expires at ${manifest.expires}, not later than the one it replaces (${before.expires}).`);
+    }
+    const signers: { key: SigningKey; signature: Buffer }[] = [];
+    for (const [i, s] of input.signatures.entries()) {
+      const signer = await checkSignature(bytes, s, `signatures.${i}.`, t);
+      if (!signers.some((x) => x.key.id === signer.key.id)) signers.push(signer);
+    }
+    const model = await LoggerModel.findByPk(found.modelId, { transaction: t, attributes: ['name', 'signingThreshold'] });
+    if (found.state !== 'draft' && signers.length < (model?.signingThreshold ?? 1)) {
+      throw refuse('signatures', `This release is ${found.state}: its new manifest needs signatures by ${model?.signingThreshold} distinct active keys at once (it has ${signers.length}), since loggers verify what the offer carries.`);
+    }
+    found.set('manifest', bytes);
+    found.set('signature', signers[0].signature);
+    found.signingKeyId = signers[0].key.id;
+    found.expiresAt = new Date(manifest.expires);
+    found.updatedAt = now;
+    await found.save({ transaction: t });
+    await deps.sequelize.query('DELETE FROM release_signatures WHERE release_id = :id', { transaction: t, replacements: { id } });
+    for (const s of signers) await insertSignature(deps.sequelize, t, id, s.key.id, s.signature, now, ctx.actor.name);
+    await recordActivity(t, ctx, {
+      action: 'release.resigned',
+      targetType: 'release',
+      targetId: id,
+      summary: `${ctx.actor.name} signed ${label(found, model?.name ?? 'model')} anew, expiring ${manifest.expires} (keys ${signers.map((s) => s.key.keyId).join(', ')})`,
+      details: { expires: manifest.expires, previousExpires: before.expires ?? null, keyIds: signers.map((s) => s.key.keyId) },
+    });
+  });
+  return presentRelease(deps.sequelize, (await Release.findByPk(id))!);
 }

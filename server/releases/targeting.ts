@@ -5,7 +5,7 @@
 // sites read them directly, so all three decide on the same releases.
 import type { Sequelize } from 'sequelize';
 import { QueryTypes } from 'sequelize';
-import type { ReleaseTargeting } from '../rollout/decision';
+import { parseTargeting, type ReleaseTargeting } from '../rollout/decision';
 import type { TripPoints } from '../rollout/trip';
 import type { Channel, ReleaseState, ResumeState } from '../../schemas/words';
 import type { SignatureAlgorithm } from '../../schemas/manifest';
@@ -20,9 +20,13 @@ export type OfferableRelease = ReleaseTargeting &
     signature: Buffer;
     keyId: string;
     algorithm: SignatureAlgorithm;
+    /** Every signature the release gathered, the first (signature, keyId) first. */
+    signatures: { key_id: string; algorithm: SignatureAlgorithm; signature: string }[];
   };
 
-type Row = Omit<OfferableRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boards' | 'keyId'> & {
+type Row = Omit<OfferableRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boards' | 'keyId' | 'signatures'> & {
+  /** [key id, algorithm, base64 signature] per signature. */
+  signatures: [string, SignatureAlgorithm, string][] | null;
   share: number | string;
   imageSize: number | string;
   pilotSiteIds: string[] | null;
@@ -32,20 +36,29 @@ type Row = Omit<OfferableRelease, 'share' | 'imageSize' | 'pilotSiteIds' | 'boar
 
 const DRAFT: ReleaseState = 'draft';
 
-/** Every release of the model that left draft (one indexed read). */
+/**
+ * Every release of the model that left draft (one indexed read), with its version and upgrade-from range
+ * parsed once here (`parsed`), so a decision on them parses only the logger's running version.
+ */
 export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string): Promise<OfferableRelease[]> {
   const rows = await sequelize.query<Row>(
     `SELECT r.id, r.model_id AS "modelId", r.version, r.channel, r.state, r.share, r.resume_state AS "resumeState", r.boards,
             r.upgrade_from AS "upgradeFrom", r.security_counter AS "securityCounter", r.daylight_window AS "daylightWindow",
             r.image_sha256 AS "imageSha256", i.size AS "imageSize", r.manifest, r.signature, k.key_id AS "keyId", k.algorithm,
             r.trip_failure_ratio AS "tripFailureRatio", r.trip_min_reports AS "tripMinReports", r.trip_reset_factor AS "tripResetFactor",
-            (SELECT array_agg(ps.site_id::text ORDER BY ps.site_id) FROM release_pilot_sites ps WHERE ps.release_id = r.id) AS "pilotSiteIds"
+            (SELECT array_agg(ps.site_id::text ORDER BY ps.site_id) FROM release_pilot_sites ps WHERE ps.release_id = r.id) AS "pilotSiteIds",
+            r.expires_at AS "expiresAt",
+            -- base64 without the line breaks PostgreSQL's encode() puts every 76 characters
+            (SELECT json_agg(json_build_array(sk.key_id, sk.algorithm, translate(encode(rs.signature, 'base64'), E'\n', ''))
+                             ORDER BY rs.seq)
+               FROM release_signatures rs JOIN signing_keys sk ON sk.id = rs.signing_key_id WHERE rs.release_id = r.id) AS signatures
        FROM releases r JOIN images i ON i.sha256 = r.image_sha256 JOIN signing_keys k ON k.id = r.signing_key_id
       WHERE r.model_id = :modelId AND r.state <> :draft`,
     { type: QueryTypes.SELECT, replacements: { modelId, draft: DRAFT } },
   );
   return rows.map((r) => ({
     ...r,
+    parsed: parseTargeting(r),
     channel: r.channel as Channel,
     state: r.state as ReleaseState,
     share: Number(r.share),
@@ -56,5 +69,7 @@ export async function loadReleasesOfModel(sequelize: Sequelize, modelId: string)
     keyId: r.keyId.trim(),
     imageSha256: r.imageSha256.trim(),
     pilotSiteIds: r.pilotSiteIds ?? [],
+    expiresAt: r.expiresAt ? new Date(r.expiresAt) : null,
+    signatures: (r.signatures ?? []).map(([keyId, algorithm, signature]) => ({ key_id: keyId.trim(), algorithm, signature })),
   }));
 }

@@ -25,6 +25,7 @@ import { Problem, problems } from '../http/problem';
 import type { Mail, Mailer } from '../mail/mailer';
 import { firstEnteredColumn, transition } from '../rollout/lifecycle';
 import { tripHeadline } from '../rollout/trip';
+import { releaseSigning } from './signing';
 import { RELEASE_EVENTS, type ReleaseAction, type ReleaseState, type StoppedBy, type TripRule } from '../../schemas/words';
 import type { Role } from '../../schemas/auth';
 import type { TripFigures } from '../../schemas/releases';
@@ -70,10 +71,11 @@ const ACTION_WORDS: Record<ReleaseAction, string> = {
  */
 export async function applyTransition(t: Transaction, release: Release, asked: TransitionAction, ctx: TransitionContext): Promise<Release> {
   const share = asked.share === undefined || asked.share === null ? undefined : Math.round(asked.share * 100) / 100;
-  const result = transition({ state: release.state, share: release.share, resumeState: release.resumeState }, asked.action, { share, reason: asked.reason });
+  const signatures = asked.action === 'start_pilot' && release.state === 'draft' ? await signaturesOf(t, release) : null;
+  const result = transition({ state: release.state, share: release.share, resumeState: release.resumeState }, asked.action, { share, reason: asked.reason, signatures });
   if (!result.ok) {
     const extensions = { allowedActions: result.allowedActions };
-    if (result.code === 'illegal') throw problems.conflict(result.detail, extensions);
+    if (result.code === 'illegal' || result.code === 'signatures_short') throw problems.conflict(result.detail, extensions);
     const path = result.code === 'reason_required' ? 'reason' : 'share';
     throw new Problem(400, 'invalid-request', 'The request is not valid', result.detail, { errors: [{ path, message: result.detail }], extensions });
   }
@@ -140,6 +142,15 @@ function shiftText(x: number | null, unit: '%' | '°C' | 'points'): string {
   const sign = x > 0 ? '+' : x < 0 ? '−' : '';
   const v = Math.abs(x);
   return unit === '°C' ? `${sign}${Number(v.toFixed(1))} °C` : `${sign}${Number((v * 100).toFixed(1))}${unit === '%' ? ' %' : ' percentage points'}`;
+}
+
+/** The release's signatures against its model's rule, for the start_pilot guard. */
+async function signaturesOf(t: Transaction, release: Release): Promise<{ have: number; needs: number; missing: string[] }> {
+  const model = await LoggerModel.findByPk(release.modelId, { transaction: t, attributes: ['signingThreshold'] });
+  const manifest = (await Release.findByPk(release.id, { transaction: t, attributes: ['manifest'] }))!.manifest;
+  const signing = await releaseSigning(Release.sequelize!, { id: release.id, manifest }, model?.signingThreshold ?? 1, t);
+  const revoked = signing.revokedSigners.length ? ` (not counted: ${signing.revokedSigners.map((k) => `"${k.name}" ${k.keyId}, revoked`).join('; ')})` : '';
+  return { have: signing.signedBy.length, needs: signing.threshold, missing: [...signing.missing.map((k) => `"${k.name}" ${k.keyId}`), ...(revoked ? [revoked.trim()] : [])] };
 }
 
 /** The trip e-mail to the admins and release engineers; sent only once the stop has committed. */

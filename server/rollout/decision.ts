@@ -25,7 +25,7 @@
 // - A daylight window asked for by a release whose site has no coordinates is not applied.
 // - `considered` lists every release of the model, newest first by semantic-version precedence.
 import { knownTimeZone, siteClock, utcClock } from '../../lib/site-time';
-import semver from 'semver';
+import { Range, SemVer } from 'semver';
 import { isLive, type ReleaseState } from './lifecycle';
 import { bucketOf, inShare, wholeShareIncluding } from './cohort';
 import { daylightWindowAt } from './daylight';
@@ -76,7 +76,55 @@ export type ReleaseTargeting = {
   pilotSiteIds: readonly string[];
   /** Offer only between sunrise + 1 h and sunset − 1 h at the site. */
   daylightWindow: boolean;
+  /**
+   * The version and upgrade-from range parsed once (parseTargeting); the release cache keeps them, so a
+   * check-in parses no release's version or range. When absent, the decision parses them itself.
+   */
+  parsed?: ParsedTargeting;
+  /** The signed manifest's `expires`: from that instant on the release offers nothing (absent or null: no expiry). */
+  expiresAt?: Date | null;
 };
+
+/** A release's version and upgrade-from range as semver objects, parsed once. */
+export type ParsedTargeting = {
+  /** null: the version is not a semantic version. */
+  version: SemVer | null;
+  /** null: no range (any running version); 'invalid': the text does not parse as a range. */
+  upgradeFrom: Range | null | 'invalid';
+};
+
+const RANGE_OPTIONS = { includePrerelease: true } as const;
+
+/** Parses a version strictly (semver.org §2 … §11), or null. */
+export function parseVersion(text: string | null): SemVer | null {
+  if (text === null) return null;
+  try {
+    return new SemVer(text);
+  } catch {
+    return null;
+  }
+}
+
+/** Parses a release's version and upgrade-from range (the semver package's syntax, pre-releases included). */
+export function parseTargeting(release: Pick<ReleaseTargeting, 'version' | 'upgradeFrom'>): ParsedTargeting {
+  const text = release.upgradeFrom?.trim() ?? '';
+  let upgradeFrom: ParsedTargeting['upgradeFrom'] = null;
+  if (text !== '') {
+    try {
+      upgradeFrom = new Range(text, RANGE_OPTIONS);
+    } catch {
+      upgradeFrom = 'invalid';
+    }
+  }
+  return { version: parseVersion(release.version), upgradeFrom };
+}
+
+/** The release with its parsed targeting attached (the release cache and "Why no update?" keep these). */
+export function withParsedTargeting<R extends ReleaseTargeting>(release: R): R & { parsed: ParsedTargeting } {
+  return { ...release, parsed: parseTargeting(release) };
+}
+
+const parsedOf = (r: ReleaseTargeting): ParsedTargeting => r.parsed ?? parseTargeting(r);
 
 export type LastInstallReport = { state: ReportedInstallState; reason?: FailureReason | null };
 
@@ -98,6 +146,7 @@ export const REASON_LABELS: Record<ReasonCode, string> = {
   firmware_unknown: 'Running version unknown',
   wrong_channel: 'Other channel',
   not_live: 'Release not live',
+  manifest_expired: 'Signed manifest expired',
   board_not_supported: 'Board revision not targeted by the release',
   not_newer: 'Not newer than the running version',
   security_counter_too_low: 'Security counter below the logger’s',
@@ -136,30 +185,27 @@ function statePhrase(state: ReleaseState): string {
 }
 
 /** Newest first by semantic-version precedence; versions that do not parse go last; ties by id. */
-function newestFirst(a: ReleaseTargeting, b: ReleaseTargeting): number {
-  const va = semver.valid(a.version);
-  const vb = semver.valid(b.version);
+const newestFirst = (parsed: Map<ReleaseTargeting, ParsedTargeting>) => (a: ReleaseTargeting, b: ReleaseTargeting): number => {
+  const va = parsed.get(a)!.version;
+  const vb = parsed.get(b)!.version;
   if (va && vb) {
-    const c = semver.rcompare(va, vb);
+    const c = vb.compare(va);
     if (c !== 0) return c;
   } else if (va || vb) {
     return va ? -1 : 1;
   }
   return a.id < b.id ? -1 : a.id > b.id ? 1 : 0;
-}
+};
 
 type RangeCheck = { admits: true } | { admits: false; why: string };
 
 /** Rule 4: does the release's upgrade-from range admit the running version (pre-releases included)? */
-function upgradeFromAdmits(release: ReleaseTargeting, running: string): RangeCheck {
-  const range = release.upgradeFrom?.trim() ?? '';
-  if (range === '') return { admits: true };
-  if (semver.validRange(range, { includePrerelease: true }) === null) {
-    return { admits: false, why: `its upgrade-from range "${range}" does not parse` };
-  }
-  return semver.satisfies(running, range, { includePrerelease: true })
-    ? { admits: true }
-    : { admits: false, why: `${running} is outside its upgrade-from range ${range}` };
+function admitsUpgradeFrom(release: ReleaseTargeting, parsed: ParsedTargeting, running: SemVer): RangeCheck {
+  const range = parsed.upgradeFrom;
+  const text = release.upgradeFrom?.trim() ?? '';
+  if (range === null) return { admits: true };
+  if (range === 'invalid') return { admits: false, why: `its upgrade-from range "${text}" does not parse` };
+  return range.test(running) ? { admits: true } : { admits: false, why: `${running.version} is outside its upgrade-from range ${text}` };
 }
 
 function failedAwaitingRetry(report: LastInstallReport | undefined): FailureReason | null {
@@ -224,7 +270,10 @@ export function offerInput<R extends ReleaseTargeting>(logger: LoggerFacts, rele
 
 export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): OfferDecision<R> {
   const { logger, lastReports, now } = input;
-  const releases = [...input.releases].sort(newestFirst);
+  // Releases from the cache come parsed; others are parsed here, once each.
+  const parsed = new Map<ReleaseTargeting, ParsedTargeting>(input.releases.map((r) => [r, parsedOf(r)]));
+  const releases = [...input.releases].sort(newestFirst(parsed));
+  const upgradeFromAdmits = (r: R, version: SemVer) => admitsUpgradeFrom(r, parsed.get(r)!, version);
   const verdicts = new Map<string, Omit<ReleaseVerdict, 'releaseId' | 'version'>>();
   const refuse = (r: R, reason: ReasonCode, detail: string) => verdicts.set(r.id, { outcome: 'not_offered', reason, detail });
   const finish = (offer: R | null): OfferDecision<R> => ({
@@ -239,7 +288,8 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
   // Rule 1: enrolled at a site and not retired.
   if (logger.status === 'retired') return refuseAll('retired', 'The logger is retired; it is offered nothing.');
   if (logger.status !== 'enrolled' || !logger.siteId) return refuseAll('not_enrolled', 'The logger is not enrolled at a site yet.');
-  const running = logger.firmware === null ? null : semver.valid(logger.firmware);
+  // The reported version, parsed once for this decision.
+  const running = parseVersion(logger.firmware);
   if (running === null) {
     return refuseAll(
       'firmware_unknown',
@@ -251,16 +301,18 @@ export function decideOffer<R extends ReleaseTargeting>(input: OfferInput<R>): O
   // unresolved failure.
   const candidates: R[] = [];
   for (const r of releases) {
-    const version = semver.valid(r.version);
+    const version = parsed.get(r)!.version;
     const failure = failedAwaitingRetry(lastReports[r.id]);
     if (r.channel !== logger.channel) {
       refuse(r, 'wrong_channel', `The release is on the ${r.channel} channel; the logger follows ${logger.channel}.`);
     } else if (!isLive(r.state)) {
       refuse(r, 'not_live', `The release ${statePhrase(r.state)}.`);
+    } else if (r.expiresAt && r.expiresAt.getTime() <= now.getTime()) {
+      refuse(r, 'manifest_expired', `Its signed manifest expired at ${r.expiresAt.toISOString().replace(/\.\d{3}Z$/, 'Z')}; a logger would refuse it. Sign it anew with a later expiry.`);
     } else if (!r.boards.includes(logger.board)) {
       refuse(r, 'board_not_supported', `Board ${logger.board} is not among the release's boards (${r.boards.join(', ') || 'none'}).`);
-    } else if (version === null || !semver.gt(version, running)) {
-      refuse(r, 'not_newer', version === null ? `The release version "${r.version}" is not a semantic version.` : `${r.version} is not newer than the running ${running}.`);
+    } else if (version === null || version.compare(running) <= 0) {
+      refuse(r, 'not_newer', version === null ? `The release version "${r.version}" is not a semantic version.` : `${r.version} is not newer than the running ${running.version}.`);
     } else if (r.securityCounter < logger.securityCounter) {
       refuse(r, 'security_counter_too_low', `Its security counter ${r.securityCounter} is below the logger's ${logger.securityCounter}; the logger would refuse it.`);
     } else if (failure) {

@@ -24,7 +24,15 @@ export type ReleaseLifecycle = {
   resumeState: ResumeState | null;
 };
 
-export type TransitionOptions = { share?: number | null; reason?: string | null };
+export type TransitionOptions = {
+  share?: number | null;
+  reason?: string | null;
+  /**
+   * For start_pilot: the release's valid signatures by distinct registered, unrevoked keys, against the
+   * model's signing rule (server/releases/signing.ts). A pilot needs `have` ≥ `needs`.
+   */
+  signatures?: { have: number; needs: number; missing?: readonly string[] } | null;
+};
 
 export type TransitionRefusal =
   /** The action is not legal in this state (answer 409, naming the allowed actions). */
@@ -32,7 +40,9 @@ export type TransitionRefusal =
   /** Stop, withdraw and resume from stopped need a reason (answer 400). */
   | { ok: false; code: 'reason_required'; detail: string; allowedActions: ReleaseAction[] }
   /** Widen needs a share of 1–99 %, larger than the current one when already widening (answer 400). */
-  | { ok: false; code: 'invalid_share'; detail: string; allowedActions: ReleaseAction[] };
+  | { ok: false; code: 'invalid_share'; detail: string; allowedActions: ReleaseAction[] }
+  /** A pilot needs the model's signing rule met: k valid signatures by distinct unrevoked keys (answer 409). */
+  | { ok: false; code: 'signatures_short'; detail: string; allowedActions: ReleaseAction[] };
 
 export type TransitionResult = { ok: true; release: ReleaseLifecycle } | TransitionRefusal;
 
@@ -106,8 +116,19 @@ export function transition(release: ReleaseLifecycle, action: ReleaseAction, opt
   }
 
   switch (action) {
-    case 'start_pilot':
+    case 'start_pilot': {
+      const signed = options.signatures;
+      if (signed && signed.have < signed.needs) {
+        const missing = signed.missing?.length ? ` Keys that have not signed: ${signed.missing.join(', ')}.` : '';
+        return {
+          ok: false,
+          code: 'signatures_short',
+          detail: `The pilot needs signatures by ${signed.needs} distinct registered keys that are not revoked; this release has ${signed.have}. Add signatures (heliodor sign … | heliodor push --add-signature) first.${missing}`,
+          allowedActions: allowed,
+        };
+      }
       return ok({ state: 'pilot', share: 0, resumeState: null });
+    }
     case 'widen': {
       const share = options.share;
       if (typeof share !== 'number' || !Number.isFinite(share) || share < MIN_WIDEN_SHARE || share > MAX_WIDEN_SHARE) {

@@ -6,7 +6,8 @@ import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { startTestApp, csrf, type TestApp } from '../helpers/app';
-import { newSigningKey, pushRelease, signManifestFile, verifySignedManifest, writeManifest } from '../../scripts/cli/commands';
+import { addReleaseSignature, CliError, newSigningKey, pushRelease, signManifestFile, signTrustSetFile, verifySignedManifest, writeManifest } from '../../scripts/cli/commands';
+import { parsePublicKeyPem } from '../../server/images/manifest';
 import { demoModel, storeEntries } from './release-fixtures';
 
 let t: TestApp;
@@ -83,4 +84,59 @@ test('when the token only reads the fleet, then the push is refused with 403 and
   const entries = storeEntries(t);
   await expect(pushRelease({ url: base, token, image: imageFile, manifest: manifestFile, signature: signatureFile })).rejects.toThrow(/upload refused \(403/);
   expect(storeEntries(t)).toEqual(entries);
+});
+
+// The threshold rule (docs/SOURCES.md §6, TUF: a role is signed by a threshold of distinct keys, each
+// counted once) through the CLI: a second key's signature added to a draft with push --add-signature,
+// and a pending trust set signed offline with trust sign by a key of the version before.
+test('when a second key signs offline and push --add-signature adds it, then the draft meets a 2-of rule; trust sign signs the pending set the console accepts', async () => {
+  const dir = path.join(work, 'threshold');
+  const token = await apiToken(['images:write']);
+  const admin = await t.signedIn('admin', 'CLI Admin');
+  const first = await newSigningKey({ algorithm: 'ed25519', out: path.join(dir, 'keys'), name: 'first' });
+  const second = await newSigningKey({ algorithm: 'ecdsa-p256-sha256', out: path.join(dir, 'keys'), name: 'second' });
+  for (const [name, key] of [['CLI first', first], ['CLI second', second]] as const) {
+    expect((await admin.post('/api/keys').set(csrf).send({ name, publicKeyPem: fs.readFileSync(key.publicKeyFile, 'utf8') })).status).toBe(201);
+  }
+  const model = await demoModel();
+  expect((await admin.patch(`/api/models/${model.id}`).set(csrf).send({ signingThreshold: 2 })).status).toBe(200);
+
+  const imageFile = path.join(dir, 'fw.bin');
+  fs.writeFileSync(imageFile, crypto.randomBytes(12_000));
+  const manifestFile = path.join(dir, 'manifest.json');
+  fs.writeFileSync(manifestFile, await writeManifest({ image: imageFile, model: model.id, version: '2.6.0', boards: 'B,C', counter: '6' }));
+  const firstSig = path.join(dir, 'first.sig');
+  fs.writeFileSync(firstSig, await signManifestFile({ key: first.privateKeyFile, manifest: manifestFile }));
+  await pushRelease({ url: base, token, image: imageFile, manifest: manifestFile, signature: firstSig });
+  const release = (await admin.get('/api/releases')).body.rows.find((r: { version: string }) => r.version === '2.6.0');
+  expect((await admin.get(`/api/releases/${release.id}`)).body.signing).toMatchObject({ threshold: 2, met: false });
+
+  // heliodor sign … | heliodor push --add-signature --release <id> --key second.public.pem
+  const secondSig = await signManifestFile({ key: second.privateKeyFile, manifest: manifestFile });
+  const added = await addReleaseSignature({ url: base, token, release: release.id, key: second.publicKeyFile, signature: secondSig });
+  expect(added).toBe(`added key ${second.keyId}'s signature to release 2.6.0: 2 of 2 keys, ready for its pilot\n`);
+  const signing = (await admin.get(`/api/releases/${release.id}`)).body.signing;
+  expect(signing).toMatchObject({ threshold: 2, met: true });
+  expect(signing.signedBy.map((k: { keyId: string }) => k.keyId).sort()).toEqual([first.keyId, second.keyId].sort());
+  // The same key again counts once (TUF): the draft keeps 2 of 2, never a third signature.
+  await expect(addReleaseSignature({ url: base, token, release: release.id, key: second.publicKeyFile, signature: secondSig })).resolves.toContain('2 of 2 keys');
+
+  // trust sign: the pending set's canonical text, signed by a key of the version before.
+  const view = (await admin.get(`/api/models/${model.id}/trust`)).body;
+  expect(view.pending).not.toBeNull();
+  const previous: string[] = JSON.parse(view.current.canonical).keys.map((k: { key_id: string }) => k.key_id);
+  const keyFiles = fs.readdirSync(work, { recursive: true, encoding: 'utf8' }).filter((f) => f.endsWith('.public.pem'));
+  const signerFile = keyFiles.map((f) => path.join(work, f)).find((f) => previous.includes(parsePublicKeyPem(fs.readFileSync(f, 'utf8')).keyId))!;
+  expect(signerFile).toBeDefined();
+  const setFile = path.join(dir, `trust-set-v${view.pending.version}.json`);
+  fs.writeFileSync(setFile, `${view.pending.canonical}\n`);
+  // RFC 8785 leaves no whitespace outside strings: a final newline is another text, refused before signing.
+  await expect(signTrustSetFile({ key: signerFile.replace('.public.pem', '.private.pem'), set: setFile })).rejects.toThrow(CliError);
+  fs.writeFileSync(setFile, view.pending.canonical);
+  const body = JSON.parse(await signTrustSetFile({ key: signerFile.replace('.public.pem', '.private.pem'), set: setFile }));
+  expect(body).toMatchObject({ version: view.pending.version, keyId: parsePublicKeyPem(fs.readFileSync(signerFile, 'utf8')).keyId });
+  const signed = await admin.post(`/api/models/${model.id}/trust/signatures`).set(csrf).send(body);
+  expect(signed.status).toBe(200);
+  expect(signed.body.pending).toBeNull();
+  expect(signed.body.current).toMatchObject({ version: view.pending.version, threshold: 2 });
 });

@@ -70,7 +70,7 @@ describe('the device loop with the reference client', () => {
     expect(state.firmware).toBe('2.4.0');
   });
 
-  test('when the offer is read, then it carries the exact signed manifest bytes, the signature, key id, algorithm and image', async () => {
+  test('when the offer is read, then it carries the exact signed manifest bytes, the signature, key id, algorithm, the signature list and image', async () => {
     const release = await fleet.release({ version: '3.0.0' });
     const lg = await fleet.logger({ board: 'C' });
     const res = await t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('2.9.0', { board: 'C' }));
@@ -83,6 +83,8 @@ describe('the device loop with the reference client', () => {
       signature: release.signature.toString('base64'),
       key_id: release.keyId,
       algorithm: 'ed25519',
+      // DEVICE_API.md: the list carries every signature, the first repeated in the single fields.
+      signatures: [{ key_id: release.keyId, algorithm: 'ed25519', signature: release.signature.toString('base64') }],
       image: { url: `/api/device/v1/images/${release.sha256}`, sha256: release.sha256, size: release.image.length },
     });
     // The logger checks the signature over the exact bytes with node:crypto (RFC 8032 Ed25519).

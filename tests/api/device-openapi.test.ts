@@ -23,13 +23,14 @@ describe('OpenAPI document', () => {
     const request = doc.components.schemas.CheckInRequest;
     // Field names and required set from DEVICE_API.md's request table.
     expect(Object.keys(request.properties).sort()).toEqual(
-      ['board', 'config_version', 'firmware', 'free_heap_b', 'readings', 'report', 'reset_counts', 'reset_reason', 'resets_since_last', 'rssi_dbm', 'security_counter', 'supply_v', 'uptime_s'].sort(),
+      ['board', 'config_version', 'firmware', 'free_heap_b', 'readings', 'report', 'reset_counts', 'reset_reason', 'resets_since_last', 'rssi_dbm', 'security_counter', 'supply_v', 'trust_version', 'uptime_s'].sort(),
     );
     expect(request.required.sort()).toEqual(['board', 'firmware', 'security_counter']);
     expect(request.properties.rssi_dbm).toMatchObject({ minimum: -120, maximum: 0 });
     expect(request.properties.supply_v).toMatchObject({ minimum: 0, maximum: 60 });
-    expect(Object.keys(doc.components.schemas.CheckInResponse.properties).sort()).toEqual(['config', 'next_check_in_s', 'offer', 'server_time']);
-    expect(Object.keys(doc.components.schemas.Offer.properties).sort()).toEqual(['algorithm', 'image', 'key_id', 'manifest', 'release', 'security_counter', 'signature', 'version']);
+    expect(Object.keys(doc.components.schemas.CheckInResponse.properties).sort()).toEqual(['config', 'next_check_in_s', 'offer', 'server_time', 'trust_set']);
+    expect(Object.keys(doc.components.schemas.Offer.properties).sort()).toEqual(['algorithm', 'image', 'key_id', 'manifest', 'release', 'security_counter', 'signature', 'signatures', 'version']);
+    expect(Object.keys(doc.components.schemas.TrustSet.properties).sort()).toEqual(['expires', 'keys', 'model', 'signatures', 'threshold', 'version']);
     const images = doc.paths['/api/device/v1/images/{sha256}'].get.responses;
     expect(Object.keys(images).sort()).toEqual(['200', '206', '401', '404', '416', '503']);
     expect(doc.info.description).toContain('rolled back by the bootloader');

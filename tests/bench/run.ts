@@ -8,6 +8,8 @@
 //   npm run bench -- --only 'fleet sort'       scenarios whose name matches
 //   npm run bench -- --compare results/a.json  this run's ratio changes against an earlier one
 //   npm run bench -- --compare a.json --with b.json   compare two runs, no benchmark
+//   npm run bench -- --loggers 1000000 --only check-in   the check-in at a million loggers (compare with a 10 000 run)
+//   npm run bench -- --workers 0                   skip the two-process run
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
@@ -23,7 +25,9 @@ import { fleetSortKeys } from '../../schemas/fleet';
 import { LAGGING_REASONS } from '../../schemas/words';
 import { startBenchDatabase } from './database';
 import { measure, type MeasureOptions, type Request } from './measure';
-import { compare, readRun, table, writeRun, type BenchRun, type ExplainResult, type ScenarioResult } from './report';
+import { compare, readRun, table, writeRun, type BenchRun, type ExplainResult, type ScaleResult, type ScenarioResult } from './report';
+import { scenarioGoal, verdictText } from './goals';
+import { decisionBench, processThroughput } from './scale';
 import { BENCH_PASSWORD, seedBench, type SeededFleet } from './seed';
 
 const { values: args } = parseArgs({
@@ -41,6 +45,8 @@ const { values: args } = parseArgs({
     out: { type: 'string' },
     explain: { type: 'string', default: '3' },
     'explain-scope': { type: 'string', default: 'fleet' },
+    workers: { type: 'string', default: '2' },
+    'decision-seconds': { type: 'string', default: '3' },
   },
   strict: true,
 });
@@ -142,15 +148,13 @@ function scenarios(base: string, fleet: SeededFleet, cookies: { support: string;
   list.push({ name: 'release dashboard (live 2.3.0)', group: 'fleet views', who: 'release', prepare: fixed(`/api/releases/${fleet.liveReleaseId}/dashboard`, 'release') });
   add('logger timeline', 'fleet views', `/api/loggers/${fleet.timelineLoggerId}/timeline`);
 
-  // The device API: each request checks in as the next token-holding logger, with what it runs.
-  list.push({
-    name: 'device check-in',
-    group: 'device API',
-    who: 'device',
-    options: { concurrency: int('device-concurrency', args['device-concurrency'], 1) },
-    prepare: async () => (i: number) => {
-      const l = fleet.tokenLoggers[i % fleet.tokenLoggers.length];
-      const body = {
+  // The device API: each request checks in as the next token-holding logger, with what it runs; quiet
+  // (the usual check-in) and with an install report on the live release (locks the release row).
+  const deviceBody = (i: number, report: boolean) => {
+    const l = fleet.tokenLoggers[i % fleet.tokenLoggers.length];
+    return {
+      l,
+      body: {
         firmware: l.firmware,
         board: l.board,
         security_counter: l.securityCounter,
@@ -162,13 +166,25 @@ function scenarios(base: string, fleet: SeededFleet, cookies: { support: string;
         supply_v: 5.04,
         readings: { bus_v: 18.4, current_a: 2.1, power_w: 38.6, energy_wh: 122.5, temp_c: 14.5 },
         config_version: 1,
-      };
-      return {
-        path: '/api/device/v1/check-in',
-        init: { method: 'POST', headers: { Authorization: `Bearer ${l.token}`, 'Content-Type': 'application/json' }, body: JSON.stringify(body) },
-      };
-    },
-  });
+        ...(report ? { report: { release: fleet.liveReleaseId, state: 'downloading' } } : {}),
+      },
+    };
+  };
+  for (const report of [false, true]) {
+    list.push({
+      name: report ? 'device check-in with reports' : 'device check-in',
+      group: 'device API',
+      who: 'device',
+      options: { concurrency: int('device-concurrency', args['device-concurrency'], 1) },
+      prepare: async () => (i: number) => {
+        const { l, body } = deviceBody(i, report);
+        return {
+          path: '/api/device/v1/check-in',
+          init: { method: 'POST', headers: { Authorization: `Bearer ${l.token}`, 'Content-Type': 'application/json' }, body: JSON.stringify(body) },
+        };
+      },
+    });
+  }
   return list;
 }
 
@@ -285,27 +301,36 @@ async function main() {
     const results: ScenarioResult[] = [];
     const builders = new Map<string, (i: number) => Request>();
     const all = scenarios(base, fleet, cookies).filter((s) => !only || only.test(s.name));
-    const timed: { s: Scenario; m: Awaited<ReturnType<typeof measure>>; concurrency: number; total?: number }[] = [];
+    const timed: { s: Scenario; m: Awaited<ReturnType<typeof measure>>; concurrency: number; total?: number; rssGrowthMb: number }[] = [];
     for (const [k, s] of all.entries()) {
       if (k > 0 && k % 10 === 0) await measureBaseline(10);
       const build = await s.prepare();
       builders.set(s.name, build);
       const opts = { ...defaults, ...s.options };
       if (s.who === 'device') opts.requests = Math.max(opts.requests, Math.min(4 * opts.requests, fleet.tokenLoggers.length));
+      global.gc?.();
+      const rssBefore = process.memoryUsage().rss;
       const m = await measure(base, build, opts);
+      const rssGrowthMb = (process.memoryUsage().rss - rssBefore) / 1e6;
       errors.push(...m.errors);
-      timed.push({ s, m, concurrency: opts.concurrency, total: s.who === 'device' || s.note ? undefined : await totalOf(base, build(0)) });
+      timed.push({ s, m, concurrency: opts.concurrency, total: s.who === 'device' || s.note ? undefined : await totalOf(base, build(0)), rssGrowthMb });
       log(`${s.name}: p50 ${m.p50.toFixed(1)} ms, p95 ${m.p95.toFixed(1)} ms${m.errors.length ? `, ${m.errors.length} errors` : ''}`);
     }
     await measureBaseline(10);
     const sortedBaselines = [...baselines].sort((a, b) => a - b);
     const baselineP50 = sortedBaselines[Math.floor((sortedBaselines.length - 1) / 2)];
-    for (const { s, m, concurrency, total } of timed) {
+    for (const { s, m, concurrency, total, rssGrowthMb } of timed) {
       const extra = s.note?.(m) ?? (total === undefined ? undefined : { note: `${total} match`, mbPerS: undefined });
       results.push({
         name: s.name, group: s.group, n: m.n, concurrency, p50: m.p50, p95: m.p95, mean: m.mean, max: m.max,
         ratio: m.p50 / baselineP50, errors: m.errors.length, ...(extra ? { note: extra.note, ...(extra.mbPerS === undefined ? {} : { mbPerS: extra.mbPerS }) } : {}),
+        ...(s.group === 'export' ? { rssGrowthMb } : {}),
       });
+    }
+    for (const r of results) {
+      const verdicts = scenarioGoal(r, baselineP95[0], results);
+      r.goals = verdictText(verdicts);
+      r.missed = verdicts.some((v) => !v.met);
     }
 
     // EXPLAIN (ANALYZE, BUFFERS) the SQL behind the slowest fleet-table scenarios.
@@ -313,12 +338,15 @@ async function main() {
     // One per query shape: a sort key's directions and pages share their plan's shape, so the slowest of each family.
     const family = (name: string) => name.replace(/ (asc|desc) .*$/, '');
     const families = new Set<string>();
+    const console_ = (r: ScenarioResult) => r.group !== 'device API';
     const slowest = results
       .filter((r) => (args['explain-scope'] === 'all' ? r.group !== 'device API' && r.group !== 'export' : all.find((s) => s.name === r.name)?.explain))
       .sort((a, b) => b.p50 - a.p50)
       .filter((r) => !families.has(family(r.name)) && families.add(family(r.name)))
       .slice(0, int('explain', args.explain, 0));
-    for (const r of slowest) {
+    // Every console scenario that misses its goal is EXPLAINed too, not only the slowest few.
+    const missed = results.filter((r) => console_(r) && r.missed && !slowest.includes(r));
+    for (const r of [...slowest, ...missed]) {
       const sqls = await capturedSql(db.sequelize, base, builders.get(r.name)!(0));
       for (const sql of sqls) {
         const e = await explain(db.url, sql);
@@ -326,7 +354,28 @@ async function main() {
       }
     }
 
+    // Scale: the offer decision alone, and check-in throughput with one and with several processes.
+    const scale: ScaleResult[] = [];
+    const checkIn = results.find((r) => r.name === 'device check-in');
+    if (!only || only.test('decision') || only.test('device check-in')) {
+      const d = await decisionBench(db.sequelize, fleet, int('decision-seconds', args['decision-seconds'], 1));
+      scale.push({ name: 'offer decision (releases parsed once, as cached)', figure: `${Math.round(d.parsed).toLocaleString('en')} decisions/s (${(1e6 / d.parsed).toFixed(1)} µs each)` });
+      scale.push({ name: 'offer decision (parsing every version and range, as before)', figure: `${Math.round(d.unparsed).toLocaleString('en')} decisions/s (${(1e6 / d.unparsed).toFixed(1)} µs each)` });
+      if (checkIn) scale.push({ name: 'beside it, the check-in', figure: `p50 ${checkIn.p50.toFixed(1)} ms at ${checkIn.concurrency} concurrent, ${(checkIn.n / (checkIn.mean * checkIn.n / checkIn.concurrency / 1000)).toFixed(0)} check-ins/s` });
+    }
+    const workers = int('workers', args.workers, 0);
+    if (workers >= 2 && (!only || only.test('workers') || only.test('device check-in'))) {
+      const one = await processThroughput(db.url, storeDir, fleet, 1, log);
+      const many = await processThroughput(db.url, storeDir, fleet, workers, log);
+      errors.push(...one.errors, ...many.errors);
+      const r = many.perS / one.perS;
+      scale.push({ name: `check-in throughput, HELIODOR_WORKERS=1`, figure: `${one.perS.toFixed(0)} check-ins/s (p50 ${one.p50.toFixed(1)} ms)` });
+      scale.push({ name: `check-in throughput, HELIODOR_WORKERS=${workers}`, figure: `${many.perS.toFixed(0)} check-ins/s (p50 ${many.p50.toFixed(1)} ms); ${r.toFixed(2)}× one process`, goal: '≥ 1.6×', met: r >= 1.6 });
+    }
+    scale.push({ name: `seeding ${fleet.loggers.toLocaleString('en')} loggers`, figure: `${seedSeconds.toFixed(1)} s` });
+
     const run: BenchRun = {
+      scale,
       startedAt: startedAt.toISOString(),
       node: process.version,
       loggers: fleet.loggers,

@@ -39,8 +39,10 @@ export function render(element: React.ReactElement): Rendered {
     press: (id) => act(() => byTestId(id).click()),
     type: (id, value) =>
       act(() => {
-        const input = byTestId(id) as HTMLInputElement;
-        const setter = Object.getOwnPropertyDescriptor(HTMLInputElement.prototype, 'value')!.set!;
+        const input = byTestId(id) as HTMLInputElement | HTMLTextAreaElement;
+        // A multiline field is a textarea: its own prototype's setter, so React sees the change.
+        const proto = input instanceof HTMLTextAreaElement ? HTMLTextAreaElement.prototype : HTMLInputElement.prototype;
+        const setter = Object.getOwnPropertyDescriptor(proto, 'value')!.set!;
         setter.call(input, value);
         input.dispatchEvent(new Event('input', { bubbles: true }));
       }),

@@ -193,7 +193,7 @@ test('when an admin changes an enrolled logger’s profile, then the new version
   await signIn(page, base, 'morgan@fernhollow.example', testPassword);
   await page.getByRole('heading', { name: 'Overview' }).waitFor();
   await page.goto(`${base}/loggers/${third.id}`);
-  await page.getByText('version 1').waitFor();
+  await page.getByTestId('profile-version').getByText('version 1', { exact: true }).waitFor();
   await page.getByTestId('change-profile').click();
   await page.getByTestId('profile-shunt').fill('1');
   // INA226 data sheet, Equation 1: CAL = 0.00512 / (Current_LSB × R_SHUNT) = 0.00512 / (1 mA × 1 mΩ) = 5120.
@@ -201,7 +201,8 @@ test('when an admin changes an enrolled logger’s profile, then the new version
   await expect(page.getByTestId('calibration-value').innerText()).resolves.toBe('5120');
   await screenshot(page, 'logger-profile-edit-wide');
   await page.getByTestId('profile-save').click();
-  await page.getByText('version 2').waitFor();
+  // The form's own line says "Saving makes version 2"; the saved version is the badge's.
+  await page.getByTestId('profile-version').getByText('version 2', { exact: true }).waitFor();
   const res = await admin.get(`/api/loggers/${third.id}`);
   expect(res.body.profile).toMatchObject({ version: 2, shuntOhm: 0.001, calibration: 5120 });
   await screenshot(page, 'logger-detail-wide');

@@ -19,6 +19,7 @@ import type { Role } from '../../schemas/auth';
 import { testEnv } from './env';
 import { startLiveDemo, type LiveDemo, type LiveDemoSettings } from '../../server/demo/live';
 import { seededRandom } from '../../scripts/simulator/random';
+import type { ImageStore } from '../../server/images/store';
 
 export const testPassword = 'correct horse battery';
 
@@ -63,6 +64,8 @@ export async function startTestApp(
     config?: Partial<AppDeps['config']>;
     /** Where the app logs (tests that scan the log for secrets); silent otherwise. */
     logger?: Logger;
+    /** Another image store than the local folder (the object-storage tests). */
+    images?: ImageStore;
   } = {},
 ) {
   const env = testEnv();
@@ -88,6 +91,7 @@ export async function startTestApp(
     readiness: { migrated: true, seeded: options.seed === 'demo' ? 'complete' : 'skipped' },
     now: options.now,
     logger: options.logger,
+    images: options.images,
   });
 
   let server: Server | null = null;

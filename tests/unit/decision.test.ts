@@ -10,6 +10,7 @@ import {
   type OfferDecision,
   type ReasonCode,
   type ReleaseTargeting,
+  withParsedTargeting,
 } from '../../server/rollout/decision';
 import type { FailureReason } from '../../schemas/words';
 
@@ -450,5 +451,43 @@ describe('offer decision', () => {
       expect(new Set(labels).size).toBe(REASON_CODES.length);
       expect(Object.keys(REASON_LABELS).sort()).toEqual([...REASON_CODES].sort());
     });
+  });
+});
+
+describe('releases parsed once (as the release cache keeps them)', () => {
+  // The reference for each pick is the semver package's string functions (semver.org §11 precedence,
+  // ranges with pre-releases included), applied here by hand to the same releases.
+  const versions = ['2.0.3', '2.1.4', '2.2.0', '2.3.0', '2.3.1-rc.1', '2.4.0', 'not-a-version'];
+  const ranges: (string | null)[] = [null, '>=2.1.0', '>=2.2.0 <2.3.0', '2.3.x', '^2.0.0', '>=2.3.1-rc.0', '>=>2', ''];
+  const running = ['2.0.3', '2.1.4', '2.2.0', '2.3.0', '2.3.1-rc.1', 'junk'];
+
+  test('when the same releases come parsed and unparsed, then every decision is the same, and the pick is the one the semver package gives', () => {
+    let compared = 0;
+    for (const [i, upgradeFrom] of ranges.entries()) {
+      const releases = versions.map((version, k) =>
+        release({ id: `1a2b3c4d-0000-4000-8000-${String(k).padStart(12, '0')}`, version, upgradeFrom: k % 2 === 0 ? upgradeFrom : ranges[(i + k) % ranges.length] }),
+      );
+      const parsed = releases.map((r) => withParsedTargeting(r));
+      for (const firmware of running) {
+        const input = { logger: logger({ firmware }), lastReports: {}, now: NOON };
+        const plain = decideOffer({ ...input, releases });
+        const cached = decideOffer({ ...input, releases: parsed });
+        expect(cached.considered).toEqual(plain.considered);
+        expect(cached.offer?.id).toBe(plain.offer?.id);
+        // By hand: the newest valid release newer than the running version whose range admits it (or any
+        // when its range is empty); when the newest does not admit it, the highest one that does.
+        const valid = semver.valid(firmware);
+        const admits = (r: ReleaseTargeting) => {
+          const text = r.upgradeFrom?.trim() ?? '';
+          if (text === '') return true;
+          return semver.validRange(text, { includePrerelease: true }) !== null && semver.satisfies(valid!, text, { includePrerelease: true });
+        };
+        const newer = valid ? releases.filter((r) => semver.valid(r.version) && semver.gt(r.version, valid)).sort((a, b) => semver.rcompare(a.version, b.version)) : [];
+        const expected = newer.find(admits) ?? null;
+        expect(plain.offer?.id ?? null).toBe(expected?.id ?? null);
+        compared++;
+      }
+    }
+    expect(compared).toBe(ranges.length * running.length);
   });
 });

@@ -37,6 +37,20 @@ describe('passwords (OWASP Password Storage Cheat Sheet, docs/SOURCES.md §12)',
     expect(await checkPassword('anything at all here', await decoyHash(12))).toBe(false);
     expect(passwordWork.compares.get(12)).toBe(before + 1);
   });
+
+  test('when the workers stop while a decoy is still being computed, then nothing is left to reject unheard', async () => {
+    const unheard: unknown[] = [];
+    const onUnhandled = (reason: unknown) => unheard.push(reason);
+    process.on('unhandledRejection', onUnhandled);
+    try {
+      void decoyHash(13); // a cost nothing else uses, so it is surely still running
+      await stopPasswordWorkers();
+      await new Promise((r) => setTimeout(r, 50));
+      expect(unheard).toEqual([]);
+    } finally {
+      process.off('unhandledRejection', onUnhandled);
+    }
+  });
 });
 
 // OWASP Application Security Verification Standard 4.0.3, §2.1 Password Security.

@@ -95,16 +95,16 @@ const LIFECYCLE: Record<ReleaseState, readonly string[]> = { ...ALLOWED_ACTIONS,
 const STATELESS_RELEASE_VERBS = ['view', 'retry'];
 
 describe('release policies', () => {
-  const cases = grid({ actor: actorNames, verb: [...RELEASE_VERBS, 'view'] as const, state: RELEASE_STATES, keyRevoked: [false, true] });
+  const cases = grid({ actor: actorNames, verb: [...RELEASE_VERBS, 'view'] as const, state: RELEASE_STATES, signaturesShort: [false, true] });
 
-  test.each(cases)('when $actor asks to $verb a $state release (key revoked: $keyRevoked), then the roles table and the lifecycle decide', ({ actor, verb, state, keyRevoked }) => {
-    const byState = STATELESS_RELEASE_VERBS.includes(verb) || (LIFECYCLE[state].includes(verb) && !(verb === 'start_pilot' && keyRevoked));
+  test.each(cases)('when $actor asks to $verb a $state release (signatures short: $signaturesShort), then the roles table and the lifecycle decide', ({ actor, verb, state, signaturesShort }) => {
+    const byState = STATELESS_RELEASE_VERBS.includes(verb) || (LIFECYCLE[state].includes(verb) && !(verb === 'start_pilot' && signaturesShort));
     const expected = RELEASE_WHO[verb].includes(actor) && byState;
-    expect(may(actors[actor], verb, { kind: 'release', state, keyRevoked })).toBe(expected);
+    expect(may(actors[actor], verb, { kind: 'release', state, signaturesShort })).toBe(expected);
   });
 
   test('when a release engineer reads a widening release, then can lists every release verb, true exactly where the lifecycle allows', () => {
-    const can = canOf(actors.release_engineer, { kind: 'release', state: 'widening', keyRevoked: false });
+    const can = canOf(actors.release_engineer, { kind: 'release', state: 'widening', signaturesShort: false });
     expect(Object.keys(can).sort()).toEqual([...RELEASE_VERBS].sort());
     expect(Object.entries(can).filter(([, v]) => v).map(([k]) => k).sort()).toEqual(['complete', 'pause', 'retry', 'stop', 'widen', 'withdraw']);
   });
@@ -228,7 +228,7 @@ describe('the other resources', () => {
     const system: Actor = { type: 'system', id: null, name: 'system' };
     expect(may(system, 'retire', loggerAt("at Ade's site", 'enrolled'))).toBe(true);
     expect(may(system, 'retire', loggerAt("at Ade's site", 'retired'))).toBe(false);
-    expect(may(system, 'widen', { kind: 'release', state: 'withdrawn', keyRevoked: false })).toBe(false);
+    expect(may(system, 'widen', { kind: 'release', state: 'withdrawn', signaturesShort: false })).toBe(false);
   });
 });
 
@@ -348,7 +348,7 @@ const ROUTES: { [K in Resource['kind']]?: Partial<Record<VerbOf[K], string>> } =
 
 /** Each resource in the state and place where its rules admit the most, so only "who" is compared. */
 const mostOpen = (verb: string): Resource[] => [
-  { kind: 'release', state: (['start_pilot', 'edit', 'delete'].includes(verb) ? 'draft' : verb === 'resume' ? 'paused' : 'pilot') as ReleaseState, keyRevoked: false },
+  { kind: 'release', state: (['start_pilot', 'edit', 'delete'].includes(verb) ? 'draft' : verb === 'resume' ? 'paused' : 'pilot') as ReleaseState, signaturesShort: false },
   loggerAt('at his site', verb === 'enroll' ? 'registered' : 'enrolled'),
   { kind: 'site', integratorIds: [TOMASZ] },
   model,

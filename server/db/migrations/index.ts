@@ -14,6 +14,8 @@ import * as m0011 from './0011_function_search_path';
 import * as m0012 from './0012_device_bounds';
 import * as m0013 from './0013_fleet_keys';
 import * as m0014 from './0014_summaries';
+import * as m0015 from './0015_device_check_in_windows';
+import * as m0016 from './0016_release_trust';
 import * as m0017 from './0017_enrollment_requests';
 import * as m0018 from './0018_site_min_temp';
 import * as m0019 from './0019_measurement_drift';
@@ -39,6 +41,8 @@ export const migrations: Migration[] = [
   { name: '0012_device_bounds', ...m0012 },
   { name: '0013_fleet_keys', ...m0013 },
   { name: '0014_summaries', ...m0014 },
+  { name: '0015_device_check_in_windows', ...m0015 },
+  { name: '0016_release_trust', ...m0016 },
   { name: '0017_enrollment_requests', ...m0017 },
   { name: '0018_site_min_temp', ...m0018 },
   { name: '0019_measurement_drift', ...m0019 },

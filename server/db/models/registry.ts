@@ -14,6 +14,8 @@ export class LoggerModel extends Model<InferAttributes<LoggerModel>, InferCreati
   declare busVMax: number;
   declare shuntFullScaleV: number;
   declare tempResolutions: number[];
+  /** How many distinct registered, unrevoked keys must sign a release (k of n). */
+  declare signingThreshold: CreationOptional<number>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 }
@@ -94,6 +96,7 @@ export function initRegistryModels(sequelize: Sequelize) {
       busVMax: num(),
       shuntFullScaleV: num(),
       tempResolutions: { type: DataTypes.ARRAY(DataTypes.INTEGER), allowNull: false },
+      signingThreshold: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 1 },
       createdAt: DataTypes.DATE,
       updatedAt: DataTypes.DATE,
     },

@@ -76,6 +76,8 @@ export class Release extends Model<InferAttributes<Release>, InferCreationAttrib
   declare stoppedBy: CreationOptional<StoppedBy | null>;
   /** The figures a trip judged, kept with the release it stopped. */
   declare tripFigures: CreationOptional<Record<string, unknown> | null>;
+  /** The manifest's `expires`, when it carries one: nothing is offered after it. */
+  declare expiresAt: CreationOptional<Date | null>;
 }
 
 export class ReleasePilotSite extends Model<InferAttributes<ReleasePilotSite>, InferCreationAttributes<ReleasePilotSite>> {
@@ -194,6 +196,7 @@ export function initReleaseModels(sequelize: Sequelize) {
       stoppedAt: date(),
       stoppedBy: { type: DataTypes.TEXT, allowNull: true },
       tripFigures: { type: DataTypes.JSONB, allowNull: true },
+      expiresAt: { type: DataTypes.DATE, allowNull: true },
     },
     { sequelize, tableName: 'releases', underscored: true },
   );

@@ -14,6 +14,7 @@ import { hashPassword } from '../../auth/passwords';
 import { demoTokenIssuer } from '../../demo/tokens';
 import { demoEmail, demoModel, demoPeople, demoSites } from './scenario';
 import { seedFullScenario } from './full-scenario';
+import { proposeTrustSets } from '../../keys/trust-sets';
 
 export async function databaseIsNew(sequelize: Sequelize): Promise<boolean> {
   return (await User.count()) === 0 && (await LoggerModel.count()) === 0;
@@ -47,6 +48,8 @@ export async function seedDemo(sequelize: Sequelize, options: SeedOptions): Prom
     const model = await LoggerModel.create(demoModel, { transaction });
     if (size === 'full') {
       await seedFullScenario({ sequelize, transaction, now, people, model, dataDir: options.dataDir, storeDir: options.storeDir!, bench, tokenFor });
+      // Version 1 of the model's trust set: the demo key, as the demo loggers were made with it.
+      await proposeTrustSets(sequelize, transaction, now);
       return;
     }
     let serialNo = 1;
