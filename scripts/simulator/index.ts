@@ -9,6 +9,7 @@ import type { LoggerIdentity } from './logger';
 import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, firmwareOnRecord, FleetTally, loadTrustedKeys, pilotTarget, readBenchSheet, registerFleet, runFleet } from './fleet';
 import { seededRandom } from './random';
 import { runThresholdDemo, thresholdSummary } from './threshold-demo';
+import { runDriftDemo } from './drift-demo';
 
 const MAX_LOGGERS = 5000;
 const MAX_MINUTES = 24 * 60;
@@ -44,6 +45,8 @@ type Options = {
   concurrency: number;
   start?: string;
   drift: number;
+  /** A self-contained drift run of this many simulated days (its own Heliodor, a stepped clock). */
+  days?: number;
   demoThreshold: boolean;
   /** Whether --loggers was given (the threshold demo takes a handful by default). */
   loggersGiven?: boolean;
@@ -75,6 +78,7 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     .addOption(new Option('--concurrency <n>', 'loggers talking to the server at once').argParser(number('--concurrency', 1, 256, true)).default(32))
     .option('--start <time>', 'simulated start time, RFC 3339 (default: now)')
     .option('--drift <scale>', 'measurement drift: loggers that install an offered release report their current (and power and energy) × this, as a broken calibration would (1: none)', number('--drift', 0, 100), 1)
+    .option('--days <n>', 'a self-contained drift run: start an own Heliodor in this process on a scratch database in a throwaway PostgreSQL, step its clock through this many simulated UTC days (4 or more: a day before, the install day, a whole day after, the trip) and show day by day how the release the loggers install with --drift trips (20 loggers unless --loggers, --start picks the first day; no server needed)', number('--days', 4, 60, true))
     .option('--demo-threshold', 'show a release that needs 2 signatures going out: three keys, a model with the rule 2 of the keys, a pilot refused with one signature and started with two, loggers verifying both and installing (admin sign-in; 6 loggers unless --loggers)', false)
     .action(async (options: Options, command: Command) => {
       process.exitCode = await run({ ...options, loggersGiven: command.getOptionValueSource('loggers') === 'cli' });
@@ -131,6 +135,24 @@ async function simulate(o: Options): Promise<number> {
   if (Number.isNaN(start.getTime())) {
     say('simulate: --start must be an RFC 3339 time such as 2026-06-21T06:00:00Z');
     return 2;
+  }
+  if (o.days !== undefined) {
+    try {
+      const result = await runDriftDemo({
+        drift: o.drift,
+        days: o.days,
+        loggers: o.loggersGiven ? o.loggers : 20,
+        seed: o.seed,
+        start: o.start ? start : new Date(Date.UTC(2026, 5, 8)),
+        out: (line) => process.stdout.write(`${line}\n`),
+      });
+      // A drifting release must trip, and a release without drift must not.
+      return result.tripped === (o.drift !== 1) ? 0 : 1;
+    } catch (error) {
+      const known = error instanceof SetupError || error instanceof ManifestError;
+      say(`simulate: ${known ? '' : 'unexpected error: '}${error instanceof Error ? error.message : String(error)}`);
+      return 1;
+    }
   }
   if (o.demoThreshold) {
     try {
