@@ -31,6 +31,7 @@ import { readOutbox, startFakeSmtp } from '../../server/mail/fake-smtp';
 import { stopPasswordWorkers } from '../../server/auth/passwords';
 import { canonicalManifest, signManifest } from '../../server/images/manifest';
 import { tripHeadline } from '../../server/rollout/trip';
+import { DRIFT_MIN_LOGGERS } from '../../server/rollout/drift';
 import type { TripFigures } from '../../schemas/releases';
 import { ConsoleSession, registerFleet, SetupError, type RegisteredLogger } from './fleet';
 import { VirtualLogger, type LoggerEvent } from './logger';
@@ -75,6 +76,44 @@ const STEADY: BoardSupply = { nominalV: 5.0, spreadV: 0.01, brownoutsPerHour: 0,
 const FIRST = '1.0.0';
 const RELEASE = '2.0.0';
 
+/** Where each run keeps its cluster: a folder of the system's temporary folder, with the running process's id in it. */
+const FOLDER_PREFIX = 'heliodor-drift-';
+const OWNER_FILE = 'owner.pid';
+
+/**
+ * Removes what runs that were killed outright left behind (a kill that gives no chance to clean up,
+ * e.g. SIGKILL): their cluster is stopped and their folder removed. A folder whose process still runs
+ * is another run's and is left alone.
+ */
+function sweepLeftovers(out: (line: string) => void): void {
+  const base = os.tmpdir();
+  for (const name of fs.readdirSync(base)) {
+    if (!name.startsWith(FOLDER_PREFIX)) continue;
+    const dir = path.join(base, name);
+    let owner: number | null = null;
+    try {
+      owner = Number(fs.readFileSync(path.join(dir, OWNER_FILE), 'utf8'));
+    } catch {
+      // No owner yet: a run that is just starting, unless the folder is old.
+      if (Date.now() - fs.statSync(dir).mtimeMs < 10 * 60_000) continue;
+    }
+    if (owner !== null && Number.isInteger(owner) && owner > 0) {
+      try {
+        process.kill(owner, 0);
+        continue; // that run is still going
+      } catch (error) {
+        if ((error as NodeJS.ErrnoException).code === 'EPERM') continue;
+      }
+    }
+    try {
+      bootstrap.pgCluster(dir, 0, { durable: false }).stop();
+    } finally {
+      fs.rmSync(dir, { recursive: true, force: true });
+    }
+    out(`removed the scratch cluster of an earlier run that was stopped before it could clean up (${dir})`);
+  }
+}
+
 function freePort(): Promise<number> {
   return new Promise((resolve, reject) => {
     const srv = net.createServer();
@@ -106,6 +145,9 @@ type DashboardView = { trip: { drift: { controls: number; minLoggers: number; en
 
 export async function runDriftDemo(o: DriftDemoOptions): Promise<DriftDemoResult> {
   const { out } = o;
+  if (o.loggers < DRIFT_MIN_LOGGERS || o.loggers > 200) {
+    throw new SetupError(`--days needs --loggers from ${DRIFT_MIN_LOGGERS} to 200: the drift rule judges a release over at least ${DRIFT_MIN_LOGGERS} loggers`);
+  }
   const start = new Date(Math.floor(o.start.getTime() / DAY_MS) * DAY_MS);
   const end = new Date(start.getTime() + o.days * DAY_MS);
   const controlsCount = Math.max(4, Math.round(o.loggers / 5));
@@ -115,19 +157,32 @@ export async function runDriftDemo(o: DriftDemoOptions): Promise<DriftDemoResult
   out(`Simulated ${dayOf(start)} … ${dayOf(new Date(end.getTime() - 1))}: ${o.loggers} loggers install ${RELEASE} and report current × ${o.drift} from their first boot on it; ${controlsCount} controls at the same site stay on ${FIRST}.`);
   out('');
 
-  const tmp = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-drift-'));
+  sweepLeftovers(out);
+  const tmp = fs.mkdtempSync(path.join(os.tmpdir(), FOLDER_PREFIX));
+  fs.writeFileSync(path.join(tmp, OWNER_FILE), String(process.pid));
   fs.chmodSync(tmp, 0o755); // the cluster's owner (postgres, when run as root) must enter it
   let cluster: Cluster | null = null;
   let sequelize: Sequelize | null = null;
   let smtp: SMTPServer | null = null;
   let server: Server | null = null;
   let app: ReturnType<typeof createApp> | null = null;
+  // Ctrl-C (or a TERM) ends the run at the next check-in, through the same clean-up as the end.
+  let interrupted: string | null = null;
+  const onSignal = (signal: NodeJS.Signals) => {
+    interrupted = signal;
+  };
+  process.on('SIGINT', onSignal);
+  process.on('SIGTERM', onSignal);
+  const stillOn = () => {
+    if (interrupted) throw new SetupError(`interrupted (${interrupted}); the run stopped early and removed what it made`);
+  };
   try {
     // 1. The throwaway cluster and its scratch database.
     cluster = bootstrap.pgCluster(tmp, await freePort(), { durable: false });
     cluster.start();
     cluster.psql('CREATE DATABASE heliodor_drift');
     sequelize = createDatabase(cluster.url('heliodor_drift'), { poolMax: 5 });
+    stillOn();
     await migrate(sequelize);
     const password = crypto.randomBytes(18).toString('base64url');
     const storeDir = path.join(tmp, 'store');
@@ -170,6 +225,7 @@ export async function runDriftDemo(o: DriftDemoOptions): Promise<DriftDemoResult
       return s;
     };
     let session = await signIn();
+    stillOn();
 
     // 3. The key, the model, the site, the loggers and the release.
     const key = makeKey('Drift demo key');
@@ -271,6 +327,7 @@ export async function runDriftDemo(o: DriftDemoOptions): Promise<DriftDemoResult
       for (;;) {
         const next = fleet.filter((l) => !l.refused).reduce<VirtualLogger | null>((a, l) => (!a || l.nextCheckInAt < a.nextCheckInAt ? l : a), null);
         if (!next || next.nextCheckInAt.getTime() >= dayEnd.getTime()) break;
+        stillOn();
         clock = new Date(Math.max(clock.getTime(), next.nextCheckInAt.getTime()));
         const outcome = await next.cycle(clock);
         if (outcome?.state === 'installed') counts.installs++;
@@ -316,6 +373,8 @@ export async function runDriftDemo(o: DriftDemoOptions): Promise<DriftDemoResult
     return { tripped: r.state === 'stopped' && r.stoppedBy === 'trip', state: r.state, stoppedBy: r.stoppedBy, figures: r.tripFigures, mailSubject };
   } finally {
     // 6. Stop what this run started, in reverse order, and remove the scratch cluster.
+    process.off('SIGINT', onSignal);
+    process.off('SIGTERM', onSignal);
     if (app) await app.later.settled().catch(() => undefined);
     if (server) {
       server.closeAllConnections();
