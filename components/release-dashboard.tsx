@@ -111,7 +111,45 @@ function TripGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
               : `Judged once ${r.minLoggers} loggers have run it a full day (${r.minHours} h); ${r.loggers} so far.`}
         </Text>
       </View>
+      <DriftGauge drift={d.trip.drift} />
     </Card>
+  );
+}
+
+type Drift = Dashboard['trip']['drift'];
+
+/** How each measurement-drift figure reads: its words, its shift and trip point in their units. */
+const DRIFT_LOOKS: Record<'energy' | 'temperature' | 'flagged', { label: string; shift: (x: number) => string; point: (x: number) => string }> = {
+  energy: { label: 'Daily energy against the clear-sky model', shift: (x) => `${x > 0 ? '+' : x < 0 ? '−' : ''}${pct(Math.abs(x))}`, point: (x) => `±${pct(x)}` },
+  temperature: { label: 'Probe above the expected air temperature', shift: (x) => `${x > 0 ? '+' : x < 0 ? '−' : ''}${Number(Math.abs(x).toFixed(1))} °C`, point: (x) => `±${x} °C` },
+  flagged: { label: 'Flagged probe readings', shift: (x) => `${x > 0 ? '+' : x < 0 ? '−' : ''}${Number((Math.abs(x) * 100).toFixed(1))} points`, point: (x) => `+${Number((x * 100).toFixed(2))} points` },
+};
+
+/** The measurement-drift gauge: each figure's median shift after the install against its trip point, from the trip rule itself. */
+function DriftGauge({ drift }: { drift: Drift }) {
+  return (
+    <View style={{ gap: space.xs, borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm }} testID="measurement-drift">
+      <Text style={type.body}>Measurement drift{drift.over ? ': beyond a trip point' : ''}</Text>
+      {(['energy', 'temperature', 'flagged'] as const).map((name) => {
+        const g = drift[name];
+        const look = DRIFT_LOOKS[name];
+        const used = g.shift === null || g.threshold <= 0 ? 0 : (name === 'flagged' ? Math.max(0, g.shift) : Math.abs(g.shift)) / g.threshold;
+        const tone = g.over ? 'ember' : used >= 0.5 ? 'amber' : 'moss';
+        return (
+          <View key={name} style={{ gap: space.xs }} testID={`drift-${name}`}>
+            <Text style={type.small}>
+              {look.label}: {g.shift === null ? 'no figure yet' : look.shift(g.shift)} (trip point {look.point(g.threshold)}
+              {g.judged ? `, median of ${g.loggers} loggers` : `; judged from ${drift.minLoggers} loggers, ${g.loggers} so far`})
+            </Text>
+            {g.judged ? <ProgressBar value={Math.min(100, used * 100)} tone={tone} /> : null}
+          </View>
+        );
+      })}
+      <Text style={type.small}>
+        Whole days on this release against up to {drift.windowDays} days before it, each logger scaled by its own days before; weather taken out by {drift.controls}{' '}
+        {drift.controls === 1 ? 'logger' : 'loggers'} at the same sites that did not install it.
+      </Text>
+    </View>
   );
 }
 

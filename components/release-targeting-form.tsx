@@ -11,6 +11,7 @@ import { QueryView, type QueryState } from './query-state';
 import { space, type } from './theme';
 import type { Release, ReleaseTargeting, Channel } from '../hooks/releases';
 import { patchReleaseRequest } from '../schemas/releases';
+import { DRIFT_TRIP_POINTS } from '../schemas/words';
 
 type SiteChoice = { id: string; name: string; customer?: string };
 
@@ -36,6 +37,9 @@ const fieldNames: Record<string, string> = {
   tripFailureRatio: 'Failure ratio',
   tripMinReports: 'Minimum reports',
   tripResetFactor: 'Reset jump factor (watchdog and brown-out)',
+  tripDriftEnergy: 'Energy drift',
+  tripDriftTempC: 'Temperature drift',
+  tripDriftFlagged: 'Flagged readings drift',
   notes: 'Notes',
   channel: 'Channel',
 };
@@ -51,19 +55,25 @@ const tripRatio = shape.tripFailureRatio.unwrap();
  * The failure ratio is typed as a percentage: the shared rule checks the fraction the API takes, and
  * its bounds are said in percent (a fraction's wording would confuse on a percentage field).
  */
-const percentOfTripRatio = z.string().transform((text, ctx) => {
-  const percent = decimal(text);
-  const checked = tripRatio.safeParse(percent === undefined ? undefined : Number((percent / 100).toFixed(4)));
-  if (checked.success) return checked.data;
-  ctx.addIssue({ code: 'custom', message: `must be a percentage from ${(tripRatio.minValue ?? 0) * 100} to ${(tripRatio.maxValue ?? 1) * 100}` });
-  return z.NEVER;
-});
+const percentOf = (rule: z.ZodNumber) =>
+  z.string().transform((text, ctx) => {
+    const percent = decimal(text);
+    const checked = rule.safeParse(percent === undefined ? undefined : Number((percent / 100).toFixed(4)));
+    if (checked.success) return checked.data;
+    ctx.addIssue({ code: 'custom', message: `must be a percentage from ${Number(((rule.minValue ?? 0) * 100).toFixed(2))} to ${(rule.maxValue ?? 1) * 100}` });
+    return z.NEVER;
+  });
+const percentOfTripRatio = percentOf(tripRatio);
 
 /** The draft's targeting as the form holds it: the trip points as typed text, each checked by its shared rule. */
 const targetingForm = patchReleaseRequest.extend({
   tripFailureRatio: percentOfTripRatio,
   tripMinReports: decimalText().pipe(shape.tripMinReports.unwrap()),
   tripResetFactor: decimalText().pipe(shape.tripResetFactor.unwrap()),
+  // The drift trip points: energy and flagged share typed as percentages, temperature in °C.
+  tripDriftEnergy: percentOf(shape.tripDriftEnergy.unwrap()),
+  tripDriftTempC: decimalText().pipe(shape.tripDriftTempC.unwrap()),
+  tripDriftFlagged: percentOf(shape.tripDriftFlagged.unwrap()),
 });
 
 export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, saving, starting, saved, error, startError, confirmOpen, onConfirmOpen }: Props) {
@@ -76,6 +86,9 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
       tripFailureRatio: percentText(release.tripFailureRatio ?? 0.05),
       tripMinReports: String(release.tripMinReports ?? 20),
       tripResetFactor: String(release.tripResetFactor ?? 2),
+      tripDriftEnergy: percentText(release.tripDriftEnergy ?? DRIFT_TRIP_POINTS.tripDriftEnergy),
+      tripDriftTempC: String(release.tripDriftTempC ?? DRIFT_TRIP_POINTS.tripDriftTempC),
+      tripDriftFlagged: percentText(release.tripDriftFlagged ?? DRIFT_TRIP_POINTS.tripDriftFlagged),
       notes: release.notes ?? '',
       channel: release.channel,
     },
@@ -171,6 +184,13 @@ export function ReleaseTargetingForm({ release, sites, onSave, onStartPilot, sav
           hint="Trip when loggers on this release have watchdog and brown-out resets this many times more often than before; default 2."
           testID="trip-reset-factor"
         />
+        <Text style={type.small}>
+          Measurement drift: loggers that installed this release are compared, whole days after against the days before, with the loggers at their sites that did not (so the weather
+          cancels out). Trip when the median of at least 20 loggers moves by more than:
+        </Text>
+        <FormField control={control} name="tripDriftEnergy" label="Daily energy against the clear-sky model (%)" keyboardType="decimal-pad" hint={`Either way; default ${DRIFT_TRIP_POINTS.tripDriftEnergy * 100} %.`} testID="trip-drift-energy" />
+        <FormField control={control} name="tripDriftTempC" label="Probe temperature above the expected air temperature (°C)" keyboardType="decimal-pad" hint={`Either way; default ${DRIFT_TRIP_POINTS.tripDriftTempC} °C.`} testID="trip-drift-temp" />
+        <FormField control={control} name="tripDriftFlagged" label="Share of flagged probe readings (percentage points)" keyboardType="decimal-pad" hint={`Rising; default ${DRIFT_TRIP_POINTS.tripDriftFlagged * 100} points.`} testID="trip-drift-flagged" />
       </Card>
 
       <Card>

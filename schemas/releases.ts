@@ -7,6 +7,8 @@ import { signatureRequest, type KeyState } from './keys';
 
 import {
   CHANNELS,
+  DRIFT_TRIP_POINT_NAMES,
+  type DriftTripPoint,
   FAILURE_REASONS,
   INSTALL_STATES,
   LIVE_STATES,
@@ -55,6 +57,19 @@ export const upgradeFromSchema = z
   .transform((range) => (range === '' ? null : range))
   .nullable();
 
+/**
+ * The measurement-drift trip points as the API takes them (names and defaults: schemas/words.ts
+ * DRIFT_TRIP_POINTS): energy and flagged share as fractions, temperature in °C.
+ */
+const driftTripPointRules: Record<DriftTripPoint, z.ZodNumber> = {
+  tripDriftEnergy: z.number({ error: 'must be a fraction from 0 to 1' }).min(0.01, 'must be 0.01 or more').max(1, 'must be at most 1 (a fraction, not a percentage)'),
+  tripDriftTempC: z.number({ error: 'must be a number of °C' }).min(0.5, 'must be 0.5 °C or more').max(50, 'must be at most 50 °C'),
+  tripDriftFlagged: z.number({ error: 'must be a fraction from 0 to 1' }).min(0.001, 'must be 0.001 or more').max(1, 'must be at most 1 (a fraction, not a percentage)'),
+};
+export const driftTripPointFields = Object.fromEntries(DRIFT_TRIP_POINT_NAMES.map((n) => [n, driftTripPointRules[n].optional()])) as {
+  [K in DriftTripPoint]: z.ZodOptional<z.ZodNumber>;
+};
+
 export const patchReleaseRequest = z.strictObject({
   boards: z
     .array(boardLabel, { error: 'must be a list of board revision labels' })
@@ -71,6 +86,7 @@ export const patchReleaseRequest = z.strictObject({
   tripFailureRatio: z.number({ error: 'must be a fraction from 0 to 1' }).min(0, 'must be 0 or more').max(1, 'must be at most 1 (a fraction, not a percentage)').optional(),
   tripMinReports: z.number({ error: 'must be a whole number' }).int('must be a whole number').min(1, 'must be at least 1').max(1_000_000, 'is too large').optional(),
   tripResetFactor: z.number({ error: 'must be a number' }).min(1, 'must be 1 or more').max(100, 'must be at most 100').optional(),
+  ...driftTripPointFields,
   notes: notesSchema.optional(),
   channel: channelSchema.optional(),
 });
@@ -159,6 +175,20 @@ export type TripFigures =
       /** after ÷ before, against the trip point (tripResetFactor). */
       factor: number;
       tripPoint: number;
+    }
+  | {
+      rule: 'measurement_drift';
+      /** The figures beyond their trip points. */
+      tripped: ('energy' | 'temperature' | 'flagged')[];
+      /** Median shifts after the install against before it, corrected by the loggers that did not install it. */
+      energyShift: number | null;
+      energyLoggers: number;
+      tempShiftC: number | null;
+      tempLoggers: number;
+      flaggedShift: number | null;
+      flaggedLoggers: number;
+      controls: number;
+      tripPoints: Record<DriftTripPoint, number>;
     };
 
 type SignerView = { keyId: string; name: string; state: KeyState };
@@ -177,7 +207,7 @@ export type ReleaseSigningView = {
 };
 
 /** A release as GET /api/releases/:id, PATCH, transitions and the upload answer it. */
-export type ReleaseView = ReleaseHeading & {
+export type ReleaseView = ReleaseHeading & Record<DriftTripPoint, number> & {
   resumeState: ResumeState | null;
   /** Who stopped it while it is stopped (kept once withdrawn): a person, or the trip rule ("Tripped"). */
   stoppedBy: StoppedBy | null;
@@ -241,6 +271,9 @@ export type InstallTally = {
 export type ReleaseBoardRow = InstallTally & { board: string; targeted: boolean };
 export type ReleaseSiteRow = InstallTally & { siteId: string; siteName: string; customer: string };
 
+/** One measurement-drift figure on the dashboard: the median shift of `loggers`, against its trip point. */
+export type DriftGaugeFigure = { loggers: number; shift: number | null; threshold: number; judged: boolean; over: boolean };
+
 export type ReleaseDashboard = {
   releaseId: string;
   generatedAt: string;
@@ -262,6 +295,15 @@ export type ReleaseDashboard = {
       factor: number;
       threshold: number;
       judged: boolean;
+      over: boolean;
+    };
+    drift: {
+      minLoggers: number;
+      windowDays: number;
+      controls: number;
+      energy: DriftGaugeFigure;
+      temperature: DriftGaugeFigure;
+      flagged: DriftGaugeFigure;
       over: boolean;
     };
   };

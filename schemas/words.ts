@@ -50,8 +50,19 @@ export const STOPPED_BY = ['person', 'trip'] as const;
 export type StoppedBy = (typeof STOPPED_BY)[number];
 
 /** The trip rules: each one, when its trip point is passed, stops a live release by itself. */
-export const TRIP_RULES = ['failure_ratio', 'reset_rate'] as const;
+export const TRIP_RULES = ['failure_ratio', 'reset_rate', 'measurement_drift'] as const;
 export type TripRule = (typeof TRIP_RULES)[number];
+
+/**
+ * The measurement-drift trip points (server/rollout/drift.ts) with their defaults: the median shift of
+ * daily energy against the clear-sky model (a fraction: 0.1 = 10 %), of the probe's temperature above
+ * the site's expected air temperature (°C), and of the share of flagged probe readings (a fraction:
+ * 0.02 = 2 percentage points). The release columns (trip_drift_energy, trip_drift_temp_c,
+ * trip_drift_flagged, migration 0019), the targeting form and the API's fields all derive from these names.
+ */
+export const DRIFT_TRIP_POINTS = { tripDriftEnergy: 0.1, tripDriftTempC: 3, tripDriftFlagged: 0.02 } as const;
+export type DriftTripPoint = keyof typeof DRIFT_TRIP_POINTS;
+export const DRIFT_TRIP_POINT_NAMES = Object.keys(DRIFT_TRIP_POINTS) as DriftTripPoint[];
 
 /** Release channels: loggers follow one, releases go out on one. */
 export const CHANNELS = ['stable', 'early'] as const;

@@ -277,11 +277,13 @@ export type FleetCounts = {
   backoffs: number;
   interruptions: number;
   resets: Record<string, number>;
+  /** Loggers whose measurements drift on the version they installed (--drift), by version. */
+  drifted: Record<string, number>;
 };
 
 /** Counts what the fleet did, from the loggers' events and install outcomes. */
 export class FleetTally {
-  readonly counts: FleetCounts = { checkIns: 0, offers: 0, installs: 0, failures: 0, failuresByReason: {}, errors: 0, backoffs: 0, interruptions: 0, resets: {} };
+  readonly counts: FleetCounts = { checkIns: 0, offers: 0, installs: 0, failures: 0, failuresByReason: {}, errors: 0, backoffs: 0, interruptions: 0, resets: {}, drifted: {} };
   readonly errorSamples: string[] = [];
 
   onEvent = (event: LoggerEvent): void => {
@@ -298,6 +300,9 @@ export class FleetTally {
         break;
       case 'rebooted':
         c.resets[event.reason] = (c.resets[event.reason] ?? 0) + 1;
+        break;
+      case 'drifted':
+        c.drifted[event.firmware] = (c.drifted[event.firmware] ?? 0) + 1;
         break;
       case 'error':
         c.errors += 1;

@@ -9,6 +9,7 @@ import type { LoggerIdentity } from './logger';
 import { acceleratedClock, buildFleet, SetupError, ConsoleSession, firmwareByBoard, firmwareOnRecord, FleetTally, loadTrustedKeys, pilotTarget, readBenchSheet, registerFleet, runFleet } from './fleet';
 import { seededRandom } from './random';
 import { runThresholdDemo, thresholdSummary } from './threshold-demo';
+import { runDriftDemo } from './drift-demo';
 
 const MAX_LOGGERS = 5000;
 const MAX_MINUTES = 24 * 60;
@@ -43,6 +44,9 @@ type Options = {
   seed: number;
   concurrency: number;
   start?: string;
+  drift: number;
+  /** A self-contained drift run of this many simulated days (its own Heliodor, a stepped clock). */
+  days?: number;
   demoThreshold: boolean;
   /** Whether --loggers was given (the threshold demo takes a handful by default). */
   loggersGiven?: boolean;
@@ -73,6 +77,8 @@ function buildProgram(run: (o: Options) => Promise<number>): Command {
     .option('--seed <n>', 'seed for readings, faults and failures (same seed, same run)', number('--seed', 0, 2 ** 32 - 1, true), 1)
     .addOption(new Option('--concurrency <n>', 'loggers talking to the server at once').argParser(number('--concurrency', 1, 256, true)).default(32))
     .option('--start <time>', 'simulated start time, RFC 3339 (default: now)')
+    .option('--drift <scale>', 'measurement drift: loggers that install an offered release report their current (and power and energy) × this, as a broken calibration would (1: none)', number('--drift', 0, 100), 1)
+    .option('--days <n>', 'a self-contained drift run: start an own Heliodor in this process on a scratch database in a throwaway PostgreSQL, step its clock through this many simulated UTC days (4 or more: a day before, the install day, a whole day after, the trip) and show day by day how the release the loggers install with --drift trips (20 loggers unless --loggers, --start picks the first day; no server needed)', number('--days', 4, 60, true))
     .option('--demo-threshold', 'show a release that needs 2 signatures going out: three keys, a model with the rule 2 of the keys, a pilot refused with one signature and started with two, loggers verifying both and installing (admin sign-in; 6 loggers unless --loggers)', false)
     .action(async (options: Options, command: Command) => {
       process.exitCode = await run({ ...options, loggersGiven: command.getOptionValueSource('loggers') === 'cli' });
@@ -130,6 +136,24 @@ async function simulate(o: Options): Promise<number> {
     say('simulate: --start must be an RFC 3339 time such as 2026-06-21T06:00:00Z');
     return 2;
   }
+  if (o.days !== undefined) {
+    try {
+      const result = await runDriftDemo({
+        drift: o.drift,
+        days: o.days,
+        loggers: o.loggersGiven ? o.loggers : 20,
+        seed: o.seed,
+        start: o.start ? start : new Date(Date.UTC(2026, 5, 8)),
+        out: (line) => process.stdout.write(`${line}\n`),
+      });
+      // A drifting release must trip, and a release without drift must not.
+      return result.tripped === (o.drift !== 1) ? 0 : 1;
+    } catch (error) {
+      const known = error instanceof SetupError || error instanceof ManifestError;
+      say(`simulate: ${known ? '' : 'unexpected error: '}${error instanceof Error ? error.message : String(error)}`);
+      return 1;
+    }
+  }
   if (o.demoThreshold) {
     try {
       const result = await runThresholdDemo({ session: await adminSession(o), baseUrl: url.origin, loggers: o.loggersGiven ? Math.min(o.loggers, 100) : 6, seed: o.seed, say });
@@ -153,7 +177,7 @@ async function simulate(o: Options): Promise<number> {
     const tally = new FleetTally();
     const loggers = buildFleet(
       who,
-      { baseUrl: url.origin, clock, random, trustedKeys, failRate: o.failRate, interruptRate: o.interruptRate, spreadS: 60 },
+      { baseUrl: url.origin, clock, random, trustedKeys, failRate: o.failRate, interruptRate: o.interruptRate, drift: o.drift, spreadS: 60 },
       tally,
     );
     const until = new Date(start.getTime() + o.minutes * 60_000 * o.speed);
@@ -205,6 +229,12 @@ async function simulate(o: Options): Promise<number> {
         `  backoffs       ${c.backoffs} (429/503 with Retry-After)`,
         `  interruptions  ${c.interruptions} (downloads resumed)`,
         `  resets         ${list(c.resets)}`,
+        ...(o.drift !== 1
+          ? [
+              `  drift          ${Object.keys(c.drifted).length ? `${list(c.drifted)} logger(s) report current × ${o.drift} since installing` : `none yet: no logger installed a release (× ${o.drift} waits for one)`}`,
+              ...(await driftOutcome(o, Object.keys(c.drifted), say)),
+            ]
+          : []),
         `  now running    ${[...versions].sort(([a], [b]) => a.localeCompare(b, 'en', { numeric: true })).map(([v, n]) => `${v} × ${n}`).join(', ')}`,
         ...tally.errorSamples.map((e, i) => `${i === 0 ? '  first errors   ' : '                 '}${e}`),
         '',
@@ -215,6 +245,30 @@ async function simulate(o: Options): Promise<number> {
     const known = error instanceof SetupError || error instanceof ManifestError;
     say(`simulate: ${known ? '' : 'unexpected error: '}${error instanceof Error ? error.message : String(error)}`);
     return 1;
+  }
+}
+
+/**
+ * What became of the releases the drifting loggers installed, when the console can be asked (an admin
+ * sign-in, as --register uses): the server trips a release on measurement drift once 20 loggers have a
+ * whole UTC day on it to compare with the days before (server/rollout/drift.ts).
+ */
+async function driftOutcome(o: Options, versions: string[], say: (s: string) => void): Promise<string[]> {
+  if (versions.length === 0) return [];
+  try {
+    const session = await adminSession(o);
+    const { rows } = await session.request<{ rows: { id: string; version: string; state: string }[] }>('GET', '/api/releases');
+    const lines: string[] = [];
+    for (const r of rows.filter((x) => versions.includes(x.version))) {
+      const dashboard = await session.request<{ trip: { drift: { over: boolean; energy: { loggers: number; shift: number | null; judged: boolean } } } }>('GET', `/api/releases/${r.id}/dashboard`);
+      const e = dashboard.trip.drift.energy;
+      const shift = e.shift === null ? 'no whole day on it yet' : `energy ${Number((e.shift * 100).toFixed(1))} % over ${e.loggers} loggers`;
+      lines.push(`  release ${r.version}  ${r.state}${r.state === 'stopped' ? ' (tripped)' : ''}; drift gauge: ${shift}${e.judged ? '' : ' (not judged yet: 20 loggers with a whole UTC day after their install are needed)'}`);
+    }
+    return lines;
+  } catch (error) {
+    say(`simulate: could not read the releases from the console (${error instanceof Error ? error.message : String(error)}); the drift is judged by the server either way`);
+    return [];
   }
 }
 

@@ -185,6 +185,7 @@ export type LoggerEvent =
   | { kind: 'report'; serial: string; report: InstallReport; delivered: boolean }
   | { kind: 'interrupted'; serial: string; release: string; have: number }
   | { kind: 'rebooted'; serial: string; firmware: string; reason: ResetReason }
+  | { kind: 'drifted'; serial: string; firmware: string; scale: number }
   | { kind: 'trust'; serial: string; version: number; accepted: boolean; detail: string }
   | { kind: 'error'; serial: string; message: string };
 
@@ -209,6 +210,12 @@ export type LoggerEnvironment = {
   failRate?: number | ((offer: Offer) => number);
   /** Download attempts per offer before the logger gives up until the next check-in. */
   maxDownloadAttempts?: number;
+  /**
+   * Measurement drift: once a logger boots a release it installed, its current (and so its power and
+   * energy) reads this many times the true value, as a release with a broken calibration constant
+   * would make it (1 or absent: no drift).
+   */
+  drift?: number;
   onEvent?: (event: LoggerEvent) => void;
 };
 
@@ -274,6 +281,7 @@ export class VirtualLogger {
       interruptRate: 0,
       failRate: 0,
       maxDownloadAttempts: 8,
+      drift: 1,
       ...env,
     };
     this.origin = new URL(env.baseUrl).origin;
@@ -318,6 +326,10 @@ export class VirtualLogger {
       this.meter.advance(at);
       this.meter.reboot();
       this.firmware = this.rebootInto.version;
+      if (this.env.drift !== 1) {
+        this.meter.currentScale = this.env.drift;
+        this.emit({ kind: 'drifted', serial: this.serial, firmware: this.firmware, scale: this.env.drift });
+      }
       this.securityCounter = Math.max(this.securityCounter, this.rebootInto.securityCounter);
       this.bootAt = at;
       this.resetReason = 'software';

@@ -4,17 +4,16 @@
 //
 // The models are the usual first approximations of the trade, chosen to look right on a dashboard,
 // not to size a plant:
-// - Sun position from the suncalc package (a maintained solar-position library).
-// - Air mass by Kasten & Young (1989); clear-sky direct beam by Meinel & Meinel (1976),
-//   1353 W/m² × 0.7^(AM^0.678); diffuse light 10 % of the beam (common practice).
+// - The sky (sun position, clear-sky light, expected air temperature) from lib/solar.ts, which the
+//   measurement-drift trip rule reads too: Kasten & Young (1989) air mass, Meinel & Meinel (1976) beam.
 // - A south-facing panel tilted 35°; plane-of-array light from the angle of incidence.
 // - Panel current proportional to irradiance, voltage near the maximum-power point falling
 //   logarithmically in dim light and by 0.35 %/K with cell temperature (common practice for
 //   crystalline silicon); cell temperature by the NOCT model, Ta + G × (NOCT − 20) / 800 with NOCT 45 °C.
-import { getPosition } from 'suncalc';
+import { airMass, ambientTemperatureC, clearSkyIrradiance, type Spot } from '../../lib/solar';
 import { gaussian, poisson, type Random } from './random';
 
-export type Spot = { latitude: number; longitude: number };
+export { airMass, ambientTemperatureC, clearSkyIrradiance, type Spot };
 
 export type Panel = {
   /** Rated power at 1000 W/m² and 25 °C cell temperature (standard test conditions). */
@@ -33,50 +32,11 @@ export function typicalPanel(wattsPeak: number): Panel {
   return { wattsPeak, vocV: 22.0, vmpV: 18.0, tiltDeg: 35, azimuthDeg: 180 };
 }
 
-const DEG = Math.PI / 180;
-const SOLAR_CONSTANT_W_M2 = 1353;
 const NOCT_C = 45;
 const VOLTAGE_TEMP_COEFF_PER_K = -0.0035;
 const CURRENT_TEMP_COEFF_PER_K = 0.0005;
 /** How fast the maximum-power voltage falls in dim light: V = Vmp × (1 + k·ln(G / 1000)). */
 const DIM_LIGHT_VOLTAGE_SLOPE = 0.06;
-
-/** Relative optical air mass (Kasten & Young 1989) at a solar altitude in degrees above the horizon. */
-export function airMass(altitudeDeg: number): number {
-  if (altitudeDeg <= 0) return Infinity;
-  return 1 / (Math.sin(altitudeDeg * DEG) + 0.50572 * Math.pow(altitudeDeg + 6.07995, -1.6364));
-}
-
-/** Clear-sky light on the panel's plane in W/m² (0 when the Sun is down). */
-export function clearSkyIrradiance(at: Date, spot: Spot, panel: Panel): number {
-  // suncalc 2 gives altitude and azimuth in degrees, azimuth clockwise from north.
-  const sun = getPosition(at, spot.latitude, spot.longitude);
-  const altitudeDeg = sun.altitude;
-  if (!(altitudeDeg > 0)) return 0;
-  const altitude = altitudeDeg * DEG;
-  const beam = SOLAR_CONSTANT_W_M2 * Math.pow(0.7, Math.pow(airMass(altitudeDeg), 0.678));
-  const tilt = panel.tiltDeg * DEG;
-  const cosIncidence =
-    Math.sin(altitude) * Math.cos(tilt) + Math.cos(altitude) * Math.sin(tilt) * Math.cos((sun.azimuth - panel.azimuthDeg) * DEG);
-  const diffuse = 0.1 * beam * ((1 + Math.cos(tilt)) / 2);
-  return Math.max(0, beam * Math.max(0, cosIncidence) + diffuse);
-}
-
-/**
- * Air temperature in the Vale (°C): a seasonal mean from about 4 °C in January to 17 °C in July and a
- * daily swing peaking mid-afternoon (climate of lowland England at 52° N, from memory).
- */
-export function ambientTemperatureC(at: Date, spot: Spot): number {
-  const start = Date.UTC(at.getUTCFullYear(), 0, 1);
-  const dayOfYear = (at.getTime() - start) / 86_400_000;
-  const seasonal = 10.5 - 6.5 * Math.cos((2 * Math.PI * (dayOfYear - 20)) / 365.25);
-  const swing = 5 - 1.5 * Math.cos((2 * Math.PI * (dayOfYear - 20)) / 365.25);
-  // Local mean solar time from the longitude (15° an hour); the equation of time (a quarter of an hour
-  // at most) does not matter for air temperature, and it spares a sunrise computation per sample.
-  const solarHour = (((at.getTime() / 3_600_000 + spot.longitude / 15) % 24) + 24) % 24;
-  const hoursFromNoon = solarHour - 12;
-  return seasonal + swing * Math.cos((2 * Math.PI * (hoursFromNoon - 2.5)) / 24);
-}
 
 /** Cell temperature by the NOCT model. */
 export function panelTemperatureC(ambientC: number, irradianceWm2: number): number {
@@ -129,6 +89,12 @@ export class PanelMeter {
   private at: Date;
   private energyWh = 0;
   private last: PanelOutput & { tempC: number };
+  /**
+   * What the firmware multiplies the measured current by: 1 for a correct calibration. A release that
+   * breaks the measurement code (`npm run simulate -- --drift 0.5`) scales the current, and with it the
+   * power and the energy counted, as a wrong current LSB would.
+   */
+  currentScale = 1;
 
   constructor(options: { panel: Panel; spot: Spot; random: Random; at: Date; clearness?: number }) {
     this.panel = options.panel;
@@ -156,7 +122,7 @@ export class PanelMeter {
       const next = Math.min(end, t + stepMs);
       if (!fixedClearness) this.wander((next - t) / 60_000);
       const now = this.sample(new Date(next));
-      this.energyWh += ((previous.powerW + now.powerW) / 2) * ((next - t) / 3_600_000);
+      this.energyWh += ((previous.powerW + now.powerW) / 2) * this.currentScale * ((next - t) / 3_600_000);
       previous = now;
       t = next;
     }
@@ -183,7 +149,7 @@ export class PanelMeter {
   readings(profile: ReadingProfile | null): Readings {
     const { busV, currentA, tempC } = this.last;
     let bus = busV;
-    let current = currentA;
+    let current = currentA * this.currentScale;
     let temp = tempC;
     if (profile) {
       bus = quantize(Math.min(bus, profile.bus_v_max), BUS_LSB_V);

@@ -66,7 +66,7 @@ class WitnessLogger extends VirtualLogger {
   }
 }
 
-function makeKey(name: string): Key {
+export function makeKey(name: string): Key {
   const pair = generateKeyPairSync('ed25519');
   const privateKeyPem = String(pair.privateKey.export({ type: 'pkcs8', format: 'pem' }));
   return { name, privateKeyPem, publicKey: parsePublicKeyPem(String(pair.publicKey.export({ type: 'spki', format: 'pem' }))) };

@@ -23,6 +23,8 @@ export type DeviceLogger = {
   checkInIntervalS: number;
   latitude: number | null;
   longitude: number | null;
+  /** The previous check-in, which this one's energy reading counts from (the measurement-drift days). */
+  lastCheckInAt: Date | null;
 };
 
 const LOGGER_TOKEN = tokenPattern('hlt_');
@@ -51,7 +53,7 @@ export async function authenticateLogger(sequelize: Sequelize, req: Request): Pr
   const rows = await sequelize.query<DeviceLogger & { tokenDigest: string }>(
     `SELECT l.id, l.serial, l.status, l.model_id AS "modelId", l.site_id AS "siteId", l.board, l.channel, l.supply_v AS "supplyV",
             l.token_digest AS "tokenDigest", m.min_update_supply_v AS "minUpdateSupplyV", m.check_in_interval_s AS "checkInIntervalS",
-            s.latitude, s.longitude
+            s.latitude, s.longitude, l.last_check_in_at AS "lastCheckInAt"
        FROM loggers l JOIN models m ON m.id = l.model_id LEFT JOIN sites s ON s.id = l.site_id
       WHERE l.token_digest = :digest`,
     { type: QueryTypes.SELECT, replacements: { digest } },
@@ -66,5 +68,6 @@ export async function authenticateLogger(sequelize: Sequelize, req: Request): Pr
     checkInIntervalS: Number(logger.checkInIntervalS),
     latitude: logger.latitude === null ? null : Number(logger.latitude),
     longitude: logger.longitude === null ? null : Number(logger.longitude),
+    lastCheckInAt: logger.lastCheckInAt === null ? null : new Date(logger.lastCheckInAt),
   };
 }

@@ -11,6 +11,7 @@ import type { FailureReason, InstallState, LoggerStatus } from '../../schemas/wo
 import type { DeviceLogger } from './auth';
 import { FIRST_READINGS_COUNTED, firstReadingOf } from '../../lib/commissioning';
 import type { CountedReadings } from '../loggers/commissioning';
+import type { CheckInDay } from '../rollout/drift';
 
 /** One install report of this logger as stored. */
 export type ReportRow = ReportFacts & { confirmedAt: Date | null };
@@ -82,10 +83,12 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
     /**
      * One statement: the per-logger rate limit's count (device_check_in_windows, shared by every process),
      * and — only when the check-in is within the limit — the logger's latest state on its row, one history
-     * row in check_ins, and what the logger has: its install reports and its latest measurement profile.
+     * row in check_ins, its day's sums in logger_days (the measurement-drift trip: the energy since the
+     * previous check-in, read from the row as it was before this statement, with the clear-sky energy of
+     * the same interval), and what the logger has: its install reports and its latest measurement profile.
      * `rate` is the wall-clock window (the limit counts real minutes even where the clock is injected).
      */
-    async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null, rate: RateWindow): Promise<Visit | RateRefusal> {
+    async recordVisit(logger: DeviceLogger, body: CheckInRequest, ip: string | null, rate: RateWindow, day: CheckInDay): Promise<Visit | RateRefusal> {
       const resets = resetsOf(body);
       // The first-readings check (started at enrollment) counts readings made under the latest profile while it has
       // no verdict; a newer profile starts its readings over. Without a running check the update touches no row.
@@ -99,6 +102,28 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
            RETURNING count, window_ends
          ),
          admitted AS (SELECT 1 FROM rate WHERE count <= :rateLimit),
+         before AS (
+           SELECT (readings->>'energy_wh')::float8 AS energy_wh, last_check_in_at FROM loggers WHERE id = :loggerId
+         ),
+         since_last AS (
+           SELECT CASE WHEN CAST(:energyWh AS float8) IS NULL OR b.energy_wh IS NULL OR CAST(:since AS timestamptz) IS NULL
+                            OR b.last_check_in_at IS DISTINCT FROM CAST(:since AS timestamptz) THEN NULL
+                       WHEN :rebooted OR CAST(:energyWh AS float8) < b.energy_wh THEN CAST(:energyWh AS float8)
+                       ELSE CAST(:energyWh AS float8) - b.energy_wh END AS energy_wh
+             FROM before b
+         ),
+         day AS (
+           INSERT INTO logger_days AS d (logger_id, day, firmware, energy_wh, clear_sky_wh, temp_excess_sum_c, temp_readings, probe_readings, probe_flagged, check_ins)
+           SELECT :loggerId, CAST(:day AS date), :firmware, COALESCE(c.energy_wh, 0), CASE WHEN c.energy_wh IS NULL THEN 0 ELSE CAST(:clearSkyWh AS float8) END,
+                  COALESCE(CAST(:tempExcess AS float8), 0), CASE WHEN CAST(:tempExcess AS float8) IS NULL THEN 0 ELSE 1 END, :probeReadings, :probeFlagged, 1
+             FROM since_last c
+            WHERE EXISTS (SELECT 1 FROM admitted)
+           ON CONFLICT (logger_id, day, firmware) DO UPDATE SET
+             energy_wh = d.energy_wh + EXCLUDED.energy_wh, clear_sky_wh = d.clear_sky_wh + EXCLUDED.clear_sky_wh,
+             temp_excess_sum_c = d.temp_excess_sum_c + EXCLUDED.temp_excess_sum_c, temp_readings = d.temp_readings + EXCLUDED.temp_readings,
+             probe_readings = d.probe_readings + EXCLUDED.probe_readings, probe_flagged = d.probe_flagged + EXCLUDED.probe_flagged,
+             check_ins = d.check_ins + 1
+         ),
          visit AS (
            UPDATE loggers SET firmware = :firmware, reported_board = :board, security_counter = :securityCounter,
                   supply_v = COALESCE(:supplyV, supply_v), readings = COALESCE(CAST(:readings AS jsonb), readings), last_ip = :ip,
@@ -155,6 +180,14 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
           countsReadings,
           firstReading: countsReadings ? JSON.stringify(firstReadingOf(now.toISOString(), body.readings!)) : null,
           firstReadingsCounted: FIRST_READINGS_COUNTED,
+          day: day.day,
+          since: day.since,
+          rebooted: day.rebooted,
+          energyWh: body.readings?.energy_wh ?? null,
+          clearSkyWh: day.clearSkyWh,
+          tempExcess: day.tempExcessC,
+          probeReadings: day.probeReadings,
+          probeFlagged: day.probeFlagged,
         },
       );
       if (Number(row.rateCount) > rate.perMinute) {

@@ -10,7 +10,8 @@
 //      (SELECT … FOR UPDATE), so concurrent check-ins serialise on it and the trip rules see every
 //      count exactly once;
 //   3. judge the trip rules on those releases, and the reset rate when the logger brings watchdog or
-//      brown-out resets on a release it confirmed (once a minute per release and process);
+//      brown-out resets on a release it confirmed (once a minute per release and process), and the
+//      measurement drift when it brings readings on one (once in ten minutes per release and process);
 //   4. decide the offer (rollout/decision.ts) on the cached releases as this transaction left them,
 //      and record it;
 //   5. answer: the offer, and the measurement profile when the logger's is older (or unknown);
@@ -30,6 +31,7 @@ import type { Mailer } from '../mail/mailer';
 import { judgeTrip } from '../releases/trip';
 import type { TransitionContext } from '../releases/transitions';
 import { decideOffer, offerInput, type LoggerFacts } from '../rollout/decision';
+import { checkInDay } from '../rollout/drift';
 import { isLive } from '../rollout/lifecycle';
 import { afterInstalled, applyReport, isFinished } from '../rollout/reports';
 import type { DeviceLogger } from './auth';
@@ -53,10 +55,17 @@ export type CheckInDeps = {
   imageUrl: (sha256: string) => Promise<string> | string;
   /** When the reset rate of each release was last judged at a check-in with resets (ms, by `now`). */
   resetChecks?: Map<string, number>;
+  /** When the measurement drift of each release was last judged at a check-in with readings (ms, by `now`). */
+  driftChecks?: Map<string, number>;
 };
 
 /** At most one reset-rate evaluation per release and process in this many milliseconds. */
 export const RESET_CHECK_EVERY_MS = 60_000;
+/**
+ * At most one measurement-drift evaluation per release and process in this many milliseconds: the rule
+ * reads whole days of every logger the release reached, and its figures change once a day.
+ */
+export const DRIFT_CHECK_EVERY_MS = 10 * 60_000;
 
 export type CheckInContext = { ip: string | null; requestId: string | null };
 
@@ -65,8 +74,11 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
   const releases = await deps.releases.get(logger.modelId);
   const answer = await deps.sequelize.transaction(async (t) => {
     const store = checkInStore(deps.sequelize, t, logger.id, now);
-    // 1. Count the check-in and, within the rate limit, record the visit (the limit's minutes are wall-clock minutes).
-    const visit = await store.recordVisit(logger, body, ctx.ip, { perMinute: deps.ratePerMinute, now: new Date() });
+    // 1. Count the check-in and, within the rate limit, record the visit and its part of the logger's day
+    //    for the measurement-drift trip (the limit's minutes are wall-clock minutes).
+    const spot = logger.latitude !== null && logger.longitude !== null ? { latitude: logger.latitude, longitude: logger.longitude } : null;
+    const day = checkInDay({ now, lastCheckInAt: logger.lastCheckInAt, uptimeS: body.uptime_s ?? null, spot, tempC: body.readings?.temp_c ?? null, energyWh: body.readings?.energy_wh ?? null });
+    const visit = await store.recordVisit(logger, body, ctx.ip, { perMinute: deps.ratePerMinute, now: new Date() }, day);
     if ('refused' in visit) return visit;
     if (visit.firstReadings && visit.profile) {
       const profile = { version: visit.profile.version, currentLsbA: visit.profile.current_lsb_a, powerLsbW: visit.profile.power_lsb_w };
@@ -180,20 +192,27 @@ async function judgeTrips(
     if (stopped) tripped.push(stopped);
   }
 
-  // Watchdog and brown-out resets on a live release this logger confirmed: judge the release's reset rate.
+  // On a live release this logger confirmed: watchdog and brown-out resets judge the release's reset
+  // rate, readings its measurement drift, each at most once per interval per release and process.
   const resets = resetsOf(body);
   const counted = COUNTED_RESET_REASONS.reduce((n, reason) => n + (resets?.[reason] ?? 0), 0);
-  if (counted === 0 || !deps.resetChecks) return tripped;
   const running = releases.find((r) => r.version === body.firmware && isLive(r.state) && settled.reports.get(r.id)?.confirmedAt);
   if (!running || tripped.some((r) => r.id === running.id)) return tripped;
   const now = judge.now.getTime();
-  const last = deps.resetChecks.get(running.id);
-  if (last !== undefined && now - last < RESET_CHECK_EVERY_MS) return tripped;
-  deps.resetChecks.set(running.id, now);
+  const due = (checks: Map<string, number> | undefined, everyMs: number) => {
+    if (!checks) return false;
+    const last = checks.get(running.id);
+    if (last !== undefined && now - last < everyMs) return false;
+    checks.set(running.id, now);
+    return true;
+  };
+  const resetDue = counted > 0 && due(deps.resetChecks, RESET_CHECK_EVERY_MS);
+  const driftDue = body.readings !== undefined && due(deps.driftChecks, DRIFT_CHECK_EVERY_MS);
+  if (!resetDue && !driftDue) return tripped;
   // SKIP LOCKED: another check-in holding the release is judging it already, and waiting here in
   // another lock order could deadlock with it.
   const locked = await store.lockReleaseIfFree(running.id);
-  const stopped = locked ? await judgeTrip(deps.sequelize, t, locked, judge) : null;
+  const stopped = locked ? await judgeTrip(deps.sequelize, t, locked, judge, { drift: driftDue }) : null;
   if (stopped) tripped.push(stopped);
   return tripped;
 }

@@ -81,8 +81,10 @@ async function maintainLocked(sequelize: Sequelize, transaction: Transaction, no
       report.dropped.push(name);
     }
   }
-  // The DEFAULT partition keeps no more than the partitions do.
+  // The DEFAULT partition keeps no more than the partitions do, and neither do the loggers' daily sums
+  // (logger_days, migration 0019: the measurement-drift trip's days).
   await sequelize.query('DELETE FROM check_ins_default WHERE at < :oldestKept', { transaction, replacements: { oldestKept } });
+  await sequelize.query('DELETE FROM logger_days WHERE day < CAST(:oldestKept AS date)', { transaction, replacements: { oldestKept: oldestKept.toISOString().slice(0, 10) } });
   return report;
 }
 

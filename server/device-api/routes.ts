@@ -70,6 +70,7 @@ function registerRoutes(api: Api, deps: DeviceApiDeps, releases: ReleaseCache, l
   // Evaluations of the reset-rate rule, at most one a minute per release in this process: a throttle on
   // work, not a limit the fleet relies on, so it is kept in memory.
   const resetChecks = new Map<string, number>();
+  const driftChecks = new Map<string, number>();
   const { images } = deps;
   const imageUrl = images.presignedUrl ? (sha256: string) => images.presignedUrl!(sha256) : (sha256: string) => IMAGE_PATH.replace(':sha256', sha256);
 
@@ -78,7 +79,7 @@ function registerRoutes(api: Api, deps: DeviceApiDeps, releases: ReleaseCache, l
     const body = parse(checkInRequestSchema, req.body);
     const reply = await checkIn(
       {
-        sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch, resetChecks,
+        sequelize, releases, mailer: deps.mailer, logger: deps.logger, now: deps.now, random: deps.random ?? Math.random, stretch: load.stretch, resetChecks, driftChecks,
         ratePerMinute: deps.config.deviceRatePerMinute, imageUrl,
       },
       logger,

@@ -9,7 +9,8 @@
 //   audience), how many run it or newer, and the install reports in each group. Sites list failures
 //   first, then installs in progress, so support reads the trouble at the top; paged in PostgreSQL.
 // - The trip points with their current values, read by the same queries and rules as the trip
-//   (trip.ts, rollout/trip.ts), so the dashboard shows what the trip rule will decide.
+//   (trip.ts, rollout/trip.ts, rollout/drift.ts for the measurement-drift gauge), so the dashboard shows
+//   what the trip rule will decide.
 // - Adoption: confirmed installs per UTC day since the release started.
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
@@ -18,7 +19,8 @@ import { loggerCounts, reportCounts } from '../fleet/summaries';
 import { problems } from '../http/problem';
 import { tripGauges } from '../rollout/trip';
 import { retentionDays } from '../db/retention';
-import { failureFigures, resetFigures } from './trip';
+import { driftInput, failureFigures, resetFigures } from './trip';
+import { driftFigures, driftGauge, driftTripPointsOf } from '../rollout/drift';
 import { adoptionDays } from '../fleet/versions';
 import { UNDER_WAY_INSTALL_STATES, type InstallState, type LoggerStatus } from '../../schemas/words';
 import type { ReleaseBoardRow, ReleaseDashboard, ReleaseSiteRow, ReleaseSitesQuery } from '../../schemas/releases';
@@ -36,6 +38,9 @@ type ReleaseRow = {
   trip_failure_ratio: string;
   trip_min_reports: number;
   trip_reset_factor: string;
+  trip_drift_energy: string;
+  trip_drift_temp_c: string;
+  trip_drift_flagged: string;
   started_at: Date | null;
 };
 
@@ -105,7 +110,7 @@ const tally = (r: Omit<TallyRow, 'median_install_s'>, median: number | null | un
 async function releaseOf(sequelize: Sequelize, id: string): Promise<ReleaseRow> {
   const [row] = await sequelize.query<ReleaseRow>(
     `SELECT r.id, r.model_id, r.version, r.channel, r.boards, m.boards AS model_boards, r.trip_failure_ratio, r.trip_min_reports,
-            r.trip_reset_factor, LEAST(r.piloted_at, r.widened_at, r.completed_at) AS started_at
+            r.trip_reset_factor, r.trip_drift_energy, r.trip_drift_temp_c, r.trip_drift_flagged, LEAST(r.piloted_at, r.widened_at, r.completed_at) AS started_at
        FROM releases r JOIN models m ON m.id = r.model_id WHERE r.id = :id`,
     { type: QueryTypes.SELECT, replacements: { id } },
   );
@@ -157,7 +162,7 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
   // trip rule's own figures (the whole release), so they show what the rule will decide.
   const installed = `FROM install_reports ir WHERE ir.release_id = :releaseId AND ir.state = :installed AND ${DONE_AT} IS NOT NULL
     ${readable.sql === 'TRUE' ? '' : `AND ir.logger_id IN (SELECT l.id FROM loggers l WHERE ${readable.sql})`}`;
-  const [times, boards, boardMedians, sites, failures, resets, installsPerDay] = await Promise.all([
+  const [times, boards, boardMedians, sites, failures, resets, drift, installsPerDay] = await Promise.all([
     sequelize.query<{ installs: number; median_s: number | null; p90_s: number | null }>(
       `SELECT count(*)::int AS installs,
               percentile_cont(0.5) WITHIN GROUP (ORDER BY ${INSTALL_S}) AS median_s,
@@ -173,6 +178,7 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
     sitePage(deps, actor, release, { page: 1, pageSize: 10 }),
     failureFigures(sequelize, undefined, release.id),
     resetFigures(sequelize, undefined, release, now, retentionDays()),
+    driftInput(sequelize, undefined, release, now, retentionDays()),
     sequelize.query<{ day: string; n: number }>(
       `SELECT to_char(c.day, 'YYYY-MM-DD') AS day, sum(c.n)::int AS n FROM ${reportCounts(counted)} c
         WHERE c.release_id = :releaseId AND c.state = :installed AND c.day IS NOT NULL
@@ -194,7 +200,13 @@ export async function releaseDashboard(deps: DashboardDeps, actor: Actor, releas
     releaseId: release.id,
     generatedAt: now.toISOString(),
     timeToInstall: { installs: Number(t?.installs ?? 0), medianS: seconds(t?.median_s ?? null), p90S: seconds(t?.p90_s ?? null) },
-    trip: tripGauges(thresholds, failures, resets),
+    trip: {
+      ...tripGauges(thresholds, failures, resets),
+      drift: driftGauge(
+        driftTripPointsOf({ tripDriftEnergy: release.trip_drift_energy, tripDriftTempC: release.trip_drift_temp_c, tripDriftFlagged: release.trip_drift_flagged }),
+        driftFigures(drift),
+      ),
+    },
     byBoard,
     bySite: sites,
     adoption: adoptionDays(release.started_at, installsPerDay, now),

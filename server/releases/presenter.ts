@@ -4,6 +4,7 @@ import type { Actor } from '../auth/actor';
 import { canOf } from '../auth/policies';
 import { Image, LoggerModel, Release, ReleaseTransition, SigningKey, Site } from '../db/models';
 import { allowedActions } from '../rollout/lifecycle';
+import { driftTripPointsOf } from '../rollout/drift';
 import { renderNotes } from './notes';
 import { releaseSigning } from './signing';
 import { FAILURE_REASONS, INSTALL_STATES } from '../../schemas/words';
@@ -79,6 +80,7 @@ export async function presentRelease(sequelize: Sequelize, release: Release): Pr
     tripFailureRatio: release.tripFailureRatio,
     tripMinReports: release.tripMinReports,
     tripResetFactor: release.tripResetFactor,
+    ...driftTripPointsOf(release),
     securityCounter: release.securityCounter,
     notes: release.notes,
     notesHtml: renderNotes(release.notes),

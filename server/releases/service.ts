@@ -15,7 +15,7 @@ import { shareThreshold } from '../rollout/cohort';
 import { canDelete } from '../rollout/lifecycle';
 import { existingSiteIds, presentRelease } from './presenter';
 import { applyTransition, lockRelease } from './transitions';
-import type { LoggerStatus } from '../../schemas/words';
+import { DRIFT_TRIP_POINT_NAMES, type LoggerStatus } from '../../schemas/words';
 import { uploadFields, type AddSignatureRequest, type PatchReleaseRequest, type ReleaseEstimate, type ResignRequest, type TransitionRequest } from '../../schemas/releases';
 import type { SignatureRequest } from '../../schemas/keys';
 import { RELEASE_EVENTS } from '../../schemas/words';
@@ -247,6 +247,7 @@ export async function patchRelease(deps: ReleaseDeps, ctx: RequestContext, id: s
     set('tripFailureRatio', input.tripFailureRatio);
     set('tripMinReports', input.tripMinReports);
     set('tripResetFactor', input.tripResetFactor);
+    for (const name of DRIFT_TRIP_POINT_NAMES) set(name, input[name]);
     set('notes', input.notes);
     set('channel', input.channel);
     if (input.pilotSiteIds) {

@@ -136,6 +136,14 @@ export async function applyTransition(t: Transaction, release: Release, asked: T
   return release;
 }
 
+/** A median shift in the mail's words: "−50 %", "+3.5 °C", "+2.5 points", or "not judged". */
+function shiftText(x: number | null, unit: '%' | '°C' | 'points'): string {
+  if (x === null) return 'not judged';
+  const sign = x > 0 ? '+' : x < 0 ? '−' : '';
+  const v = Math.abs(x);
+  return unit === '°C' ? `${sign}${Number(v.toFixed(1))} °C` : `${sign}${Number((v * 100).toFixed(1))}${unit === '%' ? ' %' : ' percentage points'}`;
+}
+
 /** The release's signatures against its model's rule, for the start_pilot guard. */
 async function signaturesOf(t: Transaction, release: Release): Promise<{ have: number; needs: number; missing: string[] }> {
   const model = await LoggerModel.findByPk(release.modelId, { transaction: t, attributes: ['signingThreshold'] });
@@ -156,7 +164,9 @@ async function tripMail(t: Transaction, release: Release, modelName: string, fig
   const tally =
     figures.rule === 'failure_ratio'
       ? `Installs so far: ${figures.installed} installed, ${figures.failed} failed (transient failures not counted).`
-      : `Watchdog and brown-out resets: ${figures.resetsAfter} over ${Number(figures.loggerDaysAfter.toFixed(1))} logger-days on this release (${figures.loggers} loggers), ${figures.resetsBefore} over ${Number(figures.loggerDaysBefore.toFixed(1))} logger-days before it.`;
+      : figures.rule === 'measurement_drift'
+        ? `Median shifts after the install against the days before it: energy against the clear-sky model ${shiftText(figures.energyShift, '%')} over ${figures.energyLoggers} loggers, probe temperature above the expected air temperature ${shiftText(figures.tempShiftC, '°C')} over ${figures.tempLoggers}, flagged probe readings ${shiftText(figures.flaggedShift, 'points')} over ${figures.flaggedLoggers}; weather taken out by ${figures.controls} loggers that did not install it. Check a drifted logger's readings against a meter before resuming.`
+        : `Watchdog and brown-out resets: ${figures.resetsAfter} over ${Number(figures.loggerDaysAfter.toFixed(1))} logger-days on this release (${figures.loggers} loggers), ${figures.resetsBefore} over ${Number(figures.loggerDaysBefore.toFixed(1))} logger-days before it.`;
   const text = [
     `Heliodor stopped release ${release.version} of ${modelName} automatically: it tripped.`,
     '',

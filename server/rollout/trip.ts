@@ -21,7 +21,8 @@
 //   longer ago than the retention window, or loggers new to the fleet) there is nothing to compare, and
 //   the rate is not judged.
 import type { TripFigures } from '../../schemas/releases';
-import type { TripRule } from '../../schemas/words';
+import type { DriftTripPoint, TripRule } from '../../schemas/words';
+import { DRIFT_FIGURES, driftFigureWords } from './drift';
 
 export const RESET_MIN_LOGGERS = 20;
 /**
@@ -34,7 +35,7 @@ export const RESET_MIN_HOURS = 24;
 /** Floor of the old reset rate, resets per logger-day. */
 export const RESET_RATE_FLOOR = 0.01;
 
-export type TripPoints = { tripFailureRatio: number; tripMinReports: number; tripResetFactor: number };
+export type TripPoints = { tripFailureRatio: number; tripMinReports: number; tripResetFactor: number } & Partial<Record<DriftTripPoint, number>>;
 
 export type FailureFigures = { installed: number; failed: number };
 
@@ -177,6 +178,11 @@ export type TripGauges = ReturnType<typeof tripGauges>;
  */
 export function tripHeadline(f: TripFigures): string {
   if (f.rule === 'failure_ratio') return `${pct(f.ratio)} of installs failed (trip point ${pct(f.tripPoint)})`;
+  if (f.rule === 'measurement_drift') {
+    const shifts = { energy: f.energyShift, temperature: f.tempShiftC, flagged: f.flaggedShift };
+    const tripped = DRIFT_FIGURES.filter((n) => f.tripped.includes(n) && shifts[n] !== null);
+    return `measurements drifted after the install: ${tripped.map((n) => driftFigureWords(n, shifts[n]!)).join(', ')}`;
+  }
   return `watchdog and brown-out resets rose to ${Number(f.factor.toFixed(1))} × the rate before (trip point ${f.tripPoint} ×)`;
 }
 

@@ -60,6 +60,7 @@ describe('release targeting form', () => {
     view.type('stop-ratio', '7,5');
     view.type('stop-min-reports', '30');
     view.type('trip-reset-factor', '1.5');
+    view.type('trip-drift-energy', '15');
     view.type('upgrade-from', '  ');
     view.press('save-draft');
     await view.settle();
@@ -71,6 +72,11 @@ describe('release targeting form', () => {
       tripFailureRatio: 0.075,
       tripMinReports: 30,
       tripResetFactor: 1.5,
+      // The drift trip points: energy typed as 15 % is the fraction 0.15; the others keep their
+      // defaults (schemas/words.ts), 3 °C and 2 percentage points as the fraction 0.02.
+      tripDriftEnergy: 0.15,
+      tripDriftTempC: 3,
+      tripDriftFlagged: 0.02,
       notes: '',
       channel: 'stable',
     });

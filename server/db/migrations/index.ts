@@ -18,6 +18,7 @@ import * as m0015 from './0015_device_check_in_windows';
 import * as m0016 from './0016_release_trust';
 import * as m0017 from './0017_enrollment_requests';
 import * as m0018 from './0018_site_min_temp';
+import * as m0019 from './0019_measurement_drift';
 import * as m0020 from './0020_commissioning_checks';
 
 export type Migration = {
@@ -45,5 +46,6 @@ export const migrations: Migration[] = [
   { name: '0016_release_trust', ...m0016 },
   { name: '0017_enrollment_requests', ...m0017 },
   { name: '0018_site_min_temp', ...m0018 },
+  { name: '0019_measurement_drift', ...m0019 },
   { name: '0020_commissioning_checks', ...m0020 },
 ];

@@ -1,7 +1,7 @@
 // Signing keys, automation tokens, firmware images, releases and their history, install reports.
 import { DataTypes, Model, type CreationOptional, type InferAttributes, type InferCreationAttributes, type Sequelize } from 'sequelize';
 import type { SignatureAlgorithm } from '../../../schemas/manifest';
-import type { ReleaseAction, ReleaseState, ResumeState, StoppedBy } from '../../../schemas/words';
+import { DRIFT_TRIP_POINT_NAMES, DRIFT_TRIP_POINTS, type DriftTripPoint, type ReleaseAction, type ReleaseState, type ResumeState, type StoppedBy } from '../../../schemas/words';
 import type { Scope } from '../../auth/actor';
 import type { ActorType } from './activity';
 import type { Channel } from './registry';
@@ -55,6 +55,10 @@ export class Release extends Model<InferAttributes<Release>, InferCreationAttrib
   declare tripFailureRatio: CreationOptional<number>;
   declare tripMinReports: CreationOptional<number>;
   declare tripResetFactor: CreationOptional<number>;
+  /** The measurement-drift trip points (schemas/words.ts DRIFT_TRIP_POINTS; the `satisfies` below keeps these in step). */
+  declare tripDriftEnergy: CreationOptional<number>;
+  declare tripDriftTempC: CreationOptional<number>;
+  declare tripDriftFlagged: CreationOptional<number>;
   declare securityCounter: number;
   declare imageSha256: string;
   declare manifest: Buffer;
@@ -176,6 +180,7 @@ export function initReleaseModels(sequelize: Sequelize) {
       tripFailureRatio: numeric('tripFailureRatio', 0.05),
       tripMinReports: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 20 },
       tripResetFactor: numeric('tripResetFactor', 2),
+      ...(Object.fromEntries(DRIFT_TRIP_POINT_NAMES.map((n) => [n, numeric(n, DRIFT_TRIP_POINTS[n])])) as Record<DriftTripPoint, ReturnType<typeof numeric>>),
       securityCounter: { type: DataTypes.BIGINT, allowNull: false },
       imageSha256: { type: DataTypes.CHAR(64), allowNull: false },
       manifest: { type: DataTypes.BLOB, allowNull: false },
@@ -233,3 +238,7 @@ export function initReleaseModels(sequelize: Sequelize) {
     { sequelize, tableName: 'install_reports', underscored: true, timestamps: false },
   );
 }
+
+// Every drift trip point is an attribute of the release: a name added to DRIFT_TRIP_POINTS without its
+// `declare` above fails here.
+export type ReleaseDriftTripPoints = Pick<Release, DriftTripPoint>;
