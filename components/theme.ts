@@ -58,7 +58,7 @@ export const type = {
 /** Minimum touch target (docs/DESIGN.md: 44 px; gloves on a roof). */
 export const touchTarget = 44;
 /** A link that stands alone (not inside a sentence) on a 22 px line: padded to the 44 px target (WCAG 2.1 SC 2.5.5). */
-export const linkTarget = { minHeight: touchTarget, paddingVertical: (touchTarget - 22) / 2, alignSelf: 'flex-start' } as const;
+export const linkTarget = { minHeight: touchTarget, minWidth: touchTarget, paddingVertical: (touchTarget - 22) / 2, alignSelf: 'flex-start' } as const;
 
 export type Tone = 'moss' | 'ember' | 'amber' | 'slate' | 'ink';
 /** fg: fills, bars and icons; text: words and borders on the tint bg (or on surface/paper); bg: the tint. */

@@ -131,7 +131,7 @@ export function EmptyState({ title, detail, action }: { title: string; detail: s
 
 export function Skeleton({ rows = 3, height = 20 }: { rows?: number; height?: number }) {
   return (
-    <View aria-busy accessibilityLabel="Loading" style={{ gap: space.sm }}>
+    <View role="progressbar" aria-busy aria-label="Loading" style={{ gap: space.sm }}>
       {Array.from({ length: rows }, (_, i) => (
         <View key={i} style={{ height, borderRadius: radii.sm, backgroundColor: colors.paperDeep, width: `${90 - i * 12}%` }} />
       ))}

@@ -251,11 +251,8 @@ describe.each(Object.keys(viewports) as (keyof typeof viewports)[])('at %s size'
       ...(keyboard ? ['Tab reaches its main actions and every stop shows a focus ring'] : []),
     ];
     test(`when the ${screen.name} screen is open at ${size} size, then ${then.join(', and ')}`, async () => {
-      const t0 = Date.now();
       await screen.visit(page, size);
-      const t1 = Date.now();
       const problems = await axeProblems(page, size, screen.name);
-      process.stderr.write(`TIMING ${size} ${screen.name} visit ${t1 - t0} axe ${Date.now() - t1}\n`);
       if (size === 'phone') problems.push(...(await smallTargets(page)).map((t) => `target below 44 × 44 px (WCAG 2.5.5): ${t}`));
       if (keyboard) {
         const wanted = await keyboard(page);

@@ -163,7 +163,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     page.on('pageerror', (e) => errors.push(e.message));
     await signIn(page, base, 'lena@fernhollow.example', testPassword);
     await page.getByRole('heading', { name: 'Fleet health' }).waitFor();
-    await page.getByLabel(`Lagging sites: ${overview.fleet.laggingSites.count}`).first().waitFor();
+    await page.getByTestId('overview-lagging').filter({ hasText: `Lagging sites · ${overview.fleet.laggingSites.count}` }).waitFor();
     await screenshot(page, `overview-${size}`);
 
     await page.goto(`${base}/fleet/versions`);
