@@ -66,7 +66,7 @@ describe('the living demo in the browser', () => {
     const before = await watched(page);
     // Nobody has checked in for fifty minutes: more than three 15-minute intervals.
     expect(before.online).toBe(0);
-    expect(Object.keys(before.installed)).toContain('Release 3.0.0-rc.1 early');
+    expect(Object.keys(before.installed)).toContain('3.0.0-rc.1 early');
 
     let loads = 0;
     page.on('load', () => (loads += 1));
