@@ -1,7 +1,7 @@
 import React from 'react';
 import { Link } from 'expo-router';
 import { Text, View } from 'react-native';
-import { colors, space, type } from '../components/theme';
+import { colors, linkTarget, space, type } from '../components/theme';
 
 export default function NotFound() {
   return (
@@ -10,7 +10,7 @@ export default function NotFound() {
         Page not found
       </Text>
       <Text style={[type.body, { textAlign: 'center' }]}>This address does not lead anywhere in Heliodor. Check the link, or go back to the overview.</Text>
-      <Link href="/" style={[type.body, { textDecorationLine: 'underline', fontFamily: 'IBMPlexSans_600SemiBold' }]}>
+      <Link href="/" style={[type.body, linkTarget, { alignSelf: 'center', textDecorationLine: 'underline', fontFamily: 'IBMPlexSans_600SemiBold' }]}>
         Back to the overview
       </Link>
     </View>

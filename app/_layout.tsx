@@ -18,6 +18,7 @@ import { sessionKeys } from '../hooks/session';
 import { useOnline } from '../hooks/online';
 import { registerServiceWorker } from '../hooks/service-worker';
 import { OfflineBanner } from '../components/offline-banner';
+import { focusCss, useGlobalStyle } from '../components/web';
 
 // A session the server has ended (sign-out elsewhere, disabled, role changed) answers 401 to the next
 // request: the console then forgets the person, and the console's gate sends the page to sign-in.
@@ -65,6 +66,7 @@ const fontSources = web
 export default function RootLayout() {
   const [loaded, error] = useFonts(fontSources);
   const online = useOnline();
+  useGlobalStyle('heliodor-focus-css', focusCss);
   if (!web && !loaded && !error) return <View style={{ flex: 1, backgroundColor: colors.paper }} />;
   return (
     <SafeAreaProvider>

@@ -30,7 +30,7 @@ export const OPENAPI_PATH = '/api/device/v1/openapi.json';
 function Code({ text, label }: { text: string; label: string }) {
   return (
     <View style={styles.codeWrap} accessibilityLabel={label}>
-      <ScrollView horizontal contentContainerStyle={styles.codeScroll}>
+      <ScrollView horizontal tabIndex={0} aria-label={label} contentContainerStyle={styles.codeScroll}>
         <Text selectable style={styles.code}>
           {text}
         </Text>

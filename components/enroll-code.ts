@@ -7,7 +7,7 @@ export type CodeReading = { ok: true; token: string } | { ok: false; message: st
 
 export function readEnrollmentCode(raw: string): CodeReading {
   const text = raw.trim();
-  if (text === '') return { ok: false, message: 'Type or paste the code from the label.' };
+  if (text === '') return { ok: false, message: 'Type the token from the bench sheet row with the serial on the label.' };
   if (TOKEN.test(text)) return { ok: true, token: text };
   let url: URL | null = null;
   try {

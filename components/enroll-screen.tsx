@@ -24,6 +24,7 @@ import { FIRST_READINGS_COUNTED } from '../lib/commissioning';
 import type { Site, SiteInput } from '../hooks/sites';
 import { enrollRequest } from '../schemas/loggers';
 import type { InstallForProfile, ProfileError } from '../lib/calibration';
+import { probeStepChoice } from '../lib/calibration';
 
 const errorOf = (e: unknown) => e as (ApiError & Error) | null;
 
@@ -73,7 +74,7 @@ export function EnrollScan({
   };
 
   return (
-    <Page title="Enroll a logger" subtitle="Scan the QR label on the logger with the camera, or paste its link">
+    <Page title="Enroll a logger" subtitle="Scan the QR code on the logger label with the camera, or type its token from the bench sheet">
       {children}
       {camera ? <Notice title={camera.title} detail={camera.detail} tone="amber" /> : <QrScanner onRead={onRead} onProblem={setCamera} />}
       {scanProblem ? <Notice title="Not a logger label" detail={scanProblem} tone="amber" /> : null}
@@ -85,9 +86,9 @@ export function EnrollScan({
       ) : null}
       <ProblemNotice error={error} fallback="This label could not be looked up" />
       <Card>
-        <Text style={type.heading}>Type or paste the code</Text>
+        <Text style={type.heading}>Type the token</Text>
         <Field
-          label="Label link or token"
+          label="Token from the bench sheet (or the label's link)"
           value={typed}
           onChangeText={(v) => {
             setTyped(v);
@@ -95,7 +96,7 @@ export function EnrollScan({
           }}
           onSubmitEditing={submitTyped}
           error={typedError}
-          hint='The whole link from the label, or the token starting "hlt_"'
+          hint='The label prints the serial beside its QR code; the bench sheet row with that serial has its token, starting "hlt_". The link a QR reader app shows works too.'
           mono
           autoCapitalize="none"
           autoCorrect={false}
@@ -353,7 +354,7 @@ export function EnrollForm({ lookup, token, sites, siteQuery, onSiteQuery, creat
         control={control}
         name="tempResolutionBits"
         label="Temperature probe resolution"
-        choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: `${b} bits` }))}
+        choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: probeStepChoice(b) }))}
         testID="probe-resolution"
       />
       <FormField

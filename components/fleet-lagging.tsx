@@ -119,7 +119,7 @@ export function LaggingSitesScreen({ state, filter, onFilter, exportHref, wide, 
 
 function LaggingCard({ site, onOpen }: { site: LaggingSite; onOpen: (id: string) => void }) {
   return (
-    <Pressable role="link" aria-label={`Lagging site ${site.siteName}`} onPress={() => onOpen(site.siteId)} testID="lagging-card">
+    <Pressable role="link" onPress={() => onOpen(site.siteId)} testID="lagging-card">
       <Card style={{ gap: space.xs }}>
         <Row style={{ justifyContent: 'space-between', alignItems: 'flex-start' }}>
           <View style={{ flexShrink: 1 }}>
@@ -264,12 +264,13 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
       </Card>
       <View style={{ gap: space.sm, flexDirection: 'row', flexWrap: 'wrap' }} role="list" aria-label="Loggers behind">
         {site.loggers.map((l) => (
-          <LaggingLoggerCard
-            key={l.id}
-            logger={l}
-            onOpen={onOpenLogger}
-            onRetry={canRetry && l.reason === 'failed_awaiting_retry' ? () => setAsking({ orders: [{ releaseId: l.targetReleaseId, loggerIds: [l.id] }], label: `the failed install of ${l.targetVersion} on ${l.serial}` }) : undefined}
-          />
+          <View role="listitem" key={l.id} style={{ flexGrow: 1, flexBasis: 340 }}>
+            <LaggingLoggerCard
+              logger={l}
+              onOpen={onOpenLogger}
+              onRetry={canRetry && l.reason === 'failed_awaiting_retry' ? () => setAsking({ orders: [{ releaseId: l.targetReleaseId, loggerIds: [l.id] }], label: `the failed install of ${l.targetVersion} on ${l.serial}` }) : undefined}
+            />
+          </View>
         ))}
       </View>
       <ConfirmDialog
@@ -291,7 +292,7 @@ export function LaggingSiteScreen({ state, canRetry, retry, onOpenLogger, onOpen
 
 function LaggingLoggerCard({ logger, onOpen, onRetry }: { logger: LaggingLogger; onOpen: (id: string) => void; onRetry?: () => void }) {
   return (
-    <Card style={{ gap: space.xs, flexGrow: 1, flexBasis: 340 }} testID="lagging-logger">
+    <Card style={{ gap: space.xs, flexGrow: 1 }} testID="lagging-logger">
       <Row wrap style={{ justifyContent: 'space-between' }}>
         <Pressable role="link" aria-label={`Logger ${logger.serial}`} onPress={() => onOpen(logger.id)} style={{ minHeight: touchTarget, justifyContent: 'center' }}>
           <Mono style={{ fontFamily: fonts.monoMedium, fontSize: 16, textDecorationLine: 'underline' }}>{logger.serial}</Mono>

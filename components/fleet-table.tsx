@@ -3,6 +3,7 @@
 // screen. Wide screens get the full table; phones get cards with serial, site, firmware and the worst flag.
 import React from 'react';
 import { Pressable, ScrollView, StyleSheet, Text, View } from 'react-native';
+import { dataAttributes } from './web';
 import {
   columnVisibilityFeature,
   createColumnHelper,
@@ -161,6 +162,7 @@ export function FleetTable({ rows, total, sort, dir, page, pageSize, hidden, onS
               key={r.id}
               onPress={() => onOpen(r.original.id)}
               aria-label={`Logger ${r.original.serial}`}
+              {...dataAttributes({ serial: r.original.serial })}
               testID="fleet-row"
               style={(s) => [styles.tr, (s as { hovered?: boolean }).hovered && { backgroundColor: colors.paper }]}
             >
@@ -179,7 +181,7 @@ export function FleetTable({ rows, total, sort, dir, page, pageSize, hidden, onS
 
 export function FleetCard({ row, onOpen }: { row: FleetRow; onOpen: (id: string) => void }) {
   return (
-    <Pressable role="link" aria-label={`Logger ${row.serial}`} onPress={() => onOpen(row.id)} testID="fleet-card">
+    <Pressable role="link" {...dataAttributes({ serial: row.serial })} onPress={() => onOpen(row.id)} testID="fleet-card">
       <Card style={{ gap: space.xs }}>
         <Row style={{ justifyContent: 'space-between' }}>
           <Mono style={{ fontFamily: fonts.monoMedium, fontSize: 16 }}>{row.serial}</Mono>

@@ -8,7 +8,7 @@ import { Badge, Card, EmptyState, Mono, ProgressBar, Row } from './ui';
 import { Choices } from './choice';
 import { QueryView, type QueryState } from './query-state';
 import { DayLineChart, StackedBarChart } from './charts/lazy';
-import { colors, fonts, space, type } from './theme';
+import { colors, fonts, linkTarget, space, touchTarget, type } from './theme';
 import type { VersionMatrix } from '../schemas/fleet';
 
 type ModelVersions = VersionMatrix['models'][number];
@@ -52,7 +52,7 @@ function ModelSection({ model, versionHref, onOpenRelease }: { model: ModelVersi
               <Text style={[type.body, { fontFamily: fonts.semibold }]}>Channel {t.channel}</Text>
               {t.currentRelease ? <Mono>{t.currentRelease.version}</Mono> : <Badge label="No current release" tone="ink" />}
             </Row>
-            <ProgressBar value={t.share * 100} tone={t.share >= 0.9 ? 'moss' : t.share >= 0.5 ? 'slate' : 'amber'} />
+            <ProgressBar value={t.share * 100} name={`Channel ${t.channel}: on the current release or newer`} tone={t.share >= 0.9 ? 'moss' : t.share >= 0.5 ? 'slate' : 'amber'} />
             <Text style={type.small}>
               {t.onCurrent} of {t.loggers} enrolled loggers ({pct(t.share)}) on the current release or newer
               {t.currentRelease ? ` · ${t.currentRelease.state} at ${t.currentRelease.share} % share` : ''}
@@ -82,7 +82,7 @@ function ModelSection({ model, versionHref, onOpenRelease }: { model: ModelVersi
               <View role="row" key={v.firmware ?? 'none'} style={styles.tr}>
                 <View role="cell" style={styles.firstCol}>
                   {v.firmware ? (
-                    <Link href={versionHref(model.modelId, v.firmware) as never} style={[type.mono, { color: colors.slate, textDecorationLine: 'underline' }]}>
+                    <Link href={versionHref(model.modelId, v.firmware) as never} style={[type.mono, linkTarget, { paddingVertical: (touchTarget - 20) / 2, color: colors.slateInk, textDecorationLine: 'underline' }]}>
                       {v.firmware}
                     </Link>
                   ) : (

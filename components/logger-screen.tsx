@@ -11,7 +11,7 @@ import { QueryView, type QueryState } from './query-state';
 import { loggerStatus } from './status';
 import { formatCurrent, formatPower } from './calibration-preview';
 import { absoluteTime, relativeTime } from './format';
-import { colors, fonts, radii, space, touchTarget, type } from './theme';
+import { colors, fonts, linkTarget, radii, space, touchTarget, type } from './theme';
 import type { ApiError } from '../hooks/api';
 import type { LoggerDetail, ProfileInput } from '../hooks/loggers';
 import { probeStepText, type ModelLimits } from '../lib/calibration';
@@ -107,7 +107,7 @@ function LoggerDetailView({ logger, rotate, retire, move, profile, photoUrl, fle
           <Text style={type.heading}>Site</Text>
           {logger.site ? (
             <>
-              <Link href={`/sites/${logger.site.id}` as never} style={[type.body, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>
+              <Link href={`/sites/${logger.site.id}` as never} style={[type.body, linkTarget, { fontFamily: fonts.semibold, textDecorationLine: 'underline' }]}>
                 {logger.site.name}
               </Link>
               <Text style={type.small}>{logger.site.customer}</Text>

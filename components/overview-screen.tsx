@@ -1,12 +1,13 @@
 import React from 'react';
 import { Pressable, StyleSheet, Text, View } from 'react-native';
+import { dataAttributes } from './web';
 import { Link } from 'expo-router';
 import { Page } from './shell';
 import { Badge, Card, EmptyState, ProgressBar, Row } from './ui';
 import { FLAG_WORDS, NOT_HEARD_FROM, RELEASE_STATE_WORDS } from './words';
 import { QueryView, type QueryState } from './query-state';
 import { useBreakpoints } from './breakpoints';
-import { colors, space, type, toneColors, type Tone } from './theme';
+import { colors, linkTarget, space, type, toneColors, type Tone } from './theme';
 import type { Overview } from '../schemas/overview';
 import { relativeTime, summaryAge } from './format';
 
@@ -42,14 +43,16 @@ function Figure({ label, value, note, tone = 'ink', href }: { label: string; val
   const card = (
     <Card style={styles.figure} testID={`figure-${label.toLowerCase()}`}>
       <Text style={type.label}>{label}</Text>
-      <Text style={[type.figure, { color: toneColors[tone].fg }]}>{value.toLocaleString('en-GB')}</Text>
+      <Text style={[type.figure, { color: toneColors[tone].text }]} testID={`figure-${label.toLowerCase()}-value`}>
+        {value.toLocaleString('en-GB')}
+      </Text>
       <Text style={type.small}>{note}</Text>
     </Card>
   );
   if (!href) return card;
   return (
     <Link href={href as never} asChild>
-      <Pressable role="link" aria-label={`${label}: ${value}`} style={styles.figureLink}>
+      <Pressable role="link" style={styles.figureLink}>
         {card}
       </Pressable>
     </Link>
@@ -67,13 +70,13 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
         <Row wrap gap={space.sm}>
           {fleet.flags.map((f) => (
             <Link key={f.flag} href={f.href as never} asChild>
-              <Pressable role="link" style={styles.chip} aria-label={`${FLAG_WORDS[f.flag].label}: ${f.count}`} testID={`overview-flag-${f.flag}`}>
+              <Pressable role="link" style={styles.chip} testID={`overview-flag-${f.flag}`}>
                 <Badge label={`${FLAG_WORDS[f.flag].label} · ${f.count}`} tone={f.count ? FLAG_WORDS[f.flag].tone : 'moss'} />
               </Pressable>
             </Link>
           ))}
           <Link href={fleet.laggingSites.href as never} asChild>
-            <Pressable role="link" style={styles.chip} aria-label={`Lagging sites: ${fleet.laggingSites.count}`} testID="overview-lagging">
+            <Pressable role="link" style={styles.chip} testID="overview-lagging">
               <Badge
                 label={`Lagging sites · ${fleet.laggingSites.count}${summaryAge(fleet.laggingSites.ageS) ? ` (${summaryAge(fleet.laggingSites.ageS)})` : ''}`}
                 tone={fleet.laggingSites.count ? 'amber' : 'moss'}
@@ -81,12 +84,12 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
             </Pressable>
           </Link>
           <Link href={'/loggers?status=registered' as never} asChild>
-            <Pressable role="link" style={styles.chip} aria-label={`Registered, not enrolled: ${registered}`}>
+            <Pressable role="link" style={styles.chip}>
               <Badge label={`Registered · ${registered}`} tone="slate" />
             </Pressable>
           </Link>
           <Link href={'/loggers?status=retired' as never} asChild>
-            <Pressable role="link" style={styles.chip} aria-label={`Retired: ${retired}`}>
+            <Pressable role="link" style={styles.chip}>
               <Badge label={`Retired · ${retired}`} tone="ink" />
             </Pressable>
           </Link>
@@ -101,7 +104,7 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
         ) : (
           fleet.liveReleases.map((r) => (
             <Link key={r.id} href={r.href as never} asChild>
-              <Pressable role="link" style={styles.releaseRow} aria-label={`Release ${r.version} ${r.channel}`}>
+              <Pressable role="link" style={styles.releaseRow} testID="live-release" {...dataAttributes({ release: `${r.version} ${r.channel}` })}>
                 <View style={{ gap: space.xs, width: '100%' }}>
                   <Row wrap style={{ justifyContent: 'space-between' }}>
                     <Text style={type.body}>
@@ -109,7 +112,7 @@ function FleetHealth({ fleet, registered, retired }: { fleet: Overview['fleet'];
                     </Text>
                     <Badge label={`${RELEASE_STATE_WORDS[r.state].label} · ${r.share} %`} tone={RELEASE_STATE_WORDS[r.state].tone} />
                   </Row>
-                  <ProgressBar value={r.share} tone={r.state === 'stopped' ? 'ember' : 'moss'} />
+                  <ProgressBar value={r.share} name={`Release ${r.version} rollout share`} tone={r.state === 'stopped' ? 'ember' : 'moss'} />
                   <Text style={type.small}>
                     {r.installed} installed · {r.failed} failed
                   </Text>
@@ -130,7 +133,7 @@ const styles = StyleSheet.create({
   chip: { minHeight: 44, justifyContent: 'center', paddingVertical: space.sm, textDecorationLine: 'none' },
   releaseRow: { borderTopColor: colors.line, borderTopWidth: 1, paddingVertical: space.sm, textDecorationLine: 'none' },
   activityRow: { borderTopColor: colors.line, borderTopWidth: 1, paddingTop: space.sm, gap: 2 },
-  link: { textDecorationLine: 'underline', color: colors.ink, alignSelf: 'flex-start', paddingVertical: space.sm },
+  link: { textDecorationLine: 'underline', color: colors.ink, ...linkTarget },
 });
 
 /** The latest entries of the activity log, for people who may read it (the overview answers null to others). */

@@ -12,6 +12,7 @@ import type { ApiError } from '../hooks/api';
 import type { Profile, ProfileInput } from '../hooks/loggers';
 import { profileChangeRequest } from '../schemas/loggers';
 import type { ModelLimits, ProfileError } from '../lib/calibration';
+import { probeStepChoice } from '../lib/calibration';
 
 const trimmed = (x: number) => String(Number(x.toPrecision(12)));
 
@@ -115,7 +116,7 @@ export function ProfileForm({
         control={control}
         name="tempResolutionBits"
         label="Temperature probe resolution"
-        choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: `${b} bits` }))}
+        choices={[...limits.tempResolutions].sort((a, b) => a - b).map((b) => ({ value: b, label: probeStepChoice(b) }))}
       />
       <CalibrationPreview result={result} filled={filled} />
       {server && !server.fieldErrors?.length ? <Notice title={server.title} detail={server.detail} /> : null}

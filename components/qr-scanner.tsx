@@ -13,21 +13,27 @@ const DECODE_WIDTH = 640;
 /** After this long without a code, suggest distance and light. */
 const HINT_AFTER_MS = 8000;
 
+/**
+ * What to type instead: a logger label prints the serial, model and board beside its QR code, not the token
+ * (components/label-sheet.tsx, server/loggers/labels.ts); the token is on the bench sheet, one row per serial.
+ */
+export const TYPE_INSTEAD = 'Type the token from the bench sheet row with the serial printed on the label (it starts "hlt_") in the box below.';
+
 function cameraProblem(err: unknown): ScannerProblem {
   const name = (err as { name?: string } | null)?.name;
   if (name === 'NotAllowedError' || name === 'SecurityError') {
     return {
       title: 'Camera access was refused',
-      detail: 'Allow the camera for this site in the browser settings and open Enroll again, or type the code printed under the label below.',
+      detail: `Allow the camera for this site in the browser settings and open Enroll again. Or: ${TYPE_INSTEAD}`,
     };
   }
   if (name === 'NotFoundError' || name === 'OverconstrainedError') {
-    return { title: 'No camera found', detail: 'This device has no camera the browser can use. Type or paste the code from the label below.' };
+    return { title: 'No camera found', detail: `This device has no camera the browser can use. ${TYPE_INSTEAD}` };
   }
   if (name === 'NotReadableError') {
-    return { title: 'The camera is busy', detail: 'Another app is using the camera. Close it and try again, or type the code below.' };
+    return { title: 'The camera is busy', detail: `Another app is using the camera. Close it and try again. Or: ${TYPE_INSTEAD}` };
   }
-  return { title: 'The camera could not start', detail: 'Type or paste the code from the label below instead.' };
+  return { title: 'The camera could not start', detail: TYPE_INSTEAD };
 }
 
 export function QrScanner({ onRead, onProblem }: { onRead: (text: string) => void; onProblem: (p: ScannerProblem) => void }) {
@@ -66,7 +72,7 @@ export function QrScanner({ onRead, onProblem }: { onRead: (text: string) => voi
       if (!navigator.mediaDevices?.getUserMedia) {
         problemRef.current({
           title: 'This browser cannot open the camera here',
-          detail: 'The camera needs the console on a secure (https) address. Type or paste the code from the label below.',
+          detail: `The camera needs the console on a secure (https) address. ${TYPE_INSTEAD}`,
         });
         return;
       }

@@ -39,7 +39,7 @@ export function ShareBar({ state, share, compact, testID }: { state: ReleaseStat
           : `${formatShare(n)} of eligible loggers`;
   return (
     <View testID={testID} style={{ gap: space.xs, minWidth: compact ? 96 : undefined }}>
-      <ProgressBar value={n} tone={stateTones[state] === 'ink' ? 'slate' : stateTones[state]} />
+      <ProgressBar value={n} name="Rollout share" tone={stateTones[state] === 'ink' ? 'slate' : stateTones[state]} />
       <Text style={[type.small, { fontVariant: ['tabular-nums'] }]}>{compact ? (state === 'draft' ? '—' : formatShare(n)) : caption}</Text>
     </View>
   );

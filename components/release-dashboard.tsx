@@ -92,7 +92,7 @@ function TripGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
         <Text style={type.body} testID="failure-ratio">
           Failure ratio {pct(f.ratio)} of {pct(f.threshold)}
         </Text>
-        <ProgressBar value={Math.min(100, used * 100)} tone={tone} />
+        <ProgressBar value={Math.min(100, used * 100)} name="Failure ratio against its trip point" tone={tone} />
         <Text style={type.small}>
           {f.failed} failed of {f.finished} finished installs (connection and low-supply failures are retried, not counted).{' '}
           {f.judged ? (f.over ? 'Above the threshold: the release trips at the next install report.' : 'Judged: below the threshold.') : `Judged from ${f.minReports} finished installs (${Math.max(0, f.minReports - f.finished)} to go).`}
@@ -102,7 +102,7 @@ function TripGauges({ d, refreshing }: { d: Dashboard; refreshing: boolean }) {
         <Text style={type.body} testID="reset-rate">
           {r.judged ? `Resets ${Number(r.factor.toFixed(2))} × the rate before, of ${r.threshold} ×` : `Watchdog and brown-out resets: trips above ${r.threshold} × the rate before`}
         </Text>
-        {r.judged ? <ProgressBar value={Math.min(100, resetUsed * 100)} tone={resetTone} /> : null}
+        {r.judged ? <ProgressBar value={Math.min(100, resetUsed * 100)} name="Reset rate against its trip point" tone={resetTone} /> : null}
         <Text style={type.small}>
           {r.judged
             ? `${rate(r.after)} resets per logger-day on this release over ${r.loggers} loggers, against ${rate(r.before)} before it${r.before < r.beforeJudged ? ` (judged against at least ${rate(r.beforeJudged)})` : ''}.`
@@ -141,7 +141,7 @@ function DriftGauge({ drift }: { drift: Drift }) {
               {look.label}: {g.shift === null ? 'no figure yet' : look.shift(g.shift)} (trip point {look.point(g.threshold)}
               {g.judged ? `, median of ${g.loggers} loggers` : `; judged from ${drift.minLoggers} loggers, ${g.loggers} so far`})
             </Text>
-            {g.judged ? <ProgressBar value={Math.min(100, used * 100)} tone={tone} /> : null}
+            {g.judged ? <ProgressBar value={Math.min(100, used * 100)} tone={tone} name={`${look.label} against its trip point`} /> : null}
           </View>
         );
       })}
@@ -203,7 +203,7 @@ function Boards({ d, wide }: { d: Dashboard; wide: boolean }) {
               <Text style={type.heading}>Board {b.board}</Text>
               {b.targeted ? null : <Badge label="Not targeted" tone="slate" />}
             </Row>
-            <ProgressBar value={share(b)} tone={b.failed ? 'amber' : 'moss'} />
+            <ProgressBar value={share(b)} name={`Board ${b.board}: on this release or newer`} tone={b.failed ? 'amber' : 'moss'} />
             <Text style={[type.dense, styles.num]}>
               {b.onRelease} of {b.loggers} on this release or newer
             </Text>
@@ -220,7 +220,6 @@ function SiteRow({ s, onOpen, wide }: { s: ReleaseSiteRow; onOpen: (id: string) 
     <Pressable
       onPress={() => onOpen(s.siteId)}
       role="link"
-      aria-label={`${s.siteName}, ${s.customer}: ${s.onRelease} of ${s.loggers} on this release, ${s.failed} failed`}
       style={(st) => [styles.group, styles.siteRow, wide ? styles.siteRowWide : null, (st as { hovered?: boolean }).hovered && { backgroundColor: colors.paper }]}
       testID="release-site"
     >
@@ -229,7 +228,7 @@ function SiteRow({ s, onOpen, wide }: { s: ReleaseSiteRow; onOpen: (id: string) 
         <Text style={type.small}>{s.customer}</Text>
       </View>
       <View style={wide ? { flex: 3, gap: 2 } : { gap: 2 }}>
-        <ProgressBar value={share(s)} tone={s.failed ? 'amber' : 'moss'} />
+        <ProgressBar value={share(s)} name={`${s.siteName}: on this release`} tone={s.failed ? 'amber' : 'moss'} />
         <Text style={[type.small, styles.num]}>
           {s.onRelease} of {s.loggers} on this release
         </Text>

@@ -286,7 +286,7 @@ function Funnel({ r }: { r: Release }) {
           <View key={k} style={styles.funnelRow}>
             <Text style={[type.dense, { width: 104 }]}>{label}</Text>
             <View style={{ flex: 1 }}>
-              <ProgressBar value={(n / top) * 100} tone={tone} />
+              <ProgressBar value={(n / top) * 100} name={label} tone={tone} />
             </View>
             <Text style={[type.dense, styles.num, k === 'failed' && n > 0 ? { color: colors.ember, fontFamily: fonts.semibold } : null]}>{n}</Text>
           </View>

@@ -114,7 +114,7 @@ function Counts({ r }: { r: ReleaseRow }) {
 function ReleaseCard({ r }: { r: ReleaseRow }) {
   return (
     <Link href={`/releases/${r.id}` as never} asChild>
-      <Pressable aria-label={`Release ${r.version} of ${r.modelName}, ${stateWords[r.state]}`} testID="release-card" style={styles.cardPress}>
+      <Pressable testID="release-card" style={styles.cardPress}>
         <Card>
           <Row style={{ justifyContent: 'space-between' }}>
             <Mono style={{ fontSize: 17, fontFamily: fonts.monoMedium }}>{r.version}</Mono>
@@ -136,38 +136,40 @@ function ReleaseCard({ r }: { r: ReleaseRow }) {
 function ReleaseTable({ rows }: { rows: ReleaseRow[] }) {
   return (
     <Card style={{ padding: 0, gap: 0 }} testID="release-table">
-      <View role="row" style={[styles.tr, styles.thead]}>
-        {['Version', 'Model', 'Channel', 'State', 'Share', 'Installed', 'Failed', 'Uploaded'].map((h, i) => (
-          <Text key={h} role="columnheader" style={[type.label, styles.cell, cols[i]]}>
-            {h}
-          </Text>
+      <View role="table" aria-label="Releases">
+        <View role="row" style={[styles.tr, styles.thead]}>
+          {['Version', 'Model', 'Channel', 'State', 'Share', 'Installed', 'Failed', 'Uploaded'].map((h, i) => (
+            <Text key={h} role="columnheader" style={[type.label, styles.cell, cols[i]]}>
+              {h}
+            </Text>
+          ))}
+        </View>
+        {rows.map((r) => (
+          <Link key={r.id} href={`/releases/${r.id}` as never} asChild>
+            <Pressable role="row" aria-label={`Release ${r.version} of ${r.modelName}, ${stateWords[r.state]}`} style={styles.tr}>
+              <View role="cell" style={[styles.cell, cols[0]]}>
+                <Mono style={{ fontFamily: fonts.monoMedium }}>{r.version}</Mono>
+                {r.flagged ? <Badge label="Revoked key" tone="ember" /> : null}
+              </View>
+              <Text role="cell" style={[type.dense, styles.cell, cols[1]]}>{r.modelName}</Text>
+              <View role="cell" style={[styles.cell, cols[2]]}>
+                <ChannelBadge channel={r.channel} />
+              </View>
+              <View role="cell" style={[styles.cell, cols[3]]}>
+                <StateBadge state={r.state} />
+              </View>
+              <View role="cell" style={[styles.cell, cols[4]]}>
+                <ShareBar state={r.state} share={r.share} compact />
+              </View>
+              <Text role="cell" style={[type.dense, styles.cell, cols[5], styles.num, { color: colors.mossInk }]}>{r.installed}</Text>
+              <Text role="cell" style={[type.dense, styles.cell, cols[6], styles.num, r.failed ? { color: colors.emberInk, fontFamily: fonts.semibold } : null]}>{r.failed}</Text>
+              <Text role="cell" aria-label={absoluteTime(r.createdAt)} style={[type.small, styles.cell, cols[7]]}>
+                {relativeTime(r.createdAt)}
+              </Text>
+            </Pressable>
+          </Link>
         ))}
       </View>
-      {rows.map((r) => (
-        <Link key={r.id} href={`/releases/${r.id}` as never} asChild>
-          <Pressable role="row" aria-label={`Release ${r.version} of ${r.modelName}, ${stateWords[r.state]}`} style={styles.tr}>
-            <View style={[styles.cell, cols[0]]}>
-              <Mono style={{ fontFamily: fonts.monoMedium }}>{r.version}</Mono>
-              {r.flagged ? <Badge label="Revoked key" tone="ember" /> : null}
-            </View>
-            <Text style={[type.dense, styles.cell, cols[1]]}>{r.modelName}</Text>
-            <View style={[styles.cell, cols[2]]}>
-              <ChannelBadge channel={r.channel} />
-            </View>
-            <View style={[styles.cell, cols[3]]}>
-              <StateBadge state={r.state} />
-            </View>
-            <View style={[styles.cell, cols[4]]}>
-              <ShareBar state={r.state} share={r.share} compact />
-            </View>
-            <Text style={[type.dense, styles.cell, cols[5], styles.num, { color: colors.moss }]}>{r.installed}</Text>
-            <Text style={[type.dense, styles.cell, cols[6], styles.num, r.failed ? { color: colors.ember, fontFamily: fonts.semibold } : null]}>{r.failed}</Text>
-            <Text aria-label={absoluteTime(r.createdAt)} style={[type.small, styles.cell, cols[7]]}>
-              {relativeTime(r.createdAt)}
-            </Text>
-          </Pressable>
-        </Link>
-      ))}
     </Card>
   );
 }

@@ -22,6 +22,9 @@ export function SignInScreen({ busy, error, onSubmit, footer }: Props) {
           <View style={styles.mark} />
           <Text style={[type.title, { fontFamily: fonts.bold }]}>Heliodor</Text>
         </View>
+        <Text role="heading" aria-level={1} style={type.heading}>
+          Sign in
+        </Text>
         <Text style={[type.body, { color: colors.inkSoft }]}>Provisioning and firmware releases for solar energy loggers.</Text>
         {error ? <Notice title={error.status === 401 ? 'Sign-in failed' : error.title} detail={error.detail} /> : null}
         <Field

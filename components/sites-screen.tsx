@@ -58,7 +58,7 @@ export function SitesScreen({
           data.rows.length ? (
             <View style={styles.grid}>
               {data.rows.map((s) => (
-                <Pressable key={s.id} role="link" aria-label={`Site ${s.name}`} onPress={() => onOpen(s.id)} style={styles.cell}>
+                <Pressable key={s.id} role="link" testID="site-card" onPress={() => onOpen(s.id)} style={styles.cell}>
                   <Card>
                     <Row style={{ justifyContent: 'space-between' }}>
                       <Text style={[type.body, { fontFamily: fonts.semibold, flexShrink: 1 }]}>{s.name}</Text>
@@ -141,7 +141,7 @@ export function SiteScreen({
                   {data.rows.map((r) => {
                     const s = loggerStatus(withOnline(r, intervals));
                     return (
-                      <Pressable key={r.id} role="link" aria-label={`Logger ${r.serial}`} onPress={() => onOpenLogger(r.id)} style={styles.loggerRow}>
+                      <Pressable key={r.id} role="link" onPress={() => onOpenLogger(r.id)} style={styles.loggerRow}>
                         <Mono>{r.serial}</Mono>
                         <Text style={[type.small, { flex: 1 }]}>
                           {r.modelName} · board {r.board}

@@ -139,7 +139,7 @@ function MemberCard({ m, meId, now, ask }: { m: TeamMember; meId: string; now: D
 function TeamTable({ rows, meId, now, ask }: { rows: TeamMember[]; meId: string; now: Date; ask: (a: MemberAction) => void }) {
   return (
     <Card style={{ padding: 0, gap: 0 }}>
-      <View style={[styles.tr, styles.th]} role="row">
+      <View style={[styles.tr, styles.th]}>
         <Text style={[type.label, styles.cPerson]}>Person</Text>
         <Text style={[type.label, styles.cRole]}>Role</Text>
         <Text style={[type.label, styles.cStatus]}>Status</Text>

@@ -12,13 +12,20 @@ export const colors = {
   amber: '#B98412',
   slate: '#4F6D7A',
   inkSoft: '#4A5A61',
-  inkFaint: '#6F7C80',
+  // 5.0:1 on paper, 5.5:1 on surface (WCAG 2.1 AA 1.4.3 asks 4.5:1 for text); #6F7C80 was 3.95:1 on paper.
+  inkFaint: '#5F6B70',
   paperDeep: '#EFEBDF',
   emberWash: '#F8E9E2',
   amberWash: '#F7EFD9',
   mossWash: '#E3F0E8',
   slateWash: '#E4ECEF',
   onInk: '#F7F5EE',
+  // Text and borders on a status tint: a darker ink of the same hue (docs/DESIGN.md), each ≥ 5.7:1 on its tint
+  // and on surface (WCAG 2.1 AA 1.4.3: 4.5:1). The status colours above stay for fills, bars and icons.
+  mossInk: '#24603F',
+  emberInk: '#9A3F1C',
+  amberInk: '#7A5608',
+  slateInk: '#3E5A66',
 } as const;
 
 export const space = { xs: 4, sm: 8, md: 12, lg: 16, xl: 24, xxl: 32 } as const;
@@ -50,12 +57,15 @@ export const type = {
 
 /** Minimum touch target (docs/DESIGN.md: 44 px; gloves on a roof). */
 export const touchTarget = 44;
+/** A link that stands alone (not inside a sentence) on a 22 px line: padded to the 44 px target (WCAG 2.1 SC 2.5.5). */
+export const linkTarget = { minHeight: touchTarget, minWidth: touchTarget, paddingVertical: (touchTarget - 22) / 2, alignSelf: 'flex-start' } as const;
 
 export type Tone = 'moss' | 'ember' | 'amber' | 'slate' | 'ink';
-export const toneColors: Record<Tone, { fg: string; bg: string }> = {
-  moss: { fg: colors.moss, bg: colors.mossWash },
-  ember: { fg: colors.ember, bg: colors.emberWash },
-  amber: { fg: colors.amber, bg: colors.amberWash },
-  slate: { fg: colors.slate, bg: colors.slateWash },
-  ink: { fg: colors.ink, bg: colors.paperDeep },
+/** fg: fills, bars and icons; text: words and borders on the tint bg (or on surface/paper); bg: the tint. */
+export const toneColors: Record<Tone, { fg: string; text: string; bg: string }> = {
+  moss: { fg: colors.moss, text: colors.mossInk, bg: colors.mossWash },
+  ember: { fg: colors.ember, text: colors.emberInk, bg: colors.emberWash },
+  amber: { fg: colors.amber, text: colors.amberInk, bg: colors.amberWash },
+  slate: { fg: colors.slate, text: colors.slateInk, bg: colors.slateWash },
+  ink: { fg: colors.ink, text: colors.ink, bg: colors.paperDeep },
 };

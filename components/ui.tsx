@@ -88,7 +88,7 @@ export function Field({ label, error, hint, mono, style, ...input }: FieldProps)
         {...input}
       />
       {error ? (
-        <Text role="alert" style={[type.small, { color: colors.ember }]}>
+        <Text role="alert" style={[type.small, { color: colors.emberInk }]}>
           {error}
         </Text>
       ) : hint ? (
@@ -102,8 +102,8 @@ export function Field({ label, error, hint, mono, style, ...input }: FieldProps)
 export function Badge({ label, tone = 'slate', testID }: { label: string; tone?: Tone; testID?: string }) {
   const c = toneColors[tone];
   return (
-    <View testID={testID} style={[styles.badge, { backgroundColor: c.bg, borderColor: c.fg }]}>
-      <Text style={[type.label, { color: c.fg, fontSize: 12 }]}>{label}</Text>
+    <View testID={testID} style={[styles.badge, { backgroundColor: c.bg, borderColor: c.text }]}>
+      <Text style={[type.label, { color: c.text, fontSize: 12 }]}>{label}</Text>
     </View>
   );
 }
@@ -112,7 +112,7 @@ export function Notice({ title, detail, tone = 'ember', children }: { title: str
   const c = toneColors[tone];
   return (
     <View role={tone === 'ember' ? 'alert' : undefined} style={[styles.notice, { backgroundColor: c.bg, borderLeftColor: c.fg }]}>
-      <Text style={[type.body, { fontFamily: fonts.semibold, color: c.fg }]}>{title}</Text>
+      <Text style={[type.body, { fontFamily: fonts.semibold, color: c.text }]}>{title}</Text>
       {detail ? <Text style={type.body}>{detail}</Text> : null}
       {children}
     </View>
@@ -131,7 +131,7 @@ export function EmptyState({ title, detail, action }: { title: string; detail: s
 
 export function Skeleton({ rows = 3, height = 20 }: { rows?: number; height?: number }) {
   return (
-    <View aria-busy accessibilityLabel="Loading" style={{ gap: space.sm }}>
+    <View role="progressbar" aria-busy aria-label="Loading" style={{ gap: space.sm }}>
       {Array.from({ length: rows }, (_, i) => (
         <View key={i} style={{ height, borderRadius: radii.sm, backgroundColor: colors.paperDeep, width: `${90 - i * 12}%` }} />
       ))}
@@ -139,12 +139,13 @@ export function Skeleton({ rows = 3, height = 20 }: { rows?: number; height?: nu
   );
 }
 
-export function ProgressBar({ value, label, tone = 'moss' }: { value: number; label?: string; tone?: Tone }) {
+/** A bar from 0 to 100; its accessible name is the visible `label`, or `name` when the words stand beside it. */
+export function ProgressBar({ value, label, name, tone = 'moss' }: { value: number; tone?: Tone } & ({ label: string; name?: string } | { label?: undefined; name: string })) {
   const pct = Math.max(0, Math.min(100, value));
   return (
     <View style={{ gap: space.xs }}>
       {label ? <Text style={type.small}>{label}</Text> : null}
-      <View role="progressbar" aria-valuenow={Math.round(pct)} aria-valuemin={0} aria-valuemax={100} style={styles.progressTrack}>
+      <View role="progressbar" aria-label={name ?? label} aria-valuenow={Math.round(pct)} aria-valuemin={0} aria-valuemax={100} style={styles.progressTrack}>
         <View style={[styles.progressFill, { width: `${pct}%`, backgroundColor: toneColors[tone].fg }]} />
       </View>
     </View>

@@ -1,6 +1,7 @@
 // Small browser-only helpers (the console's target is the web); each is a no-op elsewhere.
 import React from 'react';
 import { Platform } from 'react-native';
+import { colors } from './theme';
 
 const isWeb = Platform.OS === 'web' && typeof document !== 'undefined';
 
@@ -83,6 +84,13 @@ export function useLeaveGuard(active: boolean, navigate: (href: string) => void)
 }
 
 /**
+ * The focus ring every focusable element shows when reached by keyboard (WCAG 2.1 SC 2.4.7 Focus Visible):
+ * heliodor, the ring colour of docs/DESIGN.md, outside a thin ink line, so it stands out on paper (the ink
+ * line) and on the ink sidebar (the heliodor ring) alike — SC 1.4.11 asks 3:1 of a ring against what is beside it.
+ */
+export const focusCss = `*:focus-visible { outline: 3px solid ${colors.heliodor} !important; outline-offset: 2px !important; box-shadow: 0 0 0 2px ${colors.ink}; }`;
+
+/**
  * Adds a style element while the component is shown (the print rules of the label sheet and the commissioning
  * sheet): each hides everything but its own printed copy, so one left behind would blank the other's print.
  */
@@ -102,3 +110,6 @@ export { isWeb };
 /** The console's own origin, for the enrollment links labels encode. */
 export const consoleOrigin = () => (isWeb ? window.location.origin : '');
 
+
+/** data-* attributes on a React Native Web view (`dataSet`, which React Native's types do not declare): hooks for tests. */
+export const dataAttributes = (data: Record<string, string>) => ({ dataSet: data }) as object;

@@ -275,6 +275,12 @@ export function probeStepText(bits: number): string {
   return step === undefined ? `${bits} bits` : `${step} °C steps`;
 }
 
+/** "0.0625 °C" for 12 bits: the words on a resolution choice, in the step an installer reads off the probe. */
+export function probeStepChoice(bits: number): string {
+  const step = probeStepC[bits as TempResolutionBits];
+  return step === undefined ? `${bits} bits` : `${step} °C`;
+}
+
 function headroomFor(install: InstallForProfile, limits: ModelLimits, cold: ColdVoc | undefined): Headroom | undefined {
   if (!isPositive(install.shuntOhm) || !isPositive(install.maxCurrentA)) return undefined;
   if (!isPositive(limits.shuntFullScaleV) || !isPositive(limits.busVMax)) return undefined;

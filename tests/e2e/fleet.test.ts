@@ -39,8 +39,8 @@ async function apiList<T>(path: string): Promise<{ rows: T[]; total: number }> {
 
 /** The serials the page shows (table rows on wide screens, cards on phones), in order. */
 async function shownSerials(page: Page, wide: boolean): Promise<string[]> {
-  const labels = await page.getByTestId(wide ? 'fleet-row' : 'fleet-card').evaluateAll((els) => els.map((e) => e.getAttribute('aria-label') ?? ''));
-  return labels.map((l) => l.replace(/^Logger /, ''));
+  const labels = await page.getByTestId(wide ? 'fleet-row' : 'fleet-card').evaluateAll((els) => els.map((e) => e.getAttribute('data-serial') ?? ''));
+  return labels;
 }
 
 /** Waits (up to 10 s) for the shown serials to settle on the expected list, then compares them. */
@@ -137,7 +137,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     expect(laggingRecords[0]).toEqual(laggingReference[0]);
     expect(laggingRecords.length).toBe(laggingReference.length);
 
-    await page.getByLabel(`Lagging site ${site.siteName}`, { exact: true }).first().click();
+    await page.getByTestId(wide ? 'lagging-row' : 'lagging-card').filter({ hasText: site.siteName }).first().click();
     await page.getByRole('heading', { name: site.siteName }).waitFor();
     const first = site.loggers[0];
     await page.getByText(first.serial, { exact: true }).first().waitFor();
@@ -163,7 +163,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     page.on('pageerror', (e) => errors.push(e.message));
     await signIn(page, base, 'lena@fernhollow.example', testPassword);
     await page.getByRole('heading', { name: 'Fleet health' }).waitFor();
-    await page.getByLabel(`Lagging sites: ${overview.fleet.laggingSites.count}`).first().waitFor();
+    await page.getByTestId('overview-lagging').filter({ hasText: `Lagging sites · ${overview.fleet.laggingSites.count}` }).waitFor();
     await screenshot(page, `overview-${size}`);
 
     await page.goto(`${base}/fleet/versions`);

@@ -183,7 +183,7 @@ describe.each(Object.entries(viewports))('registry screens at %s size', (name, v
     await page.goto(`${base}/sites`);
     await page.getByText('Aldmere Village Hall').first().waitFor();
     await screenshot(page, `sites-${name}`);
-    await page.getByRole('link', { name: 'Site Aldmere Village Hall' }).click();
+    await page.getByTestId('site-card').filter({ hasText: 'Aldmere Village Hall' }).first().click();
     await page.getByRole('heading', { name: 'Loggers here' }).waitFor();
     await screenshot(page, `site-detail-${name}`);
     await page.goto(`${base}/models`);

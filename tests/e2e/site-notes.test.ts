@@ -36,7 +36,7 @@ async function openSite(page: Page, email: string) {
   await signIn(page, session.base, email, testPassword);
   await page.getByRole('heading', { name: 'Overview' }).waitFor();
   await page.goto(`${session.base}/sites`);
-  await page.getByLabel(`Site ${siteName}`, { exact: true }).click();
+  await page.getByTestId('site-card').filter({ hasText: siteName }).first().click();
   await page.getByRole('heading', { name: siteName }).waitFor();
 }
 

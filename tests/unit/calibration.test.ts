@@ -4,6 +4,7 @@ import {
   calibrationFor,
   coldVoc,
   necVocFactor,
+  probeStepChoice,
   probeStepText,
   convenientCurrentLsb,
   measurementProfile,
@@ -319,5 +320,10 @@ describe('open-circuit voltage in the cold', () => {
   test('when the probe resolution is shown, then it is in °C steps from the probe data sheet table', () => {
     // Probe data sheet resolution table (docs/SOURCES.md §9): 9 bits 0.5 °C … 12 bits 0.0625 °C.
     expect([9, 10, 11, 12].map(probeStepText)).toEqual(['0.5 °C steps', '0.25 °C steps', '0.125 °C steps', '0.0625 °C steps']);
+  });
+
+  test('when an installer chooses the probe resolution, then each choice reads as its °C step, not in bits', () => {
+    // Probe data sheet resolution table (docs/SOURCES.md §9): 9, 10, 11, 12 bits give 0.5, 0.25, 0.125, 0.0625 °C.
+    expect([9, 10, 11, 12].map(probeStepChoice)).toEqual(['0.5 °C', '0.25 °C', '0.125 °C', '0.0625 °C']);
   });
 });
