@@ -27,10 +27,16 @@ function freePort() {
   });
 }
 
-/** The lanes of a full run: which jest projects each runs. */
+/**
+ * The lanes of a full run: the jest projects and test paths each runs. The accessibility pass over every
+ * screen is a browser test that runs beside the server tests, so the two lanes take about as long.
+ */
 const LANES = [
-  { name: 'browser', projects: ['browser'] },
-  { name: 'server and components', projects: ['unit', 'api', 'client'] },
+  { name: 'browser', args: ['--selectProjects', 'browser', '--testPathIgnorePatterns', 'tests/e2e/accessibility'] },
+  {
+    name: 'server, components and accessibility',
+    args: ['--selectProjects', 'unit', 'api', 'client', 'browser', '--', 'tests/(unit|api|components)/', 'tests/e2e/accessibility'],
+  },
 ];
 
 /** Runs jest with the given arguments and environment; resolves to its exit status. */
@@ -52,7 +58,7 @@ async function main() {
   const pgPort = Number(process.env.HELIODOR_TEST_PG_PORT || (await freePort()));
   const cluster = b.pgCluster(dataDir, pgPort, { durable: false });
   const extra = process.argv.slice(2);
-  const lanes = extra.length === 0 && process.env.HELIODOR_TEST_LANES !== '1' ? LANES : [{ name: 'all', projects: [] }];
+  const lanes = extra.length === 0 && process.env.HELIODOR_TEST_LANES !== '1' ? LANES : [{ name: 'all', args: [] }];
   let status = 1;
   try {
     cluster.start();
@@ -73,7 +79,7 @@ async function main() {
         HELIODOR_TEST_PG_URL: pgUrl,
         HELIODOR_TEST_TEMPLATE: template,
       };
-      const args = ['--colors', ...(process.env.CI ? ['--ci'] : []), ...lane.projects.flatMap((p) => ['--selectProjects', p]), ...extra];
+      const args = ['--colors', ...(process.env.CI ? ['--ci'] : []), ...lane.args, ...extra];
       // The first lane writes to the terminal; the others to a file printed when they end, so the two
       // runs' reports do not interleave.
       const logFile = i === 0 ? null : path.join(dataDir, `lane-${i}.log`);
