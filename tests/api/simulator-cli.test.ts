@@ -3,13 +3,13 @@
 // It must finish within its time bound, print a progress line and a summary, and exit 0 when nothing
 // unexpected happened — and non-zero when something did (a revoked token answered 401, DEVICE_API.md
 // "Authentication").
-import { execFile } from 'node:child_process';
 import crypto from 'node:crypto';
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { QueryTypes } from 'sequelize';
 import { startTestApp, testPassword, type TestApp } from '../helpers/app';
+import { simulate as runSimulator } from '../helpers/simulate';
 
 let t: TestApp;
 let baseUrl: string;
@@ -26,18 +26,8 @@ afterAll(async () => {
   await t.close();
 });
 
-const root = path.resolve(__dirname, '../..');
 
-function simulate(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
-  return new Promise((resolve) => {
-    execFile(
-      process.execPath,
-      [path.join(root, 'node_modules/tsx/dist/cli.mjs'), 'scripts/simulator/index.ts', ...args],
-      { cwd: root, env: { ...process.env, HELIODOR_DATA: t.dataDir }, timeout: 90_000 },
-      (error, stdout, stderr) => resolve({ code: error ? (typeof error.code === 'number' ? error.code : 1) : 0, stdout, stderr }),
-    );
-  });
-}
+const simulate = (args: string[]) => runSimulator(args, { env: { HELIODOR_DATA: t.dataDir }, timeoutMs: 90_000 });
 
 describe('the fleet simulator command', () => {
   test('when it runs the demo bench sheet for a few seconds, then every logger checks in, it prints progress and a summary, and exits 0', async () => {

@@ -5,23 +5,12 @@
 // loggers at the same sites that did not install it, over at least 20 loggers, beyond tripDriftEnergy,
 // 10 %); the power-monitor data sheet's power register, Power = Current × BusVoltage (docs/SOURCES.md
 // §8, Eq. 4), so current × 0.5 at the same voltage is half the power and half the energy, a shift of −50 %; the clear-sky model the energy is divided by is docs/SOURCES.md §21.
-import { execFile } from 'node:child_process';
 import fs from 'node:fs';
 import net from 'node:net';
-import path from 'node:path';
+import { simulate as runSimulator } from '../helpers/simulate';
 
-const root = path.resolve(__dirname, '../..');
 
-function simulate(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
-  return new Promise((resolve) => {
-    execFile(
-      process.execPath,
-      [path.join(root, 'node_modules/tsx/dist/cli.mjs'), 'scripts/simulator/index.ts', ...args],
-      { cwd: root, env: process.env, timeout: 240_000 },
-      (error, stdout, stderr) => resolve({ code: error ? (typeof error.code === 'number' ? error.code : 1) : 0, stdout, stderr }),
-    );
-  });
-}
+const simulate = (args: string[]) => runSimulator(args, { timeoutMs: 240_000 });
 
 /** Whether anything accepts a TCP connection on 127.0.0.1:port. */
 function listening(port: number): Promise<boolean> {

@@ -4,10 +4,9 @@
 // window. Sources: DEVICE_API.md rules 2–3 (a pilot release is offered at its pilot sites, on its channel)
 // and "Trip" (more than tripFailureRatio of at least tripMinReports finished installs failed: 5 % of 20
 // for the demo's releases, PRODUCT.md's trip points).
-import { execFile } from 'node:child_process';
-import path from 'node:path';
 import { QueryTypes } from 'sequelize';
 import { startTestApp, testPassword, type TestApp } from '../helpers/app';
+import { simulate as runSimulator } from '../helpers/simulate';
 
 let t: TestApp;
 let baseUrl: string;
@@ -17,18 +16,8 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-const root = path.resolve(__dirname, '../..');
 
-function simulate(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
-  return new Promise((resolve) => {
-    execFile(
-      process.execPath,
-      [path.join(root, 'node_modules/tsx/dist/cli.mjs'), 'scripts/simulator/index.ts', ...args],
-      { cwd: root, env: { ...process.env, HELIODOR_DATA: t.dataDir, HELIODOR_SIM_PASSWORD: testPassword }, timeout: 120_000 },
-      (error, stdout, stderr) => resolve({ code: error ? (typeof error.code === 'number' ? error.code : 1) : 0, stdout, stderr }),
-    );
-  });
-}
+const simulate = (args: string[]) => runSimulator(args, { env: { HELIODOR_DATA: t.dataDir, HELIODOR_SIM_PASSWORD: testPassword }, timeoutMs: 120_000 });
 
 test('when the README trip command runs against the full demo, then 3.0.0-rc.1 trips in its pilot and the simulator exits 0', async () => {
   const before = await t.sequelize.query<{ state: string }>("SELECT state FROM releases WHERE version = '3.0.0-rc.1'", { type: QueryTypes.SELECT });

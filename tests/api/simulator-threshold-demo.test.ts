@@ -4,10 +4,9 @@
 // Sources: TUF (docs/SOURCES.md §6): a threshold of distinct keys signs each role, a key counts once, and
 // a client steps to the next trust set only when the threshold of its current set signed it;
 // DEVICE_API.md "Signatures" and "Trust sets".
-import { execFile } from 'node:child_process';
-import path from 'node:path';
 import { QueryTypes } from 'sequelize';
 import { startTestApp, testPassword, type TestApp } from '../helpers/app';
+import { simulate as runSimulator } from '../helpers/simulate';
 
 let t: TestApp;
 let baseUrl: string;
@@ -17,18 +16,8 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-const root = path.resolve(__dirname, '../..');
 
-function simulate(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
-  return new Promise((resolve) => {
-    execFile(
-      process.execPath,
-      [path.join(root, 'node_modules/tsx/dist/cli.mjs'), 'scripts/simulator/index.ts', ...args],
-      { cwd: root, env: { ...process.env, HELIODOR_DATA: t.dataDir, HELIODOR_SIM_PASSWORD: testPassword }, timeout: 60_000 },
-      (error, stdout, stderr) => resolve({ code: error ? (typeof error.code === 'number' ? error.code : 1) : 0, stdout, stderr }),
-    );
-  });
-}
+const simulate = (args: string[]) => runSimulator(args, { env: { HELIODOR_DATA: t.dataDir, HELIODOR_SIM_PASSWORD: testPassword }, timeoutMs: 60_000 });
 
 test('when the threshold demo runs, then the pilot is refused with one signature, starts with two, and every logger verifies both against trust set version 2 and installs', async () => {
   // README: npm run simulate -- --demo-threshold
