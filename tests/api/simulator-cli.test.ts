@@ -26,7 +26,6 @@ afterAll(async () => {
   await t.close();
 });
 
-
 const simulate = (args: string[]) => runSimulator(args, { env: { HELIODOR_DATA: t.dataDir }, timeoutMs: 90_000 });
 
 describe('the fleet simulator command', () => {

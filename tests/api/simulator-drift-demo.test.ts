@@ -9,7 +9,6 @@ import fs from 'node:fs';
 import net from 'node:net';
 import { simulate as runSimulator } from '../helpers/simulate';
 
-
 const simulate = (args: string[]) => runSimulator(args, { timeoutMs: 240_000 });
 
 /** Whether anything accepts a TCP connection on 127.0.0.1:port. */

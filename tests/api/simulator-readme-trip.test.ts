@@ -16,7 +16,6 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-
 const simulate = (args: string[]) => runSimulator(args, { env: { HELIODOR_DATA: t.dataDir, HELIODOR_SIM_PASSWORD: testPassword }, timeoutMs: 120_000 });
 
 test('when the README trip command runs against the full demo, then 3.0.0-rc.1 trips in its pilot and the simulator exits 0', async () => {

@@ -16,7 +16,6 @@ beforeAll(async () => {
 });
 afterAll(() => t.close());
 
-
 const simulate = (args: string[]) => runSimulator(args, { env: { HELIODOR_DATA: t.dataDir, HELIODOR_SIM_PASSWORD: testPassword }, timeoutMs: 60_000 });
 
 test('when the threshold demo runs, then the pilot is refused with one signature, starts with two, and every logger verifies both against trust set version 2 and installs', async () => {
