@@ -13,7 +13,7 @@ import { Badge, Button, Card, Notice, Row } from './ui';
 import { COMMISSIONING_ITEM_WORDS, COMMISSIONING_STATE_WORDS } from './words';
 import { formatCurrent, formatPower } from './calibration-preview';
 import { wiringCautionLines } from './wiring-cautions';
-import { isWeb, useGlobalStyle } from './web';
+import { isWeb, useGlobalStyle, usePrintHost } from './web';
 import { colors, fonts, radii, space, toneColors, type } from './theme';
 import { siteDateTime, utcDateTime } from '../lib/site-time';
 import { probeStepText, type ModelLimits } from '../lib/calibration';
@@ -222,14 +222,7 @@ const STANDARD_NOTE =
 
 /** The printed copy: plain HTML outside the app's root, so the print stylesheet can hide everything else. */
 function PrintedSheet({ data, title, photoUrl }: { data: SheetData; title: string; photoUrl: string | null }) {
-  const [host, setHost] = React.useState<HTMLElement | null>(null);
-  React.useEffect(() => {
-    const el = document.createElement('div');
-    el.id = PRINT_ROOT;
-    document.body.appendChild(el);
-    setHost(el);
-    return () => el.remove();
-  }, []);
+  const host = usePrintHost(PRINT_ROOT);
   if (!host) return null;
   const tone = toneColors[data.verdict.tone];
   const kv = (rows: Rows) => (

@@ -8,7 +8,7 @@ import { colors, fonts, space, type } from './theme';
 import { enrollmentLink, labelSheet, labelSheetLayout } from '../lib/label-sheet';
 import { qrDataUrl } from './qr-art';
 import { benchSheetCsv, benchSheetName, type BenchRow } from './bench-sheet';
-import { downloadText, isWeb, useGlobalStyle } from './web';
+import { downloadText, isWeb, useGlobalStyle, usePrintHost } from './web';
 
 export type SheetToken = BenchRow & { id?: string; channel?: string };
 
@@ -139,14 +139,7 @@ function LabelCard({ token, image }: { token: SheetToken; image?: string }) {
 
 /** The A4 pages, rendered outside the app's root so print CSS can hide everything else. */
 function PrintSheet({ tokens, images, layout }: { tokens: SheetToken[]; images: string[]; layout: ReturnType<typeof labelSheetLayout> }) {
-  const [host, setHost] = React.useState<HTMLElement | null>(null);
-  React.useEffect(() => {
-    const el = document.createElement('div');
-    el.id = PRINT_ROOT;
-    document.body.appendChild(el);
-    setHost(el);
-    return () => el.remove();
-  }, []);
+  const host = usePrintHost(PRINT_ROOT);
   if (!host) return null;
   const pages = Array.from({ length: layout.pageCount }, (_, p) => layout.cells.filter((c) => c.page === p));
   return createPortal(

@@ -113,3 +113,20 @@ export const consoleOrigin = () => (isWeb ? window.location.origin : '');
 
 /** data-* attributes on a React Native Web view (`dataSet`, which React Native's types do not declare): hooks for tests. */
 export const dataAttributes = (data: Record<string, string>) => ({ dataSet: data }) as object;
+
+/**
+ * An element of its own under <body>, outside the app's root, while the component is shown: a printed
+ * copy (the label sheet's A4 pages, the commissioning sheet) is rendered into it through a portal, so
+ * the print stylesheet can hide everything else.
+ */
+export function usePrintHost(id: string): HTMLElement | null {
+  const [host, setHost] = React.useState<HTMLElement | null>(null);
+  React.useEffect(() => {
+    const el = document.createElement('div');
+    el.id = id;
+    document.body.appendChild(el);
+    setHost(el);
+    return () => el.remove();
+  }, [id]);
+  return host;
+}
