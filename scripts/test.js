@@ -28,14 +28,21 @@ function freePort() {
 }
 
 /**
- * The lanes of a full run: the jest projects and test paths each runs. The accessibility pass over every
- * screen is a browser test that runs beside the server tests, so the two lanes take about as long.
+ * The lanes of a full run: the jest projects, test paths and settings of each, chosen so the two take
+ * about as long: the accessibility pass checks the phone size in the browser lane and the wide size in
+ * the other (HELIODOR_A11Y_SIZES), and the two longest simulator runs go with the browser tests.
  */
+const LONG_SIMULATOR_RUNS = 'tests/api/simulator-(readme-trip|cli)';
 const LANES = [
-  { name: 'browser', args: ['--selectProjects', 'browser', '--testPathIgnorePatterns', 'tests/e2e/accessibility'] },
   {
-    name: 'server, components and accessibility',
-    args: ['--selectProjects', 'unit', 'api', 'client', 'browser', '--', 'tests/(unit|api|components)/', 'tests/e2e/accessibility'],
+    name: 'browser',
+    args: ['--selectProjects', 'browser', 'api', '--', 'tests/e2e/', LONG_SIMULATOR_RUNS],
+    env: { HELIODOR_A11Y_SIZES: 'phone' },
+  },
+  {
+    name: 'server, components and accessibility at wide size',
+    args: ['--selectProjects', 'unit', 'api', 'client', 'browser', '--testPathIgnorePatterns', LONG_SIMULATOR_RUNS, '--', 'tests/(unit|api|components)/', 'tests/e2e/accessibility'],
+    env: { HELIODOR_A11Y_SIZES: 'wide' },
   },
 ];
 
@@ -58,7 +65,7 @@ async function main() {
   const pgPort = Number(process.env.HELIODOR_TEST_PG_PORT || (await freePort()));
   const cluster = b.pgCluster(dataDir, pgPort, { durable: false });
   const extra = process.argv.slice(2);
-  const lanes = extra.length === 0 && process.env.HELIODOR_TEST_LANES !== '1' ? LANES : [{ name: 'all', args: [] }];
+  const lanes = extra.length === 0 && process.env.HELIODOR_TEST_LANES !== '1' ? LANES : [{ name: 'all', args: [], env: {} }];
   let status = 1;
   try {
     cluster.start();
@@ -78,6 +85,7 @@ async function main() {
         HELIODOR_SMTP_PORT: String(await freePort()),
         HELIODOR_TEST_PG_URL: pgUrl,
         HELIODOR_TEST_TEMPLATE: template,
+        ...lane.env,
       };
       const args = ['--colors', ...(process.env.CI ? ['--ci'] : []), ...lane.args, ...extra];
       // The first lane writes to the terminal; the others to a file printed when they end, so the two

@@ -51,7 +51,7 @@ beforeAll(async () => {
 afterAll(async () => {
   await browser?.close();
   fs.mkdirSync(artifacts, { recursive: true });
-  fs.writeFileSync(path.join(artifacts, 'accessibility.json'), JSON.stringify(found, null, 2));
+  fs.writeFileSync(path.join(artifacts, sizes.length === 1 ? `accessibility-${sizes[0]}.json` : 'accessibility.json'), JSON.stringify(found, null, 2));
 });
 
 /** Waits until the screen has its title and nothing is loading any more. */
@@ -232,7 +232,13 @@ const screens: Screen[] = [
   { name: 'page not found', visit: (page) => open(page, '/no/such/page') },
 ];
 
-describe.each(Object.keys(viewports) as (keyof typeof viewports)[])('at %s size', (size) => {
+/**
+ * Both sizes, unless HELIODOR_A11Y_SIZES names one: a full `npm test` checks the phone size in its browser
+ * lane and the wide size in the other lane (scripts/test.js), so the two lanes take about as long.
+ */
+const sizes = (process.env.HELIODOR_A11Y_SIZES?.split(',') ?? Object.keys(viewports)) as (keyof typeof viewports)[];
+
+describe.each(sizes)('at %s size', (size) => {
   let context: BrowserContext;
   let page: Page;
   beforeAll(async () => {
