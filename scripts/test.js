@@ -11,21 +11,9 @@
 'use strict';
 const { spawn } = require('node:child_process');
 const fs = require('node:fs');
-const net = require('node:net');
 const os = require('node:os');
 const path = require('node:path');
 const b = require('./lib/bootstrap');
-
-function freePort() {
-  return new Promise((resolve, reject) => {
-    const srv = net.createServer();
-    srv.once('error', reject);
-    srv.listen(0, '127.0.0.1', () => {
-      const { port } = srv.address();
-      srv.close(() => resolve(port));
-    });
-  });
-}
 
 /**
  * The lanes of a full run: the jest projects, test paths and settings of each, chosen so the two take
@@ -62,7 +50,7 @@ async function main() {
   b.ensureChromium();
   const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-test-'));
   fs.chmodSync(dataDir, 0o755);
-  const pgPort = Number(process.env.HELIODOR_TEST_PG_PORT || (await freePort()));
+  const pgPort = Number(process.env.HELIODOR_TEST_PG_PORT || (await b.freePort()));
   const cluster = b.pgCluster(dataDir, pgPort, { durable: false });
   const extra = process.argv.slice(2);
   const lanes = extra.length === 0 && process.env.HELIODOR_TEST_LANES !== '1' ? LANES : [{ name: 'all', args: [], env: {} }];
@@ -82,7 +70,7 @@ async function main() {
         ...process.env,
         HELIODOR_ENV: 'test',
         HELIODOR_DATA: laneDir,
-        HELIODOR_SMTP_PORT: String(await freePort()),
+        HELIODOR_SMTP_PORT: String(await b.freePort()),
         HELIODOR_TEST_PG_URL: pgUrl,
         HELIODOR_TEST_TEMPLATE: template,
         ...lane.env,

@@ -333,7 +333,20 @@ function exportWeb(stamp) {
   return true;
 }
 
+/** A TCP port free on loopback right now (the OS picks it), for a throwaway server or cluster. */
+function freePort() {
+  return new Promise((resolve, reject) => {
+    const srv = require('node:net').createServer();
+    srv.once('error', reject);
+    srv.listen(0, '127.0.0.1', () => {
+      const { port } = srv.address();
+      srv.close(() => resolve(port));
+    });
+  });
+}
+
 module.exports = {
+  freePort,
   root,
   log,
   run,

@@ -41,7 +41,7 @@ import { makeKey } from './threshold-demo';
 
 type Cluster = { start(): void; stop(): void; url(database: string): string; psql(sql: string): void };
 // Plain CommonJS shared with the npm scripts (no type declarations of its own).
-const bootstrap = require('../lib/bootstrap.js') as { pgCluster(dataDir: string, port: number, options: { durable: boolean }): Cluster };
+const bootstrap = require('../lib/bootstrap.js') as { freePort(): Promise<number>; pgCluster(dataDir: string, port: number, options: { durable: boolean }): Cluster };
 
 export type DriftDemoOptions = {
   /** The factor the installing loggers' current is multiplied by once they run the release (1: none). */
@@ -114,17 +114,6 @@ function sweepLeftovers(out: (line: string) => void): void {
   }
 }
 
-function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const srv = net.createServer();
-    srv.once('error', reject);
-    srv.listen(0, '127.0.0.1', () => {
-      const { port } = srv.address() as net.AddressInfo;
-      srv.close(() => resolve(port));
-    });
-  });
-}
-
 const median = (xs: number[]): number | null => {
   if (xs.length === 0) return null;
   const s = [...xs].sort((a, b) => a - b);
@@ -178,7 +167,7 @@ export async function runDriftDemo(o: DriftDemoOptions): Promise<DriftDemoResult
   };
   try {
     // 1. The throwaway cluster and its scratch database.
-    cluster = bootstrap.pgCluster(tmp, await freePort(), { durable: false });
+    cluster = bootstrap.pgCluster(tmp, await bootstrap.freePort(), { durable: false });
     cluster.start();
     cluster.psql('CREATE DATABASE heliodor_drift');
     sequelize = createDatabase(cluster.url('heliodor_drift'), { poolMax: 5 });
@@ -191,7 +180,7 @@ export async function runDriftDemo(o: DriftDemoOptions): Promise<DriftDemoResult
 
     // 2. The mail fake and the app, on the stepped clock.
     const outboxDir = path.join(tmp, 'outbox');
-    const smtpPort = await freePort();
+    const smtpPort = await bootstrap.freePort();
     smtp = await startFakeSmtp(smtpPort, outboxDir);
     let clock = new Date(start);
     app = createApp({

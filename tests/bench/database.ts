@@ -2,7 +2,6 @@
 // in a temp folder on a free port, without fsync (nothing here needs to survive), one database
 // migrated by the app's own migrations. Everything is removed when the run ends.
 import fs from 'node:fs';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import type { Sequelize } from 'sequelize';
@@ -17,21 +16,13 @@ type Cluster = {
   stop(): void;
   psql(sql: string, database?: string): void;
 };
-type Bootstrap = { pgCluster(dataDir: string, port: number, options: { durable: boolean }): Cluster; log(message: string): void };
+type Bootstrap = { freePort(): Promise<number>; pgCluster(dataDir: string, port: number, options: { durable: boolean }): Cluster; log(message: string): void };
 
 // Plain CommonJS shared with the npm scripts (no type declarations of its own).
 const bootstrap = require('../../scripts/lib/bootstrap.js') as Bootstrap;
 
-export function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const srv = net.createServer();
-    srv.once('error', reject);
-    srv.listen(0, '127.0.0.1', () => {
-      const { port } = srv.address() as net.AddressInfo;
-      srv.close(() => resolve(port));
-    });
-  });
-}
+/** A TCP port free on loopback right now (scripts/lib/bootstrap.js). */
+export const freePort = (): Promise<number> => bootstrap.freePort();
 
 export type BenchDatabase = {
   url: string;
