@@ -149,9 +149,14 @@ function scenarios(base: string, fleet: SeededFleet, cookies: { support: string;
   add('logger timeline', 'fleet views', `/api/loggers/${fleet.timelineLoggerId}/timeline`);
 
   // The device API: each request checks in as the next token-holding logger, with what it runs; quiet
-  // (the usual check-in) and with an install report on the live release (locks the release row).
+  // (the usual check-in) and with an install report on the live release (locks the release row). Only a
+  // logger that was offered the release may report on it (anything else is refused with 409), so the
+  // reports come from those loggers, each repeating its report's last state as a logger does when the
+  // answer to its previous check-in was lost ('downloading' where it was only offered).
+  const reporting = fleet.tokenLoggers.filter((l) => l.liveReport !== null);
   const deviceBody = (i: number, report: boolean) => {
-    const l = fleet.tokenLoggers[i % fleet.tokenLoggers.length];
+    const from = report ? reporting : fleet.tokenLoggers;
+    const l = from[i % from.length];
     return {
       l,
       body: {
@@ -166,7 +171,7 @@ function scenarios(base: string, fleet: SeededFleet, cookies: { support: string;
         supply_v: 5.04,
         readings: { bus_v: 18.4, current_a: 2.1, power_w: 38.6, energy_wh: 122.5, temp_c: 14.5 },
         config_version: 1,
-        ...(report ? { report: { release: fleet.liveReleaseId, state: 'downloading' } } : {}),
+        ...(report ? { report: { release: fleet.liveReleaseId, state: l.liveReport === 'offered' ? 'downloading' : l.liveReport } } : {}),
       },
     };
   };

@@ -31,7 +31,8 @@ export const BENCH_PASSWORD = 'bench sheet kept on the bench';
 export const HISTORY_HOURS = 72;
 const DAY = 86_400_000;
 
-export type TokenLogger = { id: string; serial: string; token: string; firmware: string; board: string; securityCounter: number };
+/** A logger the bench checks in as; `liveReport` is its install report's state on the live release, if it was offered it. */
+export type TokenLogger = { id: string; serial: string; token: string; firmware: string; board: string; securityCounter: number; liveReport: string | null };
 
 export type SeededFleet = {
   loggers: number;
@@ -319,7 +320,7 @@ export async function seedBench(
                    WHEN l.board = 'A' AND l.u_probe > 0.9 THEN ARRAY[${nowLit} - make_interval(hours => CAST(230 * (l.u_probe - 0.9) AS int))]
                    ELSE CAST('{}' AS timestamptz[]) END
          FROM bench_l5 l
-         CROSS JOIN LATERAL (SELECT CASE l.model_no WHEN 0 THEN 'FL2-' ELSE 'FL3-' END || lpad(CAST(l.g + 1 AS text), 6, '0') AS serial) x`,
+         CROSS JOIN LATERAL (SELECT CASE l.model_no WHEN 0 THEN 'FL2-' ELSE 'FL3-' END || lpad(CAST(l.g + 1 AS text), GREATEST(6, length(CAST(l.g + 1 AS text))), '0') AS serial) x`,
       [modelIds, people.Morgan],
     );
     step(`loggers (${n})`);
@@ -390,10 +391,15 @@ export async function seedBench(
     step('vacuum analyze');
 
     // Temp tables outlive the transaction (they belong to the session).
-    const tokens = await db.query<{ id: string; serial: string; firmware: string; board: string; security_counter: number }>(
-      'SELECT l.id, l.serial, l.firmware, l.board, l.security_counter FROM loggers l JOIN bench_l5 b ON b.id = l.id WHERE b.has_token ORDER BY b.g',
+    const tokens = await db.query<{ id: string; serial: string; firmware: string; board: string; security_counter: number; live_report: string | null }>(
+      `SELECT l.id, l.serial, l.firmware, l.board, l.security_counter,
+              (SELECT ir.state FROM install_reports ir WHERE ir.logger_id = l.id AND ir.release_id = $1) AS live_report
+         FROM loggers l JOIN bench_l5 b ON b.id = l.id WHERE b.has_token ORDER BY b.g`,
+      [plan0.r230.id],
     );
-    const tokenLoggers = tokens.rows.map((r) => ({ id: r.id, serial: r.serial, token: benchToken(r.serial), firmware: r.firmware, board: r.board, securityCounter: Number(r.security_counter) }));
+    const tokenLoggers = tokens.rows.map((r) => ({
+      id: r.id, serial: r.serial, token: benchToken(r.serial), firmware: r.firmware, board: r.board, securityCounter: Number(r.security_counter), liveReport: r.live_report,
+    }));
     const counts = await db.query<{ loggers: number; sites: number; check_ins: number }>(
       'SELECT (SELECT count(*) FROM loggers)::int AS loggers, (SELECT count(*) FROM sites)::int AS sites, (SELECT count(*) FROM check_ins)::int AS check_ins',
     );
