@@ -3,43 +3,23 @@
 // through the caller's scope (server/auth/policies.ts), so each figure matches the view its link opens,
 // and an integrator's figures count only their sites and registrations.
 //
-// The flags are counted at request time, each by an index range (migration 0014_summaries): a flag
-// matches a few per cent of the fleet, so the count is cheap and exact at the request's clock. Lagging
-// sites come from the lagging summary (summaries.ts, with its `asOf`), live releases' installs and
-// failures from the install report counts.
+// The flags are counted at request time by the fleet table's own flag filter (table.ts countFlag), each an
+// index range: a flag matches a few per cent of the fleet, so the count is cheap and exact at the
+// request's clock. Lagging sites come from the lagging summary (summaries.ts, with its `asOf`), live
+// releases' installs and failures from the install report counts.
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { Actor } from '../auth/actor';
 import { loggerScope, siteScope } from '../auth/policies';
 import { type FleetFlag } from '../../schemas/fleet';
 import { FLEET_FLAGS, type Channel, type ReleaseState } from '../../schemas/words';
 import type { Overview } from '../../schemas/overview';
-import { FLAG_SQL } from './sql';
+import { countFlag, type FleetDeps } from './table';
 import { SQL_WORDS } from '../db/sql-words';
 import { reportCounts, type Freshness } from './summaries';
 
-/** The condition each flag's index answers (migration 0014_summaries), ANDed to the flag's own rule. */
-const FLAG_ACCESS: Record<FleetFlag, string> = {
-  silent: 'TRUE', // loggers_silence_idx (model_id, last_seen_at) of enrolled loggers
-  unstable: `l.recent_resets <> '{}' AND l.status <> :retired`, // loggers_resets_idx
-  low_supply: 'TRUE', // loggers_supply_idx (model_id, supply_v)
-  probe_fault: 'TRUE', // loggers_probe_idx (the probe reading)
-};
-
-/** Loggers with each flag the actor may read, at `now`. */
-export async function flagCounts(sequelize: Sequelize, actor: Actor, now: Date): Promise<Record<FleetFlag, number>> {
-  const scope = loggerScope(actor, 'l');
-  const replacements = { ...SQL_WORDS, now: now.toISOString(), ...scope.replacements };
-  const counts = await Promise.all(
-    FLEET_FLAGS.map(async (flag) => {
-      // Per model, so the model's interval and supply guard are constants of the index range.
-      const [row] = await sequelize.query<{ n: number }>(
-        `SELECT count(*)::int AS n FROM models m
-           CROSS JOIN LATERAL (SELECT 1 FROM loggers l WHERE l.model_id = m.id AND ${FLAG_ACCESS[flag]} AND ${FLAG_SQL[flag]} AND ${scope.sql}) x`,
-        { type: QueryTypes.SELECT, replacements },
-      );
-      return [flag, row.n] as const;
-    }),
-  );
+/** Loggers with each flag the actor may read, at `now`: the fleet table's own count of its flag filter. */
+export async function flagCounts(deps: FleetDeps, actor: Actor, now: Date): Promise<Record<FleetFlag, number>> {
+  const counts = await Promise.all(FLEET_FLAGS.map(async (flag) => [flag, await countFlag(deps, actor, flag, now)] as const));
   return Object.fromEntries(counts) as Record<FleetFlag, number>;
 }
 

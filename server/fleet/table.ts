@@ -78,7 +78,7 @@ type ModelLimits = { id: string; check_in_interval_s: number; min_update_supply_
  * A flag as a condition on the logger row alone. Silent and low supply compare with the logger's model;
  * spelled out per model (`model_id = … AND last seen before …`), they are index ranges on the last-seen
  * and supply keys, and the planner estimates them from those columns' statistics. The same rules as
- * sql.ts SILENT and LOW_SUPPLY, which the overview counts with.
+ * sql.ts SILENT and LOW_SUPPLY, which the rows' flags column shows (the overview counts with countFlag).
  */
 async function flagCondition(deps: FleetDeps, flag: FleetFlag, now: Date, replacements: Record<string, unknown>): Promise<string> {
   if (flag === 'unstable') return `(l.resets_24h >= ${UNSTABLE_RESETS_24H})`;
@@ -104,7 +104,7 @@ async function flagCondition(deps: FleetDeps, flag: FleetFlag, now: Date, replac
 type Where = { conditions: string[]; replacements: Record<string, unknown> };
 
 /** The filter as conditions on the logger row `l` alone, so a page and a count are index ranges on loggers. */
-async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: Date): Promise<Where> {
+async function whereOf(deps: FleetDeps, actor: Actor, query: Partial<FleetFilter>, now: Date): Promise<Where> {
   const conditions: string[] = [];
   const replacements: Record<string, unknown> = { ...SQL_WORDS, now: now.toISOString() };
   if (query.q) {
@@ -147,9 +147,24 @@ async function whereOf(deps: FleetDeps, actor: Actor, query: FleetFilter, now: D
 }
 
 /** Before a read that sorts or filters by resets in 24 h, the window is moved to the clock (sql.ts TRIM_RESETS). */
-async function trimResetsIfRead(deps: FleetDeps, query: FleetFilter, now: Date) {
+async function trimResetsIfRead(deps: FleetDeps, query: Partial<FleetFilter>, now: Date) {
   if (query.sort !== 'resets24h' && query.flag !== 'unstable') return;
   await deps.sequelize.query(TRIM_RESETS, { replacements: { now: now.toISOString() } });
+}
+
+/**
+ * How many loggers the actor may read carry the flag at `now`: exactly the rows the table's flag filter
+ * lists, by the same condition, so the overview's figure and the list its link opens cannot disagree.
+ * Each flag matches a few per cent of the fleet and its condition is an index range (flagCondition).
+ */
+export async function countFlag(deps: FleetDeps, actor: Actor, flag: FleetFlag, now: Date): Promise<number> {
+  const where = await whereOf(deps, actor, { flag }, now);
+  await trimResetsIfRead(deps, { flag }, now);
+  const [row] = await deps.sequelize.query<{ n: number }>(`SELECT count(*)::int AS n FROM loggers l WHERE ${where.conditions.join(' AND ')}`, {
+    type: QueryTypes.SELECT,
+    replacements: where.replacements,
+  });
+  return row.n;
 }
 
 /** A row as the query answers it: every column's selected values (columns.ts), the id and the sort value. */

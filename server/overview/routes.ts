@@ -36,7 +36,7 @@ export async function overview(deps: OverviewDeps, actor: Actor): Promise<Overvi
        FROM ${loggerCounts(counted)} c`,
       { type: QueryTypes.SELECT, replacements: { ...SQL_WORDS, ...counted.replacements, ...sites.replacements } },
     ),
-    flagCounts(sequelize, actor, now),
+    flagCounts({ sequelize, now: () => now }, actor, now),
     may(actor, 'read', activity)
       ? sequelize.query<{ id: number; at: Date; actor_name: string; action: string; summary: string }>(
           "SELECT id, at, actor_name, action, summary FROM activity WHERE action <> 'person.signed_in' ORDER BY at DESC, id DESC LIMIT 8",
