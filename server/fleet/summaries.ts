@@ -206,13 +206,14 @@ async function recompute(sequelize: Sequelize, ids: string[], now: Date, transac
   if (sites.length === 0) return;
   await sequelize.query(
     `DELETE FROM lagging_sites WHERE site_id IN (:sites);
-     INSERT INTO lagging_sites (site_id, behind, oldest_version, lagging_since, reasons)
-     SELECT g.site_id, g.behind, g.oldest_version, g.lagging_since, r.reasons
+     INSERT INTO lagging_sites (site_id, site_name, behind, oldest_version, lagging_since, reasons)
+     SELECT g.site_id, s.name, g.behind, g.oldest_version, g.lagging_since, r.reasons
        FROM (SELECT site_id, count(*)::int AS behind, (array_agg(firmware ORDER BY firmware_key))[1] AS oldest_version, min(since) AS lagging_since
                FROM lagging_loggers WHERE site_id IN (:sites) GROUP BY site_id) g
        JOIN (SELECT site_id, jsonb_object_agg(reason, n) AS reasons
                FROM (SELECT site_id, reason, count(*)::int AS n FROM lagging_loggers WHERE site_id IN (:sites) GROUP BY site_id, reason) x
-              GROUP BY site_id) r ON r.site_id = g.site_id`,
+              GROUP BY site_id) r ON r.site_id = g.site_id
+       JOIN sites s ON s.id = g.site_id`,
     { replacements: { sites }, transaction: t },
   );
 }

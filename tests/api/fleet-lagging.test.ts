@@ -142,6 +142,25 @@ describe('lagging sites', () => {
     expect(bad.body.errors[0].path).toBe('sort');
   });
 
+  test('when a lagging site is renamed, then the list shows the new name at once and orders it by that name among sites with as many loggers behind', async () => {
+    const before = (await lagging({ sort: 'behind' })).rows;
+    const tied = before.filter((r) => r.behind === before[before.length - 1].behind);
+    expect(tied.length).toBeGreaterThan(1);
+    const moved = tied[tied.length - 1];
+    // "Ab…" sorts before every other site name here ("Al…", "Br…", …) in any collation's order of letters.
+    await Site.update({ name: 'Abbey Culvert Hut' }, { where: { id: moved.siteId } });
+    try {
+      const after = (await lagging({ sort: 'behind' })).rows;
+      const group = after.filter((r) => r.behind === moved.behind);
+      expect(group[0]).toMatchObject({ siteId: moved.siteId, siteName: 'Abbey Culvert Hut' });
+      expect(after.map((r) => r.siteId).sort()).toEqual(before.map((r) => r.siteId).sort());
+    } finally {
+      await Site.update({ name: moved.siteName }, { where: { id: moved.siteId } });
+    }
+    const restored = (await lagging({ sort: 'behind' })).rows;
+    expect(restored.map((r) => [r.siteId, r.siteName])).toEqual(before.map((r) => [r.siteId, r.siteName]));
+  });
+
   test('when filtered by reason or customer, then only sites with that reason or customer are listed', async () => {
     for (const [key, reason] of Object.entries(expected)) {
       const { rows } = await lagging({ reason });

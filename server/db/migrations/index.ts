@@ -20,6 +20,7 @@ import * as m0017 from './0017_enrollment_requests';
 import * as m0018 from './0018_site_min_temp';
 import * as m0019 from './0019_measurement_drift';
 import * as m0020 from './0020_commissioning_checks';
+import * as m0021 from './0021_lagging_site_order';
 
 export type Migration = {
   name: string;
@@ -48,4 +49,5 @@ export const migrations: Migration[] = [
   { name: '0018_site_min_temp', ...m0018 },
   { name: '0019_measurement_drift', ...m0019 },
   { name: '0020_commissioning_checks', ...m0020 },
+  { name: '0021_lagging_site_order', ...m0021 },
 ];
