@@ -37,26 +37,29 @@ declareAccess({
 
 export type FleetRouteDeps = { sequelize: Sequelize; now: () => Date; summaries: Summaries };
 
-/** Streams CSV: headers first, then chunks as they are read, waiting whenever the client is slow. */
-function csvStream(res: Response, fileName: string) {
+/**
+ * Streams CSV: headers first, then chunks as they are read, waiting whenever the client is slow. One
+ * 'drain' and one 'close' listener serve the whole export: the compression middleware moves 'drain'
+ * listeners onto its zlib stream, where `res.off` cannot reach them, so a listener per wait would pile up
+ * (one more for every wait of a long export, each called at every later drain).
+ */
+export function csvStream(res: Response, fileName: string) {
   res.setHeader('Content-Type', 'text/csv; charset=utf-8');
   res.setHeader('Content-Disposition', `attachment; filename="${fileName}"`);
   res.setHeader('Cache-Control', 'no-store');
+  let waiting: { resolve: () => void; reject: (err: Error) => void } | null = null;
+  const settle = (how: (w: NonNullable<typeof waiting>) => void) => () => {
+    const w = waiting;
+    waiting = null;
+    if (w) how(w);
+  };
+  res.on('drain', settle((w) => w.resolve()));
+  res.on('close', settle((w) => w.reject(new Error('client went away'))));
   return (chunk: string) =>
     new Promise<void>((resolve, reject) => {
       if (res.destroyed) return reject(new Error('client went away'));
       if (res.write(chunk)) return resolve();
-      // Each wait removes the listener it did not need, so a long export does not pile them up.
-      const onDrain = () => {
-        res.off('close', onClose);
-        resolve();
-      };
-      const onClose = () => {
-        res.off('drain', onDrain);
-        reject(new Error('client went away'));
-      };
-      res.once('drain', onDrain);
-      res.once('close', onClose);
+      waiting = { resolve, reject };
     });
 }
 
