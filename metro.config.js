@@ -2,6 +2,7 @@
 // the Express API (HELIODOR_API_PORT, default 8080), so the console and the API share one origin
 // and the session cookie works exactly as in production.
 const http = require('node:http');
+const path = require('node:path');
 const { getDefaultConfig } = require('expo/metro-config');
 
 const config = getDefaultConfig(__dirname);
@@ -24,6 +25,14 @@ config.server = {
     });
     req.pipe(upstream);
   },
+};
+
+// On the web, zod's locale index is English alone (lib/zod-locales.js says why).
+const zodLocales = path.join(__dirname, 'lib', 'zod-locales.js');
+const inZod = /[\\/]node_modules[\\/]zod[\\/]/;
+config.resolver.resolveRequest = (context, moduleName, platform) => {
+  if (platform === 'web' && moduleName === '../locales/index.js' && inZod.test(context.originModulePath)) return { type: 'sourceFile', filePath: zodLocales };
+  return context.resolveRequest(context, moduleName, platform);
 };
 
 module.exports = config;
