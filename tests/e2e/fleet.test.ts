@@ -1,13 +1,14 @@
-// Support's fleet journey in the browser, at phone and wide sizes: filter the fleet to
+// Support's fleet journey in the browser: on a phone (cards, the filter panel), filter the fleet to
 // low-supply loggers of one customer with the screen's own controls, check the URL carries the filter
 // and the rows are the API's answer to the same query, export that filter as CSV, then open the lagging
 // sites, open one, and read a logger's reason in plain words. Expected values come from the API at run
-// time (the demo seed decides the fleet); CSV rows are counted with csv-parse (an RFC 4180 reader).
+// time (the demo seed decides the fleet); CSV rows are counted with csv-parse (an RFC 4180 reader). At
+// a desk (the table's wide layout), the overview, versions, a live release and a logger's timeline.
 import fs from 'node:fs';
 import { parse } from 'csv-parse/sync';
 import type { Browser, Page } from 'playwright-core';
 import { startTestApp, testPassword, type TestApp } from '../helpers/app';
-import { launchChromium, screenshot, signIn, viewports } from '../helpers/browser';
+import { journeyAt, launchChromium, screenshot, signIn, viewports } from '../helpers/browser';
 import type { ReleaseView } from '../../schemas/releases';
 
 type FleetRow = { id: string; serial: string; customer: string | null; flags: string[] };
@@ -72,7 +73,7 @@ async function open(page: Page, label: string, phone: boolean) {
 describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewport) => {
   const wide = size === 'wide';
 
-  test('when support filters the fleet to one customer’s low-supply loggers, exports them and opens a lagging site, then the URL, rows, CSV and reason match the API', async () => {
+  journeyAt(size, 'phone')('when support filters the fleet to one customer’s low-supply loggers, exports them and opens a lagging site, then the URL, rows, CSV and reason match the API', async () => {
     // The customer with low-supply loggers, and the API's answer for the filter the UI will build.
     const lowSupply = await apiList<FleetRow>('/api/loggers?flag=low_supply&pageSize=100');
     const customer = lowSupply.rows.find((r) => r.customer)?.customer;
@@ -148,7 +149,7 @@ describe.each(Object.entries(viewports))('fleet views at %s size', (size, viewpo
     await context.close();
   });
 
-  test('when support opens the overview, versions, a live release and a low-supply logger, then each shows the API’s figures and a note joins the timeline', async () => {
+  journeyAt(size, 'wide')('when support opens the overview, versions, a live release and a low-supply logger, then each shows the API’s figures and a note joins the timeline', async () => {
     const overview = (await support.get('/api/overview')).body as { fleet: { laggingSites: { count: number } } };
     const releases = await apiList<{ id: string; version: string; state: string }>('/api/releases');
     const live = releases.rows.find((r) => r.state === 'widening') ?? releases.rows.find((r) => r.state === 'pilot');

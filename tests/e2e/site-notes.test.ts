@@ -1,10 +1,10 @@
-// Site notes in the browser, at phone and wide sizes: support opens a site from the sites
+// Site notes in the browser: at a desk (wide, UTC beside the site's time) support opens a site from the sites
 // list, adds a note, reloads the page and still reads it (the list comes from the server, not from this
-// visit); older notes come a page at a time; an integrator assigned to the site reads the notes without
+// visit); older notes come a page at a time; on a phone, an integrator assigned to the site reads the notes without
 // the form. Expected notes come from the API at run time.
 import type { Page } from 'playwright-core';
 import { testPassword } from '../helpers/app';
-import { browserApp, screenshot, signIn, viewports } from '../helpers/browser';
+import { browserApp, journeyAt, screenshot, signIn, viewports } from '../helpers/browser';
 
 const session = browserApp({ seed: 'demo' });
 const siteName = 'Brackenford Pump House';
@@ -41,7 +41,7 @@ async function openSite(page: Page, email: string) {
 }
 
 describe.each(Object.entries(viewports))('site notes at %s size', (size, viewport) => {
-  test('when support adds a note to a site and reloads the page, then the note is still there, newest first, with author and time', async () => {
+  journeyAt(size, 'wide')('when support adds a note to a site and reloads the page, then the note is still there, newest first, with author and time', async () => {
     const context = await session.browser.newContext({ viewport });
     const page = await context.newPage();
     const errors: string[] = [];

@@ -6,6 +6,12 @@ import { chromium, type Browser, type Page } from 'playwright-core';
 import { listeningApp, startTestApp, type TestApp } from './app';
 
 export const viewports = { phone: { width: 390, height: 844 }, wide: { width: 1280, height: 800 } } as const;
+/**
+ * A journey that runs once, at the size its person would use, inside a describe over both sizes: the
+ * accessibility pass (tests/e2e/accessibility.test.ts) opens every screen at both sizes, so a journey
+ * need not repeat at the other one.
+ */
+export const journeyAt = (size: string, at: keyof typeof viewports) => (size === at ? test : ((() => undefined) as unknown as typeof test));
 export const artifacts = path.resolve(__dirname, '../e2e/artifacts');
 
 export function launchChromium(extraArgs: string[] = []): Promise<Browser> {
