@@ -170,7 +170,7 @@ function secret(dataDir, name, bytes = 32) {
  * A private PostgreSQL cluster under <dataDir>/pg, listening on 127.0.0.1 only.
  * initdb refuses to run as root, so as root the cluster belongs to the postgres system user.
  */
-function pgCluster(dataDir, port, { durable = true } = {}) {
+function pgCluster(dataDir, port, { durable = true, settings = {} } = {}) {
   const bin = postgresBinDir();
   const pgDir = path.join(dataDir, 'pg');
   const clusterDir = path.join(pgDir, 'cluster');
@@ -230,7 +230,12 @@ function pgCluster(dataDir, port, { durable = true } = {}) {
       chownToPostgres(socketDir);
       // A throwaway test cluster trades durability for speed; the real one keeps every safeguard.
       const speed = durable ? '' : ' -c fsync=off -c synchronous_commit=off -c full_page_writes=off';
-      const opts = `-c listen_addresses=127.0.0.1 -p ${port} -k ${socketDir} -c max_connections=200${speed}`;
+      // Extra settings (the bench's --pg name=value): names and values of PostgreSQL's own form only.
+      const extra = Object.entries(settings).map(([name, value]) => {
+        if (!/^[a-z_]+$/.test(name) || !/^[A-Za-z0-9.]+$/.test(String(value))) throw new Error(`not a PostgreSQL setting: ${name}=${value}`);
+        return ` -c ${name}=${value}`;
+      }).join('');
+      const opts = `-c listen_addresses=127.0.0.1 -p ${port} -k ${socketDir} -c max_connections=200${speed}${extra}`;
       asOwner('pg_ctl', ['start', '-w', '-t', '60', '-D', clusterDir, '-l', logFile, '-o', opts],
         { stdio: ['ignore', 'ignore', 'inherit'] });
       log(`PostgreSQL listening on 127.0.0.1:${port}`);

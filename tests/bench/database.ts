@@ -16,7 +16,7 @@ type Cluster = {
   stop(): void;
   psql(sql: string, database?: string): void;
 };
-type Bootstrap = { freePort(): Promise<number>; pgCluster(dataDir: string, port: number, options: { durable: boolean }): Cluster; log(message: string): void };
+type Bootstrap = { freePort(): Promise<number>; pgCluster(dataDir: string, port: number, options: { durable: boolean; settings?: Record<string, string> }): Cluster; log(message: string): void };
 
 // Plain CommonJS shared with the npm scripts (no type declarations of its own).
 const bootstrap = require('../../scripts/lib/bootstrap.js') as Bootstrap;
@@ -34,10 +34,11 @@ export type BenchDatabase = {
 
 export const BENCH_DB = 'heliodor_bench';
 
-export async function startBenchDatabase(): Promise<BenchDatabase> {
+/** `settings`: PostgreSQL settings for the cluster's start (`-c name=value`), e.g. { shared_buffers: '2GB' }. */
+export async function startBenchDatabase(settings: Record<string, string> = {}): Promise<BenchDatabase> {
   const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-bench-'));
   fs.chmodSync(dataDir, 0o755);
-  const cluster = bootstrap.pgCluster(dataDir, await freePort(), { durable: false });
+  const cluster = bootstrap.pgCluster(dataDir, await freePort(), { durable: false, settings });
   let sequelize: Sequelize | null = null;
   const close = async () => {
     if (sequelize) await sequelize.close().catch(() => undefined);

@@ -47,6 +47,7 @@ const { values: args } = parseArgs({
     'explain-scope': { type: 'string', default: 'fleet' },
     workers: { type: 'string', default: '2' },
     'decision-seconds': { type: 'string', default: '3' },
+    pg: { type: 'string', multiple: true },
   },
   strict: true,
 });
@@ -247,8 +248,14 @@ async function main() {
   const startedAt = new Date();
   const errors: string[] = [];
 
-  log(`starting a throwaway PostgreSQL (fsync off) and migrating`);
-  const db = await startBenchDatabase();
+  // --pg name=value (repeatable): a PostgreSQL setting for the bench's cluster, e.g. --pg shared_buffers=2GB.
+  const pgSettings = Object.fromEntries((args.pg ?? []).map((kv) => {
+    const at = kv.indexOf('=');
+    if (at < 1) throw new Error(`--pg takes name=value, not ${kv}`);
+    return [kv.slice(0, at), kv.slice(at + 1)];
+  }));
+  log(`starting a throwaway PostgreSQL (fsync off${Object.keys(pgSettings).length ? `, ${Object.entries(pgSettings).map(([k, v]) => `${k}=${v}`).join(', ')}` : ''}) and migrating`);
+  const db = await startBenchDatabase(pgSettings);
   const storeDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-bench-store-'));
   let server: Server | null = null;
   let app: ReturnType<typeof createApp> | null = null;
@@ -389,7 +396,7 @@ async function main() {
       installReports: fleet.installReports,
       seedSeconds,
       seedSteps: fleet.seconds,
-      options: { ...defaults, deviceConcurrency: args['device-concurrency'], tokens: fleet.tokenLoggers.length, only: args.only ?? null, cpus: os.cpus().length },
+      options: { ...defaults, deviceConcurrency: args['device-concurrency'], tokens: fleet.tokenLoggers.length, only: args.only ?? null, cpus: os.cpus().length, pg: pgSettings },
       baseline: { name: 'GET /api/health (with the session cookie)', p50: baselineP50, p95: baselineP95[0], p50s: baselines },
       scenarios: results,
       explain: explained,
