@@ -9,6 +9,7 @@ import { createDatabase, migrate } from '../../server/db';
 
 type Cluster = {
   port: number;
+  logFile: string;
   user: string;
   password(): string;
   url(database: string): string;
@@ -34,8 +35,11 @@ export type BenchDatabase = {
 
 export const BENCH_DB = 'heliodor_bench';
 
-/** `settings`: PostgreSQL settings for the cluster's start (`-c name=value`), e.g. { shared_buffers: '2GB' }. */
-export async function startBenchDatabase(settings: Record<string, string> = {}): Promise<BenchDatabase> {
+/**
+ * `settings`: PostgreSQL settings for the cluster's start (`-c name=value`), e.g. { shared_buffers: '2GB' }.
+ * `keepLog`: a file to copy the cluster's log to when it stops (e.g. the plans auto_explain wrote there).
+ */
+export async function startBenchDatabase(settings: Record<string, string> = {}, keepLog: string | null = null): Promise<BenchDatabase> {
   const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-bench-'));
   fs.chmodSync(dataDir, 0o755);
   const cluster = bootstrap.pgCluster(dataDir, await freePort(), { durable: false, settings });
@@ -44,6 +48,7 @@ export async function startBenchDatabase(settings: Record<string, string> = {}):
     if (sequelize) await sequelize.close().catch(() => undefined);
     try {
       cluster.stop();
+      if (keepLog && fs.existsSync(cluster.logFile)) fs.copyFileSync(cluster.logFile, keepLog);
     } finally {
       fs.rmSync(dataDir, { recursive: true, force: true });
     }

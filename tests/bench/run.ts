@@ -48,6 +48,7 @@ const { values: args } = parseArgs({
     workers: { type: 'string', default: '2' },
     'decision-seconds': { type: 'string', default: '3' },
     pg: { type: 'string', multiple: true },
+    'pg-log': { type: 'string' },
   },
   strict: true,
 });
@@ -255,7 +256,7 @@ async function main() {
     return [kv.slice(0, at), kv.slice(at + 1)];
   }));
   log(`starting a throwaway PostgreSQL (fsync off${Object.keys(pgSettings).length ? `, ${Object.entries(pgSettings).map(([k, v]) => `${k}=${v}`).join(', ')}` : ''}) and migrating`);
-  const db = await startBenchDatabase(pgSettings);
+  const db = await startBenchDatabase(pgSettings, args['pg-log'] ? path.resolve(args['pg-log']) : null);
   const storeDir = fs.mkdtempSync(path.join(os.tmpdir(), 'heliodor-bench-store-'));
   let server: Server | null = null;
   let app: ReturnType<typeof createApp> | null = null;
