@@ -6,9 +6,9 @@
 //      is written and the answer is 429 with Retry-After; the first-readings check is judged when it
 //      has its readings (server/loggers/commissioning.ts);
 //   2. settle the report, applied forward-only (rollout/reports.ts), and the installs the running
-//      version now confirms or rolls back — each release whose figures may change is locked first
-//      (SELECT … FOR UPDATE), so concurrent check-ins serialise on it and the trip rules see every
-//      count exactly once;
+//      version now confirms or rolls back — then lock each release whose figures these writes changed
+//      (SELECT … FOR UPDATE, in id order), so the check-ins that change a release's figures serialise
+//      on it and the trip rules see every count exactly once; a check-in that changed none locks none;
 //   3. judge the trip rules on those releases, and the reset rate when the logger brings watchdog or
 //      brown-out resets on a release it confirmed (once a minute per release and process), and the
 //      measurement drift when it brings readings on one (once in ten minutes per release and process);
@@ -122,37 +122,34 @@ export async function checkIn(deps: CheckInDeps, logger: DeviceLogger, body: Che
 type Settled = {
   /** This logger's reports by release, as this transaction leaves them. */
   reports: Map<string, ReportRow>;
-  /** The releases locked because their figures may change. */
-  locked: Map<string, Release>;
-  /** Of those, the ones whose figures did change (a finished install, a confirmation or a rollback). */
-  finished: Set<string>;
+  /** The releases whose figures this check-in changed (a finished install, a confirmation or a rollback), locked. */
+  changed: Map<string, Release>;
 };
 
 async function settleReports(store: CheckInStore, releases: CachedRelease[], stored: ReportRow[], body: CheckInRequest): Promise<Settled> {
   const reports = new Map(stored.map((r) => [r.releaseId, r]));
-  const known = new Set(releases.map((r) => r.id));
+  const cached = new Map(releases.map((r) => [r.id, r]));
   const report = body.report;
   // A report counts only for a release offered to this logger (its report row exists, whatever this
   // process's release cache holds yet) or the release it runs; anything else is refused, and the
   // transaction rolls back the visit with it.
   if (report && !reports.has(report.release)) {
-    const release = releases.find((r) => r.id === report.release);
+    const release = cached.get(report.release);
     if (!release || !runs(body.firmware, release.version)) throw notOffered(report.release);
   }
-  const pending = stored.filter((r) => r.state === 'installed' && r.confirmedAt === null && known.has(r.releaseId)).map((r) => r.releaseId);
-  const locked = await store.lockReleases(report ? [report.release, ...pending] : pending);
   const finished = new Set<string>();
 
-  if (report && locked.has(report.release)) {
+  if (report) {
     const change = applyReport(await store.reportForUpdate(report.release), report.state, report.reason ?? null);
     if (change.apply) {
       reports.set(report.release, await store.writeReport(report.release, change, change.state === 'failed' ? (report.detail ?? null) : null));
       if (isFinished(change.state, change.reason)) finished.add(report.release);
     }
   }
-  // Installed reports not yet confirmed, now that this check-in says what runs.
+  // Installed reports not yet confirmed, now that this check-in says what runs (a version never changes,
+  // so the cached release tells it).
   for (const r of [...reports.values()]) {
-    const release = locked.get(r.releaseId);
+    const release = cached.get(r.releaseId);
     if (r.state !== 'installed' || r.confirmedAt !== null || !release) continue;
     const reportedNow = body.report?.release === r.releaseId && body.report.state === 'installed';
     const outcome = afterInstalled(body.firmware, release.version, reportedNow);
@@ -160,7 +157,10 @@ async function settleReports(store: CheckInStore, releases: CachedRelease[], sto
     reports.set(r.releaseId, outcome === 'confirmed' ? await store.confirmInstall(r.releaseId) : await store.markRolledBack(r.releaseId));
     finished.add(r.releaseId); // a confirmation grows the reset-rate cohort; a rollback is a failure
   }
-  return { reports, locked, finished };
+  // Only now, and only the releases whose figures this check-in changed, are locked: the trip rules on
+  // them must see every finished install once. A check-in that changed nothing (a report repeating its
+  // state, a download in progress) takes no lock, so it never waits behind another logger's check-in.
+  return { reports, changed: await store.lockReleases(finished) };
 }
 
 /** Whether the logger runs this release's version (semver precedence: build metadata aside). */
@@ -187,8 +187,8 @@ async function judgeTrips(
   judge: TransitionContext,
 ): Promise<Release[]> {
   const tripped: Release[] = [];
-  for (const id of settled.finished) {
-    const stopped = await judgeTrip(deps.sequelize, t, settled.locked.get(id)!, judge);
+  for (const release of settled.changed.values()) {
+    const stopped = await judgeTrip(deps.sequelize, t, release, judge);
     if (stopped) tripped.push(stopped);
   }
 

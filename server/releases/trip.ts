@@ -2,9 +2,11 @@
 // and the stop when one of them trips (rules and verdicts: rollout/trip.ts). The release dashboard reads
 // the same figures for its gauges, so it shows what the rule decides.
 //
-// Called inside a check-in's transaction with the release row locked (SELECT … FOR UPDATE, taken before
-// the report was applied), so concurrent check-ins serialise on the release: exactly one of them stops
-// it, and every report is counted.
+// Called inside a check-in's transaction with the release row locked (SELECT … FOR UPDATE, taken after
+// the check-in wrote the report that changed the figures). Check-ins that change a release's figures
+// serialise on it, and each reads them after taking the lock, in a fresh snapshot (READ COMMITTED), so it
+// sees every change committed before it plus its own: exactly one of them stops the release, and every
+// report is counted.
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import type { Release } from '../db/models';
 import { retentionDays } from '../db/retention';

@@ -110,3 +110,51 @@ describe('trip', () => {
     expect((await one<{ state: string }>('SELECT state FROM releases WHERE id = :id', { id: release.id })).state).toBe('stopped');
   });
 });
+
+// Which check-ins lock the release row (server/device-api/checkin.ts, step 2): only those whose writes
+// change the figures the trip rules read. PostgreSQL reports a backend blocked on a row lock with
+// wait_event_type 'Lock' in pg_stat_activity (PostgreSQL documentation, "Wait Event Types").
+describe('the release lock', () => {
+  const waitingOnLocks = async () =>
+    (await one<{ n: number }>(`SELECT count(*)::int AS n FROM pg_stat_activity WHERE datname = current_database() AND wait_event_type = 'Lock'`, {})).n;
+
+  /** Whether the request is answered before any backend of this database waits on a lock. */
+  async function answeredOrWaiting(request: PromiseLike<{ status: number }>): Promise<'answered' | 'waiting'> {
+    let answered = false;
+    void Promise.resolve(request).then(() => (answered = true), () => (answered = true));
+    for (;;) {
+      if (answered) return 'answered';
+      if ((await waitingOnLocks()) > 0) return answered ? 'answered' : 'waiting';
+      await new Promise((r) => setTimeout(r, 20));
+    }
+  }
+
+  test('when another transaction holds the release, then a check-in that changes no figures answers, and one that fails an install waits for it', async () => {
+    const release = await app.fleet.release({ version: '9.1.0', tripFailureRatio: 0.5, tripMinReports: 20 });
+    const [steady, failing] = await Promise.all([app.fleet.logger(), app.fleet.logger()]);
+    const checkIn = (lg: { token: string }, extra: Record<string, unknown> = {}) => app.t.request().post(CHECK_IN).set(bearer(lg.token)).send(checkInBody('9.0.0', extra));
+    const downloading = { report: { release: release.id, state: 'downloading' } };
+    for (const lg of [steady, failing]) {
+      expect((await checkIn(lg)).body.offer?.release).toBe(release.id);
+      expect((await checkIn(lg, downloading)).status).toBe(200);
+    }
+
+    const hold = await app.t.sequelize.transaction();
+    let failed: Promise<{ status: number }> | null = null;
+    try {
+      await app.t.sequelize.query('SELECT id FROM releases WHERE id = :id FOR UPDATE', { transaction: hold, replacements: { id: release.id } });
+      // Still downloading: nothing the trip rules count changed, so nothing waits for the release.
+      const steadyAnswer = checkIn(steady, downloading).then((r) => r);
+      expect(await answeredOrWaiting(steadyAnswer)).toBe('answered');
+      expect((await steadyAnswer).status).toBe(200);
+      // A failed install changes the failure figures: that check-in waits until the release is free.
+      failed = checkIn(failing, { report: { release: release.id, state: 'failed', reason: 'integrity' } }).then((r) => r);
+      expect(await answeredOrWaiting(failed)).toBe('waiting');
+    } finally {
+      await hold.rollback();
+    }
+    expect((await failed!).status).toBe(200);
+    const report = await one<{ state: string }>('SELECT state FROM install_reports WHERE release_id = :id AND logger_id = :logger', { id: release.id, logger: failing.id });
+    expect(report.state).toBe('failed');
+  });
+});
