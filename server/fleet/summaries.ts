@@ -326,15 +326,20 @@ export function createSummaries(deps: SummaryDeps): Summaries {
   };
   let timer: NodeJS.Timeout | null = null;
   let stopped = false;
+  // At most one run waits behind the one at work: a run that has not started yet will see every change made
+  // before it starts, so a second waiting run would only repeat it. (A catch-up of a million loggers takes
+  // minutes; the timer's runs used to pile up behind it and then run back to back.)
+  let waiting: Promise<void> | null = null;
   const tick = () =>
-    serial(async () => {
+    (waiting ??= serial(async () => {
+      waiting = null;
       try {
         await foldCounts(deps.sequelize);
         await catchUp(deps);
       } catch (err) {
         deps.logger?.warn({ err }, 'fleet summaries: catch-up failed; the next run retries');
       }
-    });
+    }));
   return {
     freshen: () =>
       serial(async () => {

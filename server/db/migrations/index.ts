@@ -21,6 +21,7 @@ import * as m0018 from './0018_site_min_temp';
 import * as m0019 from './0019_measurement_drift';
 import * as m0020 from './0020_commissioning_checks';
 import * as m0021 from './0021_lagging_site_order';
+import * as m0022 from './0022_summary_upkeep';
 
 export type Migration = {
   name: string;
@@ -50,4 +51,5 @@ export const migrations: Migration[] = [
   { name: '0019_measurement_drift', ...m0019 },
   { name: '0020_commissioning_checks', ...m0020 },
   { name: '0021_lagging_site_order', ...m0021 },
+  { name: '0022_summary_upkeep', ...m0022 },
 ];
