@@ -3,7 +3,7 @@
 import type { Sequelize, Transaction } from 'sequelize';
 import { QueryTypes } from 'sequelize';
 import type { CheckInRequest, DeviceConfig, ResetCounts } from '../../schemas/device';
-import { lockRelease } from '../releases/transitions';
+import { lockRelease, readRelease } from '../releases/transitions';
 import type { Release } from '../db/models';
 import { ROLLBACK_DETAIL, type ReportChange } from '../rollout/reports';
 import type { ReportFacts } from '../rollout/decision';
@@ -212,6 +212,9 @@ export function checkInStore(sequelize: Sequelize, t: Transaction, loggerId: str
       }
       return locked;
     },
+
+    /** A release as it stands, not locked (null: no such release). */
+    release: (id: string) => readRelease(t, id),
 
     /** Locks one release unless another transaction holds it (null then: that one is judging it already). */
     lockReleaseIfFree: (id: string) => lockRelease(t, id, { skipLocked: true }),

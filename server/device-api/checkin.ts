@@ -11,7 +11,8 @@
 //      on it and the trip rules see every count exactly once; a check-in that changed none locks none;
 //   3. judge the trip rules on those releases, and the reset rate when the logger brings watchdog or
 //      brown-out resets on a release it confirmed (once a minute per release and process), and the
-//      measurement drift when it brings readings on one (once in ten minutes per release and process);
+//      measurement drift when it brings readings on one (once in ten minutes per release and process) —
+//      these two read with the release unlocked, and lock it to judge again only when they trip;
 //   4. decide the offer (rollout/decision.ts) on the cached releases as this transaction left them,
 //      and record it;
 //   5. answer: the offer, and the measurement profile when the logger's is older (or unknown);
@@ -28,7 +29,7 @@ import { COUNTED_RESET_REASONS } from '../../schemas/words';
 import { systemContext } from '../auth/actor';
 import type { Release } from '../db/models';
 import type { Mailer } from '../mail/mailer';
-import { judgeTrip } from '../releases/trip';
+import { judgeTrip, tripVerdict } from '../releases/trip';
 import type { TransitionContext } from '../releases/transitions';
 import { decideOffer, offerInput, type LoggerFacts } from '../rollout/decision';
 import { checkInDay } from '../rollout/drift';
@@ -209,8 +210,14 @@ async function judgeTrips(
   const resetDue = counted > 0 && due(deps.resetChecks, RESET_CHECK_EVERY_MS);
   const driftDue = body.readings !== undefined && due(deps.driftChecks, DRIFT_CHECK_EVERY_MS);
   if (!resetDue && !driftDue) return tripped;
-  // SKIP LOCKED: another check-in holding the release is judging it already, and waiting here in
-  // another lock order could deadlock with it.
+  // The reset rate and the drift read the history of every logger the release reached, the longest reads of
+  // any check-in on a large fleet, so they are read with the release unlocked: check-ins that finish installs
+  // meanwhile do not wait for them. Only a verdict that trips locks the release and judges again, so the
+  // stop is decided on the figures as they stand under the lock. SKIP LOCKED: another check-in holding the
+  // release is judging it already, and waiting here in another lock order could deadlock with it.
+  const current = await store.release(running.id);
+  const verdict = current ? await tripVerdict(deps.sequelize, t, current, judge.now, { drift: driftDue }) : null;
+  if (!verdict?.trip) return tripped;
   const locked = await store.lockReleaseIfFree(running.id);
   const stopped = locked ? await judgeTrip(deps.sequelize, t, locked, judge, { drift: driftDue }) : null;
   if (stopped) tripped.push(stopped);

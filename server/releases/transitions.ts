@@ -47,6 +47,11 @@ export const TRIP_MAIL_ROLES = ['admin', 'release_engineer'] as const satisfies 
 /** The columns a transition reads and writes (the manifest and signature stay in the database). */
 const LOCKED_ATTRIBUTES = { exclude: ['manifest', 'signature'] as (keyof Release)[] };
 
+/** The release row as `t` sees it, not locked. */
+export async function readRelease(t: Transaction, id: string): Promise<Release | null> {
+  return Release.findByPk(id, { transaction: t, attributes: LOCKED_ATTRIBUTES });
+}
+
 /** Locks the release row for this transaction; with skipLocked, gives up (null) when another transaction holds it. */
 export async function lockRelease(t: Transaction, id: string, options: { skipLocked?: boolean } = {}): Promise<Release | null> {
   return Release.findByPk(id, { transaction: t, lock: t.LOCK.UPDATE, skipLocked: options.skipLocked ?? false, attributes: LOCKED_ATTRIBUTES });

@@ -11,7 +11,7 @@ import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import type { Release } from '../db/models';
 import { retentionDays } from '../db/retention';
 import { isLive } from '../rollout/lifecycle';
-import { failureRatioVerdict, RESET_MIN_HOURS, resetRateVerdict, type FailureFigures, type ResetFigures, type TripPoints } from '../rollout/trip';
+import { failureRatioVerdict, RESET_MIN_HOURS, resetRateVerdict, type FailureFigures, type ResetFigures, type TripPoints, type TripVerdict } from '../rollout/trip';
 import { DRIFT_WINDOW_DAYS, driftFigures, driftTripPointsOf, driftVerdict, type DriftDay, type DriftInput } from '../rollout/drift';
 import { SQL_WORDS } from '../db/sql-words';
 import { COUNTED_RESET_REASONS, TRANSIENT_FAILURE_REASONS, type FailureReason, type InstallState } from '../../schemas/words';
@@ -168,10 +168,30 @@ export async function driftInput(sequelize: Sequelize, t: Transaction | undefine
 }
 
 /**
- * Judges a live release locked in `t` by the trip rules (the failure ratio first, then the reset rate,
- * then — when `drift` is asked, since it reads every day of the release's loggers — the measurement
- * drift) and, when one trips, stops it through the one writer of transitions. Returns the stopped
- * release, or null when nothing tripped.
+ * The trip rules' verdict on a live release (the failure ratio first, then the reset rate, then — when
+ * `drift` is asked, since it reads every day of the release's loggers — the measurement drift), read and
+ * not acted on. Null for a release that is not live.
+ */
+export async function tripVerdict(
+  sequelize: Sequelize,
+  t: Transaction,
+  release: Release,
+  now: Date,
+  options: { drift?: boolean } = {},
+): Promise<TripVerdict | null> {
+  if (!isLive(release.state)) return null;
+  const points = tripPointsOf(release);
+  let verdict = failureRatioVerdict(points, await failureFigures(sequelize, t, release.id));
+  if (!verdict.trip) verdict = resetRateVerdict(points, await resetFigures(sequelize, t, release, now, retentionDays()));
+  if (!verdict.trip && options.drift) {
+    verdict = driftVerdict(driftTripPointsOf(release), driftFigures(await driftInput(sequelize, t, release, now, retentionDays())));
+  }
+  return verdict;
+}
+
+/**
+ * Judges a live release locked in `t` by the trip rules (tripVerdict) and, when one trips, stops it
+ * through the one writer of transitions. Returns the stopped release, or null when nothing tripped.
  */
 export async function judgeTrip(
   sequelize: Sequelize,
@@ -180,13 +200,7 @@ export async function judgeTrip(
   ctx: Omit<TransitionContext, 'trip'>,
   options: { drift?: boolean } = {},
 ): Promise<Release | null> {
-  if (!isLive(release.state)) return null;
-  const points = tripPointsOf(release);
-  let verdict = failureRatioVerdict(points, await failureFigures(sequelize, t, release.id));
-  if (!verdict.trip) verdict = resetRateVerdict(points, await resetFigures(sequelize, t, release, ctx.now, retentionDays()));
-  if (!verdict.trip && options.drift) {
-    verdict = driftVerdict(driftTripPointsOf(release), driftFigures(await driftInput(sequelize, t, release, ctx.now, retentionDays())));
-  }
-  if (!verdict.trip) return null;
+  const verdict = await tripVerdict(sequelize, t, release, ctx.now, options);
+  if (!verdict?.trip) return null;
   return applyTransition(t, release, { action: 'stop', reason: verdict.reason }, { ...ctx, trip: { rule: verdict.rule, figures: verdict.figures } });
 }
