@@ -61,12 +61,19 @@ function decodeCursor(text: string, query: FleetFilter): Cursor {
   return { sort: query.sort, dir: query.dir, value, id };
 }
 
-/** Versions present in the fleet that a semver range admits (few: one per release ever run), or the exact one. */
+/**
+ * Versions present in the fleet that a semver range admits (few: one per release ever run), or the exact one.
+ * The fleet-wide count summary and its pending changes (server/fleet/summaries.ts) name every version a
+ * logger runs, in a few dozen rows where the loggers' own index holds one entry a logger; a version whose
+ * count has fallen to zero may still be listed until the next fold, which only adds a value no row has.
+ */
 async function versionsMatching(deps: FleetDeps, version: string): Promise<string[]> {
   if (isStrictSemver(version)) return [version];
-  const present = await deps.sequelize.query<{ firmware: string }>('SELECT DISTINCT firmware FROM loggers WHERE firmware IS NOT NULL', {
-    type: QueryTypes.SELECT,
-  });
+  const present = await deps.sequelize.query<{ firmware: string }>(
+    `SELECT DISTINCT firmware FROM (SELECT firmware FROM fleet_logger_counts UNION ALL SELECT firmware FROM logger_count_changes) f
+      WHERE firmware IS NOT NULL`,
+    { type: QueryTypes.SELECT },
+  );
   // Pre-releases included, as the decision evaluates upgrade-from ranges (DEVICE_API.md rule 4).
   return present.map((p) => p.firmware).filter((v) => semver.valid(v) !== null && semver.satisfies(v, version, { includePrerelease: true }));
 }
