@@ -82,30 +82,34 @@ async function versionsMatching(deps: FleetDeps, version: string): Promise<strin
 type ModelLimits = { id: string; check_in_interval_s: number; min_update_supply_v: string };
 
 /**
- * A flag as a condition on the logger row alone. Silent and low supply compare with the logger's model;
- * spelled out per model (`model_id = … AND last seen before …`), they are index ranges on the last-seen
- * and supply keys, and the planner estimates them from those columns' statistics. The same rules as
- * sql.ts SILENT and LOW_SUPPLY, which the rows' flags column shows (the overview counts with countFlag).
+ * A flag as conditions on the logger row alone, one per case: a row has the flag when it meets any of
+ * them. Silent and low supply compare with the logger's model; spelled out per model (`model_id = … AND
+ * last seen before …`), each case is one range of the flag's own index (migration 0023: the same
+ * expressions, the flag's other conditions as its predicate), and the planner estimates them from those
+ * columns' statistics. The same rules as sql.ts SILENT and LOW_SUPPLY, which the rows' flags column shows
+ * (the overview counts with countFlag, case by case).
  */
-async function flagCondition(deps: FleetDeps, flag: FleetFlag, now: Date, replacements: Record<string, unknown>): Promise<string> {
-  if (flag === 'unstable') return `(l.resets_24h >= ${UNSTABLE_RESETS_24H})`;
-  if (flag === 'probe_fault') return PROBE_FAULT;
+async function flagCases(deps: FleetDeps, flag: FleetFlag, now: Date, replacements: Record<string, unknown>): Promise<string[]> {
+  if (flag === 'unstable') return [`(l.resets_24h >= ${UNSTABLE_RESETS_24H})`];
+  if (flag === 'probe_fault') return [PROBE_FAULT];
   const models = await deps.sequelize.query<ModelLimits>('SELECT id, check_in_interval_s, min_update_supply_v::text AS min_update_supply_v FROM models ORDER BY id', {
     type: QueryTypes.SELECT,
   });
-  if (models.length === 0) return 'false';
-  const perModel = models.map((m, i) => {
+  return models.map((m, i) => {
     replacements[`flagModel${i}`] = m.id;
     if (flag === 'silent') {
       replacements[`silentBefore${i}`] = new Date(now.getTime() - 3 * m.check_in_interval_s * 1000).toISOString();
-      return `(l.model_id = :flagModel${i} AND COALESCE(l.last_seen_at, '-infinity'::timestamptz) < CAST(:silentBefore${i} AS timestamptz))`;
+      return `(l.status = :enrolled AND l.model_id = :flagModel${i} AND COALESCE(l.last_seen_at, '-infinity'::timestamptz) < CAST(:silentBefore${i} AS timestamptz))`;
     }
     replacements[`supplyMin${i}`] = m.min_update_supply_v;
-    return `(l.model_id = :flagModel${i} AND COALESCE(l.supply_v, -1) < CAST(:supplyMin${i} AS numeric))`;
+    return `(l.status <> :retired AND l.supply_v IS NOT NULL AND l.model_id = :flagModel${i} AND COALESCE(l.supply_v, -1) < CAST(:supplyMin${i} AS numeric))`;
   });
-  return flag === 'silent'
-    ? `(l.status = :enrolled AND (${perModel.join(' OR ')}))`
-    : `(l.status <> :retired AND l.supply_v IS NOT NULL AND (${perModel.join(' OR ')}))`;
+}
+
+/** A flag as one condition on the logger row: any of its cases. */
+async function flagCondition(deps: FleetDeps, flag: FleetFlag, now: Date, replacements: Record<string, unknown>): Promise<string> {
+  const cases = await flagCases(deps, flag, now, replacements);
+  return cases.length === 0 ? 'false' : `(${cases.join(' OR ')})`;
 }
 
 type Where = { conditions: string[]; replacements: Record<string, unknown> };
@@ -161,13 +165,17 @@ async function trimResetsIfRead(deps: FleetDeps, query: Partial<FleetFilter>, no
 
 /**
  * How many loggers the actor may read carry the flag at `now`: exactly the rows the table's flag filter
- * lists, by the same condition, so the overview's figure and the list its link opens cannot disagree.
- * Each flag matches a few per cent of the fleet and its condition is an index range (flagCondition).
+ * lists, by the same conditions, so the overview's figure and the list its link opens cannot disagree.
+ * Counted case by case (flagCases: a model's silent or low-supply loggers), each count an index-only
+ * range of the flag's index, and the counts added — the cases are disjoint, one model each.
  */
 export async function countFlag(deps: FleetDeps, actor: Actor, flag: FleetFlag, now: Date): Promise<number> {
-  const where = await whereOf(deps, actor, { flag }, now);
+  const where = await whereOf(deps, actor, {}, now);
+  const cases = await flagCases(deps, flag, now, where.replacements);
+  if (cases.length === 0) return 0;
   await trimResetsIfRead(deps, { flag }, now);
-  const [row] = await deps.sequelize.query<{ n: number }>(`SELECT count(*)::int AS n FROM loggers l WHERE ${where.conditions.join(' AND ')}`, {
+  const counts = cases.map((c) => `(SELECT count(*) FROM loggers l WHERE ${[...where.conditions, c].join(' AND ')})`);
+  const [row] = await deps.sequelize.query<{ n: number }>(`SELECT (${counts.join(' + ')})::int AS n`, {
     type: QueryTypes.SELECT,
     replacements: where.replacements,
   });

@@ -22,6 +22,7 @@ import * as m0019 from './0019_measurement_drift';
 import * as m0020 from './0020_commissioning_checks';
 import * as m0021 from './0021_lagging_site_order';
 import * as m0022 from './0022_summary_upkeep';
+import * as m0023 from './0023_flag_indexes';
 
 export type Migration = {
   name: string;
@@ -52,4 +53,5 @@ export const migrations: Migration[] = [
   { name: '0020_commissioning_checks', ...m0020 },
   { name: '0021_lagging_site_order', ...m0021 },
   { name: '0022_summary_upkeep', ...m0022 },
+  { name: '0023_flag_indexes', ...m0023 },
 ];
